@@ -1,0 +1,14 @@
+"""Named parameter sets in one place: solid materials of tanks and loop hardware.
+
+Values are room-temperature handbook values recalled from memory of Incropera, Fundamentals of
+Heat and Mass Transfer, Tables A.1 (metals) and A.3 (polymers); treat them as +-10 %.
+"""
+
+MATERIALS = {
+    # name: density kg/m^3, specific heat J/(kg K), thermal conductivity W/(m K)
+    "steel": {"density_kg_m3": 7850.0, "specific_heat_J_kgK": 470.0, "conductivity_W_mK": 50.0},
+    "stainless": {"density_kg_m3": 7900.0, "specific_heat_J_kgK": 477.0, "conductivity_W_mK": 15.0},
+    "aluminium": {"density_kg_m3": 2700.0, "specific_heat_J_kgK": 900.0, "conductivity_W_mK": 200.0},
+    "cast_iron": {"density_kg_m3": 7200.0, "specific_heat_J_kgK": 460.0, "conductivity_W_mK": 50.0},
+    "polyethylene": {"density_kg_m3": 950.0, "specific_heat_J_kgK": 1900.0, "conductivity_W_mK": 0.4},
+}

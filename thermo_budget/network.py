@@ -1,0 +1,300 @@
+"""The lumped thermal network of a rig: three nodes (reservoir oil, reservoir wall, loop hardware)
+and ambient air as the boundary.
+
+    C_i(T) dT_i/dt = sum_j G_ij(T, flow) (T_j - T_i) + G_i,amb (T_amb - T_i) + Q_i
+
+Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
+a temperature state has shape (N, 3) in K with columns OIL, WALL, HARDWARE.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from .air import air_properties
+from .correlations import (Nu_combined_Churchill, Nu_flat_plate_forced_Incropera,
+                           Nu_horizontal_cylinder_Churchill_Chu, Nu_horizontal_plate_hot_down_McAdams,
+                           Nu_horizontal_plate_hot_up_McAdams, Nu_tube_Hausen_Gnielinski,
+                           Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
+                           h_radiation_grey, rayleigh)
+from .oil import Oil
+
+OIL, WALL, HARDWARE = 0, 1, 2
+NODE_NAMES = ("oil", "wall", "hardware")
+
+# Rubber hose wall (common practice, no source; recalled from memory: 0.2-0.3 W/(m K)).
+HOSE_WALL_CONDUCTIVITY_W_mK = 0.25
+
+
+@dataclass(frozen=True)
+class Rig:
+    """A rig in SI units. Array-valued fields describe N designs at once (shape (N,))."""
+    oil: Oil
+    oil_mass_kg: np.ndarray
+    # reservoir outer faces (m^2) and their characteristic lengths (m)
+    side_area_m2: np.ndarray
+    side_height_m: np.ndarray
+    top_area_m2: np.ndarray
+    top_length_m: np.ndarray          # A/P of the top face
+    bottom_area_m2: np.ndarray        # 0 when the tank stands on the floor (adiabatic bottom)
+    plate_length_m: np.ndarray        # length along a forced air stream
+    wetted_area_m2: np.ndarray
+    fill_height_m: np.ndarray
+    tank_cross_section_m2: np.ndarray
+    wall_thickness_m: float
+    wall_conductivity_W_mK: float
+    wall_capacity_J_K: np.ndarray
+    wall_emissivity: float
+    # loop hardware: pump, valve, fittings and hoses
+    hardware_capacity_J_K: float
+    hose_length_m: float
+    hose_outer_diameter_m: float
+    hose_inner_diameter_m: float
+    body_area_m2: float               # pump, valve and fittings, outside
+    body_length_m: float
+    hardware_emissivity: float
+    # pump
+    displacement_m3: float
+    volumetric_efficiency: float
+    # surroundings and multipliers
+    ambient_K: float
+    air_speed_m_s: float = 0.0
+    convection_multiplier: float = 1.0
+    capacity_multiplier: float = 1.0
+    # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
+    cooler_W_K: np.ndarray = 0.0
+    cooler_fan: str = "with_flow"
+
+    def with_changes(self, **changes) -> "Rig":
+        return replace(self, **changes)
+
+
+@dataclass(frozen=True)
+class Inputs:
+    """Inputs held constant over one sub-step. Arrays of shape (N,) or floats.
+
+    power_W : heat absorbed by the pump and valve, all into the oil.
+    volume_flow_m3_s : pump delivery (0 with the engine off).
+    """
+    power_W: np.ndarray
+    volume_flow_m3_s: np.ndarray
+
+    @property
+    def flowing(self):
+        return np.asarray(self.volume_flow_m3_s) > 0.0
+
+
+def heat_capacities_J_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
+    """Node heat capacities (N, 3), J/K; the oil's follows Cragoe's c_p(T)."""
+    oil = rig.oil_mass_kg * rig.oil.specific_heat(T_K[:, OIL])
+    wall = np.broadcast_to(rig.wall_capacity_J_K, oil.shape)
+    hardware = np.broadcast_to(rig.hardware_capacity_J_K, oil.shape)
+    return rig.capacity_multiplier * np.stack([oil, wall, hardware], axis=-1)
+
+
+def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
+    """Sensible enthalpy of each node (N, 3), J, relative to 0 degC; its change is the heat stored."""
+    oil = rig.oil_mass_kg * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
+    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
+    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
+    return rig.capacity_multiplier * np.stack([oil, np.broadcast_to(wall, oil.shape),
+                                               np.broadcast_to(hardware, oil.shape)], axis=-1)
+
+
+def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
+    """Inverse of node_enthalpy_J."""
+    H = H_J / rig.capacity_multiplier
+    oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / rig.oil_mass_kg)
+    wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
+    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
+    return np.stack([oil, wall, hardware], axis=-1)
+
+
+def _h_air_natural(kind: str, length_m, T_surface_K, T_ambient_K):
+    """Natural-convection coefficient to air, W/(m^2 K), for one kind of surface."""
+    k, nu, pr, beta = air_properties(0.5 * (T_surface_K + T_ambient_K))
+    dT = T_surface_K - T_ambient_K
+    Ra = rayleigh(beta, dT, length_m, nu, pr)
+    if kind == "vertical":
+        Nu = Nu_vertical_plate_Churchill_Chu(Ra, pr)
+    elif kind == "cylinder":
+        Nu = Nu_horizontal_cylinder_Churchill_Chu(Ra, pr)
+    elif kind == "top":      # hot face up when the surface is hotter than the air
+        Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_up_McAdams(Ra), Nu_horizontal_plate_hot_down_McAdams(Ra))
+    else:                    # "bottom": hot face down
+        Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_down_McAdams(Ra), Nu_horizontal_plate_hot_up_McAdams(Ra))
+    return Nu * k / length_m, k, nu, pr
+
+
+def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None):
+    """Convective coefficient to ambient air, W/(m^2 K): natural, or natural combined with a forced
+    stream (Churchill 1977, Nu^3 = Nu_F^3 + Nu_N^3) when air_speed_m_s > 0."""
+    h_natural, k, nu, pr = _h_air_natural(kind, length_m, T_surface_K, T_ambient_K)
+    if not np.any(np.asarray(air_speed_m_s) > 0):
+        return h_natural
+    L_forced = length_m if plate_length_m is None else plate_length_m
+    Nu_F = Nu_flat_plate_forced_Incropera(air_speed_m_s * L_forced / nu, pr)
+    return Nu_combined_Churchill(Nu_F * k / L_forced, h_natural)
+
+
+def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+    """Oil-side coefficient on the wetted reservoir wall, W/(m^2 K).
+
+    Still oil: natural convection, Churchill-Chu on a vertical wall of the fill height, oil properties
+    at the film temperature, beta the oil's expansion coefficient. Circulating oil: combined
+    (Churchill 1977) with forced flow along the wall at the through-flow velocity Q / A_cross, a
+    deliberately low estimate of the stirring by the return jet. The same coefficient is used on
+    the wetted bottom.
+    """
+    oil = rig.oil
+    T_film = 0.5 * (T_oil_K + T_wall_K)
+    nu = oil.kinematic_viscosity_m2_s(T_film)
+    k = oil.conductivity(T_film)
+    pr = oil.prandtl(T_film)
+    Ra = rayleigh(oil.expansion_per_K, T_oil_K - T_wall_K, rig.fill_height_m, nu, pr)
+    Nu_N = Nu_vertical_plate_Churchill_Chu(Ra, pr)
+    velocity = volume_flow_m3_s / rig.tank_cross_section_m2
+    Nu_F = Nu_flat_plate_forced_Incropera(velocity * rig.fill_height_m / nu, pr)
+    return Nu_combined_Churchill(Nu_F, Nu_N) * k / rig.fill_height_m
+
+
+def _series(area_m2, h_W_m2K, resistance_m2K_W):
+    """Conductance (W/K) of a coefficient h in series with a conduction resistance R''."""
+    return area_m2 * h_W_m2K / (1.0 + h_W_m2K * resistance_m2K_W)
+
+
+def wall_to_ambient_W_K(rig: Rig, T_wall_K):
+    """Conductance reservoir wall -> air, W/K: convection (times the multiplier) plus radiation on
+    every outer face, each in series with half the wall thickness."""
+    T_a = rig.ambient_K
+    m = rig.convection_multiplier
+    h_rad = h_radiation_grey(rig.wall_emissivity, T_wall_K, T_a)
+    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    faces = (("vertical", rig.side_area_m2, rig.side_height_m),
+             ("top", rig.top_area_m2, rig.top_length_m),
+             ("bottom", rig.bottom_area_m2, rig.top_length_m))
+    total = 0.0
+    for kind, area, length in faces:
+        h_conv = h_air_W_m2K(kind, length, T_wall_K, T_a, rig.air_speed_m_s, rig.plate_length_m)
+        total = total + _series(area, m * h_conv + h_rad, half_wall)
+    return total
+
+
+def hardware_to_ambient_W_K(rig: Rig, T_hardware_K):
+    """Conductance loop hardware -> air, W/K: hoses as horizontal cylinders, pump and valve body as
+    vertical plates of the equivalent cube's side, plus radiation."""
+    T_a = rig.ambient_K
+    m = rig.convection_multiplier
+    h_rad = h_radiation_grey(rig.hardware_emissivity, T_hardware_K, T_a)
+    hose_area = np.pi * rig.hose_outer_diameter_m * rig.hose_length_m
+    h_hose = h_air_W_m2K("cylinder", rig.hose_outer_diameter_m, T_hardware_K, T_a, rig.air_speed_m_s,
+                         rig.hose_outer_diameter_m)
+    h_body = h_air_W_m2K("vertical", rig.body_length_m, T_hardware_K, T_a, rig.air_speed_m_s,
+                         rig.body_length_m)
+    return hose_area * (m * h_hose + h_rad) + rig.body_area_m2 * (m * h_body + h_rad)
+
+
+def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+    """Conductance oil -> wall node, W/K: oil-side coefficient over the wetted area in series with
+    half the wall thickness."""
+    h_oil = h_oil_side_W_m2K(rig, T_oil_K, T_wall_K, volume_flow_m3_s)
+    return _series(rig.wetted_area_m2, h_oil, 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK)
+
+
+def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK):
+    """Conductance loop oil -> hardware, W/K.
+
+    Flowing: the hose is a heat exchanger with one side (the hardware) at uniform temperature, so
+    G = eps m_dot c_p with eps = 1 - exp(-NTU), NTU = UA / (m_dot c_p) (Incropera eq. 8.45b); UA is
+    the tube-side coefficient (Hausen / Gnielinski) over the bore in series with the hose wall.
+    Still (engine off): conduction along the oil column of half the hose length, nearly nothing.
+    """
+    oil = rig.oil
+    D_i, L = rig.hose_inner_diameter_m, rig.hose_length_m
+    k_oil = oil.conductivity(T_oil_K)
+    still = k_oil * (0.25 * np.pi * D_i**2) / (0.5 * L)
+    flowing = np.asarray(volume_flow_m3_s) > 0
+    if not np.any(flowing):
+        return still
+    velocity = volume_flow_m3_s / (0.25 * np.pi * D_i**2)
+    nu = oil.kinematic_viscosity_m2_s(T_oil_K)
+    Nu = Nu_tube_Hausen_Gnielinski(velocity * D_i / nu, oil.prandtl(T_oil_K), D_i, L)
+    h_i = Nu * k_oil / D_i
+    UA = 1.0 / (1.0 / (h_i * np.pi * D_i * L) + 1.0 / cylinder_wall_conductance_W_K(
+        D_i, rig.hose_outer_diameter_m, L, HOSE_WALL_CONDUCTIVITY_W_mK))
+    capacity_rate = np.maximum(mass_flow_kg_s * cp_J_kgK, 1e-30)
+    G = capacity_rate * -np.expm1(-UA / capacity_rate)
+    return np.where(flowing, G, still)
+
+
+def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
+    """The linear system frozen at state T_K: C dT/dt = -L T + b.
+
+    Returns (C (N,3) J/K, L (N,3,3) W/K, b (N,3) W, g_amb (N,3) W/K, loss_offset_W (N,)).
+    g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
+    that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
+    lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
+    """
+    n = T_K.shape[0]
+    T_oil, T_wall, T_hw = T_K[:, OIL], T_K[:, WALL], T_K[:, HARDWARE]
+    T_a = rig.ambient_K
+    Q = np.broadcast_to(np.asarray(inputs.volume_flow_m3_s, dtype=float), (n,))
+    P = np.broadcast_to(np.asarray(inputs.power_W, dtype=float), (n,))
+    flowing = Q > 0
+    cp = rig.oil.specific_heat(T_oil)
+    mass_flow = rig.oil.density_kg_m3(T_oil) * Q
+    return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
+
+    G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
+    G_oh = oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp)
+    G_wa = wall_to_ambient_W_K(rig, T_wall)
+    G_ha = hardware_to_ambient_W_K(rig, T_hw)
+    G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
+
+    L = np.zeros((n, 3, 3))
+    L[:, OIL, OIL] = G_ow + G_oh + G_cool
+    L[:, WALL, WALL] = G_ow + G_wa
+    L[:, HARDWARE, HARDWARE] = G_oh + G_ha
+    L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
+    L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_oh
+    g_amb = np.stack(np.broadcast_arrays(G_cool, G_wa, G_ha), axis=-1)
+    # The loop hardware sees the mean loop oil temperature, bulk + half the return-line rise;
+    # the cooler sees the return line, bulk + the full rise.
+    b = g_amb * T_a
+    b[:, OIL] += P - G_cool * return_rise - 0.5 * G_oh * return_rise
+    b[:, HARDWARE] += 0.5 * G_oh * return_rise
+    C = heat_capacities_J_K(rig, T_K)
+    return C, L, b, g_amb, G_cool * return_rise
+
+
+def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
+    """Effective cooler conductance, W/K per K of ETD (return-line oil minus ambient air).
+
+    The rating is taken as constant with flow (no flow correction is applied), but it is capped at
+    the oil stream's capacity rate m_dot c_p: a cooler cannot bring the oil below the air. With
+    fan = "always" the cooler has its own circulation and works with the engine off too, at the
+    rated value.
+    """
+    K = np.asarray(rig.cooler_W_K, dtype=float)
+    if not np.any(K > 0):
+        return np.zeros_like(np.asarray(capacity_rate_W_K, dtype=float))
+    running = np.where(flowing, np.minimum(K, capacity_rate_W_K), 0.0)
+    if rig.cooler_fan == "always":
+        running = np.where(flowing, running, K)
+    return running
+
+
+def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
+    """Return-line oil temperature minus bulk: P / (m_dot c_p), K; 0 with no flow."""
+    Q = np.asarray(inputs.volume_flow_m3_s, dtype=float)
+    capacity_rate = rig.oil.density_kg_m3(T_oil_K) * Q * rig.oil.specific_heat(T_oil_K)
+    return np.where(Q > 0, inputs.power_W / np.maximum(capacity_rate, 1e-30), 0.0)
+
+
+def passive_rejection_W(rig: Rig, T_K: float):
+    """Steady heat loss to ambient with the whole rig at T_K, engine off, no cooler, W."""
+    T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))
+    dT = T_wall - rig.ambient_K
+    return (wall_to_ambient_W_K(rig, T_wall) + hardware_to_ambient_W_K(rig, T_wall)) * dT
+

@@ -1,0 +1,185 @@
+"""Mineral hydraulic oil: viscosity, specific heat, conductivity, density, all vectorised.
+
+Temperatures are in K, kinematic viscosities in cSt (mm^2/s) unless a name says otherwise.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from chemicals.viscosity import VI_Hs, VI_Ls, VI_nus
+from scipy.optimize import brentq
+
+from .errors import ScenarioError
+
+T40_K = 313.15
+T100_K = 373.15
+T15_K = 288.15
+T60F_K = 288.7056  # 60 degF, the reference of Cragoe's specific gravity
+WATER_DENSITY_60F_kg_m3 = 999.01  # water at 60 degF (recalled from memory of steam tables)
+
+# ISO 3448 viscosity grades: the number is the mid-point kinematic viscosity at 40 degC in cSt.
+ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500, 2200, 3200)
+
+# Oil volume grows about 0.065-0.07 % per K (common practice, no source).
+DEFAULT_EXPANSION_PER_K = 7.0e-4
+
+BTU_IN_PER_HR_FT2_F_IN_W_MK = 0.1442279  # 1 Btu·in/(h·ft²·°F) in W/(m·K)
+BTU_PER_LB_F_IN_J_KGK = 4186.8
+
+
+def iso_vg_nu40_cSt(grade: float) -> float:
+    """ISO 3448: kinematic viscosity at 40 degC (cSt) of an ISO VG grade, the grade's mid-point."""
+    if grade not in ISO_VG_GRADES:
+        raise ScenarioError("fluid.iso_vg", grade, f"one of the ISO 3448 grades {list(ISO_VG_GRADES)}")
+    return float(grade)
+
+
+def walther_coefficients(T1_K: float, nu1_cSt: float, T2_K: float, nu2_cSt: float) -> tuple[float, float]:
+    """ASTM D341 (Walther): A and B of log10 log10(nu + 0.7) = A - B log10(T), through two points.
+
+    Valid for nu >= 2 cSt, where the standard's simple form Z = nu + 0.7 holds.
+    """
+    z1 = np.log10(np.log10(nu1_cSt + 0.7))
+    z2 = np.log10(np.log10(nu2_cSt + 0.7))
+    B = (z1 - z2) / (np.log10(T2_K) - np.log10(T1_K))
+    A = z1 + B * np.log10(T1_K)
+    return float(A), float(B)
+
+
+def walther_viscosity_cSt(T_K, A: float, B: float):
+    """ASTM D341: kinematic viscosity (cSt) at temperature T_K (K)."""
+    return 10.0 ** (10.0 ** (A - B * np.log10(T_K))) - 0.7
+
+
+def walther_temperature_K(nu_cSt: float, A: float, B: float) -> float:
+    """ASTM D341 inverted: the temperature (K) at which the viscosity is nu_cSt."""
+    return float(10.0 ** ((A - np.log10(np.log10(nu_cSt + 0.7))) / B))
+
+
+def d2270_L_H(nu100_cSt: float) -> tuple[float, float]:
+    """ASTM D2270: L and H (cSt at 40 degC of the VI 0 and VI 100 reference oils) for a nu100.
+
+    Below 70 cSt, linear interpolation in the standard's Table 1 (the tabulation shipped with the
+    ``chemicals`` package); above, the standard's equations L = 0.8353 Y^2 + 14.67 Y - 216 and
+    H = 0.1684 Y^2 + 11.85 Y - 97.
+    """
+    if nu100_cSt < 2.0:
+        raise ScenarioError("fluid.viscosity_100C", nu100_cSt, "at least 2 cSt (ASTM D2270 range)")
+    if nu100_cSt <= 70.0:
+        return float(np.interp(nu100_cSt, VI_nus, VI_Ls)), float(np.interp(nu100_cSt, VI_nus, VI_Hs))
+    Y = nu100_cSt
+    return 0.8353 * Y**2 + 14.67 * Y - 216.0, 0.1684 * Y**2 + 11.85 * Y - 97.0
+
+
+def viscosity_index_d2270(nu40_cSt: float, nu100_cSt: float) -> float:
+    """ASTM D2270 viscosity index (unrounded) from nu40 and nu100 in cSt."""
+    L, H = d2270_L_H(nu100_cSt)
+    if nu40_cSt >= H:  # VI up to 100
+        return (L - nu40_cSt) / (L - H) * 100.0
+    N = (np.log10(H) - np.log10(nu40_cSt)) / np.log10(nu100_cSt)
+    return (10.0**N - 1.0) / 0.00715 + 100.0
+
+
+def nu100_from_viscosity_index_cSt(nu40_cSt: float, viscosity_index: float) -> float:
+    """ASTM D2270 inverted: the nu100 (cSt) that gives this VI for this nu40 (root of the VI equation)."""
+    def gap(nu100):
+        return viscosity_index_d2270(nu40_cSt, nu100) - viscosity_index
+    low, high = 2.0, min(nu40_cSt, 500.0)
+    if gap(low) * gap(high) > 0:
+        raise ScenarioError("fluid.viscosity_index", viscosity_index,
+                            f"a viscosity index reachable with nu40 = {nu40_cSt:g} cSt and nu100 >= 2 cSt")
+    return float(brentq(gap, low, high, xtol=1e-10))
+
+
+def cragoe_specific_heat_J_kgK(T_K, specific_gravity_60F: float):
+    """Cragoe (NBS Misc. Publ. 97, 1929): c = (0.388 + 0.00045 t) / sqrt(s) Btu/(lb·°F), t in °F.
+
+    Valid for petroleum oils, 0-400 °F, s = 0.75-0.96. Returns J/(kg K).
+    """
+    t_F = (T_K - 273.15) * 1.8 + 32.0
+    return (0.388 + 0.00045 * t_F) / np.sqrt(specific_gravity_60F) * BTU_PER_LB_F_IN_J_KGK
+
+
+def cragoe_conductivity_W_mK(T_K, specific_gravity_60F: float):
+    """Cragoe (NBS Misc. Publ. 97, 1929): k = (0.813 / s)(1 - 0.0003 (t - 32)) Btu·in/(h·ft²·°F).
+
+    t in °F, s the specific gravity at 60 °F. Valid for petroleum oils, 32-400 °F. Returns W/(m K).
+    """
+    t_F = (T_K - 273.15) * 1.8 + 32.0
+    return 0.813 / specific_gravity_60F * (1.0 - 0.0003 * (t_F - 32.0)) * BTU_IN_PER_HR_FT2_F_IN_W_MK
+
+
+@dataclass(frozen=True)
+class Oil:
+    """A mineral oil. Viscosity by Walther through (40 degC, nu40) and (100 degC, nu100).
+
+    density_15C_kg_m3 : density at 15 degC; expansion_per_K : volumetric expansion coefficient.
+    specific_heat_J_kgK / conductivity_W_mK : None for Cragoe, or a constant that overrides it.
+    """
+    nu40_cSt: float
+    nu100_cSt: float
+    density_15C_kg_m3: float
+    expansion_per_K: float = DEFAULT_EXPANSION_PER_K
+    specific_heat_J_kgK: float | None = None
+    conductivity_W_mK: float | None = None
+
+    @property
+    def walther_AB(self) -> tuple[float, float]:
+        return walther_coefficients(T40_K, self.nu40_cSt, T100_K, self.nu100_cSt)
+
+    @property
+    def viscosity_index(self) -> float:
+        return viscosity_index_d2270(self.nu40_cSt, self.nu100_cSt)
+
+    @property
+    def specific_gravity_60F(self) -> float:
+        return float(self.density_kg_m3(T60F_K)) / WATER_DENSITY_60F_kg_m3
+
+    def kinematic_viscosity_cSt(self, T_K):
+        A, B = self.walther_AB
+        return walther_viscosity_cSt(T_K, A, B)
+
+    def kinematic_viscosity_m2_s(self, T_K):
+        return self.kinematic_viscosity_cSt(T_K) * 1e-6
+
+    def temperature_at_viscosity_K(self, nu_cSt: float) -> float:
+        A, B = self.walther_AB
+        return walther_temperature_K(nu_cSt, A, B)
+
+    def density_kg_m3(self, T_K):
+        return self.density_15C_kg_m3 / (1.0 + self.expansion_per_K * (T_K - T15_K))
+
+    def specific_heat_coefficients(self) -> tuple[float, float]:
+        """(a, b) of c_p = a + b (T - 273.15 K), J/(kg K) and J/(kg K^2); Cragoe is linear in t."""
+        if self.specific_heat_J_kgK is not None:
+            return float(self.specific_heat_J_kgK), 0.0
+        c0 = float(cragoe_specific_heat_J_kgK(273.15, self.specific_gravity_60F))
+        c1 = float(cragoe_specific_heat_J_kgK(274.15, self.specific_gravity_60F)) - c0
+        return c0, c1
+
+    def specific_heat(self, T_K):
+        a, b = self.specific_heat_coefficients()
+        return a + b * (np.asarray(T_K) - 273.15)
+
+    def specific_enthalpy_J_kg(self, T_K):
+        """Sensible enthalpy (J/kg) relative to 0 degC: the integral of c_p."""
+        a, b = self.specific_heat_coefficients()
+        t = np.asarray(T_K) - 273.15
+        return a * t + 0.5 * b * t * t
+
+    def temperature_from_enthalpy_K(self, h_J_kg):
+        """Inverse of specific_enthalpy_J_kg."""
+        a, b = self.specific_heat_coefficients()
+        if b == 0.0:
+            return np.asarray(h_J_kg) / a + 273.15
+        return (-a + np.sqrt(a * a + 2.0 * b * np.asarray(h_J_kg))) / b + 273.15
+
+    def conductivity(self, T_K):
+        if self.conductivity_W_mK is not None:
+            return np.full_like(np.asarray(T_K, dtype=float), self.conductivity_W_mK)
+        return cragoe_conductivity_W_mK(T_K, self.specific_gravity_60F)
+
+    def prandtl(self, T_K):
+        rho = self.density_kg_m3(T_K)
+        return self.kinematic_viscosity_m2_s(T_K) * rho * self.specific_heat(T_K) / self.conductivity(T_K)

@@ -1,0 +1,332 @@
+"""The planning answers: pulls before the limit, sustainability, minimum wait, cooler and reservoir
+sizes, and the ready-to-pull schedule. Every search runs its candidates as one vectorised batch."""
+from __future__ import annotations
+
+from dataclasses import fields
+
+import numpy as np
+
+from .network import OIL, Rig, heat_capacities_J_K, passive_rejection_W
+from .outcome import peak_oil_K, pulls_completed_under
+from .scenario import Scenario, build_rig, limit_K
+from .session import PLAN_RESOLUTION, Step
+from .solver import integrate
+
+MAX_PULLS = 20000          # runs-before-limit search gives up beyond this many pulls
+NEWTON_TOL_K = 1e-6
+GRID_POINTS = 24           # candidates per round of a batched search
+GRID_ROUNDS = 3
+
+
+def take_designs(rig: Rig, index) -> Rig:
+    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared."""
+    changes = {}
+    for field in fields(rig):
+        value = getattr(rig, field.name)
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size > 1:
+            changes[field.name] = value[index]
+    return rig.with_changes(**changes)
+
+
+def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
+    """Per-step durations of the session with every wait replaced by wait_s ((N,) or float)."""
+    per_cycle = [wait_s if not step.is_pull else step.duration_s for step in cycle]
+    return per_cycle * repeat
+
+
+def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None):
+    """Integrate the planned session for n designs. Returns (peak oil K (N,), pulls under limit (N,))."""
+    steps = scenario.steps
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
+    trace = integrate(rig, steps, scenario.start_K if start_K is None else start_K, n_designs=n,
+                      durations_s=durations, resolution=PLAN_RESOLUTION)
+    limit, _ = limit_K(scenario)
+    return peak_oil_K(trace), pulls_completed_under(trace, limit)
+
+
+def _cycle_end(scenario, rig, X, wait_s=None):
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), 1, wait_s)
+    trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=durations,
+                      resolution=PLAN_RESOLUTION)
+    return trace.final_K, peak_oil_K(trace)
+
+
+def _has_loss_path(rig: Rig) -> np.ndarray:
+    cooler = np.asarray(rig.cooler_W_K) > 0
+    passive = (rig.convection_multiplier > 0) or (rig.wall_emissivity > 0) or (rig.hardware_emissivity > 0)
+    return np.asarray(cooler | passive)
+
+
+def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
+    """The cycle's periodic steady state, by Newton iteration on the one-cycle map (finite-difference
+    Jacobian, all designs and perturbations in one batch).
+
+    Returns (state at cycle start (N,3) K, peak oil over the periodic cycle (N,) K, converged (N,)).
+    """
+    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, 3)), dtype=float)
+    delta = 0.01
+    index4 = np.repeat(np.arange(n), 4)
+    rig4 = take_designs(rig, index4)
+    wait4 = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), 4)
+    eye = np.eye(3)
+    converged = np.zeros(n, bool)
+    for _ in range(12):
+        X4 = np.repeat(X, 4, axis=0)
+        X4[1::4] += delta * eye[0]
+        X4[2::4] += delta * eye[1]
+        X4[3::4] += delta * eye[2]
+        F4, _ = _cycle_end(scenario, rig4, X4, wait4)
+        F = F4[0::4]
+        J = np.stack([(F4[i + 1::4] - F) / delta for i in range(3)], axis=-1)
+        residual = F - X
+        converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
+        if converged.all():
+            break
+        step = np.linalg.solve(J - eye + 1e-12 * eye, -residual[..., None])[..., 0]
+        X = np.clip(X + step, 150.0, 1500.0)
+    _, peak = _cycle_end(scenario, rig, X, wait_s)
+    ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
+    return X, peak, ok
+
+
+def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None):
+    """(sustainable (N,) bool, periodic peak (N,) K). Sustainable: the periodic state exists and its
+    peak stays at or below the limit, and the planned session itself stays below it too."""
+    limit, _ = limit_K(scenario)
+    _, peak, ok = periodic_state(scenario, rig, n, wait_s)
+    session_peak, _ = session_outcome(scenario, rig, n, wait_s)
+    return ok & (peak <= limit) & (session_peak <= limit), peak
+
+
+def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS):
+    """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
+    Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls."""
+    limit, _ = limit_K(scenario)
+    pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
+    runs = np.full(n, np.nan)
+    active = np.flatnonzero(~sustainable)
+    X = np.array(np.broadcast_to(scenario.start_K, (n, 3)), dtype=float)
+    done_pulls = np.zeros(n)
+    cycles = max(scenario.repeat, 1)
+    while active.size and done_pulls[active].min() < max_pulls:
+        sub = take_designs(rig, active)
+        trace = integrate(sub, list(scenario.cycle) * cycles, X[active], n_designs=active.size,
+                          resolution=PLAN_RESOLUTION)
+        under = pulls_completed_under(trace, limit)
+        total_pulls = cycles * pulls_per_cycle
+        crossed = under < total_pulls
+        runs[active[crossed]] = done_pulls[active[crossed]] + under[crossed]
+        X[active] = trace.final_K
+        done_pulls[active] += total_pulls
+        active = active[~crossed]
+        cycles *= 2
+    return runs
+
+
+def batched_threshold(passes, low: float, high: float, geometric: bool = False) -> float:
+    """Smallest x in [low, high] for which passes(x_array) is True, assuming it is monotone (False
+    then True). Each round evaluates GRID_POINTS candidates at once and narrows the bracket.
+    Returns the upper end of the final bracket (a value that passes)."""
+    for _ in range(GRID_ROUNDS):
+        grid = np.geomspace(low, high, GRID_POINTS) if geometric else np.linspace(low, high, GRID_POINTS)
+        ok = passes(grid)
+        first = int(np.argmax(ok))
+        if not ok[first]:
+            return float("nan")
+        if first == 0:
+            return float(grid[0])
+        low, high = float(grid[first - 1]), float(grid[first])
+    return high
+
+
+def time_constant_s(scenario: Scenario) -> float:
+    """Whole-rig cooling time constant with the engine off, no cooler, at the limit: C / UA, s."""
+    rig = build_rig(scenario)
+    limit, _ = limit_K(scenario)
+    C = float(np.sum(heat_capacities_J_K(rig, np.full((1, 3), limit))))
+    UA = float(passive_rejection_W(rig, limit)[0]) / (limit - scenario.ambient_K)
+    return C / UA if UA > 0 else float("inf")
+
+
+def _waits_of(scenario: Scenario) -> list[float]:
+    return [step.duration_s for step in scenario.cycle if not step.is_pull]
+
+
+def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
+    """Shortest uniform wait (every wait step) that lets the planned session finish under the limit,
+    with no cooler. None where no wait can do it."""
+    if not _waits_of(scenario):
+        notes.append("The cycle has no wait step, so there is no wait to lengthen.")
+        return None
+    limit, _ = limit_K(scenario)
+    rig = build_rig(scenario, cooler_W_K=0.0)
+
+    def passes(waits):
+        peak, _ = session_outcome(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size, wait_s=waits)
+        return peak <= limit
+
+    tau = time_constant_s(scenario)
+    longest = 20.0 * tau if np.isfinite(tau) else 1e7
+    if passes(np.array([0.0]))[0]:
+        notes.append("No wait is needed: even back-to-back pulls stay under the limit.")
+        return 0.0
+    if not passes(np.array([longest]))[0]:
+        notes.append("No wait is long enough without a cooler: the pulls of one cycle already cross the "
+                     "limit from a cooled-down start. Shorten the pulls, add oil or fit a cooler.")
+        return None
+    return round(batched_threshold(passes, 1.0, longest, geometric=True), 2)
+
+
+def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> float | None:
+    """Smallest cooler specific dissipation (W/K) for the planned session (or, sustained=True, for
+    the cadence to be sustainable). 0 when none is needed; None when no rating can do it."""
+    limit, _ = limit_K(scenario)
+    base = build_rig(scenario)
+
+    def passes(coolers):
+        rig = build_rig(scenario, cooler_W_K=coolers)
+        if sustained:
+            ok, _ = sustainability(scenario, rig, coolers.size)
+            return ok
+        peak, _ = session_outcome(scenario, rig, coolers.size)
+        return peak <= limit
+
+    del base
+    if passes(np.array([0.0]))[0]:
+        return 0.0
+    peak_power = max(step.peak_power_W() for step in scenario.cycle)
+    largest = 20.0 * peak_power / (limit - scenario.ambient_K)
+    if not passes(np.array([largest]))[0]:
+        what = "sustain the cadence" if sustained else "finish the planned session"
+        notes.append(f"No cooler up to {largest:.0f} W/K can {what}: with the oil flow of this pump the cooler "
+                     "cannot take the heat out fast enough during a pull (its duty is capped at the oil's "
+                     "capacity rate m_dot c_p). Shorten the pulls or add oil.")
+        return None
+    return round(batched_threshold(passes, 0.0, largest), 3)
+
+
+def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
+    """Smallest oil volume (L at 15 degC) that completes the planned session with no cooler; the tank
+    is scaled geometrically (same proportions and fill fraction)."""
+    limit, _ = limit_K(scenario)
+    V0 = scenario.reservoir.oil_volume_m3
+
+    def passes(volumes):
+        peak, _ = session_outcome(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
+        return peak <= limit
+
+    low, high = 0.02 * V0, 200.0 * V0
+    if not passes(np.array([high]))[0]:
+        notes.append(f"Even {high * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
+        return None
+    if passes(np.array([low]))[0]:
+        return round(low * 1000.0, 4)
+    return round(batched_threshold(passes, low, high, geometric=True) * 1000.0, 4)
+
+
+def _pull_and_wait_blocks(scenario: Scenario):
+    """The planned session cut into blocks: (waits before the pull, the pull), in order."""
+    blocks, waits = [], []
+    for step in scenario.steps:
+        if step.is_pull:
+            blocks.append((waits, step))
+            waits = []
+        else:
+            waits.append(step)
+    return blocks
+
+
+def _run_steps(rig, steps, X, waits_scale=None):
+    trace = integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
+    return trace
+
+
+def ready_schedule(scenario: Scenario, notes: list) -> list[dict]:
+    """Ready-to-pull schedule: each planned pull starts after its planned wait, lengthened where
+    needed so that the pull peaks at the limit at most (or, with session.ready_temperature, not
+    before the oil has cooled to it). Waits keep their engine state (off or idle)."""
+    limit, _ = limit_K(scenario)
+    rig = build_rig(scenario)
+    X = np.full((1, 3), scenario.start_K)
+    t = 0.0
+    rows = []
+    off = Step(kind="wait", duration_s=1.0, engine="off")
+    for index, (waits, pull) in enumerate(_pull_and_wait_blocks(scenario), start=1):
+        planned_wait = sum(step.duration_s for step in waits)
+        if waits:
+            trace = _run_steps(rig, waits, X)
+            X, t = trace.final_K, t + planned_wait
+        cool_step = waits[-1] if waits else off
+        extra = _extra_wait_s(scenario, rig, X, pull, cool_step, limit)
+        if extra is None:
+            notes.append(f"Pull {index} cannot stay under the limit even after a full cool-down; "
+                         "the schedule stops before it.")
+            break
+        if extra > 0:
+            X = _run_steps(rig, [cool_step.with_duration(extra)], X).final_K
+            t += extra
+        start_C = float(X[0, OIL]) - 273.15
+        trace = _run_steps(rig, [pull], X)
+        peak_C = float(peak_oil_K(trace)[0]) - 273.15
+        rows.append({"index": index, "start_s": round(t, 2), "start_C": round(start_C, 3), "peak_C": round(peak_C, 3),
+                     "wait_before_s": round(planned_wait + extra, 2), "planned_wait_s": round(planned_wait, 2),
+                     "extra_wait_s": round(extra, 2)})
+        X, t = trace.final_K, t + pull.duration_s
+    return rows
+
+
+def _extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) -> float | None:
+    """Extra cooling (s) before `pull` so that its peak stays at or below the limit, or, in the
+    ready-temperature mode, until the oil has cooled to the ready temperature. None if impossible."""
+    ready = scenario.ready_temperature_K
+
+    def passes(extras):
+        n = extras.size
+        trace = integrate(take_designs(rig, np.zeros(n, int)), [cool_step, pull], np.repeat(X, n, axis=0),
+                          n_designs=n, durations_s=[extras, pull.duration_s], resolution=PLAN_RESOLUTION)
+        pulled = peak_oil_K(trace) <= limit
+        if ready is not None:
+            after_wait = trace.T_K[trace.step_index == 0][-1][:, OIL]
+            pulled &= after_wait <= ready + 1e-9
+        return pulled
+
+    if passes(np.array([0.0]))[0]:
+        return 0.0
+    longest = 20.0 * time_constant_s(scenario)
+    if not np.isfinite(longest) or not passes(np.array([longest]))[0]:
+        return None
+    return batched_threshold(passes, 1.0, longest, geometric=True)
+
+
+def planning_answers(scenario: Scenario) -> dict:
+    """The planning keys of `run --json`."""
+    notes: list[str] = []
+    rig = build_rig(scenario)
+    limit, reason = limit_K(scenario)
+    sustainable, steady_peak = sustainability(scenario, rig, 1)
+    sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
+    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]))[0]
+    if sustainable:
+        notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
+                     f"{steady_peak - 273.15:.1f} degC, below the {limit - 273.15:.1f} degC limit.")
+    elif np.isnan(runs):
+        notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
+    peak, _ = session_outcome(scenario, build_rig(scenario, cooler_W_K=0.0), 1)
+    cooler_needed = bool(peak[0] > limit)
+    cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
+    if not cooler_needed:
+        notes.append("No cooler is needed for the planned session.")
+    cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
+    return {
+        "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
+        "sustainable": sustainable,
+        "steady_peak_C": round(steady_peak - 273.15, 3) if sustainable else None,
+        "min_wait_s": minimum_wait_s(scenario, notes),
+        "cooler_needed": cooler_needed,
+        "cooler_required_W_per_K": cooler,
+        "cooler_required_sustained_W_per_K": cooler_sustained,
+        "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
+        "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
+        "schedule": ready_schedule(scenario, notes),
+        "notes": notes,
+    }

@@ -1,0 +1,103 @@
+"""The answers for one scenario, as the dict that `run --json` prints."""
+from __future__ import annotations
+
+import numpy as np
+
+from .network import HARDWARE, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
+from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
+from .scenario import Scenario, build_rig, limit_K
+from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
+from .solver import Trace, integrate
+
+TRACE_RESOLUTION = Resolution(pull_substeps=6, curve_substeps=12, max_substep_s=20.0)
+
+
+def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
+    """Integrate the planned session of a scenario (one design)."""
+    return integrate(build_rig(scenario), scenario.steps, scenario.start_K, resolution=resolution)
+
+
+def _celsius(T_K) -> float:
+    return round(float(T_K) - 273.15, 3)
+
+
+def pump_operating_point(scenario: Scenario) -> dict:
+    """Flow and pressure of the pull with the highest absorbed power."""
+    pulls = [step for step in scenario.cycle if step.is_pull]
+    peak_step = max(pulls, key=lambda step: step.peak_power_W())
+    peak_power = peak_step.peak_power_W()
+    if peak_step.curve is not None:
+        speeds = np.linspace(peak_step.rpm_start, peak_step.rpm_end, 201)
+        rpm = float(speeds[np.argmax(peak_step.curve.power_at(speeds))])
+    else:
+        rpm = peak_step.rpm
+    flow = float(pump_flow_m3_s(scenario.displacement_m3, rpm, scenario.volumetric_efficiency))
+    return {"peak_pull_power_W": round(peak_power, 3), "rpm": rpm,
+            "flow_L_min": round(flow * 60000.0, 4), "pressure_bar": round(float(pump_pressure_Pa(peak_power, flow)) / 1e5, 3)}
+
+
+def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
+    """The thermal answers of the planned session (no sizing)."""
+    trace = simulate(scenario) if trace is None else trace
+    rig = build_rig(scenario)
+    limit, reason = limit_K(scenario)
+    crossing = float(first_crossing_s(trace, limit)[0])
+    energy_in = float(trace.energy_in_J[0])
+    lost, stored = float(trace.energy_lost_J[0]), float(trace.energy_stored_J[0])
+    capacities = heat_capacities_J_K(rig, np.full((1, 3), scenario.start_K))[0]
+    pump = pump_operating_point(scenario)
+    return {
+        "name": scenario.name,
+        "units": scenario.units,
+        "limit_C": _celsius(limit),
+        "limit_reason": reason,
+        "max_temperature_C": _celsius(scenario.max_temperature_K),
+        "min_viscosity_temperature_C": _celsius(scenario.oil.temperature_at_viscosity_K(scenario.min_viscosity_cSt)),
+        "ambient_C": _celsius(scenario.ambient_K),
+        "start_C": _celsius(trace.T_K[0, 0, OIL]),
+        "peak_C": _celsius(peak_oil_K(trace)[0]),
+        "end_C": _celsius(trace.T_K[-1, 0, OIL]),
+        "end_wall_C": _celsius(trace.T_K[-1, 0, WALL]),
+        "end_hardware_C": _celsius(trace.T_K[-1, 0, HARDWARE]),
+        "peak_return_C": _celsius(trace.return_K[:, 0].max()),
+        "pulls_planned": int(trace.pull_end_s.shape[0]),
+        "pulls_under_limit": int(pulls_completed_under(trace, limit)[0]),
+        "time_to_limit_s": None if np.isnan(crossing) else round(crossing, 2),
+        "session_duration_s": round(float(trace.time_s[-1, 0]), 2),
+        "energy_in_J": energy_in,
+        "energy_lost_J": lost,
+        "energy_stored_J": stored,
+        "energy_balance_rel_error": (energy_in - lost - stored) / energy_in,
+        "heat_capacity_J_per_K": {name: round(float(c), 2) for name, c in zip(NODE_NAMES, capacities)},
+        "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
+        "peak_pull_power_W": pump["peak_pull_power_W"],
+        "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
+        "oil": {"viscosity_40C_cSt": round(scenario.oil.nu40_cSt, 3), "viscosity_100C_cSt": round(scenario.oil.nu100_cSt, 3),
+                "viscosity_index": round(scenario.oil.viscosity_index, 1)},
+    }
+
+
+def report(scenario: Scenario) -> dict:
+    """Everything `run --json` prints: the session's thermal answers and the planning answers."""
+    from .planning import planning_answers
+    trace = simulate(scenario)
+    result = session_report(scenario, trace)
+    result.update(planning_answers(scenario))
+    return result
+
+
+def trace_rows(trace: Trace, design: int = 0):
+    """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W.
+    power_W is the mean absorbed power over the interval that ends at the row."""
+    T = trace.T_K[:, design, :] - 273.15
+    return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design]])
+
+
+TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W")
+
+
+def trace_csv(trace: Trace) -> str:
+    lines = [",".join(TRACE_COLUMNS)]
+    lines += [",".join(f"{v:.6g}" if i else f"{v:.3f}" for i, v in enumerate(row)) for row in trace_rows(trace)]
+    return "\n".join(lines) + "\n"

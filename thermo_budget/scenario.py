@@ -1,0 +1,447 @@
+"""Scenario files: TOML with quantities as unit strings, validated into SI dataclasses.
+
+Every key is known; an unknown key, a missing required key, a wrong unit or an impossible value
+raises ScenarioError naming the key path, the value and what was expected.
+"""
+from __future__ import annotations
+
+import copy
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import tomli_w
+
+from .errors import ScenarioError
+from .materials import MATERIALS
+from .network import Rig
+from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
+from .session import EngineCurve, Step
+from .units import parse_quantity
+
+MAX_FILE_BYTES = 1_000_000
+SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
+DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
+# Hose bore as a fraction of its outside diameter when not given (common practice, no source;
+# from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
+DEFAULT_HOSE_BORE_FRACTION = 0.66
+
+_MISSING = object()
+
+
+class _Table:
+    """Reads one TOML table, remembering which keys were used so leftovers are reported."""
+
+    def __init__(self, raw, path: str, required: bool = True):
+        if raw is _MISSING or raw is None:
+            if required:
+                raise ScenarioError(path, None, f"a [{path}] table")
+            raw = {}
+        if not isinstance(raw, dict):
+            raise ScenarioError(path, raw, "a table")
+        self.raw, self.path, self.used = raw, path, set()
+
+    def key(self, name: str) -> str:
+        return f"{self.path}.{name}" if self.path else name
+
+    def get(self, name, default=_MISSING):
+        self.used.add(name)
+        if name in self.raw:
+            return self.raw[name]
+        if default is _MISSING:
+            raise ScenarioError(self.key(name), None, "a value (the key is missing)")
+        return default
+
+    def quantity(self, name, kind, bare_unit, default=_MISSING, minimum=None, above=None):
+        value = self.get(name, default)
+        if value is None:
+            return None
+        si = parse_quantity(value, self.key(name), kind, bare_unit)
+        _check_range(self.key(name), value, si, minimum, above, bare_unit)
+        return si
+
+    def number(self, name, default=_MISSING, minimum=None, maximum=None, above=None, integer=False):
+        value = self.get(name, default)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or (integer and not isinstance(value, int)):
+            raise ScenarioError(self.key(name), value, "a whole number" if integer else "a number")
+        if not np.isfinite(value):
+            raise ScenarioError(self.key(name), value, "a finite number")
+        if minimum is not None and value < minimum:
+            raise ScenarioError(self.key(name), value, f"a number of at least {minimum:g}")
+        if maximum is not None and value > maximum:
+            raise ScenarioError(self.key(name), value, f"a number of at most {maximum:g}")
+        if above is not None and value <= above:
+            raise ScenarioError(self.key(name), value, f"a number greater than {above:g}")
+        return value
+
+    def choice(self, name, options, default=_MISSING):
+        value = self.get(name, default)
+        if value not in options:
+            raise ScenarioError(self.key(name), value, "one of " + ", ".join(f'"{o}"' for o in options))
+        return value
+
+    def finish(self):
+        unknown = [k for k in self.raw if k not in self.used]
+        if unknown:
+            raise ScenarioError(self.key(unknown[0]), self.raw[unknown[0]],
+                                "no such key here; known keys: " + ", ".join(sorted(self.used)))
+
+
+def _check_range(key, value, si, minimum, above, unit):
+    if above is not None and si <= above:
+        raise ScenarioError(key, value, f"a value greater than {above:g} (SI)" if above else
+                            ("a temperature above absolute zero" if "temperature" in key else "a positive value"))
+    if minimum is not None and si < minimum:
+        raise ScenarioError(key, value, "a value of zero or more" if minimum == 0 else f"at least {minimum:g} (SI)")
+
+
+@dataclass(frozen=True)
+class Reservoir:
+    oil_volume_m3: float
+    shape: str
+    length_m: float | None
+    width_m: float | None
+    diameter_m: float | None
+    height_m: float
+    wall_material: str
+    wall_thickness_m: float
+    emissivity: float
+    bottom: str
+
+    @property
+    def footprint_m2(self) -> float:
+        if self.shape == "box":
+            return self.length_m * self.width_m
+        return 0.25 * np.pi * self.diameter_m**2
+
+    @property
+    def inner_volume_m3(self) -> float:
+        return self.footprint_m2 * self.height_m
+
+
+@dataclass(frozen=True)
+class Hardware:
+    mass_kg: float
+    material: str
+    hose_length_m: float
+    hose_outer_diameter_m: float
+    hose_inner_diameter_m: float
+    emissivity: float
+    body_area_m2: float
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A validated scenario in SI units. `raw` is the document as read, for saving it again."""
+    raw: dict
+    units: str
+    name: str
+    ambient_K: float
+    reservoir: Reservoir
+    oil: Oil
+    max_temperature_K: float
+    min_viscosity_cSt: float
+    displacement_m3: float
+    volumetric_efficiency: float
+    hardware: Hardware
+    convection_multiplier: float
+    capacity_multiplier: float
+    air_speed_m_s: float
+    cooler_W_K: float
+    cooler_fan: str
+    start_K: float
+    repeat: int
+    cycle: tuple
+    ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
+
+    @property
+    def steps(self) -> list[Step]:
+        """The planned session: the cycle repeated."""
+        return [step for _ in range(self.repeat) for step in self.cycle]
+
+    @property
+    def oil_volume_L(self) -> float:
+        return self.reservoir.oil_volume_m3 * 1000.0
+
+    def to_toml(self) -> str:
+        return tomli_w.dumps(self.raw)
+
+    def changed(self, **paths) -> "Scenario":
+        """A new scenario with raw keys replaced, e.g. changed(**{"reservoir.oil_volume": "20 L"})."""
+        raw = copy.deepcopy(self.raw)
+        for path, value in paths.items():
+            table = raw
+            parts = path.split(".")
+            for part in parts[:-1]:
+                table = table.setdefault(part, {})
+            if value is None:
+                table.pop(parts[-1], None)
+            else:
+                table[parts[-1]] = value
+        return load_scenario(raw)
+
+
+def read_toml_text(text: str, source: str = "scenario") -> dict:
+    if len(text.encode("utf-8")) > MAX_FILE_BYTES:
+        raise ScenarioError(source, f"{len(text.encode('utf-8'))} bytes", f"a file of at most {MAX_FILE_BYTES} bytes")
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise ScenarioError(source, "malformed TOML", f"valid TOML ({error})") from None
+
+
+def load_scenario(path_or_dict) -> Scenario:
+    """Read and validate a scenario from a TOML path, TOML text is not accepted here, or a dict."""
+    if isinstance(path_or_dict, dict):
+        raw = copy.deepcopy(path_or_dict)
+    else:
+        path = Path(path_or_dict)
+        if not path.is_file():
+            raise ScenarioError("scenario", str(path), "an existing TOML file")
+        if path.stat().st_size > MAX_FILE_BYTES:
+            raise ScenarioError("scenario", f"{path.stat().st_size} bytes", f"a file of at most {MAX_FILE_BYTES} bytes")
+        raw = read_toml_text(path.read_text(encoding="utf-8"), str(path))
+    return _parse(raw)
+
+
+def _parse(raw: dict) -> Scenario:
+    top = _Table(raw, "")
+    units = top.choice("units", ("SI", "US"), "SI")
+    name = top.get("name", "")
+    top.get("description", "")
+    ambient = top.quantity("ambient", "temperature", "degC", above=0.0)
+
+    r = _Table(top.get("reservoir", _MISSING), "reservoir")
+    shape = r.choice("shape", ("box", "cylinder"))
+    length = r.quantity("length", "length", "m", above=0.0) if shape == "box" else None
+    width = r.quantity("width", "length", "m", above=0.0) if shape == "box" else None
+    diameter = r.quantity("diameter", "length", "m", above=0.0) if shape == "cylinder" else None
+    reservoir = Reservoir(
+        oil_volume_m3=r.quantity("oil_volume", "volume", "L", above=0.0), shape=shape,
+        length_m=length, width_m=width, diameter_m=diameter,
+        height_m=r.quantity("height", "length", "m", above=0.0),
+        wall_material=r.choice("wall_material", tuple(MATERIALS)),
+        wall_thickness_m=r.quantity("wall_thickness", "length", "mm", above=0.0),
+        emissivity=r.number("emissivity", minimum=0.0, maximum=1.0),
+        bottom=r.choice("bottom", ("open", "floor")))
+    r.finish()
+
+    f = _Table(top.get("fluid", _MISSING), "fluid")
+    nu40 = f.quantity("viscosity_40C", "kinematic_viscosity", "cSt", default=None, above=0.0)
+    grade = f.get("iso_vg", None)
+    if (nu40 is None) == (grade is None):
+        raise ScenarioError("fluid.iso_vg", grade, "either iso_vg or viscosity_40C, not both and not neither")
+    nu40_cSt = iso_vg_nu40_cSt(grade) if grade is not None else nu40 * 1e6
+    nu100 = f.quantity("viscosity_100C", "kinematic_viscosity", "cSt", default=None, above=0.0)
+    vi = f.number("viscosity_index", default=None, minimum=-100.0, maximum=400.0)
+    if (nu100 is None) == (vi is None):
+        raise ScenarioError("fluid.viscosity_index", vi, "either viscosity_index or viscosity_100C, not both and not neither")
+    if nu100 is not None:
+        nu100_cSt = nu100 * 1e6
+        if not 2.0 <= nu100_cSt < nu40_cSt:
+            raise ScenarioError("fluid.viscosity_100C", f.raw["viscosity_100C"], "at least 2 cSt and below the 40 degC viscosity")
+    else:
+        nu100_cSt = nu100_from_viscosity_index_cSt(nu40_cSt, vi)
+    oil = Oil(nu40_cSt=nu40_cSt, nu100_cSt=nu100_cSt,
+              density_15C_kg_m3=f.quantity("density_15C", "density", "kg/m^3", above=0.0),
+              expansion_per_K=f.quantity("expansion", "per_kelvin", "1/K", DEFAULT_EXPANSION_PER_K, minimum=0.0),
+              specific_heat_J_kgK=f.quantity("specific_heat", "specific_heat", "J/(kg*K)", None, above=0.0),
+              conductivity_W_mK=f.quantity("conductivity", "thermal_conductivity", "W/(m*K)", None, above=0.0))
+    if not 600.0 <= oil.density_15C_kg_m3 <= 1100.0:
+        raise ScenarioError("fluid.density_15C", f.raw["density_15C"], "a liquid density between 600 and 1100 kg/m^3")
+    max_T = f.quantity("max_temperature", "temperature", "degC", above=0.0)
+    min_nu = f.quantity("min_viscosity", "kinematic_viscosity", "cSt", above=0.0) * 1e6
+    if min_nu < 2.0:
+        raise ScenarioError("fluid.min_viscosity", f.raw["min_viscosity"], "at least 2 cSt (the range of ASTM D341's simple form)")
+    f.finish()
+
+    p = _Table(top.get("pump", _MISSING), "pump")
+    displacement = p.quantity("displacement", "volume", "cm^3", above=0.0)
+    eta_v = p.number("volumetric_efficiency", above=0.0, maximum=1.0)
+    p.finish()
+
+    h = _Table(top.get("hardware", _MISSING), "hardware")
+    mass = h.quantity("mass", "mass", "kg", above=0.0)
+    hw_material = h.choice("material", tuple(MATERIALS))
+    hose_od = h.quantity("hose_outer_diameter", "length", "mm", above=0.0)
+    hose_id = h.quantity("hose_inner_diameter", "length", "mm", DEFAULT_HOSE_BORE_FRACTION * hose_od * 1000.0, above=0.0)
+    if hose_id >= hose_od:
+        raise ScenarioError("hardware.hose_inner_diameter", h.raw.get("hose_inner_diameter"), "less than hose_outer_diameter")
+    side = (mass / MATERIALS[hw_material]["density_kg_m3"]) ** (1.0 / 3.0)
+    hardware = Hardware(mass_kg=mass, material=hw_material,
+                        hose_length_m=h.quantity("hose_length", "length", "m", minimum=0.0),
+                        hose_outer_diameter_m=hose_od, hose_inner_diameter_m=hose_id,
+                        emissivity=h.number("emissivity", minimum=0.0, maximum=1.0),
+                        body_area_m2=h.quantity("body_area", "area", "m^2", 6.0 * side * side, minimum=0.0))
+    if hardware.hose_length_m == 0.0:
+        raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
+    h.finish()
+
+    losses = _Table(top.get("losses", None), "losses", required=False)
+    convection_multiplier = losses.number("convection_multiplier", 1.0, minimum=0.0, maximum=10.0)
+    capacity_multiplier = losses.number("capacity_multiplier", 1.0, above=0.0, maximum=10.0)
+    air_speed = losses.quantity("air_speed", "speed", "m/s", 0.0, minimum=0.0)
+    losses.finish()
+
+    c = _Table(top.get("cooler", None), "cooler", required=False)
+    cooler_W_K = c.quantity("specific_dissipation", "conductance", "W/K", 0.0, minimum=0.0)
+    cooler_fan = c.choice("fan", ("with_flow", "always"), "with_flow")
+    c.finish()
+
+    s = _Table(top.get("session", _MISSING), "session")
+    start = s.quantity("start_temperature", "temperature", "degC", above=0.0)
+    repeat = s.number("repeat", minimum=1, maximum=10000, integer=True)
+    ready = s.quantity("ready_temperature", "temperature", "degC", None, above=0.0)
+    raw_steps = s.get("steps")
+    if not isinstance(raw_steps, list) or not raw_steps:
+        raise ScenarioError("session.steps", raw_steps, "a list of [[session.steps]] tables")
+    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement) for i, step in enumerate(raw_steps))
+    if not any(step.is_pull for step in cycle):
+        raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
+    s.finish()
+    top.finish()
+
+    scenario = Scenario(raw=copy.deepcopy(raw), units=units, name=str(name), ambient_K=ambient,
+                        reservoir=reservoir, oil=oil, max_temperature_K=max_T, min_viscosity_cSt=min_nu,
+                        displacement_m3=displacement, volumetric_efficiency=eta_v, hardware=hardware,
+                        convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
+                        air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
+                        start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready)
+    _check_consistency(scenario)
+    return scenario
+
+
+def _parse_step(raw, path: str, displacement_m3: float) -> Step:
+    t = _Table(raw, path)
+    kind = t.choice("kind", ("pull", "wait"))
+    duration = t.quantity("duration", "time", "s", above=0.0)
+    if kind == "pull":
+        if "curve_rpm" in raw:
+            speeds = _number_list(t, "curve_rpm", minimum=0.0)
+            if "curve_torque" in raw:
+                torque = _quantity_list(t, "curve_torque", "torque", "N*m", len(speeds))
+                power = [tau * 2.0 * np.pi * n / 60.0 for tau, n in zip(torque, speeds)]
+            else:
+                power = _quantity_list(t, "curve_power", "power", "W", len(speeds))
+            if any(b <= a for a, b in zip(speeds, speeds[1:])):
+                raise ScenarioError(t.key("curve_rpm"), raw["curve_rpm"], "speeds in increasing order")
+            rpm_start = t.number("rpm_start", above=0.0)
+            rpm_end = t.number("rpm_end", above=0.0)
+            for key, value in (("rpm_start", rpm_start), ("rpm_end", rpm_end)):
+                if not speeds[0] <= value <= speeds[-1]:
+                    raise ScenarioError(t.key(key), value, f"a speed within the curve, {speeds[0]:g} to {speeds[-1]:g} rpm")
+            step = Step(kind="pull", duration_s=duration, engine="on",
+                        curve=EngineCurve(rpm=tuple(speeds), power_W=tuple(power)),
+                        rpm_start=rpm_start, rpm_end=rpm_end)
+        else:
+            step = Step(kind="pull", duration_s=duration, engine="on",
+                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", above=0.0))
+    else:
+        engine = t.choice("engine", ("off", "idle"))
+        if engine == "idle":
+            step = Step(kind="wait", duration_s=duration, engine="idle",
+                        power_W=t.quantity("power", "power", "W", minimum=0.0), rpm=t.number("rpm", above=0.0))
+        else:
+            step = Step(kind="wait", duration_s=duration, engine="off")
+    t.finish()
+    return step
+
+
+def _number_list(t: _Table, name: str, minimum=None) -> list:
+    values = t.get(name)
+    if not isinstance(values, list) or len(values) < 2:
+        raise ScenarioError(t.key(name), values, "a list of at least two numbers")
+    for i, v in enumerate(values):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or (minimum is not None and v < minimum):
+            raise ScenarioError(f"{t.key(name)}[{i}]", v, "a non-negative number")
+    return [float(v) for v in values]
+
+
+def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> list:
+    values = t.get(name)
+    if not isinstance(values, list) or len(values) != length:
+        raise ScenarioError(t.key(name), values, f"a list of {length} values, one per curve_rpm entry")
+    parsed = [parse_quantity(v, f"{t.key(name)}[{i}]", kind, unit) for i, v in enumerate(values)]
+    for i, v in enumerate(parsed):
+        if v < 0:
+            raise ScenarioError(f"{t.key(name)}[{i}]", values[i], "a value of zero or more")
+    return parsed
+
+
+def _check_consistency(s: Scenario):
+    """Checks across keys: the limit above ambient and start, the oil fitting the tank when hot."""
+    limit_K = min(s.max_temperature_K, s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt))
+    if s.max_temperature_K <= s.ambient_K:
+        raise ScenarioError("fluid.max_temperature", s.raw["fluid"]["max_temperature"],
+                            "a limit above the ambient temperature")
+    if limit_K <= s.ambient_K:
+        raise ScenarioError("fluid.min_viscosity", s.raw["fluid"]["min_viscosity"],
+                            "a viscosity reached only above the ambient temperature (the fluid limit is below ambient)")
+    if s.start_K >= limit_K:
+        raise ScenarioError("session.start_temperature", s.raw["session"]["start_temperature"],
+                            f"a start below the fluid limit ({limit_K - 273.15:.1f} degC)")
+    hot_volume = s.reservoir.oil_volume_m3 * (1.0 + s.oil.expansion_per_K * (s.max_temperature_K - 288.15))
+    if hot_volume > s.reservoir.inner_volume_m3:
+        raise ScenarioError("reservoir.oil_volume", s.raw["reservoir"]["oil_volume"],
+                            f"at most the tank's {s.reservoir.inner_volume_m3 * 1000:.2f} L once expanded at the "
+                            f"maximum temperature (needs {hot_volume * 1000:.2f} L)")
+    if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit_K:
+        raise ScenarioError("session.ready_temperature", s.raw["session"]["ready_temperature"],
+                            "a temperature between ambient and the fluid limit")
+
+
+def build_rig(s: Scenario, oil_volume_m3=None, cooler_W_K=None, convection_multiplier=None,
+              capacity_multiplier=None) -> Rig:
+    """The network of a scenario. oil_volume_m3 and cooler_W_K may be arrays (N designs); a changed
+    oil volume scales the tank geometrically (same proportions and fill fraction)."""
+    res, hw = s.reservoir, s.hardware
+    volume = np.atleast_1d(np.asarray(res.oil_volume_m3 if oil_volume_m3 is None else oil_volume_m3, dtype=float))
+    scale = (volume / res.oil_volume_m3) ** (1.0 / 3.0)
+    if res.shape == "box":
+        perimeter = 2.0 * (res.length_m + res.width_m)
+        plate = res.length_m
+    else:
+        perimeter = np.pi * res.diameter_m
+        plate = res.diameter_m
+    footprint = res.footprint_m2
+    fill = res.oil_volume_m3 / footprint
+    side_area = perimeter * res.height_m * scale**2
+    top_area = footprint * scale**2
+    wall = MATERIALS[res.wall_material]
+    shell_area = side_area + 2.0 * top_area
+    hw_material = MATERIALS[hw.material]
+    return Rig(
+        oil=s.oil,
+        oil_mass_kg=volume * s.oil.density_15C_kg_m3,
+        side_area_m2=side_area, side_height_m=res.height_m * scale,
+        top_area_m2=top_area, top_length_m=footprint / perimeter * scale,
+        bottom_area_m2=top_area if res.bottom == "open" else np.zeros_like(top_area),
+        plate_length_m=plate * scale,
+        wetted_area_m2=(perimeter * fill + footprint) * scale**2,
+        fill_height_m=fill * scale, tank_cross_section_m2=top_area,
+        wall_thickness_m=res.wall_thickness_m, wall_conductivity_W_mK=wall["conductivity_W_mK"],
+        wall_capacity_J_K=shell_area * res.wall_thickness_m * wall["density_kg_m3"] * wall["specific_heat_J_kgK"],
+        wall_emissivity=res.emissivity,
+        hardware_capacity_J_K=hw.mass_kg * hw_material["specific_heat_J_kgK"],
+        hose_length_m=hw.hose_length_m, hose_outer_diameter_m=hw.hose_outer_diameter_m,
+        hose_inner_diameter_m=hw.hose_inner_diameter_m, body_area_m2=hw.body_area_m2,
+        body_length_m=np.sqrt(hw.body_area_m2 / 6.0) if hw.body_area_m2 > 0 else 0.1,
+        hardware_emissivity=hw.emissivity,
+        displacement_m3=s.displacement_m3, volumetric_efficiency=s.volumetric_efficiency,
+        ambient_K=s.ambient_K, air_speed_m_s=s.air_speed_m_s,
+        convection_multiplier=s.convection_multiplier if convection_multiplier is None else convection_multiplier,
+        capacity_multiplier=s.capacity_multiplier if capacity_multiplier is None else capacity_multiplier,
+        cooler_W_K=np.asarray(s.cooler_W_K if cooler_W_K is None else cooler_W_K, dtype=float),
+        cooler_fan=s.cooler_fan)
+
+
+def limit_K(s: Scenario) -> tuple[float, str]:
+    """The effective fluid limit: the lower of max_temperature and the temperature at which the
+    viscosity falls to the pump's minimum. Returns (K, "max_temperature" | "min_viscosity")."""
+    at_viscosity = s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt)
+    if at_viscosity < s.max_temperature_K:
+        return at_viscosity, "min_viscosity"
+    return s.max_temperature_K, "max_temperature"

@@ -1,0 +1,107 @@
+"""Units at the edges: parse quantity strings with pint, convert SI results for display.
+
+Inside the package every number is SI (K for temperatures, W, J, m, m^3, s, kg).
+"""
+from __future__ import annotations
+
+import math
+import re
+
+import pint
+
+from .errors import ScenarioError
+
+UREG = pint.UnitRegistry()
+
+_NUMBER_THEN_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+# The SI unit each kind of quantity is converted to.
+SI_UNIT = {
+    "temperature": "K",
+    "length": "m",
+    "area": "m^2",
+    "volume": "m^3",
+    "mass": "kg",
+    "time": "s",
+    "power": "W",
+    "torque": "N*m",
+    "density": "kg/m^3",
+    "kinematic_viscosity": "m^2/s",
+    "conductance": "W/K",
+    "speed": "m/s",
+    "per_kelvin": "1/K",
+    "specific_heat": "J/(kg*K)",
+    "thermal_conductivity": "W/(m*K)",
+}
+
+
+def parse_quantity(value, key: str, kind: str, bare_unit: str) -> float:
+    """Return ``value`` in the SI unit of ``kind``.
+
+    value : str such as "19 L" or "77 degF", or a bare number meaning ``bare_unit``.
+    key : the scenario key path, for the error message.
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise ScenarioError(key, value, f"a number or a string with units such as '1 {bare_unit}'")
+    if isinstance(value, (int, float)):
+        magnitude, unit_text = float(value), bare_unit
+    else:
+        match = _NUMBER_THEN_UNIT.match(value)
+        if not match:
+            raise ScenarioError(key, value, f"a number followed by a unit, such as '1 {bare_unit}'")
+        magnitude, unit_text = float(match.group(1)), (match.group(2) or bare_unit)
+    if not math.isfinite(magnitude):
+        raise ScenarioError(key, value, "a finite number")
+    try:
+        quantity = UREG.Quantity(magnitude, unit_text)
+        return float(quantity.to(SI_UNIT[kind]).magnitude)
+    except (pint.errors.UndefinedUnitError, pint.errors.DimensionalityError,
+            pint.errors.DefinitionSyntaxError, AttributeError, TypeError, ValueError, AssertionError):
+        raise ScenarioError(key, value, f"a {kind.replace('_', ' ')} in units such as '{bare_unit}'") from None
+
+
+# Display units of the two systems, by kind of quantity.
+DISPLAY_UNITS = {
+    "SI": {"temperature": "degC", "temperature_difference": "delta_degC", "volume": "L", "power": "kW",
+           "flow": "L/min", "pressure": "bar", "displacement": "cm^3", "conductance": "W/K",
+           "time": "s", "length": "m", "mass": "kg", "energy": "kJ", "torque": "N*m"},
+    "US": {"temperature": "degF", "temperature_difference": "delta_degF", "volume": "gal", "power": "hp",
+           "flow": "gal/min", "pressure": "psi", "displacement": "in^3", "conductance": "BTU/hr/delta_degF",
+           "time": "s", "length": "in", "mass": "lb", "energy": "BTU", "torque": "lbf*ft"},
+}
+
+UNIT_LABEL = {"degC": "°C", "degF": "°F", "delta_degC": "K", "delta_degF": "°F", "L": "L", "gal": "gal",
+              "kW": "kW", "hp": "hp", "L/min": "L/min", "gal/min": "gpm", "bar": "bar", "psi": "psi",
+              "cm^3": "cm³", "in^3": "in³", "W/K": "W/K", "BTU/hr/delta_degF": "BTU/hr/°F", "s": "s",
+              "m": "m", "in": "in", "kg": "kg", "lb": "lb", "kJ": "kJ", "BTU": "BTU", "N*m": "N·m",
+              "lbf*ft": "lbf·ft"}
+
+_SI_OF_DISPLAY_KIND = {"temperature": "K", "temperature_difference": "delta_degC", "volume": "m^3",
+                       "power": "W", "flow": "m^3/s", "pressure": "Pa", "displacement": "m^3",
+                       "conductance": "W/K", "time": "s", "length": "m", "mass": "kg", "energy": "J",
+                       "torque": "N*m"}
+
+
+def to_display(value_si: float, kind: str, system: str) -> float:
+    """Convert an SI value of ``kind`` to the display unit of ``system`` ("SI" or "US")."""
+    unit = DISPLAY_UNITS[system][kind]
+    return float(UREG.Quantity(value_si, _SI_OF_DISPLAY_KIND[kind]).to(unit).magnitude)
+
+
+def from_display(value: float, kind: str, system: str) -> float:
+    """Convert a value in the display unit of ``system`` back to SI."""
+    unit = DISPLAY_UNITS[system][kind]
+    return float(UREG.Quantity(value, unit).to(_SI_OF_DISPLAY_KIND[kind]).magnitude)
+
+
+def unit_label(kind: str, system: str) -> str:
+    """The printed symbol of the display unit, e.g. '°F'."""
+    return UNIT_LABEL[DISPLAY_UNITS[system][kind]]
+
+
+def kelvin_to_celsius(temperature_K):
+    return temperature_K - 273.15
+
+
+def celsius_to_kelvin(temperature_C):
+    return temperature_C + 273.15

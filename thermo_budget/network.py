@@ -111,9 +111,14 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     return np.stack([oil, wall, hardware], axis=-1)
 
 
-def _h_air_natural(kind: str, length_m, T_surface_K, T_ambient_K):
-    """Natural-convection coefficient to air, W/(m^2 K), for one kind of surface."""
-    k, nu, pr, beta = air_properties(0.5 * (T_surface_K + T_ambient_K))
+def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None,
+                air=None):
+    """Convective coefficient to ambient air, W/(m^2 K), for one kind of surface: "vertical",
+    "cylinder" (horizontal), "top" or "bottom" (horizontal faces). Natural convection, combined with
+    a forced stream by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, when air_speed_m_s > 0.
+    air : optional (k, nu, Pr, beta) at the film temperature, to share between faces.
+    """
+    k, nu, pr, beta = air_properties(0.5 * (T_surface_K + T_ambient_K)) if air is None else air
     dT = T_surface_K - T_ambient_K
     Ra = rayleigh(beta, dT, length_m, nu, pr)
     if kind == "vertical":
@@ -124,14 +129,8 @@ def _h_air_natural(kind: str, length_m, T_surface_K, T_ambient_K):
         Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_up_McAdams(Ra), Nu_horizontal_plate_hot_down_McAdams(Ra))
     else:                    # "bottom": hot face down
         Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_down_McAdams(Ra), Nu_horizontal_plate_hot_up_McAdams(Ra))
-    return Nu * k / length_m, k, nu, pr
-
-
-def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None):
-    """Convective coefficient to ambient air, W/(m^2 K): natural, or natural combined with a forced
-    stream (Churchill 1977, Nu^3 = Nu_F^3 + Nu_N^3) when air_speed_m_s > 0."""
-    h_natural, k, nu, pr = _h_air_natural(kind, length_m, T_surface_K, T_ambient_K)
-    if not np.any(np.asarray(air_speed_m_s) > 0):
+    h_natural = Nu * k / length_m
+    if not air_speed_m_s > 0:
         return h_natural
     L_forced = length_m if plate_length_m is None else plate_length_m
     Nu_F = Nu_flat_plate_forced_Incropera(air_speed_m_s * L_forced / nu, pr)
@@ -148,10 +147,7 @@ def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     the wetted bottom.
     """
     oil = rig.oil
-    T_film = 0.5 * (T_oil_K + T_wall_K)
-    nu = oil.kinematic_viscosity_m2_s(T_film)
-    k = oil.conductivity(T_film)
-    pr = oil.prandtl(T_film)
+    nu, k, _, _, pr = oil.transport(0.5 * (T_oil_K + T_wall_K))
     Ra = rayleigh(oil.expansion_per_K, T_oil_K - T_wall_K, rig.fill_height_m, nu, pr)
     Nu_N = Nu_vertical_plate_Churchill_Chu(Ra, pr)
     velocity = volume_flow_m3_s / rig.tank_cross_section_m2
@@ -174,9 +170,10 @@ def wall_to_ambient_W_K(rig: Rig, T_wall_K):
     faces = (("vertical", rig.side_area_m2, rig.side_height_m),
              ("top", rig.top_area_m2, rig.top_length_m),
              ("bottom", rig.bottom_area_m2, rig.top_length_m))
+    air = air_properties(0.5 * (T_wall_K + T_a))
     total = 0.0
     for kind, area, length in faces:
-        h_conv = h_air_W_m2K(kind, length, T_wall_K, T_a, rig.air_speed_m_s, rig.plate_length_m)
+        h_conv = h_air_W_m2K(kind, length, T_wall_K, T_a, rig.air_speed_m_s, rig.plate_length_m, air)
         total = total + _series(area, m * h_conv + h_rad, half_wall)
     return total
 
@@ -188,10 +185,11 @@ def hardware_to_ambient_W_K(rig: Rig, T_hardware_K):
     m = rig.convection_multiplier
     h_rad = h_radiation_grey(rig.hardware_emissivity, T_hardware_K, T_a)
     hose_area = np.pi * rig.hose_outer_diameter_m * rig.hose_length_m
+    air = air_properties(0.5 * (T_hardware_K + T_a))
     h_hose = h_air_W_m2K("cylinder", rig.hose_outer_diameter_m, T_hardware_K, T_a, rig.air_speed_m_s,
-                         rig.hose_outer_diameter_m)
+                         rig.hose_outer_diameter_m, air)
     h_body = h_air_W_m2K("vertical", rig.body_length_m, T_hardware_K, T_a, rig.air_speed_m_s,
-                         rig.body_length_m)
+                         rig.body_length_m, air)
     return hose_area * (m * h_hose + h_rad) + rig.body_area_m2 * (m * h_body + h_rad)
 
 
@@ -202,7 +200,7 @@ def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     return _series(rig.wetted_area_m2, h_oil, 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK)
 
 
-def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK):
+def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
     """Conductance loop oil -> hardware, W/K.
 
     Flowing: the hose is a heat exchanger with one side (the hardware) at uniform temperature, so
@@ -210,16 +208,14 @@ def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_
     the tube-side coefficient (Hausen / Gnielinski) over the bore in series with the hose wall.
     Still (engine off): conduction along the oil column of half the hose length, nearly nothing.
     """
-    oil = rig.oil
     D_i, L = rig.hose_inner_diameter_m, rig.hose_length_m
-    k_oil = oil.conductivity(T_oil_K)
+    nu, k_oil, _, _, pr = rig.oil.transport(T_oil_K) if oil_props is None else oil_props
     still = k_oil * (0.25 * np.pi * D_i**2) / (0.5 * L)
     flowing = np.asarray(volume_flow_m3_s) > 0
     if not np.any(flowing):
         return still
     velocity = volume_flow_m3_s / (0.25 * np.pi * D_i**2)
-    nu = oil.kinematic_viscosity_m2_s(T_oil_K)
-    Nu = Nu_tube_Hausen_Gnielinski(velocity * D_i / nu, oil.prandtl(T_oil_K), D_i, L)
+    Nu = Nu_tube_Hausen_Gnielinski(velocity * D_i / nu, pr, D_i, L)
     h_i = Nu * k_oil / D_i
     UA = 1.0 / (1.0 / (h_i * np.pi * D_i * L) + 1.0 / cylinder_wall_conductance_W_K(
         D_i, rig.hose_outer_diameter_m, L, HOSE_WALL_CONDUCTIVITY_W_mK))
@@ -242,12 +238,13 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     Q = np.broadcast_to(np.asarray(inputs.volume_flow_m3_s, dtype=float), (n,))
     P = np.broadcast_to(np.asarray(inputs.power_W, dtype=float), (n,))
     flowing = Q > 0
-    cp = rig.oil.specific_heat(T_oil)
-    mass_flow = rig.oil.density_kg_m3(T_oil) * Q
+    oil_props = rig.oil.transport(T_oil)
+    cp, rho = oil_props[2], oil_props[3]
+    mass_flow = rho * Q
     return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
-    G_oh = oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp)
+    G_oh = oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_wa = wall_to_ambient_W_K(rig, T_wall)
     G_ha = hardware_to_ambient_W_K(rig, T_hw)
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
@@ -264,8 +261,11 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     b = g_amb * T_a
     b[:, OIL] += P - G_cool * return_rise - 0.5 * G_oh * return_rise
     b[:, HARDWARE] += 0.5 * G_oh * return_rise
-    C = heat_capacities_J_K(rig, T_K)
-    return C, L, b, g_amb, G_cool * return_rise
+    C = np.empty((n, 3))
+    C[:, OIL] = rig.oil_mass_kg * cp
+    C[:, WALL] = rig.wall_capacity_J_K
+    C[:, HARDWARE] = rig.hardware_capacity_J_K
+    return rig.capacity_multiplier * C, L, b, g_amb, G_cool * return_rise
 
 
 def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):

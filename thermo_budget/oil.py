@@ -5,6 +5,7 @@ Temperatures are in K, kinematic viscosities in cSt (mm^2/s) unless a name says 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from chemicals.viscosity import VI_Hs, VI_Ls, VI_nus
@@ -124,7 +125,7 @@ class Oil:
     specific_heat_J_kgK: float | None = None
     conductivity_W_mK: float | None = None
 
-    @property
+    @cached_property
     def walther_AB(self) -> tuple[float, float]:
         return walther_coefficients(T40_K, self.nu40_cSt, T100_K, self.nu100_cSt)
 
@@ -132,7 +133,7 @@ class Oil:
     def viscosity_index(self) -> float:
         return viscosity_index_d2270(self.nu40_cSt, self.nu100_cSt)
 
-    @property
+    @cached_property
     def specific_gravity_60F(self) -> float:
         return float(self.density_kg_m3(T60F_K)) / WATER_DENSITY_60F_kg_m3
 
@@ -150,7 +151,8 @@ class Oil:
     def density_kg_m3(self, T_K):
         return self.density_15C_kg_m3 / (1.0 + self.expansion_per_K * (T_K - T15_K))
 
-    def specific_heat_coefficients(self) -> tuple[float, float]:
+    @cached_property
+    def cp_coefficients(self) -> tuple[float, float]:
         """(a, b) of c_p = a + b (T - 273.15 K), J/(kg K) and J/(kg K^2); Cragoe is linear in t."""
         if self.specific_heat_J_kgK is not None:
             return float(self.specific_heat_J_kgK), 0.0
@@ -159,18 +161,18 @@ class Oil:
         return c0, c1
 
     def specific_heat(self, T_K):
-        a, b = self.specific_heat_coefficients()
+        a, b = self.cp_coefficients
         return a + b * (np.asarray(T_K) - 273.15)
 
     def specific_enthalpy_J_kg(self, T_K):
         """Sensible enthalpy (J/kg) relative to 0 degC: the integral of c_p."""
-        a, b = self.specific_heat_coefficients()
+        a, b = self.cp_coefficients
         t = np.asarray(T_K) - 273.15
         return a * t + 0.5 * b * t * t
 
     def temperature_from_enthalpy_K(self, h_J_kg):
         """Inverse of specific_enthalpy_J_kg."""
-        a, b = self.specific_heat_coefficients()
+        a, b = self.cp_coefficients
         if b == 0.0:
             return np.asarray(h_J_kg) / a + 273.15
         return (-a + np.sqrt(a * a + 2.0 * b * np.asarray(h_J_kg))) / b + 273.15
@@ -179,6 +181,14 @@ class Oil:
         if self.conductivity_W_mK is not None:
             return np.full_like(np.asarray(T_K, dtype=float), self.conductivity_W_mK)
         return cragoe_conductivity_W_mK(T_K, self.specific_gravity_60F)
+
+    def transport(self, T_K):
+        """(nu m^2/s, k W/(m K), c_p J/(kg K), rho kg/m^3, Pr) at T_K, in one evaluation."""
+        nu = self.kinematic_viscosity_m2_s(T_K)
+        k = self.conductivity(T_K)
+        cp = self.specific_heat(T_K)
+        rho = self.density_kg_m3(T_K)
+        return nu, k, cp, rho, nu * rho * cp / k
 
     def prandtl(self, T_K):
         rho = self.density_kg_m3(T_K)

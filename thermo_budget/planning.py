@@ -123,20 +123,31 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     return runs
 
 
-def batched_threshold(passes, low: float, high: float, geometric: bool = False) -> float:
-    """Smallest x in [low, high] for which passes(x_array) is True, assuming it is monotone (False
-    then True). Each round evaluates GRID_POINTS candidates at once and narrows the bracket.
-    Returns the upper end of the final bracket (a value that passes)."""
+def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0) -> float:
+    """Smallest x for which passes(x_array) is True, assuming it is monotone (False then True).
+
+    `floor` (if not None) is tried alone first and returned if it passes. Then the first batch spaces
+    GRID_POINTS candidates geometrically over [low, high]; each later batch spaces GRID_POINTS
+    candidates linearly inside the bracket found. Returns NaN if no candidate passes, else the upper
+    end of the final bracket (a value that passes)."""
+    if floor is not None and passes(np.array([floor]))[0]:
+        return float(floor)
+    grid = np.geomspace(low, high, GRID_POINTS)
+    answer, lower = float("nan"), 0.0   # lower: the largest value known to fail (0 if low passes)
     for _ in range(GRID_ROUNDS):
-        grid = np.geomspace(low, high, GRID_POINTS) if geometric else np.linspace(low, high, GRID_POINTS)
         ok = passes(grid)
+        if not ok.any():
+            return answer
         first = int(np.argmax(ok))
-        if not ok[first]:
-            return float("nan")
-        if first == 0:
-            return float(grid[0])
-        low, high = float(grid[first - 1]), float(grid[first])
-    return high
+        answer = float(grid[first])
+        lower = float(grid[first - 1]) if first else lower
+        grid = np.linspace(lower, answer, GRID_POINTS + 1)[1:]
+    return answer
+
+
+def _round_up(value: float, digits: int) -> float:
+    """Round up, so that a rounded sizing answer still passes (the searches are monotone)."""
+    return float(np.ceil(value * 10**digits) / 10**digits)
 
 
 def time_constant_s(scenario: Scenario) -> float:
@@ -166,22 +177,20 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
         return peak <= limit
 
     tau = time_constant_s(scenario)
-    longest = 20.0 * tau if np.isfinite(tau) else 1e7
-    if passes(np.array([0.0]))[0]:
+    wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
+    if wait == 0.0:
         notes.append("No wait is needed: even back-to-back pulls stay under the limit.")
-        return 0.0
-    if not passes(np.array([longest]))[0]:
+    elif np.isnan(wait):
         notes.append("No wait is long enough without a cooler: the pulls of one cycle already cross the "
                      "limit from a cooled-down start. Shorten the pulls, add oil or fit a cooler.")
         return None
-    return round(batched_threshold(passes, 1.0, longest, geometric=True), 2)
+    return _round_up(wait, 2)
 
 
 def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> float | None:
     """Smallest cooler specific dissipation (W/K) for the planned session (or, sustained=True, for
     the cadence to be sustainable). 0 when none is needed; None when no rating can do it."""
     limit, _ = limit_K(scenario)
-    base = build_rig(scenario)
 
     def passes(coolers):
         rig = build_rig(scenario, cooler_W_K=coolers)
@@ -191,18 +200,16 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
         peak, _ = session_outcome(scenario, rig, coolers.size)
         return peak <= limit
 
-    del base
-    if passes(np.array([0.0]))[0]:
-        return 0.0
     peak_power = max(step.peak_power_W() for step in scenario.cycle)
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
-    if not passes(np.array([largest]))[0]:
+    cooler = batched_threshold(passes, 1e-5 * largest, largest, floor=0.0)
+    if np.isnan(cooler):
         what = "sustain the cadence" if sustained else "finish the planned session"
         notes.append(f"No cooler up to {largest:.0f} W/K can {what}: with the oil flow of this pump the cooler "
                      "cannot take the heat out fast enough during a pull (its duty is capped at the oil's "
                      "capacity rate m_dot c_p). Shorten the pulls or add oil.")
         return None
-    return round(batched_threshold(passes, 0.0, largest), 3)
+    return _round_up(cooler, 3)
 
 
 def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
@@ -215,13 +222,11 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
         peak, _ = session_outcome(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
         return peak <= limit
 
-    low, high = 0.02 * V0, 200.0 * V0
-    if not passes(np.array([high]))[0]:
-        notes.append(f"Even {high * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
+    volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
+    if np.isnan(volume):
+        notes.append(f"Even {200 * V0 * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
         return None
-    if passes(np.array([low]))[0]:
-        return round(low * 1000.0, 4)
-    return round(batched_threshold(passes, low, high, geometric=True) * 1000.0, 4)
+    return _round_up(volume * 1000.0, 4)
 
 
 def _pull_and_wait_blocks(scenario: Scenario):
@@ -290,12 +295,11 @@ def _extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) -
             pulled &= after_wait <= ready + 1e-9
         return pulled
 
-    if passes(np.array([0.0]))[0]:
-        return 0.0
-    longest = 20.0 * time_constant_s(scenario)
-    if not np.isfinite(longest) or not passes(np.array([longest]))[0]:
-        return None
-    return batched_threshold(passes, 1.0, longest, geometric=True)
+    longest = 8.0 * time_constant_s(scenario)
+    if not np.isfinite(longest):
+        return 0.0 if passes(np.array([0.0]))[0] else None
+    extra = batched_threshold(passes, 1.0, longest, floor=0.0)
+    return None if np.isnan(extra) else extra
 
 
 def planning_answers(scenario: Scenario) -> dict:

@@ -9,7 +9,7 @@ from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
 
-TRACE_RESOLUTION = Resolution(pull_substeps=6, curve_substeps=12, max_substep_s=20.0)
+TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
 
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:

@@ -95,14 +95,16 @@ class Resolution:
 
     pull_substeps : sub-steps per constant-power pull (more only for trace detail).
     curve_substeps : sub-steps per engine-curve pull (the power changes inside it).
-    max_substep_s : longest sub-step anywhere, s (coefficients are refreshed this often).
+    max_substep_s : longest sub-step, s (coefficients are refreshed this often), as long as a step
+        needs no more than max_substeps; longer steps get max_substeps equal sub-steps.
     """
     pull_substeps: int = 4
     curve_substeps: int = 12
     max_substep_s: float = 60.0
+    max_substeps: int = 40
 
     def substeps(self, step: Step, longest_duration_s: float) -> int:
-        n = int(np.ceil(longest_duration_s / self.max_substep_s))
+        n = min(int(np.ceil(longest_duration_s / self.max_substep_s)), self.max_substeps)
         if step.is_pull:
             n = max(n, self.curve_substeps if step.curve is not None else self.pull_substeps)
         return max(n, 1)

@@ -1,0 +1,149 @@
+"""Command line: `python -m thermo_budget run|sweep|fit ...`. Exit 0 on success, 2 on bad input."""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from .errors import ScenarioError
+from .scenario import load_scenario
+from .units import to_display, unit_label
+
+
+def _fmt(value_si, kind, system, digits=1):
+    if value_si is None:
+        return "n/a"
+    return f"{to_display(value_si, kind, system):.{digits}f} {unit_label(kind, system)}"
+
+
+def _temp(celsius, system):
+    return "n/a" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
+
+
+def summary_text(result: dict) -> str:
+    """A short readable summary of a report, in the scenario's units."""
+    u = result["units"]
+    lines = [f"{result['name'] or 'scenario'}",
+             f"  fluid limit      {_temp(result['limit_C'], u)} (set by {result['limit_reason'].replace('_', ' ')})",
+             f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
+             f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
+             f"end {_temp(result['end_C'], u)}",
+             f"  return line peak {_temp(result['peak_return_C'], u)}",
+             f"  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
+                                      else f"{result['time_to_limit_s'] / 60:.1f} min"),
+             f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
+             f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
+             f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
+             f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
+             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in"]
+    if "runs_before_limit" in result:
+        runs = result["runs_before_limit"]
+        lines += [f"  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
+                                                                   else ("more than can be counted" if runs is None else str(runs))),
+                  f"  steady peak      " + (_temp(result["steady_peak_C"], u) if result["sustainable"] else "none (not sustainable)"),
+                  f"  minimum wait     " + ("impossible" if result["min_wait_s"] is None else f"{result['min_wait_s']:.0f} s"),
+                  f"  cooler           " + ("not needed" if not result["cooler_needed"] else
+                                            ("no rating suffices" if result["cooler_required_W_per_K"] is None else
+                                             f"needed: {_fmt(result['cooler_required_W_per_K'], 'conductance', u, 1)}")),
+                  f"  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
+                                                      else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
+                  f"  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
+                                               else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
+        lines += [f"  note: {note}" for note in result.get("notes", [])]
+    return "\n".join(lines)
+
+
+def _run(args) -> int:
+    from .report import report, simulate, trace_csv
+    scenario = load_scenario(args.scenario)
+    result = report(scenario)
+    if args.csv or args.plot:
+        trace = simulate(scenario)
+        if args.csv:
+            Path(args.csv).write_text(trace_csv(trace), encoding="utf-8")
+        if args.plot:
+            from .plots import plot_trace
+            plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
+    print(json.dumps(result, indent=2) if args.json else summary_text(result))
+    return 0
+
+
+def _grid(text: str, option: str):
+    import numpy as np
+    parts = text.split(":")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+        if len(parts) != 3 or count < 1 or start < 0 or stop < start:
+            raise ValueError
+    except (ValueError, IndexError):
+        raise ScenarioError(option, text, "START:STOP:N with 0 <= START <= STOP and N >= 1") from None
+    return np.linspace(start, stop, count)
+
+
+def _sweep(args) -> int:
+    from .sweep import sweep
+    scenario = load_scenario(args.scenario)
+    volumes = _grid(args.oil_volumes, "--oil-volumes")
+    if volumes[0] <= 0:
+        raise ScenarioError("--oil-volumes", args.oil_volumes, "oil volumes above 0 L")
+    result = sweep(scenario, volumes, _grid(args.coolers, "--coolers"))
+    if args.plot:
+        from .plots import plot_design_chart
+        plot_design_chart(scenario, result).savefig(args.plot, dpi=120, bbox_inches="tight")
+    if args.json:
+        print(json.dumps(result.to_dict(), indent=2))
+    else:
+        print(result.summary_text())
+    return 0
+
+
+def _fit(args) -> int:
+    from .calibrate import fit_command
+    return fit_command(args)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="python -m thermo_budget",
+                                     description="Oil temperature budget of an uncooled hydraulic engine brake.")
+    sub = parser.add_subparsers(dest="command", required=True)
+    run = sub.add_parser("run", help="simulate a scenario's planned session and answer the planning questions")
+    run.add_argument("scenario")
+    run.add_argument("--json", action="store_true", help="print the full result as JSON (SI, degC)")
+    run.add_argument("--csv", metavar="TRACE.csv", help="write the temperature trace")
+    run.add_argument("--plot", metavar="TRACE.png", help="plot the temperatures against time")
+    run.set_defaults(handler=_run)
+    sw = sub.add_parser("sweep", help="pulls before the limit over a grid of oil volumes and cooler sizes")
+    sw.add_argument("scenario")
+    sw.add_argument("--oil-volumes", required=True, metavar="START:STOP:N", help="litres at 15 degC")
+    sw.add_argument("--coolers", required=True, metavar="START:STOP:N", help="specific dissipation, W/K")
+    sw.add_argument("--json", action="store_true")
+    sw.add_argument("--plot", metavar="FILE.png")
+    sw.set_defaults(handler=_sweep)
+    fit = sub.add_parser("fit", help="calibrate the model from a measured temperature log")
+    fit.add_argument("scenario")
+    fit.add_argument("log", metavar="LOG.csv")
+    fit.add_argument("--sensor", choices=("bulk", "return"), default="bulk", help="where the log's thermocouple sits")
+    fit.add_argument("--json", action="store_true")
+    fit.add_argument("--write", metavar="CALIBRATED.toml")
+    fit.add_argument("--plot", metavar="FIT.png")
+    fit.set_defaults(handler=_fit)
+    return parser
+
+
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exit_:
+        return int(exit_.code or 0)
+    try:
+        return args.handler(args)
+    except ScenarioError as error:
+        print(f"error: {error}", file=sys.stderr)
+        return 2
+    except OSError as error:
+        print(f"error: {error.filename or ''}: {error.strerror}", file=sys.stderr)
+        return 2

@@ -1,0 +1,155 @@
+"""Heat-transfer correlations against Incropera's worked examples and the `ht` package."""
+import doctest
+
+import ht
+import numpy as np
+import pytest
+from scipy.constants import Stefan_Boltzmann
+
+import thermo_budget.correlations as corr
+
+PRANDTL = [0.01, 0.1, 0.7, 5.0, 50.0, 500.0]
+RAYLEIGH = [1e-1, 1e2, 1e4, 1e6, 1e8, 1e9, 1e10, 1e12]
+
+
+def test_doctests_of_the_correlations_module():
+    # Each docstring carries a worked value (Incropera Example 9.2 among them).
+    result = doctest.testmod(corr, verbose=False)
+    assert result.attempted >= 10
+    assert result.failed == 0
+
+
+def test_churchill_chu_vertical_plate_incropera_example_9_2():
+    # Incropera, Fundamentals of Heat and Mass Transfer, 6th ed., Example 9.2: Pr = 0.69,
+    # Gr = 2.63e9, turbulent vertical plate; the book gives Nu_L = 147.
+    Pr, Gr = 0.69, 2.63e9
+    assert float(corr.Nu_vertical_plate_Churchill_Chu(Pr * Gr, Pr)) == pytest.approx(147.0, rel=0.005)
+
+
+@pytest.mark.parametrize("Pr", PRANDTL)
+@pytest.mark.parametrize("Ra", RAYLEIGH)
+def test_churchill_chu_vertical_plate_against_ht(Ra, Pr):
+    # ht.Nu_vertical_plate_Churchill (Caleb Bell's ht package): Churchill and Chu (1975), full range.
+    assert float(corr.Nu_vertical_plate_Churchill_Chu(Ra, Pr)) == pytest.approx(
+        ht.Nu_vertical_plate_Churchill(Pr, Ra / Pr), rel=1e-10)
+
+
+@pytest.mark.parametrize("Pr", PRANDTL)
+@pytest.mark.parametrize("Ra", RAYLEIGH)
+def test_churchill_chu_horizontal_cylinder_against_ht(Ra, Pr):
+    # ht.Nu_horizontal_cylinder_Churchill_Chu: Churchill and Chu (1975), long horizontal cylinder.
+    assert float(corr.Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr)) == pytest.approx(
+        ht.Nu_horizontal_cylinder_Churchill_Chu(Pr, Ra / Pr), rel=1e-10)
+
+
+@pytest.mark.parametrize("Pr", [0.7, 5.0, 100.0])
+@pytest.mark.parametrize("Ra", [1e4, 1e5, 1e6, 1e7, 2e7, 1e9, 1e10])
+def test_horizontal_plate_hot_face_up_against_ht(Ra, Pr):
+    # ht.Nu_horizontal_plate_McAdams, buoyancy assisted (hot face up): 0.54 Ra^1/4 to 1e7,
+    # 0.15 Ra^1/3 above; Incropera 6th ed. eqs. 9.30-9.31.
+    assert float(corr.Nu_horizontal_plate_hot_up_McAdams(Ra)) == pytest.approx(
+        ht.Nu_horizontal_plate_McAdams(Pr, Ra / Pr, buoyancy=True), rel=1e-10)
+
+
+@pytest.mark.parametrize("Pr", [0.7, 5.0, 100.0])
+@pytest.mark.parametrize("Ra", [1e5, 1e6, 1e8, 1e10])
+def test_horizontal_plate_hot_face_down_against_ht(Ra, Pr):
+    # ht.Nu_horizontal_plate_McAdams, buoyancy opposed (hot face down): 0.27 Ra^1/4 in its stated
+    # range 1e5 < Ra <= 1e10 (ht switches form above 1e10; ours extrapolates, see its docstring).
+    assert float(corr.Nu_horizontal_plate_hot_down_McAdams(Ra)) == pytest.approx(
+        ht.Nu_horizontal_plate_McAdams(Pr, Ra / Pr, buoyancy=False), rel=1e-10)
+
+
+@pytest.mark.parametrize("Pr", [0.7, 1.0, 5.0, 9.0])
+@pytest.mark.parametrize("Re", [1e2, 1e3, 1e4, 1e5, 5e5])
+def test_forced_flat_plate_laminar_against_ht(Re, Pr):
+    # ht.Nu_horizontal_plate_laminar_Baehr: 0.664 Re^1/2 Pr^1/3 for 0.05 < Pr < 10 (Incropera eq. 7.30).
+    assert float(corr.Nu_flat_plate_forced_Incropera(Re, Pr)) == pytest.approx(
+        ht.Nu_horizontal_plate_laminar_Baehr(Re, Pr), rel=1e-10)
+
+
+@pytest.mark.parametrize("Re", [1e6, 3e6, 1e7])
+def test_forced_flat_plate_mixed_boundary_layer(Re):
+    # Incropera 6th ed., eq. 7.38 (mixed boundary layer, Re_x,c = 5e5), written out here:
+    Pr = 0.7
+    assert float(corr.Nu_flat_plate_forced_Incropera(Re, Pr)) == pytest.approx(
+        (0.037 * Re**0.8 - 871.0) * Pr ** (1 / 3), rel=1e-12)
+    # and it approaches the fully turbulent plate of ht.Nu_horizontal_plate_turbulent_Kreith
+    # (0.036 Re^0.8 Pr^1/3) from below as Re grows (the laminar leading part weighs less):
+    # ratio 0.64 at Re = 1e6, 0.97 at 1e7.
+    turbulent = ht.Nu_horizontal_plate_turbulent_Kreith(Re, Pr)
+    ratio = float(corr.Nu_flat_plate_forced_Incropera(Re, Pr)) / turbulent
+    assert 0.6 < ratio < 1.0
+    if Re >= 1e7:
+        assert ratio > 0.95
+
+
+def test_forced_flat_plate_continuous_enough_at_transition():
+    # The laminar and mixed forms meet near Re = 5e5 (Incropera's choice of 871 makes them agree).
+    below = float(corr.Nu_flat_plate_forced_Incropera(5e5, 0.7))
+    above = float(corr.Nu_flat_plate_forced_Incropera(5e5 * 1.0001, 0.7))
+    assert above == pytest.approx(below, rel=0.01)
+
+
+def test_combined_convection_is_between_the_larger_and_the_sum():
+    # Churchill (1977): Nu^3 = Nu_F^3 + Nu_N^3; Incropera eq. 9.62.
+    for nf, nn in [(1.0, 10.0), (10.0, 10.0), (50.0, 3.0)]:
+        nu = float(corr.Nu_combined_Churchill(nf, nn))
+        assert nu == pytest.approx((nf**3 + nn**3) ** (1 / 3))
+        assert max(nf, nn) <= nu <= nf + nn
+
+
+@pytest.mark.parametrize("eps, Ts, Tsur", [(0.9, 350.0, 300.0), (0.5, 500.0, 290.0), (1.0, 295.0, 300.0)])
+def test_grey_body_radiation_is_exact(eps, Ts, Tsur):
+    # Incropera eq. 1.7: q'' = eps sigma (Ts^4 - Tsur^4); sigma from scipy.constants (CODATA).
+    h = corr.h_radiation_grey(eps, Ts, Tsur)
+    assert h * (Ts - Tsur) == pytest.approx(eps * Stefan_Boltzmann * (Ts**4 - Tsur**4), rel=1e-9)
+
+
+def test_radiation_of_a_painted_surface_near_room_temperature():
+    # Linearised black-body coefficient 4 sigma T^3 ~ 6 W/(m^2 K) at 300 K (Incropera eq. 1.9).
+    assert float(corr.h_radiation_grey(1.0, 300.0 + 1e-6, 300.0)) == pytest.approx(
+        4 * Stefan_Boltzmann * 300.0**3, rel=1e-6)
+
+
+def test_wall_conduction_fourier():
+    # Fourier's law, plane wall: R'' = t / k; a 6 mm polyethylene wall (k ~0.4 W/(m K), memory of
+    # Incropera Table A.3) has R'' = 0.015 m^2 K/W, comparable to the air-side 1/h ~0.1.
+    assert corr.wall_conduction_resistance_m2K_W(0.006, 0.4) == pytest.approx(0.015)
+
+
+def test_cylinder_wall_conductance():
+    # Incropera eq. 3.27: R = ln(r2/r1) / (2 pi k L).
+    G = corr.cylinder_wall_conductance_W_K(0.019, 0.028, 2.5, 0.25)
+    assert G == pytest.approx(2 * np.pi * 0.25 * 2.5 / np.log(28 / 19))
+
+
+@pytest.mark.parametrize("Re, Pr, D, L", [(100.0, 300.0, 0.019, 2.5), (1500.0, 200.0, 0.02, 3.0),
+                                          (10.0, 1000.0, 0.012, 1.0)])
+def test_hausen_laminar_entry_against_ht(Re, Pr, D, L):
+    # ht.laminar_entry_thermal_Hausen: Hausen (1943), Incropera eq. 8.57.
+    assert float(corr.Nu_tube_laminar_Hausen(Re, Pr, D, L)) == pytest.approx(
+        ht.laminar_entry_thermal_Hausen(Re, Pr, L, D), rel=1e-10)
+
+
+@pytest.mark.parametrize("Re, Pr", [(4e3, 5.0), (1e4, 7.0), (1e5, 50.0), (1e6, 0.7)])
+def test_gnielinski_against_ht(Re, Pr):
+    # ht.turbulent_Gnielinski with the Petukhov smooth-tube friction factor f = (0.790 ln Re - 1.64)^-2.
+    fd = (0.790 * np.log(Re) - 1.64) ** -2
+    assert float(corr.Nu_tube_turbulent_Gnielinski(Re, Pr)) == pytest.approx(
+        ht.turbulent_Gnielinski(Re, Pr, fd), rel=1e-10)
+
+
+def test_tube_blend_is_continuous_and_never_below_laminar():
+    Re = np.linspace(100.0, 6000.0, 400)
+    Nu = corr.Nu_tube_Hausen_Gnielinski(Re, 100.0, 0.019, 2.5)
+    assert np.all(Nu >= corr.Nu_tube_laminar_Hausen(np.minimum(Re, 2300.0), 100.0, 0.019, 2.5) - 1e-12)
+    assert np.max(np.abs(np.diff(Nu))) < 0.05 * np.max(Nu)
+
+
+def test_correlations_are_vectorised():
+    Ra = np.array([1e4, 1e6, 1e8])
+    assert corr.Nu_vertical_plate_Churchill_Chu(Ra, 0.7).shape == (3,)
+    assert corr.Nu_horizontal_cylinder_Churchill_Chu(Ra, 0.7).shape == (3,)
+    assert corr.Nu_horizontal_plate_hot_up_McAdams(Ra).shape == (3,)
+    assert corr.rayleigh(1 / 300.0, np.array([10.0, -10.0]), 0.3, 1.6e-5, 0.7).min() > 0

@@ -21,7 +21,7 @@ from .planning import session_outcome, take_designs
 from .report import report
 from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
 from .session import pump_flow_m3_s
-from .sweep import sweep
+from .design_sweep import sweep
 
 
 def _best_of(repeats, function):

@@ -82,7 +82,7 @@ def _grid(text: str, option: str):
 
 
 def _sweep(args) -> int:
-    from .sweep import sweep
+    from .design_sweep import sweep
     scenario = load_scenario(args.scenario)
     volumes = _grid(args.oil_volumes, "--oil-volumes")
     if volumes[0] <= 0:

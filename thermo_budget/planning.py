@@ -12,10 +12,13 @@ from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
 
-MAX_PULLS = 20000          # runs-before-limit search gives up beyond this many pulls
+MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
 GRID_POINTS = 24           # candidates per round of a batched search
 GRID_ROUNDS = 3
+# Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
+# resolutions (which agree with a tight reference to about 0.03 K) still finishes under it.
+SEARCH_MARGIN_K = 0.05
 
 
 def take_designs(rig: Rig, index) -> Rig:
@@ -89,13 +92,13 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     return X, peak, ok
 
 
-def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None):
+def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0):
     """(sustainable (N,) bool, periodic peak (N,) K). Sustainable: the periodic state exists and its
     peak stays at or below the limit, and the planned session itself stays below it too."""
     limit, _ = limit_K(scenario)
     _, peak, ok = periodic_state(scenario, rig, n, wait_s)
     session_peak, _ = session_outcome(scenario, rig, n, wait_s)
-    return ok & (peak <= limit) & (session_peak <= limit), peak
+    return ok & (peak <= limit - margin_K) & (session_peak <= limit - margin_K), peak
 
 
 def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS):
@@ -174,7 +177,7 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
 
     def passes(waits):
         peak, _ = session_outcome(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size, wait_s=waits)
-        return peak <= limit
+        return peak <= limit - SEARCH_MARGIN_K
 
     tau = time_constant_s(scenario)
     wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
@@ -195,10 +198,10 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
     def passes(coolers):
         rig = build_rig(scenario, cooler_W_K=coolers)
         if sustained:
-            ok, _ = sustainability(scenario, rig, coolers.size)
+            ok, _ = sustainability(scenario, rig, coolers.size, margin_K=SEARCH_MARGIN_K)
             return ok
         peak, _ = session_outcome(scenario, rig, coolers.size)
-        return peak <= limit
+        return peak <= limit - SEARCH_MARGIN_K
 
     peak_power = max(step.peak_power_W() for step in scenario.cycle)
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
@@ -220,7 +223,7 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
 
     def passes(volumes):
         peak, _ = session_outcome(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
-        return peak <= limit
+        return peak <= limit - SEARCH_MARGIN_K
 
     volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
     if np.isnan(volume):
@@ -264,8 +267,10 @@ def ready_schedule(scenario: Scenario, notes: list) -> list[dict]:
         cool_step = waits[-1] if waits else off
         extra = _extra_wait_s(scenario, rig, X, pull, cool_step, limit)
         if extra is None:
-            notes.append(f"Pull {index} cannot stay under the limit even after a full cool-down; "
-                         "the schedule stops before it.")
+            why = (f"the oil does not cool to the ready temperature during the wait (engine {cool_step.engine})"
+                   if scenario.ready_temperature_K is not None else
+                   f"it would cross the limit even after a long wait (engine {cool_step.engine})")
+            notes.append(f"Pull {index} cannot be scheduled: {why}; the schedule stops before it.")
             break
         if extra > 0:
             X = _run_steps(rig, [cool_step.with_duration(extra)], X).final_K
@@ -289,7 +294,7 @@ def _extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) -
         n = extras.size
         trace = integrate(take_designs(rig, np.zeros(n, int)), [cool_step, pull], np.repeat(X, n, axis=0),
                           n_designs=n, durations_s=[extras, pull.duration_s], resolution=PLAN_RESOLUTION)
-        pulled = peak_oil_K(trace) <= limit
+        pulled = peak_oil_K(trace) <= limit - SEARCH_MARGIN_K
         if ready is not None:
             after_wait = trace.T_K[trace.step_index == 0][-1][:, OIL]
             pulled &= after_wait <= ready + 1e-9

@@ -110,7 +110,7 @@ class Resolution:
         return max(n, 1)
 
 
-PLAN_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=8, max_substep_s=120.0)
+PLAN_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=8, max_substep_s=120.0, max_substeps=6)
 
 
 def session_steps(cycle: list[Step], repeat: int) -> list[Step]:

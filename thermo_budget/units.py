@@ -15,6 +15,8 @@ UREG = pint.UnitRegistry()
 
 _NUMBER_THEN_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 
+_DEGREE_IN_RATE = re.compile(r"(?<!delta_)deg([CF])\b")
+
 # The SI unit each kind of quantity is converted to.
 SI_UNIT = {
     "temperature": "K",
@@ -50,6 +52,8 @@ def parse_quantity(value, key: str, kind: str, bare_unit: str) -> float:
         if not match:
             raise ScenarioError(key, value, f"a number followed by a unit, such as '1 {bare_unit}'")
         magnitude, unit_text = float(match.group(1)), (match.group(2) or bare_unit)
+    if kind != "temperature":  # in a rate such as "BTU/hr/degF" a degree is a temperature difference
+        unit_text = _DEGREE_IN_RATE.sub(r"delta_deg\1", unit_text)
     if not math.isfinite(magnitude):
         raise ScenarioError(key, value, "a finite number")
     try:

@@ -71,3 +71,91 @@ def base_scenario():
 @pytest.fixture(scope="session")
 def default_scenario():
     return load_scenario(SCENARIO_DIR / "default.toml")
+
+
+def _drop(path):
+    return lambda raw: set_path(raw, path, None)
+
+
+def _put(path, value):
+    return lambda raw: set_path(raw, path, value)
+
+
+def _both(*changes):
+    def apply(raw):
+        for change in changes:
+            raw = change(raw)
+        return raw
+    return apply
+
+
+def _curve_pull(**overrides):
+    step = {"kind": "pull", "duration": "10 s", "curve_rpm": [2000, 3000, 4000],
+            "curve_torque": ["30 N*m", "35 N*m", "32 N*m"], "rpm_start": 2500, "rpm_end": 4000}
+    step.update(overrides)
+    return _put("session.steps", [step, {"kind": "wait", "duration": "1 min", "engine": "off"}])
+
+
+MALFORMED_TOML = 'ambient = "20 degC"\n[reservoir\noil_volume = "15 L"\n'
+
+# Every kind of bad scenario input: (id, change to the base rig or TOML text, key the message names)
+BAD_INPUTS = [
+    ("missing key", _drop("reservoir.height"), "reservoir.height"),
+    ("missing table", _drop("pump"), "pump"),
+    ("missing top-level key", _drop("ambient"), "ambient"),
+    ("wrong unit volume", _put("reservoir.oil_volume", "15 kg"), "reservoir.oil_volume"),
+    ("wrong unit temperature", _put("ambient", "20 m"), "ambient"),
+    ("wrong unit power", _put("session.steps", [{"kind": "pull", "duration": "12 s", "power": "9 kg", "rpm": 3000}]),
+     "session.steps[0].power"),
+    ("unknown unit", _put("hardware.mass", "8 foo"), "hardware.mass"),
+    ("not a number", _put("reservoir.oil_volume", "lots L"), "reservoir.oil_volume"),
+    ("boolean quantity", _put("reservoir.oil_volume", True), "reservoir.oil_volume"),
+    ("negative volume", _put("reservoir.oil_volume", "-5 L"), "reservoir.oil_volume"),
+    ("zero volume", _put("reservoir.oil_volume", "0 L"), "reservoir.oil_volume"),
+    ("negative displacement", _put("pump.displacement", "-16 cm^3"), "pump.displacement"),
+    ("below absolute zero", _put("ambient", "-300 degC"), "ambient"),
+    ("limit below ambient", _put("fluid.max_temperature", "15 degC"), "fluid.max_temperature"),
+    ("viscosity limit below ambient", _put("fluid.min_viscosity", "400 cSt"), "fluid.min_viscosity"),
+    ("start above limit", _put("session.start_temperature", "90 degC"), "session.start_temperature"),
+    ("unknown key", _put("reservoir.colour", "red"), "reservoir.colour"),
+    ("unknown top-level key", _put("colour", "red"), "colour"),
+    ("unknown step key", _put("session.steps", [{"kind": "pull", "duration": "12 s", "power": "9 kW",
+                                                  "rpm": 3000, "torque": "20 N*m"}]), "session.steps[0].torque"),
+    ("unknown table", _put("cooling", {"fan": "always"}), "cooling"),
+    ("malformed TOML", MALFORMED_TOML, "scenario.toml"),
+    ("oil not fitting the tank", _put("reservoir.oil_volume", "40 L"), "reservoir.oil_volume"),
+    ("oil fits cold but not hot", _put("reservoir.oil_volume", "26.1 L"), "reservoir.oil_volume"),
+    ("bad shape", _put("reservoir.shape", "sphere"), "reservoir.shape"),
+    ("cylinder without diameter", _put("reservoir.shape", "cylinder"), "reservoir.diameter"),
+    ("bad material", _put("reservoir.wall_material", "wood"), "reservoir.wall_material"),
+    ("bad bottom", _put("reservoir.bottom", "hanging"), "reservoir.bottom"),
+    ("emissivity above one", _put("reservoir.emissivity", 1.5), "reservoir.emissivity"),
+    ("emissivity as text", _put("hardware.emissivity", "high"), "hardware.emissivity"),
+    ("not an ISO grade", _put("fluid.iso_vg", 47), "fluid.iso_vg"),
+    ("grade and viscosity", _put("fluid.viscosity_40C", "46 cSt"), "fluid.iso_vg"),
+    ("neither VI nor nu100", _drop("fluid.viscosity_index"), "fluid.viscosity_index"),
+    ("nu100 above nu40", _both(_drop("fluid.viscosity_index"), _put("fluid.viscosity_100C", "60 cSt")),
+     "fluid.viscosity_100C"),
+    ("viscosity index out of range", _put("fluid.viscosity_index", 900), "fluid.viscosity_index"),
+    ("density not a liquid", _put("fluid.density_15C", "2000 kg/m^3"), "fluid.density_15C"),
+    ("min viscosity below D341 range", _put("fluid.min_viscosity", "1 cSt"), "fluid.min_viscosity"),
+    ("volumetric efficiency above one", _put("pump.volumetric_efficiency", 1.2), "pump.volumetric_efficiency"),
+    ("hose bore not inside", _put("hardware.hose_inner_diameter", "30 mm"), "hardware.hose_inner_diameter"),
+    ("negative convection multiplier", _put("losses.convection_multiplier", -1.0), "losses.convection_multiplier"),
+    ("negative air speed", _put("losses.air_speed", "-2 m/s"), "losses.air_speed"),
+    ("bad cooler fan", _put("cooler", {"specific_dissipation": "20 W/K", "fan": "sometimes"}), "cooler.fan"),
+    ("bad units system", _put("units", "imperial"), "units"),
+    ("zero repeat", _put("session.repeat", 0), "session.repeat"),
+    ("fractional repeat", _put("session.repeat", 2.5), "session.repeat"),
+    ("no steps", _put("session.steps", []), "session.steps"),
+    ("no pull", _put("session.steps", [{"kind": "wait", "duration": "1 min", "engine": "off"}]), "session.steps"),
+    ("bad step kind", _put("session.steps", [{"kind": "sprint", "duration": "1 s"}]), "session.steps[0].kind"),
+    ("bad engine state", _put("session.steps", [{"kind": "pull", "duration": "12 s", "power": "9 kW", "rpm": 3000},
+                                                 {"kind": "wait", "duration": "1 min", "engine": "running"}]),
+     "session.steps[1].engine"),
+    ("negative duration", _put("session.steps", [{"kind": "pull", "duration": "-12 s", "power": "9 kW", "rpm": 3000}]),
+     "session.steps[0].duration"),
+    ("curve speeds not increasing", _curve_pull(curve_rpm=[2000, 4000, 3000]), "session.steps[0].curve_rpm"),
+    ("sweep outside the curve", _curve_pull(rpm_end=5000), "session.steps[0].rpm_end"),
+    ("curve lengths differ", _curve_pull(curve_torque=["30 N*m", "35 N*m"]), "session.steps[0].curve_torque"),
+]

@@ -1,0 +1,168 @@
+"""Scenario files: units at the edge, defaults, and a clear error for every kind of bad input."""
+import numpy as np
+import pytest
+import tomllib
+
+from thermo_budget.errors import ScenarioError
+from thermo_budget.scenario import build_rig, limit_K, load_scenario
+
+from conftest import BAD_INPUTS, SHIPPED_SCENARIOS, base_raw, set_path, write_toml
+
+# Exact unit factors (NIST SP 811)
+GALLON_M3 = 3.785411784e-3
+INCH3_M3 = 16.387064e-6
+HP_W = 745.699872
+BTU_PER_HR_F_W_K = 1055.05585262 / 3600.0 * 1.8
+
+
+def test_at_least_three_shipped_scenarios():
+    assert len(SHIPPED_SCENARIOS) >= 3
+
+
+@pytest.mark.parametrize("path", SHIPPED_SCENARIOS, ids=[p.name for p in SHIPPED_SCENARIOS])
+def test_every_shipped_scenario_loads(path):
+    scenario = load_scenario(path)
+    assert scenario.name
+    assert scenario.start_K < limit_K(scenario)[0]
+    assert any(step.is_pull for step in scenario.cycle)
+    # saving and reading again gives the same scenario
+    again = load_scenario(tomllib.loads(scenario.to_toml()))
+    assert again.reservoir == scenario.reservoir and again.cycle == scenario.cycle and again.oil == scenario.oil
+
+
+def test_bare_numbers_mean_the_documented_units():
+    raw = base_raw()
+    set_path(raw, "ambient", 22)
+    set_path(raw, "reservoir.oil_volume", 15)
+    set_path(raw, "reservoir.wall_thickness", 2)
+    set_path(raw, "pump.displacement", 16)
+    set_path(raw, "hardware.mass", 8)
+    set_path(raw, "hardware.hose_outer_diameter", 28)
+    set_path(raw, "session.start_temperature", 22)
+    raw["session"]["steps"][0].update(duration=12, power=9000)
+    s = load_scenario(raw)
+    assert s.ambient_K == pytest.approx(295.15)
+    assert s.reservoir.oil_volume_m3 == pytest.approx(0.015)
+    assert s.reservoir.wall_thickness_m == pytest.approx(0.002)
+    assert s.displacement_m3 == pytest.approx(16e-6)
+    assert s.hardware.mass_kg == pytest.approx(8.0)
+    assert s.hardware.hose_outer_diameter_m == pytest.approx(0.028)
+    assert s.cycle[0].duration_s == pytest.approx(12.0)
+    assert s.cycle[0].power_W == pytest.approx(9000.0)
+
+
+def test_us_customary_units():
+    raw = base_raw()
+    set_path(raw, "ambient", "77 degF")
+    set_path(raw, "session.start_temperature", "77 degF")
+    set_path(raw, "reservoir.oil_volume", "4 gal")
+    set_path(raw, "pump.displacement", "1 in^3")
+    set_path(raw, "hardware.mass", "20 lb")
+    set_path(raw, "fluid.max_temperature", "176 degF")
+    raw["session"]["steps"][0]["power"] = "12 hp"
+    raw["session"]["steps"][1]["duration"] = "4 min"
+    s = load_scenario(raw)
+    assert s.ambient_K == pytest.approx(298.15)
+    assert s.max_temperature_K == pytest.approx(353.15)
+    assert s.reservoir.oil_volume_m3 == pytest.approx(4 * GALLON_M3)
+    assert s.displacement_m3 == pytest.approx(INCH3_M3)
+    assert s.hardware.mass_kg == pytest.approx(20 * 0.45359237)
+    assert s.cycle[0].power_W == pytest.approx(12 * HP_W, rel=1e-6)
+    assert s.cycle[1].duration_s == pytest.approx(240.0)
+
+
+def test_us_units_scenario_converts_cooler_and_fan():
+    s = load_scenario(SHIPPED_SCENARIOS[0].parent / "us_units_fan.toml")
+    assert s.units == "US"
+    assert s.cooler_W_K == pytest.approx(40 * BTU_PER_HR_F_W_K, rel=1e-6)
+    assert s.cooler_fan == "always"
+    assert s.air_speed_m_s == pytest.approx(6 * 0.3048)
+    assert s.oil.density_15C_kg_m3 == pytest.approx(54.3 * 0.45359237 / 0.3048**3)
+
+
+def test_engine_curve_torque_becomes_power():
+    # P = tau omega = tau 2 pi n / 60
+    s = load_scenario(SHIPPED_SCENARIOS[0].parent / "plastic_tank_cylinder.toml")
+    pull = s.cycle[0]
+    assert pull.curve is not None
+    assert pull.curve.power_W[2] == pytest.approx(36.0 * 2 * np.pi * 3000 / 60)
+    assert pull.rpm_at(0.0) == pytest.approx(2500) and pull.rpm_at(1.0) == pytest.approx(4000)
+    # the sweep 2500-4000 rpm peaks at the curve point of highest power inside it: 31 N m at 4000 rpm
+    assert pull.peak_power_W() == pytest.approx(31.0 * 2 * np.pi * 4000 / 60)
+    assert s.reservoir.bottom == "floor"
+    assert float(build_rig(s).bottom_area_m2[0]) == 0.0
+
+
+def test_engine_curve_with_power_column():
+    raw = base_raw()
+    raw["session"]["steps"][0] = {"kind": "pull", "duration": "10 s", "curve_rpm": [2000, 4000],
+                                  "curve_power": ["5 kW", "9 kW"], "rpm_start": 2000, "rpm_end": 4000}
+    pull = load_scenario(raw).cycle[0]
+    # the 4-point Gauss mean of a linear sweep is exact: 7 kW
+    assert pull.mean_power_W(0.0, 1.0) == pytest.approx(7000.0)
+
+
+def test_fluid_from_two_viscosities():
+    raw = base_raw()
+    set_path(raw, "fluid.iso_vg", None)
+    set_path(raw, "fluid.viscosity_index", None)
+    set_path(raw, "fluid.viscosity_40C", "73.30 cSt")
+    set_path(raw, "fluid.viscosity_100C", "8.86 cSt")
+    oil = load_scenario(raw).oil
+    assert oil.viscosity_index == pytest.approx(92.4, abs=0.05)  # ASTM D2270 example (from memory)
+
+
+def test_limit_set_by_minimum_viscosity():
+    raw = base_raw()
+    set_path(raw, "fluid.min_viscosity", "16 cSt")
+    s = load_scenario(raw)
+    T, reason = limit_K(s)
+    assert reason == "min_viscosity"
+    assert T < s.max_temperature_K
+    assert float(s.oil.kinematic_viscosity_cSt(T)) == pytest.approx(16.0, rel=1e-9)
+
+
+def test_limit_set_by_maximum_temperature(base_scenario):
+    T, reason = limit_K(base_scenario)
+    assert reason == "max_temperature"
+    assert T == pytest.approx(353.15)
+
+
+def test_optional_tables_default_and_are_not_silently_invented(base_scenario):
+    assert base_scenario.cooler_W_K == 0.0
+    assert base_scenario.air_speed_m_s == 0.0
+    assert base_scenario.units == "SI"
+    # hose bore from the outside diameter (common practice, no source: ~0.66 of the OD)
+    assert base_scenario.hardware.hose_inner_diameter_m == pytest.approx(0.66 * 0.028)
+
+
+def test_changed_gives_a_new_validated_scenario(base_scenario):
+    bigger = base_scenario.changed(**{"reservoir.oil_volume": "20 L"})
+    assert bigger.reservoir.oil_volume_m3 == pytest.approx(0.020)
+    assert base_scenario.reservoir.oil_volume_m3 == pytest.approx(0.015)
+    with pytest.raises(ScenarioError):
+        base_scenario.changed(**{"reservoir.oil_volume": "-1 L"})
+
+
+def _bad(tmp_path, change):
+    if isinstance(change, str):
+        path = tmp_path / "scenario.toml"
+        path.write_text(change, encoding="utf-8")
+        return path
+    return write_toml(tmp_path, change(base_raw()))
+
+
+@pytest.mark.parametrize("change, key", [(c, k) for _, c, k in BAD_INPUTS], ids=[i for i, _, _ in BAD_INPUTS])
+def test_bad_input_raises_a_scenario_error_naming_the_key(tmp_path, change, key):
+    path = _bad(tmp_path, change)
+    with pytest.raises(ScenarioError) as info:
+        load_scenario(path)
+    message = str(info.value)
+    assert key in message
+    assert "\n" not in message
+    assert "expected" in message
+
+
+def test_missing_file_is_a_scenario_error(tmp_path):
+    with pytest.raises(ScenarioError, match="scenario"):
+        load_scenario(tmp_path / "nope.toml")

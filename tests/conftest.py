@@ -159,3 +159,17 @@ BAD_INPUTS = [
     ("sweep outside the curve", _curve_pull(rpm_end=5000), "session.steps[0].rpm_end"),
     ("curve lengths differ", _curve_pull(curve_torque=["30 N*m", "35 N*m"]), "session.steps[0].curve_torque"),
 ]
+
+
+@pytest.fixture(scope="session")
+def default_report(default_scenario):
+    """thermo_budget.report on the default scenario, computed once (it runs the planning searches)."""
+    import thermo_budget
+    return thermo_budget.report(default_scenario)
+
+
+# Keys `run --json` must contain (issue 2)
+REQUIRED_JSON_KEYS = ["limit_C", "limit_reason", "start_C", "peak_C", "end_C", "peak_return_C",
+                      "pulls_planned", "pulls_under_limit", "time_to_limit_s", "energy_in_J", "energy_lost_J",
+                      "energy_stored_J", "energy_balance_rel_error", "heat_capacity_J_per_K",
+                      "passive_rejection_at_limit_W", "peak_pull_power_W", "pump"]

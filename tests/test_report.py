@@ -1,0 +1,159 @@
+"""The report dict (what `run --json` prints): its keys, its meaning, and rules of the trade."""
+import json
+
+import numpy as np
+import pytest
+
+import thermo_budget
+from thermo_budget.network import OIL, heat_capacities_J_K, passive_rejection_W
+from thermo_budget.outcome import first_crossing_s
+from thermo_budget.report import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
+from thermo_budget.scenario import build_rig, limit_K, load_scenario
+
+from conftest import REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, set_path
+
+# Exact unit factors
+PSI_PA = 6894.757293168
+GAL_M3 = 3.785411784e-3
+HP_W = 745.699872
+W_IN_BTU_PER_HR = 3600.0 / 1055.05585262
+
+
+@pytest.fixture(scope="module")
+def us_scenario():
+    return load_scenario(SCENARIO_DIR / "us_units_fan.toml")
+
+
+@pytest.fixture(scope="module")
+def us_trace(us_scenario):
+    return simulate(us_scenario)
+
+
+def test_report_is_the_public_api_and_has_every_key(default_report):
+    assert callable(thermo_budget.report)
+    for key in REQUIRED_JSON_KEYS:
+        assert key in default_report, key
+    assert set(default_report["heat_capacity_J_per_K"]) >= {"oil", "wall", "hardware"}
+    assert set(default_report["pump"]) >= {"flow_L_min", "pressure_bar"}
+    assert default_report["limit_reason"] in ("max_temperature", "min_viscosity")
+    json.dumps(default_report)   # plain JSON types only
+
+
+def test_report_numbers_of_the_default_rig(default_scenario, default_report):
+    r = default_report
+    assert r["start_C"] == pytest.approx(20.0)
+    assert r["start_C"] < r["end_C"] <= r["peak_C"] < r["peak_return_C"]
+    assert r["pulls_planned"] == 10
+    # energy in = 10 x (7 kW x 15 s + 150 W x 180 s idle)
+    assert r["energy_in_J"] == pytest.approx(10 * (7000 * 15 + 150 * 180), rel=1e-12)
+    assert abs(r["energy_balance_rel_error"]) < 1e-6
+    assert r["energy_in_J"] == pytest.approx(r["energy_lost_J"] + r["energy_stored_J"], rel=1e-9)
+
+
+def test_heat_capacities_at_the_start_temperature(default_scenario, default_report):
+    rig = build_rig(default_scenario)
+    C = heat_capacities_J_K(rig, np.full((1, 3), default_scenario.start_K))[0]
+    caps = default_report["heat_capacity_J_per_K"]
+    assert caps["oil"] == pytest.approx(C[0], abs=0.01)
+    # 18 L x 872 kg/m^3 x Cragoe c_p at 20 degC (~1.87 kJ/(kg K)): about 29 kJ/K
+    assert 18e-3 * 872 * 1800 < caps["oil"] < 18e-3 * 872 * 1950
+    assert caps["hardware"] == pytest.approx(9 * 470.0)  # 9 kg steel, c = 470 J/(kg K) (materials table)
+
+
+def test_passive_rejection_at_limit(default_scenario, default_report):
+    rig = build_rig(default_scenario)
+    limit, _ = limit_K(default_scenario)
+    assert default_report["passive_rejection_at_limit_W"] == pytest.approx(
+        float(passive_rejection_W(rig, limit)[0]), abs=0.01)
+
+
+def test_pump_operating_point_and_the_1714_rule(default_scenario, default_report):
+    pump = default_report["pump"]
+    # Q = D n eta_v: 14 cm^3 x 3600 rpm x 0.90 = 45.36 L/min (numbers of the invented default rig)
+    assert pump["flow_L_min"] == pytest.approx(14e-3 * 3600 * 0.90, rel=1e-6)
+    # hydraulic horsepower hp = psi x gpm / 1714 (common practice, no source): 1714 is the
+    # rounded exact factor 1714.25..., so 0.1 % agreement.
+    psi = pump["pressure_bar"] * 1e5 / PSI_PA
+    gpm = pump["flow_L_min"] / 1000.0 / GAL_M3
+    hp = default_report["peak_pull_power_W"] / HP_W
+    assert psi * gpm / 1714.0 == pytest.approx(hp, rel=1e-3)
+
+
+def test_pump_rule_on_the_us_rig(us_scenario):
+    r = session_report(us_scenario)
+    psi = r["pump"]["pressure_bar"] * 1e5 / PSI_PA
+    gpm = r["pump"]["flow_L_min"] / 1000.0 / GAL_M3
+    assert psi * gpm / 1714.0 == pytest.approx(25.0, rel=1e-3)   # 25 hp pulls; rule: common practice, no source
+
+
+def test_peak_return_rise_matches_the_210_rule(us_scenario, us_trace):
+    # BTU/hr = gpm x 210 x dT(degF) (common practice, no source), within 15 %, at the moment of the
+    # peak return-line temperature.
+    r = session_report(us_scenario, us_trace)
+    i = int(np.argmax(us_trace.return_K[:, 0]))
+    rise_F = (us_trace.return_K[i, 0] - us_trace.T_K[i, 0, OIL]) * 1.8
+    gpm = r["pump"]["flow_L_min"] / 1000.0 / GAL_M3
+    rule_F = r["peak_pull_power_W"] * W_IN_BTU_PER_HR / (210.0 * gpm)
+    assert rise_F == pytest.approx(rule_F, rel=0.15)
+    assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - 273.15, abs=1e-3)
+
+
+def test_pulls_under_limit_counts_until_the_first_crossing(us_scenario, us_trace):
+    # The invented US rig passes its 180 degF limit mid-session: count, from the trace itself, the
+    # pulls completed with the bulk never above the limit before their end.
+    r = session_report(us_scenario, us_trace)
+    limit, _ = limit_K(us_scenario)
+    assert r["peak_C"] > r["limit_C"]
+    oil, t = us_trace.T_K[:, 0, OIL], us_trace.time_s[:, 0]
+    expected = 0
+    for end in us_trace.pull_end_s[:, 0]:
+        if np.max(oil[t <= end + 1e-9]) > limit:
+            break
+        expected += 1
+    assert 0 < r["pulls_under_limit"] == expected < r["pulls_planned"]
+    crossing = r["time_to_limit_s"]
+    assert crossing is not None
+    assert us_trace.pull_end_s[expected - 1, 0] <= crossing <= us_trace.pull_end_s[expected, 0]
+    # the limit is crossed between the recorded points around time_to_limit_s
+    before = oil[t < crossing - 1e-6].max()
+    assert before <= limit + 1e-9
+
+
+def test_time_to_limit_is_null_when_never_reached(default_report):
+    assert default_report["peak_C"] < default_report["limit_C"]
+    assert default_report["time_to_limit_s"] is None
+    assert default_report["pulls_under_limit"] == default_report["pulls_planned"]
+
+
+def test_limit_reason_min_viscosity_in_the_report():
+    raw = base_raw()
+    set_path(raw, "fluid.min_viscosity", "16 cSt")
+    s = load_scenario(raw)
+    r = session_report(s)
+    assert r["limit_reason"] == "min_viscosity"
+    assert r["limit_C"] == pytest.approx(s.oil.temperature_at_viscosity_K(16.0) - 273.15, abs=1e-3)
+    assert r["limit_C"] < 80.0
+
+
+def test_trace_csv_has_the_six_columns(default_scenario):
+    trace = simulate(default_scenario)
+    text = trace_csv(trace)
+    lines = text.strip().splitlines()
+    assert lines[0].split(",") == ["time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W"]
+    assert TRACE_COLUMNS == tuple(lines[0].split(","))
+    rows = np.array([[float(v) for v in line.split(",")] for line in lines[1:]])
+    assert rows.shape == (trace.time_s.shape[0], 6)
+    assert np.all(np.diff(rows[:, 0]) > 0)
+    assert np.all(rows[:, 2] >= rows[:, 1] - 1e-3)           # return line never below the bulk
+    assert set(np.round(rows[1:, 5])) <= {7000.0, 150.0}      # pull and idle loads of the default rig
+    np.testing.assert_allclose(rows, trace_rows(trace), rtol=1e-5, atol=1e-3)
+
+
+def test_first_crossing_interpolates_between_points(us_trace, us_scenario):
+    limit, _ = limit_K(us_scenario)
+    t = float(first_crossing_s(us_trace, limit)[0])
+    oil, times = us_trace.T_K[:, 0, OIL], us_trace.time_s[:, 0]
+    i = int(np.argmax(oil > limit))
+    assert times[i - 1] <= t <= times[i]
+    frac = (limit - oil[i - 1]) / (oil[i] - oil[i - 1])
+    assert t == pytest.approx(times[i - 1] + frac * (times[i] - times[i - 1]))

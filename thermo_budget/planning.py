@@ -326,6 +326,11 @@ def planning_answers(scenario: Scenario) -> dict:
     if not cooler_needed:
         notes.append("No cooler is needed for the planned session.")
     cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
+    if cooler_sustained == 0.0:
+        notes.append("No cooler is needed for the cadence to go on all day.")
+    if scenario.cooler_W_K > 0:
+        notes.append(f"The cooler sizes are the total rating needed, in place of the scenario's "
+                     f"{scenario.cooler_W_K:.1f} W/K cooler; the minimum wait and oil volume assume no cooler.")
     return {
         "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
         "sustainable": sustainable,

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import math
+import re
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -506,3 +507,47 @@ def sweep_in_parts(scenario, volumes_L, coolers_W_K, parts: int = 4, progress=No
     joined = {name: np.concatenate([getattr(r, name) for r in results], axis=1)
               for name in ("runs_before_limit", "sustainable", "peak_C", "pulls_under_limit")}
     return replace(results[0], coolers_W_per_K=np.concatenate([r.coolers_W_per_K for r in results]), **joined)
+
+
+# Step of the +/- buttons of each input, by display quantity and system.
+STEPS = {"oil_volume": {"SI": 1.0, "US": 0.25}, "dimension": {"SI": 0.01, "US": 0.5},
+         "thickness": {"SI": 0.5, "US": 0.01}, "hose_length": {"SI": 0.5, "US": 1.0},
+         "hose_diameter": {"SI": 1.0, "US": 0.05}, "temperature": {"SI": 1.0, "US": 2.0},
+         "density": {"SI": 5.0, "US": 0.5}, "viscosity": {"SI": 0.5, "US": 0.5},
+         "displacement": {"SI": 1.0, "US": 0.05}, "mass": {"SI": 0.5, "US": 1.0},
+         "air_speed": {"SI": 0.5, "US": 1.0}, "conductance": {"SI": 1.0, "US": 2.0},
+         "power": {"SI": 0.5, "US": 1.0}, "idle_power": {"SI": 10.0, "US": 0.01},
+         "torque": {"SI": 1.0, "US": 1.0}, "pull_time": {"SI": 1.0, "US": 1.0}, "wait_time": {"SI": 0.5, "US": 0.5}}
+PLAIN_STEPS = {"reservoir.emissivity": 0.05, "hardware.emissivity": 0.05, "pump.volumetric_efficiency": 0.01,
+               "fluid.viscosity_index": 1.0, "session.repeat": 1}
+
+
+def step_of(field: Field, system: str):
+    return STEPS[field.quantity][system] if field.quantity else PLAIN_STEPS.get(field.path, 0.01)
+
+
+_NUMBER_UNIT = re.compile(r"(-?\d+(?:\.\d+)?) (degC|W/K|L)\b")
+
+
+def note_in(note: str, system: str) -> str:
+    """A report note with its "80.0 degC", "12 W/K" and "40 L" figures restated in `system`."""
+    def restate(match):
+        value, unit = float(match.group(1)), match.group(2)
+        if unit == "degC":
+            return shown(value + 273.15, "temperature", system)
+        if unit == "W/K":
+            return shown(value, "conductance", system)
+        return shown(value / 1000.0, "oil_volume", system)
+    return _NUMBER_UNIT.sub(restate, note)
+
+
+def constant_from_curve(view: SessionView):
+    """(power W, rpm) of a constant-power pull standing in for an engine-curve pull: the curve's
+    highest power over its sweep (power = torque x 2 pi n / 60 for a torque curve)."""
+    low, high = sorted((view.rpm_start or 0.0, view.rpm_end or 0.0))
+    points = [(n, v * 2.0 * math.pi * n / 60.0 if view.curve_is_torque else v)
+              for n, v in zip(view.curve_rpm, view.curve_values) if low <= n <= high and v is not None]
+    if not points:
+        return 1000.0, 3000.0
+    rpm, power = max(points, key=lambda p: p[1])
+    return float(power), float(rpm)

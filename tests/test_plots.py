@@ -1,0 +1,89 @@
+"""Figures: they draw what they claim (units on the axes, the limit line, one shade per pull, the
+planned-session contour and the rig marker), from real results and from a hand-built sweep."""
+from __future__ import annotations
+
+import types
+
+import numpy as np
+import pytest
+from matplotlib.figure import Figure
+
+from thermo_budget import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.plots import plot_design_chart, plot_trace
+from thermo_budget.report import simulate
+
+
+@pytest.fixture(scope="module")
+def default():
+    return load_scenario(DEFAULT_SCENARIO)
+
+
+@pytest.fixture(scope="module")
+def trace(default):
+    return simulate(default)
+
+
+def test_trace_plot_has_three_temperatures_limit_and_pull_shading(default, trace):
+    fig = plot_trace(default, trace)
+    assert isinstance(fig, Figure)
+    ax = fig.axes[0]
+    assert "(°C)" in ax.get_ylabel() and "(min)" in ax.get_xlabel()
+    labels = [line.get_label() for line in ax.get_lines()]
+    assert {"oil in the tank (bulk)", "oil returning to the tank", "tank wall"} <= set(labels)
+    limit = [line for line in ax.get_lines() if line.get_linestyle() == ":"][0]
+    assert limit.get_ydata()[0] == pytest.approx(80.0)
+    assert len(ax.patches) == trace.pull_start_s.shape[0]  # one shaded span per pull
+
+
+def test_trace_plot_in_us_units(default, trace):
+    ax = plot_trace(default, trace, "US").axes[0]
+    assert "(°F)" in ax.get_ylabel()
+    limit = [line for line in ax.get_lines() if line.get_linestyle() == ":"][0]
+    assert limit.get_ydata()[0] == pytest.approx(176.0)  # 80 degC = 176 degF
+    bulk = [line for line in ax.get_lines() if line.get_label() == "oil in the tank (bulk)"][0]
+    assert bulk.get_ydata()[0] == pytest.approx(68.0)  # starts at 20 degC = 68 degF
+
+
+def _fake_sweep():
+    volumes = np.linspace(5.0, 40.0, 6)
+    coolers = np.linspace(0.0, 10.0, 5)
+    V, K = np.meshgrid(volumes, coolers, indexing="ij")
+    runs = np.floor(V * (1.0 + K / 4.0) / 2.0)  # invented, rising with oil and cooler
+    runs[V * (1 + K) > 150] = np.nan              # invented "can go on all day" corner
+    return types.SimpleNamespace(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs,
+                                 peak_C=np.full(V.shape, 60.0), pulls_under_limit=np.minimum(runs, 10),
+                                 pulls_planned=10, limit_C=80.0)
+
+
+def test_design_chart_marks_rig_and_draws_planned_contour(default):
+    fig = plot_design_chart(default, _fake_sweep())
+    ax = fig.axes[0]
+    assert "(L)" in ax.get_xlabel() and "W/K" in ax.get_ylabel()
+    marker = [line for line in ax.get_lines() if line.get_label() == "your rig now"][0]
+    assert marker.get_xdata()[0] == pytest.approx(18.0) and marker.get_ydata()[0] == 0.0
+    texts = [t.get_text() for t in ax.texts]
+    assert any("planned session: 10 pulls" in t for t in texts)
+    assert "pulls before" in fig.axes[1].get_ylabel()  # the colour bar
+
+
+def test_design_chart_in_us_units(default):
+    ax = plot_design_chart(default, _fake_sweep(), "US").axes[0]
+    assert "(gal)" in ax.get_xlabel() and "BTU/hr/°F" in ax.get_ylabel()
+    marker = [line for line in ax.get_lines() if line.get_label() == "your rig now"][0]
+    assert marker.get_xdata()[0] == pytest.approx(18.0 / 3.785411784)  # 1 US gal = 3.785411784 L (NIST SP 811)
+
+
+def test_design_chart_all_unlimited_and_all_short_do_not_fail(default):
+    sweep = _fake_sweep()
+    sweep.runs_before_limit = np.full_like(sweep.runs_before_limit, np.nan)
+    assert isinstance(plot_design_chart(default, sweep), Figure)
+    sweep.runs_before_limit = np.ones_like(sweep.peak_C)
+    assert isinstance(plot_design_chart(default, sweep), Figure)
+
+
+def test_design_chart_from_real_sweep(default):
+    from thermo_budget.design_sweep import sweep
+    result = sweep(default, [6.0, 12.0, 18.0, 30.0], [0.0, 2.0, 5.0])
+    fig = plot_design_chart(default, result)
+    assert any("planned session" in t.get_text() for t in fig.axes[0].texts) or \
+        np.all(np.nan_to_num(result.runs_before_limit, nan=1e9) >= result.pulls_planned)

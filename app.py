@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import io
 import time
+import zlib
 
 import pandas as pd
 import streamlit as st
@@ -274,8 +275,7 @@ if view.uses_curve:
     table = pd.DataFrame({"speed (rpm)": [float(r) for r in view.curve_rpm],
                           column: [pi.to_shown(v, value_q, system) for v in view.curve_values]})
     edited = ses.data_editor(table, num_rows="dynamic", hide_index=True,
-                             key=_key(f"curve:{hash(str(view.curve_rpm) + str(view.curve_values))}"),
-                             help="The engine curve the brake absorbs, speeds in increasing order.")
+                             key=_key(f"curve:{zlib.crc32((str(view.curve_rpm) + str(view.curve_values)).encode())}"))
     ses.caption("The engine curve: absorbed power or torque at each speed, in increasing speed.")
     c1, c2 = ses.columns(2)
     rpm_start = c1.number_input("Sweep from (rpm)", value=float(view.rpm_start or 0.0), min_value=0.0, step=100.0,
@@ -377,7 +377,7 @@ cols[1].metric("Time to the limit", "Not reached" if ttl is None else pi.shown_d
 cols[1].caption(f"Planned session peaks at {pi.shown_celsius(answers['peak_C'], system)}.")
 wait = answers["min_wait_s"]
 cols[2].metric("Wait needed between pulls", "No wait is enough" if wait is None else
-               ("None" if wait == 0 else pi.shown_duration(wait)),
+               ("Not needed" if wait == 0 else pi.shown_duration(wait)),
                help="Shortest wait after every pull that lets the whole planned session finish under "
                     "the limit, without a cooler.")
 cols[2].caption(f"You planned {pi.shown_duration(view.wait_s)}.")
@@ -407,7 +407,7 @@ st.markdown(f"**{pulls_text}** {reason}")
 for note in answers["notes"]:
     st.caption("• " + pi.note_in(note, system))
 
-with st.expander("⚠️ Safety before you run the rig", expanded=False):
+with st.expander("⚠️ Safety before you run the rig", expanded=True):
     st.markdown(
         "- **Hot oil burns.** Oil near the limit scalds skin in a second; hoses, tank and pump get as hot. "
         "Let the rig cool before you touch it, and wear gloves and eye protection.\n"

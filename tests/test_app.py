@@ -122,3 +122,17 @@ def test_cooler_toggle_adds_a_cooler_input(page):
     page.toggle[0].set_value(True).run()
     assert not page.exception and not page.error
     assert number_input(page, "Cooler size").value == pytest.approx(10.0)
+
+
+def test_engine_curve_scenario_and_pull_mode_switch(page):
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "plastic_tank_cylinder.toml"
+    page.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
+    assert not page.exception and not page.error
+    assert number_input(page, "Tank diameter").value == pytest.approx(0.36)
+    mode = next(r for r in page.radio if r.label == "Load during a pull")
+    assert mode.value == "curve"
+    mode.set_value("constant").run()
+    assert not page.exception and not page.error
+    assert number_input(page, "Pull power").value == pytest.approx(12.985, abs=1e-3)  # 31 N*m at 4000 rpm
+    next(r for r in page.radio if r.label == "Load during a pull").set_value("curve").run()
+    assert not page.exception and not page.error

@@ -158,6 +158,10 @@ BAD_INPUTS = [
     ("curve speeds not increasing", _curve_pull(curve_rpm=[2000, 4000, 3000]), "session.steps[0].curve_rpm"),
     ("sweep outside the curve", _curve_pull(rpm_end=5000), "session.steps[0].rpm_end"),
     ("curve lengths differ", _curve_pull(curve_torque=["30 N*m", "35 N*m"]), "session.steps[0].curve_torque"),
+    # a curve that absorbs nothing is a pull of zero power, which a constant-power pull rejects
+    ("curve with no power", _curve_pull(curve_torque=["0 N*m", "0 N*m", "0 N*m"]), "session.steps[0]"),
+    # an absolute temperature given as a temperature difference must not become 20 K
+    ("temperature difference unit", _put("ambient", "20 delta_degC"), "ambient"),
 ]
 
 

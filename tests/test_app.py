@@ -136,3 +136,18 @@ def test_engine_curve_scenario_and_pull_mode_switch(page):
     assert number_input(page, "Pull power").value == pytest.approx(12.985, abs=1e-3)  # 31 N*m at 4000 rpm
     next(r for r in page.radio if r.label == "Load during a pull").set_value("curve").run()
     assert not page.exception and not page.error
+
+
+def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
+    pytest.importorskip("thermo_budget.calibrate")
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.report import simulate, trace_csv
+    before = metrics(page)["Pulls before the limit"]
+    log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
+    page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
+    assert not page.exception and not page.error
+    shown = metrics(page)
+    assert shown["Heat loss scale"] == "1.00" and shown["Heat capacity scale"] == "1.00"  # self-consistency
+    page.toggle(key="use_calibrated").set_value(True).run()
+    assert "calibrated from your log" in page.subheader[0].value
+    assert metrics(page)["Pulls before the limit"] == before

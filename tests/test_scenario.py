@@ -166,3 +166,13 @@ def test_bad_input_raises_a_scenario_error_naming_the_key(tmp_path, change, key)
 def test_missing_file_is_a_scenario_error(tmp_path):
     with pytest.raises(ScenarioError, match="scenario"):
         load_scenario(tmp_path / "nope.toml")
+
+
+@pytest.mark.parametrize("key", ["ambient", "session.start_temperature", "fluid.max_temperature"])
+def test_temperature_below_absolute_zero_says_so(key):
+    # The message must say what was expected for a temperature, not "a positive value".
+    raw = set_path(base_raw(), key, "-300 degC")
+    with pytest.raises(ScenarioError) as info:
+        load_scenario(raw)
+    assert key in str(info.value)
+    assert "absolute zero" in str(info.value)

@@ -30,7 +30,7 @@ from .units import to_display, unit_label
 
 # One sub-step per logged interval up to 30 s; the model error this leaves is checked against a
 # 5 s reference in the tests (well under a thermocouple's noise).
-FIT_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=2, max_substep_s=30.0)
+FIT_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=2, max_substep_s=30.0, max_substeps=100_000)
 CONVECTION_BOUNDS = (0.01, 10.0)      # the scenario file accepts 0 to 10
 CAPACITY_BOUNDS = (0.05, 10.0)        # the scenario file accepts above 0 up to 10
 START_OFFSET_BOUNDS_K = (-30.0, 30.0)

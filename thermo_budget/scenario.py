@@ -58,7 +58,7 @@ class _Table:
         if value is None:
             return None
         si = parse_quantity(value, self.key(name), kind, bare_unit)
-        _check_range(self.key(name), value, si, minimum, above, bare_unit)
+        _check_range(self.key(name), value, si, minimum, above, kind)
         return si
 
     def number(self, name, default=_MISSING, minimum=None, maximum=None, above=None, integer=False):
@@ -90,10 +90,15 @@ class _Table:
                                 "no such key here; known keys: " + ", ".join(sorted(self.used)))
 
 
-def _check_range(key, value, si, minimum, above, unit):
+def _check_range(key, value, si, minimum, above, kind):
+    if kind == "temperature":
+        if si <= 0.0:
+            raise ScenarioError(key, value, "a temperature above absolute zero")
+        if not -60.0 <= si - 273.15 <= 250.0:
+            raise ScenarioError(key, value, "a temperature between -60 and 250 degC (the range of a mineral-oil rig)")
+        return
     if above is not None and si <= above:
-        raise ScenarioError(key, value, f"a value greater than {above:g} (SI)" if above else
-                            ("a temperature above absolute zero" if "temperature" in key else "a positive value"))
+        raise ScenarioError(key, value, f"a value greater than {above:g} (SI)" if above else "a positive value")
     if minimum is not None and si < minimum:
         raise ScenarioError(key, value, "a value of zero or more" if minimum == 0 else f"at least {minimum:g} (SI)")
 
@@ -211,7 +216,10 @@ def _parse(raw: dict) -> Scenario:
     top = _Table(raw, "")
     units = top.choice("units", ("SI", "US"), "SI")
     name = top.get("name", "")
-    top.get("description", "")
+    description = top.get("description", "")
+    for key, text in (("name", name), ("description", description)):
+        if not isinstance(text, str):
+            raise ScenarioError(key, text, "a text string")
     ambient = top.quantity("ambient", "temperature", "degC", above=0.0)
 
     r = _Table(top.get("reservoir", _MISSING), "reservoir")
@@ -224,7 +232,8 @@ def _parse(raw: dict) -> Scenario:
         length_m=length, width_m=width, diameter_m=diameter,
         height_m=r.quantity("height", "length", "m", above=0.0),
         wall_material=r.choice("wall_material", tuple(MATERIALS)),
-        wall_thickness_m=r.quantity("wall_thickness", "length", "mm", above=0.0),
+        wall_thickness_m=_at_most(r, "wall_thickness", r.quantity("wall_thickness", "length", "mm", above=0.0),
+                                  0.05, "at most 50 mm"),
         emissivity=r.number("emissivity", minimum=0.0, maximum=1.0),
         bottom=r.choice("bottom", ("open", "floor")))
     r.finish()
@@ -328,26 +337,36 @@ def _parse_step(raw, path: str, displacement_m3: float) -> Step:
                 power = _quantity_list(t, "curve_power", "power", "W", len(speeds))
             if any(b <= a for a, b in zip(speeds, speeds[1:])):
                 raise ScenarioError(t.key("curve_rpm"), raw["curve_rpm"], "speeds in increasing order")
-            rpm_start = t.number("rpm_start", above=0.0)
-            rpm_end = t.number("rpm_end", above=0.0)
+            rpm_start = t.number("rpm_start", minimum=100.0, maximum=30000.0)
+            rpm_end = t.number("rpm_end", minimum=100.0, maximum=30000.0)
             for key, value in (("rpm_start", rpm_start), ("rpm_end", rpm_end)):
                 if not speeds[0] <= value <= speeds[-1]:
                     raise ScenarioError(t.key(key), value, f"a speed within the curve, {speeds[0]:g} to {speeds[-1]:g} rpm")
             step = Step(kind="pull", duration_s=duration, engine="on",
                         curve=EngineCurve(rpm=tuple(speeds), power_W=tuple(power)),
                         rpm_start=rpm_start, rpm_end=rpm_end)
+            if step.mean_power_W(0.0, 1.0) <= 0.0:
+                curve_key = "curve_torque" if "curve_torque" in raw else "curve_power"
+                raise ScenarioError(t.key(curve_key), raw[curve_key],
+                                    "a curve that absorbs some power between rpm_start and rpm_end")
         else:
             step = Step(kind="pull", duration_s=duration, engine="on",
-                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", above=0.0))
+                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
     else:
         engine = t.choice("engine", ("off", "idle"))
         if engine == "idle":
             step = Step(kind="wait", duration_s=duration, engine="idle",
-                        power_W=t.quantity("power", "power", "W", minimum=0.0), rpm=t.number("rpm", above=0.0))
+                        power_W=t.quantity("power", "power", "W", minimum=0.0), rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
         else:
             step = Step(kind="wait", duration_s=duration, engine="off")
     t.finish()
     return step
+
+
+def _at_most(table: _Table, name: str, value_si: float, limit_si: float, expected: str) -> float:
+    if value_si > limit_si:
+        raise ScenarioError(table.key(name), table.raw[name], expected)
+    return value_si
 
 
 def _number_list(t: _Table, name: str, minimum=None) -> list:

@@ -54,6 +54,9 @@ def parse_quantity(value, key: str, kind: str, bare_unit: str) -> float:
         magnitude, unit_text = float(match.group(1)), (match.group(2) or bare_unit)
     if kind != "temperature":  # in a rate such as "BTU/hr/degF" a degree is a temperature difference
         unit_text = _DEGREE_IN_RATE.sub(r"delta_deg\1", unit_text)
+    elif "delta" in unit_text or unit_text.strip() in ("K/s", "1/K"):
+        raise ScenarioError(key, value, "an absolute temperature such as '20 degC', '68 degF' or '293 K', "
+                                        "not a temperature difference")
     if not math.isfinite(magnitude):
         raise ScenarioError(key, value, "a finite number")
     try:

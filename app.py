@@ -66,7 +66,7 @@ def design_sweep_for(toml_text: str, progress=None):
     def compute():
         scenario = _scenario(toml_text)
         volumes, coolers = pi.design_grid(scenario, answers_for(toml_text))
-        return pi.sweep_in_parts(scenario, volumes, coolers, parts=4, progress=progress)
+        return pi.sweep_in_parts(scenario, volumes, coolers, parts=2, progress=progress)
     return _remember(("sweep", toml_text), compute)
 
 

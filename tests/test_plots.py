@@ -50,7 +50,7 @@ def _fake_sweep():
     V, K = np.meshgrid(volumes, coolers, indexing="ij")
     runs = np.floor(V * (1.0 + K / 4.0) / 2.0)  # invented, rising with oil and cooler
     runs[V * (1 + K) > 150] = np.nan              # invented "can go on all day" corner
-    return types.SimpleNamespace(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs,
+    return types.SimpleNamespace(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs, sustainable=np.isnan(runs),
                                  peak_C=np.full(V.shape, 60.0), pulls_under_limit=np.minimum(runs, 10),
                                  pulls_planned=10, limit_C=80.0)
 

@@ -494,14 +494,15 @@ def design_grid(scenario, answers: dict, n_volumes: int = 12, n_coolers: int = 1
     return volumes, coolers
 
 
-def sweep_in_parts(scenario, volumes_L, coolers_W_K, parts: int = 4, progress=None):
+def sweep_in_parts(scenario, volumes_L, coolers_W_K, parts: int = 2, progress=None, max_pulls: int = 150):
     """The design sweep cut into `parts` batches of cooler columns so that the page can show
-    progress; progress(fraction) is called after each batch. Returns one SweepResult."""
+    progress; progress(fraction) is called after each batch. Returns one SweepResult. Counting
+    stops at max_pulls (the chart's colour scale ends at 100 pulls)."""
     from .design_sweep import sweep
     chunks = [c for c in np.array_split(np.asarray(coolers_W_K, dtype=float), parts) if c.size]
     results = []
     for i, chunk in enumerate(chunks, start=1):
-        results.append(sweep(scenario, volumes_L, chunk))
+        results.append(sweep(scenario, volumes_L, chunk, max_pulls=max_pulls))
         if progress is not None:
             progress(i / len(chunks))
     joined = {name: np.concatenate([getattr(r, name) for r in results], axis=1)

@@ -70,7 +70,8 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     volumes = np.array([to_shown(v / 1000.0, "oil_volume", system) for v in r.oil_volumes_L])
     coolers = np.array([to_shown(k, "conductance", system) for k in r.coolers_W_per_K])
     runs = np.asarray(r.runs_before_limit, dtype=float)
-    unlimited = np.isnan(runs)
+    unlimited = np.isnan(runs)           # sustainable, or more pulls than the sweep counted
+    all_day = np.asarray(r.sustainable, dtype=bool)
     finite = runs[~unlimited]
     highest = float(finite.max()) if finite.size else float(r.pulls_planned)
     levels = _run_levels(int(r.pulls_planned), highest)
@@ -83,8 +84,8 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     cmap = matplotlib.colormaps["YlGnBu"]
     norm = BoundaryNorm(levels, cmap.N)
     bands = ax.contourf(X, Y, filled, levels=levels, cmap=cmap, norm=norm)
-    if unlimited.any():
-        ax.contourf(X, Y, unlimited.astype(float), levels=[0.5, 1.5], colors="none", hatches=["//"])
+    if all_day.any():
+        ax.contourf(X, Y, all_day.astype(float), levels=[0.5, 1.5], colors="none", hatches=["//"])
     lines = ax.contour(X, Y, filled, levels=[lv for lv in levels[1:-1] if lv != r.pulls_planned],
                        colors="k", linewidths=0.4, alpha=0.5)
     ax.clabel(lines, fmt="%d", fontsize=7)

@@ -33,10 +33,10 @@ COOL_DOWN_S = 5400.0
 
 
 def own_rig_scenario():
-    """16 pulls of 20 s at 9 kW with 1 min engine-off waits (steps line up with a 20 s log)."""
+    """16 pulls of 20 s at 5 kW with 1 min engine-off waits (steps line up with a 20 s log)."""
     raw = base_raw()
     set_path(raw, "session.repeat", 16)
-    set_path(raw, "session.steps", [{"kind": "pull", "duration": "20 s", "power": "9 kW", "rpm": 3400},
+    set_path(raw, "session.steps", [{"kind": "pull", "duration": "20 s", "power": "5 kW", "rpm": 3400},
                                     {"kind": "wait", "duration": "1 min", "engine": "off"}])
     return load_scenario(raw)
 
@@ -166,7 +166,7 @@ def test_a_log_without_cool_down_warns_that_the_parameters_are_hard_to_separate(
 # --- a structurally different truth -----------------------------------------------------------
 
 EXTRA_MASS_J_K = 12.0 * 460.0     # 12 kg of steel (c = 460 J/(kg K), invented block on the tank)
-EXTRA_TO_OIL_W_K = 6.0
+EXTRA_TO_OIL_W_K = 15.0       # a slow mass: C / G is about 6 min
 EXTRA_TO_AIR_W_K = 0.5
 
 
@@ -217,11 +217,16 @@ def test_structurally_different_truth_fits_honestly_and_predicts_held_out_part()
     full = [grid, noisy_C, power, pulls]
     result = fit_log(scenario, csv_text(header, [c[train] for c in full]))
     assert result.converged
-    # RMS reported honestly: it is the RMS of measured minus fitted at the log's rows
-    residual = noisy_C[train] - (result.fitted_K - 273.15)
-    assert result.rms_K == pytest.approx(float(np.sqrt(np.mean(residual**2))), rel=1e-9)
-    assert np.allclose(result.measured_K - 273.15, noisy_C[train], atol=1e-3)
-    assert result.rms_K > NOISE_K                          # the missing mass shows in the residual
+    # RMS reported honestly: the RMS of the logged values minus the model re-run with the fitted
+    # multipliers, at every row of the log
+    train_log = read_log(csv_text(header, [c[train] for c in full]))
+    refit = scenario.changed(**{"losses.convection_multiplier": result.convection_multiplier,
+                                "losses.capacity_multiplier": result.capacity_multiplier})
+    residual = np.round(noisy_C[train], 4) - (predict_log_K(refit, train_log) - 273.15)
+    assert result.n_points == train.sum()
+    assert result.rms_K == pytest.approx(float(np.sqrt(np.mean(residual**2))), rel=1e-6)
+    assert result.rms_K > 1.5 * NOISE_K                    # the missing mass shows in the residual
+    assert any("correlated in time" in w for w in result.warnings)   # and the result says so
     # the held-out second block, predicted by the calibrated scenario from the start of the day
     log = read_log(csv_text(header, full))
     predicted = predict_log_K(result.calibrated_scenario, log) - 273.15
@@ -229,10 +234,11 @@ def test_structurally_different_truth_fits_honestly_and_predicts_held_out_part()
     held_out = ~train
     error = predicted[held_out] - bulk[held_out] + 273.15
     error_as_given = as_given[held_out] - bulk[held_out] + 273.15
-    # Stated bound: the held-out prediction stays within 1.5 K (RMS within 0.8 K) of the truth,
-    # and beats the uncalibrated model.
-    assert np.max(np.abs(error)) < 1.5
-    assert np.sqrt(np.mean(error**2)) < 0.8
+    # Stated bound: the held-out block (12 pulls up to about 79 degC) is predicted within 2.5 K of
+    # the truth (RMS within 2 K), at most half the error of the model as given. Measured when
+    # written: RMS 1.5 K, largest 2.0 K, predicted low; as given RMS 5.0 K.
+    assert np.max(np.abs(error)) < 2.5
+    assert np.sqrt(np.mean(error**2)) < 2.0
     assert np.sqrt(np.mean(error**2)) < 0.5 * np.sqrt(np.mean(error_as_given**2))
 
 
@@ -260,8 +266,10 @@ def test_cli_fit_json_write_and_plot(tmp_path, capsys, demo_paths):
     assert out_png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 
-def test_cli_fit_summary_names_the_numbers(capsys, demo_paths):
-    assert main(["fit", *map(str, demo_paths), "--sensor", "bulk"]) == 0
+def test_cli_fit_summary_names_the_numbers(tmp_path, capsys, demo_paths):
+    log = tmp_path / "trace.csv"                   # the trace CSV of `run --csv`, a short log
+    log.write_text(trace_csv(simulate(load_scenario(demo_paths[0]))))
+    assert main(["fit", str(demo_paths[0]), str(log), "--sensor", "return"]) == 0
     out = capsys.readouterr().out
     assert "convection multiplier" in out and "capacity multiplier" in out and "RMS residual" in out
 

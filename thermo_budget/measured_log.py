@@ -342,7 +342,7 @@ def _check_usable(log: MeasuredLog, source: str):
         raise ScenarioError(source, f"{log.n_points} points", f"at least {MIN_POINTS} rows with a time and an oil temperature")
     T = log.oil_K[np.isfinite(log.oil_K)]
     start = float(np.median(T[:3]))
-    rise = float(T.max()) - start
+    rise = float(T[3:].max()) - start
     if rise < MIN_RISE_K:
         raise ScenarioError(source, f"a rise of {rise:.2f} K above the first readings",
                             f"a log with heating in it: the oil rising at least {MIN_RISE_K:g} K")

@@ -163,6 +163,17 @@ def test_a_log_without_cool_down_warns_that_the_parameters_are_hard_to_separate(
     assert high / low > 1.3                                # and the interval says so
 
 
+def test_a_wrong_start_temperature_is_flagged_and_the_offset_fit_removes_it():
+    scenario = own_rig_scenario()
+    trace = truth_trace(scenario, list(scenario.steps)[:16], 0.7, 1.3, start_K=scenario.start_K + 4.0)
+    grid, bulk, _, _, _ = sample(trace, LOG_INTERVAL_S)
+    text = csv_text(["time_s", "oil_C"], [grid, bulk - 273.15 + np.random.default_rng(15).normal(0.0, NOISE_K, bulk.size)])
+    assert any("start_temperature" in w for w in fit_log(scenario, text).warnings)
+    with_offset = fit_log(scenario, text, fit_start_offset=True)
+    assert not any("start_temperature" in w for w in with_offset.warnings)
+    assert abs(with_offset.start_offset_K - 4.0) < 0.3
+
+
 # --- a structurally different truth -----------------------------------------------------------
 
 EXTRA_MASS_J_K = 12.0 * 460.0     # 12 kg of steel (c = 460 J/(kg K), invented block on the tank)

@@ -29,6 +29,7 @@ from .errors import ScenarioError
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
+MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
 MISSING_CELLS = {"", "nan", "na", "n/a", "null", "none", "-"}
 # Readings outside this range are taken as a wrong unit or a broken sensor, not as oil (the upper
@@ -188,7 +189,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
                       n_skipped_cells=skipped, n_merged_rows=merged, rows_reordered=reordered,
                       largest_gap_s=largest_gap, notes=tuple(notes))
     _check_usable(log, source)
-    if gaps.size >= 2 and largest_gap > 10.0 * float(np.median(gaps)):
+    if gaps.size >= 2 and largest_gap > max(10.0 * float(np.median(gaps)), MIN_REPORTED_GAP_S):
         at = float(time_s[np.argmax(gaps)])
         extra = (" The heat input over it is the power_W or pull of the row after it."
                  if log.has_heat_input else "")

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 import tomli_w
 
-from thermo_budget.scenario import load_scenario
+from thermo_budget.scenario import load_scenario, with_path
 
 REPO = Path(__file__).resolve().parent.parent
 SCENARIO_DIR = REPO / "scenarios"
@@ -40,15 +40,10 @@ def base_raw() -> dict:
 
 
 def set_path(raw: dict, path: str, value):
-    """Set raw["a"]["b"] for path "a.b"; value None removes the key."""
-    parts = path.split(".")
-    table = raw
-    for part in parts[:-1]:
-        table = table.setdefault(part, {})
-    if value is None:
-        table.pop(parts[-1], None)
-    else:
-        table[parts[-1]] = value
+    """Set raw["a"]["b"] for path "a.b" in place; value None removes the key."""
+    new = with_path(raw, path, value)
+    raw.clear()
+    raw.update(new)
     return raw
 
 

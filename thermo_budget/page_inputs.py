@@ -17,6 +17,7 @@ import numpy as np
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
+from .scenario import with_path
 from .units import SI_UNIT, UREG, parse_quantity
 
 SYSTEMS = ("SI", "US")
@@ -113,20 +114,6 @@ def get_path(raw: dict, path: str, default=None):
             return default
         table = table[part]
     return table
-
-
-def with_path(raw: dict, path: str, value) -> dict:
-    """A copy of raw with path "a.b" set to value (None removes the key)."""
-    new = copy.deepcopy(raw)
-    parts = path.split(".")
-    table = new
-    for part in parts[:-1]:
-        table = table.setdefault(part, {})
-    if value is None:
-        table.pop(parts[-1], None)
-    else:
-        table[parts[-1]] = value
-    return new
 
 
 @dataclass(frozen=True)

@@ -176,17 +176,24 @@ class Scenario:
 
     def changed(self, **paths) -> "Scenario":
         """A new scenario with raw keys replaced, e.g. changed(**{"reservoir.oil_volume": "20 L"})."""
-        raw = copy.deepcopy(self.raw)
+        raw = self.raw
         for path, value in paths.items():
-            table = raw
-            parts = path.split(".")
-            for part in parts[:-1]:
-                table = table.setdefault(part, {})
-            if value is None:
-                table.pop(parts[-1], None)
-            else:
-                table[parts[-1]] = value
+            raw = with_path(raw, path, value)
         return load_scenario(raw)
+
+
+def with_path(raw: dict, path: str, value) -> dict:
+    """A copy of the document raw with the key path "a.b" set to value (None removes the key)."""
+    new = copy.deepcopy(raw)
+    parts = path.split(".")
+    table = new
+    for part in parts[:-1]:
+        table = table.setdefault(part, {})
+    if value is None:
+        table.pop(parts[-1], None)
+    else:
+        table[parts[-1]] = value
+    return new
 
 
 def read_toml_text(text: str, source: str = "scenario") -> dict:

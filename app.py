@@ -66,13 +66,15 @@ def design_sweep_for(toml_text: str, progress=None):
     def compute():
         scenario = _scenario(toml_text)
         volumes, coolers = pi.design_grid(scenario, answers_for(toml_text))
-        return pi.sweep_in_parts(scenario, volumes, coolers, parts=2, progress=progress)
+        planned = sum(step.is_pull for step in scenario.steps)
+        return pi.sweep_in_parts(scenario, volumes, coolers, parts=1, progress=progress,
+                                 max_pulls=max(4 * planned, 40))
     return _remember(("sweep", toml_text), compute)
 
 
 def _png(fig) -> bytes:
     buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=110)
+    fig.savefig(buffer, format="png", dpi=100)
     return buffer.getvalue()
 
 
@@ -497,6 +499,8 @@ if fit_log is not None:
         st.caption(f"95 % confidence: {result['ci95']}")
         for warning in result.get("warnings", []):
             st.warning(warning)
-        st.image(_png(plot_fit(fit)), width="stretch")
+        for note in result.get("notes", []):
+            st.caption(note)
+        st.image(_png(plot_fit(fit, system)), width="stretch")
         st.toggle("Use the calibrated model for the answers above", key="use_calibrated",
                   help="Plans with the heat loss and capacity learned from the log.")

@@ -127,6 +127,7 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--json", action="store_true")
     fit.add_argument("--write", metavar="CALIBRATED.toml")
     fit.add_argument("--plot", metavar="FIT.png")
+    fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
     fit.set_defaults(handler=_fit)
     return parser
 

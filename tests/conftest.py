@@ -47,6 +47,15 @@ def set_path(raw: dict, path: str, value):
     return raw
 
 
+def bad_scenario_path(tmp_path: Path, change) -> Path:
+    """A scenario file for one BAD_INPUTS case: raw text as given, or a change applied to base_raw()."""
+    if isinstance(change, str):
+        path = tmp_path / "scenario.toml"
+        path.write_text(change, encoding="utf-8")
+        return path
+    return write_toml(tmp_path, change(base_raw()))
+
+
 def write_toml(directory: Path, raw: dict, name: str = "scenario.toml") -> Path:
     path = Path(directory) / name
     path.write_text(tomli_w.dumps(raw), encoding="utf-8")

@@ -7,22 +7,14 @@ import pytest
 
 from thermo_budget.cli import main
 
-from conftest import BAD_INPUTS, REPO, REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, write_toml
+from conftest import BAD_INPUTS, REPO, REQUIRED_JSON_KEYS, SCENARIO_DIR, bad_scenario_path, base_raw, write_toml
 
 DEFAULT = str(SCENARIO_DIR / "default.toml")
 
 
-def _bad_path(tmp_path, change):
-    if isinstance(change, str):
-        path = tmp_path / "scenario.toml"
-        path.write_text(change, encoding="utf-8")
-        return path
-    return write_toml(tmp_path, change(base_raw()))
-
-
 @pytest.mark.parametrize("change, key", [(c, k) for _, c, k in BAD_INPUTS], ids=[i for i, _, _ in BAD_INPUTS])
 def test_bad_input_exits_2_with_one_line_naming_the_key(tmp_path, capsys, change, key):
-    path = _bad_path(tmp_path, change)
+    path = bad_scenario_path(tmp_path, change)
     code = main(["run", str(path)])
     out, err = capsys.readouterr()
     assert code == 2

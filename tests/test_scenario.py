@@ -6,7 +6,7 @@ import tomllib
 from thermo_budget.errors import ScenarioError
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
 
-from conftest import BAD_INPUTS, SHIPPED_SCENARIOS, base_raw, set_path, write_toml
+from conftest import BAD_INPUTS, SHIPPED_SCENARIOS, bad_scenario_path, base_raw, set_path
 
 # Exact unit factors (NIST SP 811)
 GALLON_M3 = 3.785411784e-3
@@ -144,17 +144,9 @@ def test_changed_gives_a_new_validated_scenario(base_scenario):
         base_scenario.changed(**{"reservoir.oil_volume": "-1 L"})
 
 
-def _bad(tmp_path, change):
-    if isinstance(change, str):
-        path = tmp_path / "scenario.toml"
-        path.write_text(change, encoding="utf-8")
-        return path
-    return write_toml(tmp_path, change(base_raw()))
-
-
 @pytest.mark.parametrize("change, key", [(c, k) for _, c, k in BAD_INPUTS], ids=[i for i, _, _ in BAD_INPUTS])
 def test_bad_input_raises_a_scenario_error_naming_the_key(tmp_path, change, key):
-    path = _bad(tmp_path, change)
+    path = bad_scenario_path(tmp_path, change)
     with pytest.raises(ScenarioError) as info:
         load_scenario(path)
     message = str(info.value)

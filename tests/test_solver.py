@@ -9,7 +9,7 @@ from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 from scipy.optimize import brentq
 
-from thermo_budget.network import HARDWARE, OIL, WALL, Inputs, node_equations
+from thermo_budget.network import OIL, Inputs, node_equations
 from thermo_budget.outcome import peak_oil_K, pulls_completed_under
 from thermo_budget.report import TRACE_RESOLUTION, session_report
 from thermo_budget.scenario import build_rig, limit_K, load_scenario

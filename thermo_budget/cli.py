@@ -30,7 +30,7 @@ def summary_text(result: dict) -> str:
              f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
              f"end {_temp(result['end_C'], u)}",
              f"  return line peak {_temp(result['peak_return_C'], u)}",
-             f"  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
+             "  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
                                       else f"{result['time_to_limit_s'] / 60:.1f} min"),
              f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
              f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
@@ -39,16 +39,16 @@ def summary_text(result: dict) -> str:
              f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in"]
     if "runs_before_limit" in result:
         runs = result["runs_before_limit"]
-        lines += [f"  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
+        lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
                                                                    else ("more than can be counted" if runs is None else str(runs))),
-                  f"  steady peak      " + (_temp(result["steady_peak_C"], u) if result["sustainable"] else "none (not sustainable)"),
-                  f"  minimum wait     " + ("impossible" if result["min_wait_s"] is None else f"{result['min_wait_s']:.0f} s"),
-                  f"  cooler           " + ("not needed" if not result["cooler_needed"] else
+                  "  steady peak      " + (_temp(result["steady_peak_C"], u) if result["sustainable"] else "none (not sustainable)"),
+                  "  minimum wait     " + ("impossible" if result["min_wait_s"] is None else f"{result['min_wait_s']:.0f} s"),
+                  "  cooler           " + ("not needed" if not result["cooler_needed"] else
                                             ("no rating suffices" if result["cooler_required_W_per_K"] is None else
                                              f"needed: {_fmt(result['cooler_required_W_per_K'], 'conductance', u, 1)}")),
-                  f"  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
+                  "  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
                                                       else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
-                  f"  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
+                  "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)

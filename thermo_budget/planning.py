@@ -255,7 +255,7 @@ def _pull_and_wait_blocks(scenario: Scenario):
     return blocks
 
 
-def _run_steps(rig, steps, X, waits_scale=None):
+def _run_steps(rig, steps, X):
     trace = integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
     return trace
 

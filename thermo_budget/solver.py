@@ -49,19 +49,21 @@ def propagate_linear(C, L, b, T0, h):
     return T1, T_int
 
 
-def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K):
-    """One sub-step: predictor at T0, corrector at the predicted mid-point, energy-exact end state.
+def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
+    """One sub-step: predictor, corrector at the predicted mid-point, energy-exact end state.
 
-    Returns (T1 (N,3), heat_in_J (N,), heat_lost_J (N,)).
+    predictor : optional (C, L, b) to predict with; by default the system frozen at T0. Within one
+        step (same inputs) the previous sub-step's corrector serves and saves an evaluation.
+    Returns (T1 (N,3), heat_in_J (N,), heat_lost_J (N,), the corrector's (C, L, b)).
     """
-    C, L, b, _, _ = node_equations(rig, T0, inputs)
+    C, L, b = node_equations(rig, T0, inputs)[:3] if predictor is None else predictor
     T_pred, _ = propagate_linear(C, L, b, T0, h)
     C, L, b, g_amb, loss_offset = node_equations(rig, 0.5 * (T0 + T_pred), inputs)
     T_lin, T_int = propagate_linear(C, L, b, T0, h)
     heat_in = np.broadcast_to(inputs.power_W, h.shape) * h
     heat_lost = np.sum(g_amb * (T_int - ambient_K * h[:, None]), axis=1) + loss_offset * h
     H1 = node_enthalpy_J(rig, T0) + C * (T_lin - T0)
-    return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost
+    return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (C, L, b)
 
 
 @dataclass
@@ -109,12 +111,15 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         h = duration / n_sub
         if step.is_pull:
             pull_start.append(t.copy())
+        corrector = None
         for k in range(n_sub):
             f0, f1 = k / n_sub, (k + 1) / n_sub
             power = step.mean_power_W(f0, f1)
             flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
             inputs = Inputs(power_W=np.full(n_designs, power), volume_flow_m3_s=np.full(n_designs, float(flow)))
-            T, q_in, q_lost = advance_substep(rig, T, inputs, h, rig.ambient_K)
+            constant_inputs = step.curve is None and k > 0
+            T, q_in, q_lost, corrector = advance_substep(rig, T, inputs, h, rig.ambient_K,
+                                                         corrector if constant_inputs else None)
             energy_in += q_in
             energy_lost += q_lost
             t = t + h

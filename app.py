@@ -65,7 +65,7 @@ def _remember(key, compute, keep: int = 32):
 def design_sweep_for(toml_text: str, progress=None):
     def compute():
         scenario = _scenario(toml_text)
-        volumes, coolers = pi.design_grid(scenario, answers_for(toml_text))
+        volumes, coolers = pi.design_grid(scenario, answers_for(toml_text), n_volumes=10, n_coolers=10)
         planned = sum(step.is_pull for step in scenario.steps)
         return pi.sweep_in_parts(scenario, volumes, coolers, parts=1, progress=progress,
                                  max_pulls=max(4 * planned, 40))
@@ -74,7 +74,7 @@ def design_sweep_for(toml_text: str, progress=None):
 
 def _png(fig) -> bytes:
     buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=100)
+    fig.savefig(buffer, format="png", dpi=90)
     return buffer.getvalue()
 
 
@@ -87,7 +87,7 @@ def design_png(toml_text: str, system: str) -> bytes:
     key = ("png", toml_text, system)
     if key in _design_store():
         return _design_store()[key]
-    bar = st.progress(0.0, text="Working out the design chart (12 × 12 rigs)…")
+    bar = st.progress(0.0, text="Working out the design chart (10 × 10 rigs)…")
     sweep = design_sweep_for(toml_text, progress=lambda f: bar.progress(f, text="Working out the design chart…"))
     png = _remember(key, lambda: _png(plot_design_chart(_scenario(toml_text), sweep, system)))
     bar.empty()

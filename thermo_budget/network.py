@@ -85,12 +85,15 @@ class Inputs:
         return np.asarray(self.volume_flow_m3_s) > 0.0
 
 
-def heat_capacities_J_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
-    """Node heat capacities (N, 3), J/K; the oil's follows Cragoe's c_p(T)."""
-    oil = rig.oil_mass_kg * rig.oil.specific_heat(T_K[:, OIL])
-    wall = np.broadcast_to(rig.wall_capacity_J_K, oil.shape)
-    hardware = np.broadcast_to(rig.hardware_capacity_J_K, oil.shape)
-    return rig.capacity_multiplier * np.stack([oil, wall, hardware], axis=-1)
+def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndarray:
+    """Node heat capacities (N, 3), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK, if
+    the caller has it already)."""
+    cp = rig.oil.specific_heat(T_K[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
+    C = np.empty((T_K.shape[0], 3))
+    C[:, OIL] = rig.oil_mass_kg * cp
+    C[:, WALL] = rig.wall_capacity_J_K
+    C[:, HARDWARE] = rig.hardware_capacity_J_K
+    return rig.capacity_multiplier * C
 
 
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
@@ -261,11 +264,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     b = g_amb * T_a
     b[:, OIL] += P - G_cool * return_rise - 0.5 * G_oh * return_rise
     b[:, HARDWARE] += 0.5 * G_oh * return_rise
-    C = np.empty((n, 3))
-    C[:, OIL] = rig.oil_mass_kg * cp
-    C[:, WALL] = rig.wall_capacity_J_K
-    C[:, HARDWARE] = rig.hardware_capacity_J_K
-    return rig.capacity_multiplier * C, L, b, g_amb, G_cool * return_rise
+    return heat_capacities_J_K(rig, T_K, cp), L, b, g_amb, G_cool * return_rise
 
 
 def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):

@@ -112,7 +112,3 @@ class Resolution:
 
 PLAN_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=8, max_substep_s=120.0, max_substeps=6)
 
-
-def session_steps(cycle: list[Step], repeat: int) -> list[Step]:
-    """The planned session: the cycle's steps, repeated."""
-    return [step for _ in range(repeat) for step in cycle]

@@ -105,10 +105,3 @@ def unit_label(kind: str, system: str) -> str:
     """The printed symbol of the display unit, e.g. '°F'."""
     return UNIT_LABEL[DISPLAY_UNITS[system][kind]]
 
-
-def kelvin_to_celsius(temperature_K):
-    return temperature_K - 273.15
-
-
-def celsius_to_kelvin(temperature_C):
-    return temperature_C + 273.15

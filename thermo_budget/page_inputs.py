@@ -18,7 +18,7 @@ from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
 from .scenario import with_path
-from .units import SI_UNIT, UREG, parse_quantity
+from .units import SI_UNIT, convert, parse_quantity
 
 SYSTEMS = ("SI", "US")
 SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
@@ -52,16 +52,16 @@ UNIT_SYMBOLS = {"L": "L", "gal": "gal", "m": "m", "in": "in", "mm": "mm", "ft": 
                 "N*m": "N·m", "lbf*ft": "lbf·ft"}
 
 
-def to_shown(value_si: float, quantity: str, system: str) -> float:
-    """An SI value (K, m^3, W, ...) in the display unit of `quantity` in `system`."""
+def to_shown(value_si, quantity: str, system: str):
+    """An SI value (K, m^3, W, ...; float or array) in the display unit of `quantity` in `system`."""
     kind, unit, _ = QUANTITIES[quantity]
-    return float(UREG.Quantity(value_si, SI_UNIT[kind]).to(unit[system]).magnitude)
+    return convert(value_si, SI_UNIT[kind], unit[system])
 
 
-def from_shown(value: float, quantity: str, system: str) -> float:
-    """A value in the display unit of `quantity` in `system`, back in SI."""
+def from_shown(value, quantity: str, system: str):
+    """A value in the display unit of `quantity` in `system` (float or array), back in SI."""
     kind, unit, _ = QUANTITIES[quantity]
-    return float(UREG.Quantity(value, unit[system]).to(SI_UNIT[kind]).magnitude)
+    return convert(value, unit[system], SI_UNIT[kind])
 
 
 def unit_symbol(quantity: str, system: str) -> str:
@@ -454,11 +454,10 @@ def trace_csv_shown(trace, system: str) -> str:
     t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
     p_unit = QUANTITIES["power"][1][system]
     header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
+    columns = [rows[:, 0], *(to_shown(rows[:, i] + 273.15, "temperature", system) for i in range(1, 5)),
+               to_shown(rows[:, 5], "power", system)]
     lines = [",".join(header)]
-    for row in rows:
-        temps = [to_shown(c + 273.15, "temperature", system) for c in row[1:5]]
-        values = [row[0], *temps, to_shown(row[5], "power", system)]
-        lines.append(",".join(f"{values[0]:.3f}" if i == 0 else f"{v:.6g}" for i, v in enumerate(values)))
+    lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
     return "\n".join(lines) + "\n"
 
 

@@ -16,10 +16,12 @@ from .scenario import limit_K  # noqa: E402
 
 OIL_COLOUR, RETURN_COLOUR, WALL_COLOUR, LIMIT_COLOUR = "#b5461f", "#e39b2d", "#4a6c8c", "#8b0000"
 PULL_SHADE = "#f2d7c9"
+# Fixed margins (fractions of the figure): a layout engine would cost a second draw of every label.
+_MARGINS = {"left": 0.09, "right": 0.98, "bottom": 0.12, "top": 0.92}
 
 
 def _temperatures(T_K, system):
-    return np.array([to_shown(float(t), "temperature", system) for t in np.ravel(T_K)]).reshape(np.shape(T_K))
+    return to_shown(np.asarray(T_K, dtype=float), "temperature", system)
 
 
 def plot_trace(scenario, trace, system: str | None = None) -> Figure:
@@ -29,7 +31,8 @@ def plot_trace(scenario, trace, system: str | None = None) -> Figure:
     t_min = trace.time_s[:, 0] / 60.0
     limit, reason = limit_K(scenario)
     symbol = unit_symbol("temperature", system)
-    fig = Figure(figsize=(8.0, 4.2), layout="constrained")
+    fig = Figure(figsize=(8.0, 4.2))
+    fig.subplots_adjust(**_MARGINS)
     ax = fig.add_subplot()
     for start, end in zip(trace.pull_start_s[:, 0], trace.pull_end_s[:, 0]):
         ax.axvspan(start / 60.0, end / 60.0, color=PULL_SHADE, lw=0, zorder=0)
@@ -67,8 +70,8 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     designs that can go on all day are hatched; the current rig is marked."""
     system = system or scenario.units
     r = sweep_result
-    volumes = np.array([to_shown(v / 1000.0, "oil_volume", system) for v in r.oil_volumes_L])
-    coolers = np.array([to_shown(k, "conductance", system) for k in r.coolers_W_per_K])
+    volumes = to_shown(np.asarray(r.oil_volumes_L) / 1000.0, "oil_volume", system)
+    coolers = to_shown(np.asarray(r.coolers_W_per_K, dtype=float), "conductance", system)
     runs = np.asarray(r.runs_before_limit, dtype=float)
     unlimited = np.isnan(runs)           # sustainable, or more pulls than the sweep counted
     all_day = np.asarray(r.sustainable, dtype=bool)
@@ -78,7 +81,8 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     ceiling = levels[-1]
     filled = np.where(unlimited, ceiling, runs)  # unlimited counts above every band
 
-    fig = Figure(figsize=(8.0, 5.2), layout="constrained")
+    fig = Figure(figsize=(8.0, 5.2))
+    fig.subplots_adjust(**_MARGINS)
     ax = fig.add_subplot()
     X, Y = np.meshgrid(volumes, coolers, indexing="ij")
     cmap = matplotlib.colormaps["YlGnBu"]

@@ -6,7 +6,9 @@ from __future__ import annotations
 
 import math
 import re
+from functools import lru_cache
 
+import numpy as np
 import pint
 
 from .errors import ScenarioError
@@ -89,16 +91,31 @@ _SI_OF_DISPLAY_KIND = {"temperature": "K", "temperature_difference": "delta_degC
                        "torque": "N*m"}
 
 
-def to_display(value_si: float, kind: str, system: str) -> float:
-    """Convert an SI value of ``kind`` to the display unit of ``system`` ("SI" or "US")."""
-    unit = DISPLAY_UNITS[system][kind]
-    return float(UREG.Quantity(value_si, _SI_OF_DISPLAY_KIND[kind]).to(unit).magnitude)
+@lru_cache(maxsize=None)
+def affine_conversion(from_unit: str, to_unit: str) -> tuple[float, float]:
+    """(scale, offset) with value_in_to_unit = scale * value_in_from_unit + offset, taken from pint
+    once per unit pair (every unit the package converts between is affine: K to degF has an offset,
+    the rest are pure scales). Saves the page a pint call per number and works on arrays."""
+    at_zero = float(UREG.Quantity(0.0, from_unit).to(to_unit).magnitude)
+    at_one = float(UREG.Quantity(1.0, from_unit).to(to_unit).magnitude)
+    return at_one - at_zero, at_zero
 
 
-def from_display(value: float, kind: str, system: str) -> float:
+def convert(value, from_unit: str, to_unit: str):
+    """value (float or array) from one unit to another; a float stays a float."""
+    scale, offset = affine_conversion(from_unit, to_unit)
+    converted = scale * np.asarray(value, dtype=float) + offset
+    return float(converted) if converted.ndim == 0 else converted
+
+
+def to_display(value_si, kind: str, system: str):
+    """Convert an SI value (float or array) of ``kind`` to the display unit of ``system`` ("SI" or "US")."""
+    return convert(value_si, _SI_OF_DISPLAY_KIND[kind], DISPLAY_UNITS[system][kind])
+
+
+def from_display(value, kind: str, system: str):
     """Convert a value in the display unit of ``system`` back to SI."""
-    unit = DISPLAY_UNITS[system][kind]
-    return float(UREG.Quantity(value, unit).to(_SI_OF_DISPLAY_KIND[kind]).magnitude)
+    return convert(value, DISPLAY_UNITS[system][kind], _SI_OF_DISPLAY_KIND[kind])
 
 
 def unit_label(kind: str, system: str) -> str:

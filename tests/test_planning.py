@@ -199,3 +199,41 @@ def test_longer_wait_never_fewer_pulls(p):
     assert np.all(np.diff(under) >= 0)
     # pulls start no hotter after a longer wait, so the planned session never peaks higher
     assert np.all(np.diff(peak) <= 1e-9)
+
+
+# The short routes the answers take must give what the long ones give.
+
+def _shipped_and_short_of_oil():
+    base = load_scenario(DEFAULT_SCENARIO)
+    others = sorted(DEFAULT_SCENARIO.parent.glob("*.toml"))
+    return [load_scenario(path) for path in others] + [base.changed(**{"reservoir.oil_volume": "8 L"})]
+
+
+@pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
+def test_schedule_read_off_the_session_equals_the_block_search(scenario):
+    from thermo_budget.planning import ready_schedule, session_trace
+    rig = build_rig(scenario)
+    assert ready_schedule(scenario, [], session_trace(scenario, rig, 1)) == ready_schedule(scenario, [])
+
+
+@pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
+def test_runs_before_limit_reuses_the_session_as_its_first_chunk(scenario):
+    from thermo_budget.planning import runs_before_limit, session_trace
+    volumes = np.array([0.4, 1.0, 2.0]) * scenario.reservoir.oil_volume_m3
+    rig = build_rig(scenario, oil_volume_m3=volumes)
+    never = np.zeros(3, bool)
+    plain = runs_before_limit(scenario, rig, 3, never)
+    reused = runs_before_limit(scenario, rig, 3, never, session=session_trace(scenario, rig, 3))
+    np.testing.assert_array_equal(plain, reused)
+
+
+def test_runs_before_limit_stops_counting_at_max_pulls():
+    from thermo_budget.planning import runs_before_limit
+    scenario = load_scenario(DEFAULT_SCENARIO)
+    rig = build_rig(scenario)
+    full = runs_before_limit(scenario, rig, 1, np.zeros(1, bool))[0]
+    assert full > 12
+    assert np.isnan(runs_before_limit(scenario, rig, 1, np.zeros(1, bool), max_pulls=12)[0])
+    # full pulls completed, so the crossing is in pull full + 1: counting that far finds it
+    assert runs_before_limit(scenario, rig, 1, np.zeros(1, bool), max_pulls=int(full) + 1)[0] == full
+    assert np.isnan(runs_before_limit(scenario, rig, 1, np.zeros(1, bool), max_pulls=int(full))[0])

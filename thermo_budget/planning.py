@@ -14,6 +14,7 @@ from .solver import integrate
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
+NEWTON_ITERATIONS = 12
 GRID_POINTS = 24           # candidates per round of a batched search
 GRID_ROUNDS = 3
 # Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
@@ -37,12 +38,18 @@ def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
     return per_cycle * repeat
 
 
-def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None):
-    """Integrate the planned session for n designs. Returns (peak oil K (N,), pulls under limit (N,))."""
+def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None):
+    """The planned session for n designs at the planning resolution (a Trace)."""
     steps = scenario.steps
     durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    trace = integrate(rig, steps, scenario.start_K if start_K is None else start_K, n_designs=n,
-                      durations_s=durations, resolution=PLAN_RESOLUTION)
+    return integrate(rig, steps, scenario.start_K if start_K is None else start_K, n_designs=n,
+                     durations_s=durations, resolution=PLAN_RESOLUTION)
+
+
+def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None, trace=None):
+    """Integrate the planned session for n designs (or take `trace`, a session_trace already
+    computed). Returns (peak oil K (N,), pulls under limit (N,))."""
+    trace = session_trace(scenario, rig, n, wait_s, start_K) if trace is None else trace
     limit, _ = limit_K(scenario)
     return peak_oil_K(trace), pulls_completed_under(trace, limit)
 
@@ -65,6 +72,7 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     Jacobian, all designs and perturbations in one batch).
 
     Returns (state at cycle start (N,3) K, peak oil over the periodic cycle (N,) K, converged (N,)).
+    The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K.
     """
     X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, 3)), dtype=float)
     delta = 0.01
@@ -72,22 +80,20 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     rig4 = take_designs(rig, index4)
     wait4 = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), 4)
     eye = np.eye(3)
-    converged = np.zeros(n, bool)
-    for _ in range(12):
+    for iteration in range(NEWTON_ITERATIONS):
         X4 = np.repeat(X, 4, axis=0)
         X4[1::4] += delta * eye[0]
         X4[2::4] += delta * eye[1]
         X4[3::4] += delta * eye[2]
-        F4, _ = _cycle_end(scenario, rig4, X4, wait4)
-        F = F4[0::4]
-        J = np.stack([(F4[i + 1::4] - F) / delta for i in range(3)], axis=-1)
+        F4, peak4 = _cycle_end(scenario, rig4, X4, wait4)
+        F, peak = F4[0::4], peak4[0::4]   # the cycle from X itself, and its peak
         residual = F - X
         converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
-        if converged.all():
+        if converged.all() or iteration == NEWTON_ITERATIONS - 1:
             break
+        J = np.stack([(F4[i + 1::4] - F) / delta for i in range(3)], axis=-1)
         step = np.linalg.solve(J - eye + 1e-12 * eye, -residual[..., None])[..., 0]
         X = np.clip(X + step, 150.0, 1500.0)
-    _, peak = _cycle_end(scenario, rig, X, wait_s)
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
     return X, peak, ok
 
@@ -112,28 +118,36 @@ def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: 
     return ok, peak
 
 
-def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS):
+def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS,
+                      session=None):
     """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
-    Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls."""
+    Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls.
+
+    The cycle is integrated in chunks that double (the planned session first, then twice as many
+    cycles, and so on), the last one cut to end at max_pulls. session : optional session_trace of
+    the same rig and designs, used as the first chunk.
+    """
     limit, _ = limit_K(scenario)
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
     runs = np.full(n, np.nan)
     active = np.flatnonzero(~sustainable)
     X = np.array(np.broadcast_to(scenario.start_K, (n, 3)), dtype=float)
-    done_pulls = np.zeros(n)
+    done_pulls = 0
     cycles = max(scenario.repeat, 1)
-    while active.size and done_pulls[active].min() < max_pulls:
-        sub = take_designs(rig, active)
-        trace = integrate(sub, list(scenario.cycle) * cycles, X[active], n_designs=active.size,
-                          resolution=PLAN_RESOLUTION)
+    while active.size and done_pulls < max_pulls:
+        if done_pulls == 0 and session is not None:
+            trace = session.designs(active)
+        else:
+            trace = integrate(take_designs(rig, active), list(scenario.cycle) * cycles, X[active],
+                              n_designs=active.size, resolution=PLAN_RESOLUTION)
         under = pulls_completed_under(trace, limit)
         total_pulls = cycles * pulls_per_cycle
         crossed = under < total_pulls
-        runs[active[crossed]] = done_pulls[active[crossed]] + under[crossed]
+        runs[active[crossed]] = done_pulls + under[crossed]
         X[active] = trace.final_K
-        done_pulls[active] += total_pulls
+        done_pulls += total_pulls
         active = active[~crossed]
-        cycles *= 2
+        cycles = min(2 * cycles, -(-(max_pulls - done_pulls) // pulls_per_cycle))
     return runs
 
 
@@ -260,10 +274,43 @@ def _run_steps(rig, steps, X):
     return trace
 
 
-def ready_schedule(scenario: Scenario, notes: list) -> list[dict]:
+def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
+    """The ready-to-pull schedule read off the planned session's trace (design 0), if no pull needs
+    a longer wait: every pull peaks at least SEARCH_MARGIN_K under the limit and no ready
+    temperature is set. None otherwise. Same rows as the block-by-block search would give."""
+    if scenario.ready_temperature_K is not None:
+        return None
+    limit, _ = limit_K(scenario)
+    oil = session.T_K[:, 0, OIL]
+    rows, planned_wait = [], 0.0
+    for index, step in enumerate(scenario.steps):
+        if not step.is_pull:
+            planned_wait += step.duration_s
+            continue
+        points = np.flatnonzero(session.step_index == index)
+        start = points[0] - 1
+        peak = float(oil[start:points[-1] + 1].max())
+        if peak > limit - SEARCH_MARGIN_K:
+            return None
+        rows.append({"index": len(rows) + 1, "start_s": round(float(session.time_s[start, 0]), 2),
+                     "start_C": round(float(oil[start]) - 273.15, 3), "peak_C": round(peak - 273.15, 3),
+                     "wait_before_s": round(planned_wait, 2), "planned_wait_s": round(planned_wait, 2),
+                     "extra_wait_s": 0.0})
+        planned_wait = 0.0
+    return rows
+
+
+def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
     """Ready-to-pull schedule: each planned pull starts after its planned wait, lengthened where
     needed so that the pull peaks at the limit at most (or, with session.ready_temperature, not
-    before the oil has cooled to it). Waits keep their engine state (off or idle)."""
+    before the oil has cooled to it). Waits keep their engine state (off or idle).
+
+    session : optional session_trace of the scenario's rig; where it shows that no pull needs a
+    longer wait, the schedule is read off it.
+    """
+    as_planned = None if session is None else _schedule_as_planned(scenario, session)
+    if as_planned is not None:
+        return as_planned
     limit, _ = limit_K(scenario)
     rig = build_rig(scenario)
     X = np.full((1, 3), scenario.start_K)
@@ -323,15 +370,17 @@ def planning_answers(scenario: Scenario) -> dict:
     notes: list[str] = []
     rig = build_rig(scenario)
     limit, reason = limit_K(scenario)
+    session = session_trace(scenario, rig, 1)
     sustainable, steady_peak = sustainability(scenario, rig, 1)
     sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
-    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]))[0]
+    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
     if sustainable:
         notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
                      f"{steady_peak - 273.15:.1f} degC, below the {limit - 273.15:.1f} degC limit.")
     elif np.isnan(runs):
         notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
-    peak, _ = session_outcome(scenario, build_rig(scenario, cooler_W_K=0.0), 1)
+    uncooled = None if scenario.cooler_W_K > 0 else session
+    peak, _ = session_outcome(scenario, build_rig(scenario, cooler_W_K=0.0), 1, trace=uncooled)
     cooler_needed = bool(peak[0] > limit)
     cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
     if not cooler_needed:
@@ -352,6 +401,6 @@ def planning_answers(scenario: Scenario) -> dict:
         "cooler_required_sustained_W_per_K": cooler_sustained,
         "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
         "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
-        "schedule": ready_schedule(scenario, notes),
+        "schedule": ready_schedule(scenario, notes, session),
         "notes": notes,
     }

@@ -89,6 +89,14 @@ class Trace:
     def final_K(self) -> np.ndarray:
         return self.T_K[-1]
 
+    def designs(self, index) -> "Trace":
+        """The trace of the designs in `index` only."""
+        return Trace(time_s=self.time_s[:, index], T_K=self.T_K[:, index], return_K=self.return_K[:, index],
+                     power_W=self.power_W[:, index], step_index=self.step_index,
+                     energy_in_J=self.energy_in_J[index], energy_lost_J=self.energy_lost_J[index],
+                     energy_stored_J=self.energy_stored_J[index], pull_start_s=self.pull_start_s[:, index],
+                     pull_end_s=self.pull_end_s[:, index])
+
 
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
               resolution: Resolution = Resolution(), start_time_s=0.0) -> Trace:

@@ -128,16 +128,29 @@ def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0
         Nu = Nu_vertical_plate_Churchill_Chu(Ra, pr)
     elif kind == "cylinder":
         Nu = Nu_horizontal_cylinder_Churchill_Chu(Ra, pr)
-    elif kind == "top":      # hot face up when the surface is hotter than the air
-        Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_up_McAdams(Ra), Nu_horizontal_plate_hot_down_McAdams(Ra))
-    else:                    # "bottom": hot face down
-        Nu = np.where(dT >= 0, Nu_horizontal_plate_hot_down_McAdams(Ra), Nu_horizontal_plate_hot_up_McAdams(Ra))
-    h_natural = Nu * k / length_m
+    else:
+        top, bottom = _Nu_top_and_bottom(Ra, dT)
+        Nu = top if kind == "top" else bottom
+    return _with_forced_air(Nu * k / length_m, (k, nu, pr), air_speed_m_s,
+                            length_m if plate_length_m is None else plate_length_m)
+
+
+def _Nu_top_and_bottom(Ra, dT):
+    """Nusselt numbers of the top and bottom faces of one horizontal plate (McAdams): the top is the
+    hot face up while the plate is hotter than the air, the bottom the hot face down."""
+    up, down = Nu_horizontal_plate_hot_up_McAdams(Ra), Nu_horizontal_plate_hot_down_McAdams(Ra)
+    hotter = dT >= 0
+    return np.where(hotter, up, down), np.where(hotter, down, up)
+
+
+def _with_forced_air(h_natural_W_m2K, air, air_speed_m_s, plate_length_m):
+    """Natural convection combined with forced flow along a plate of plate_length_m (Churchill 1977,
+    n = 3); h_natural unchanged in still air. air : (k, nu, Pr)."""
     if not air_speed_m_s > 0:
-        return h_natural
-    L_forced = length_m if plate_length_m is None else plate_length_m
-    Nu_F = Nu_flat_plate_forced_Incropera(air_speed_m_s * L_forced / nu, pr)
-    return Nu_combined_Churchill(Nu_F * k / L_forced, h_natural)
+        return h_natural_W_m2K
+    k, nu, pr = air
+    Nu_F = Nu_flat_plate_forced_Incropera(air_speed_m_s * plate_length_m / nu, pr)
+    return Nu_combined_Churchill(Nu_F * k / plate_length_m, h_natural_W_m2K)
 
 
 def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
@@ -163,37 +176,55 @@ def _series(area_m2, h_W_m2K, resistance_m2K_W):
     return area_m2 * h_W_m2K / (1.0 + h_W_m2K * resistance_m2K_W)
 
 
-def wall_to_ambient_W_K(rig: Rig, T_wall_K):
-    """Conductance reservoir wall -> air, W/K: convection (times the multiplier) plus radiation on
-    every outer face, each in series with half the wall thickness."""
-    T_a = rig.ambient_K
-    m = rig.convection_multiplier
-    h_rad = h_radiation_grey(rig.wall_emissivity, T_wall_K, T_a)
+def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K):
+    """Conductances to the air, W/K: (reservoir wall, loop hardware), each convection (times the
+    multiplier) plus linearised radiation.
+
+    Wall: the tank's sides (vertical plates, Churchill-Chu), top and bottom (McAdams), each in
+    series with half the wall thickness. Hardware: hoses as horizontal cylinders (Churchill-Chu),
+    pump, valve and fittings as vertical plates of the equivalent cube's side.
+    Evaluated together to share work: one air-property lookup for both film temperatures, one
+    vertical-plate evaluation for the tank sides and the pump body, one Rayleigh number for the top
+    and the bottom (same face, same temperature).
+    """
+    T_a, m, speed = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s
+    T_s = np.stack(np.broadcast_arrays(np.asarray(T_wall_K, dtype=float), np.asarray(T_hardware_K, dtype=float)))
+    k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # row 0 at the wall's film, row 1 the hardware's
+    dT = T_s - T_a
+    h_rad_wall = h_radiation_grey(rig.wall_emissivity, T_s[0], T_a)
+    h_rad_hw = h_radiation_grey(rig.hardware_emissivity, T_s[1], T_a)
+
+    vertical_length = np.stack(np.broadcast_arrays(rig.side_height_m, rig.body_length_m, T_s[0]))[:2]
+    forced_length = np.stack(np.broadcast_arrays(rig.plate_length_m, rig.body_length_m, T_s[0]))[:2]
+    Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta, dT, vertical_length, nu, pr), pr)
+    h_side, h_body = _with_forced_air(Nu_vertical * k / vertical_length, (k, nu, pr), speed, forced_length)
+
+    air_w = (k[0], nu[0], pr[0])
+    Nu_top, Nu_bottom = _Nu_top_and_bottom(rayleigh(beta[0], dT[0], rig.top_length_m, nu[0], pr[0]), dT[0])
+    h_top = _with_forced_air(Nu_top * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
+    h_bottom = _with_forced_air(Nu_bottom * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
+
+    D = rig.hose_outer_diameter_m
+    Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[1], dT[1], D, nu[1], pr[1]), pr[1])
+    h_hose = _with_forced_air(Nu_hose * k[1] / D, (k[1], nu[1], pr[1]), speed, D)
+
     half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    faces = (("vertical", rig.side_area_m2, rig.side_height_m),
-             ("top", rig.top_area_m2, rig.top_length_m),
-             ("bottom", rig.bottom_area_m2, rig.top_length_m))
-    air = air_properties(0.5 * (T_wall_K + T_a))
-    total = 0.0
-    for kind, area, length in faces:
-        h_conv = h_air_W_m2K(kind, length, T_wall_K, T_a, rig.air_speed_m_s, rig.plate_length_m, air)
-        total = total + _series(area, m * h_conv + h_rad, half_wall)
-    return total
+    wall = (_series(rig.side_area_m2, m * h_side + h_rad_wall, half_wall)
+            + _series(rig.top_area_m2, m * h_top + h_rad_wall, half_wall)
+            + _series(rig.bottom_area_m2, m * h_bottom + h_rad_wall, half_wall))
+    hose_area = np.pi * D * rig.hose_length_m
+    hardware = hose_area * (m * h_hose + h_rad_hw) + rig.body_area_m2 * (m * h_body + h_rad_hw)
+    return wall, hardware
+
+
+def wall_to_ambient_W_K(rig: Rig, T_wall_K):
+    """Conductance reservoir wall -> air, W/K (see ambient_conductances_W_K)."""
+    return ambient_conductances_W_K(rig, T_wall_K, T_wall_K)[0]
 
 
 def hardware_to_ambient_W_K(rig: Rig, T_hardware_K):
-    """Conductance loop hardware -> air, W/K: hoses as horizontal cylinders, pump and valve body as
-    vertical plates of the equivalent cube's side, plus radiation."""
-    T_a = rig.ambient_K
-    m = rig.convection_multiplier
-    h_rad = h_radiation_grey(rig.hardware_emissivity, T_hardware_K, T_a)
-    hose_area = np.pi * rig.hose_outer_diameter_m * rig.hose_length_m
-    air = air_properties(0.5 * (T_hardware_K + T_a))
-    h_hose = h_air_W_m2K("cylinder", rig.hose_outer_diameter_m, T_hardware_K, T_a, rig.air_speed_m_s,
-                         rig.hose_outer_diameter_m, air)
-    h_body = h_air_W_m2K("vertical", rig.body_length_m, T_hardware_K, T_a, rig.air_speed_m_s,
-                         rig.body_length_m, air)
-    return hose_area * (m * h_hose + h_rad) + rig.body_area_m2 * (m * h_body + h_rad)
+    """Conductance loop hardware -> air, W/K (see ambient_conductances_W_K)."""
+    return ambient_conductances_W_K(rig, T_hardware_K, T_hardware_K)[1]
 
 
 def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
@@ -248,8 +279,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
     G_oh = oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
-    G_wa = wall_to_ambient_W_K(rig, T_wall)
-    G_ha = hardware_to_ambient_W_K(rig, T_hw)
+    G_wa, G_ha = ambient_conductances_W_K(rig, T_wall, T_hw)
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
     L = np.zeros((n, 3, 3))
@@ -295,5 +325,6 @@ def passive_rejection_W(rig: Rig, T_K: float):
     """Steady heat loss to ambient with the whole rig at T_K, engine off, no cooler, W."""
     T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))
     dT = T_wall - rig.ambient_K
-    return (wall_to_ambient_W_K(rig, T_wall) + hardware_to_ambient_W_K(rig, T_wall)) * dT
+    wall, hardware = ambient_conductances_W_K(rig, T_wall, T_wall)
+    return (wall + hardware) * dT
 

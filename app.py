@@ -5,7 +5,6 @@ physics and every number lives in the package; the unit edge lives in thermo_bud
 """
 from __future__ import annotations
 
-import io
 import time
 import zlib
 
@@ -14,8 +13,8 @@ import streamlit as st
 
 import thermo_budget as tb
 from thermo_budget import ScenarioError, load_scenario
+from thermo_budget import page_charts
 from thermo_budget import page_inputs as pi
-from thermo_budget.plots import plot_design_chart, plot_trace
 from thermo_budget.report import report, simulate
 from thermo_budget.scenario import MAX_FILE_BYTES, read_toml_text
 from thermo_budget.units import to_display, unit_label
@@ -37,61 +36,37 @@ def _scenario(toml_text: str):
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
-def answers_for(toml_text: str) -> dict:
-    return report(_scenario(toml_text))
-
-
-@st.cache_data(max_entries=64, show_spinner=False)
 def trace_for(toml_text: str):
     return simulate(_scenario(toml_text))
 
 
-@st.cache_resource
-def _design_store() -> dict:
-    """Design sweeps by scenario TOML and chart PNGs by (TOML, system), shared by all sessions.
-    Held by hand rather than by st.cache_data so that the progress bar is not replayed."""
+@st.cache_data(max_entries=64, show_spinner=False)
+def answers_for(toml_text: str) -> dict:
+    return report(_scenario(toml_text), trace_for(toml_text))
+
+
+@st.cache_resource(show_spinner=False)
+def _design_charts() -> dict:
+    """Design-chart PNGs by (scenario TOML, unit system), shared by every session, oldest first.
+    Held by hand rather than by st.cache_data so that a cached chart shows no spinner."""
     return {}
 
 
-def _remember(key, compute, keep: int = 32):
-    store = _design_store()
-    if key not in store:
-        while len(store) >= keep:
-            store.pop(next(iter(store)))
-        store[key] = compute()
-    return store[key]
-
-
-def design_sweep_for(toml_text: str, progress=None):
-    def compute():
-        scenario = _scenario(toml_text)
-        volumes, coolers = pi.design_grid(scenario, answers_for(toml_text), n_volumes=10, n_coolers=10)
-        planned = sum(step.is_pull for step in scenario.steps)
-        return pi.sweep_in_parts(scenario, volumes, coolers, parts=1, progress=progress,
-                                 max_pulls=max(4 * planned, 40))
-    return _remember(("sweep", toml_text), compute)
-
-
-def _png(fig) -> bytes:
-    buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=90)
-    return buffer.getvalue()
+def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
+    charts, key = _design_charts(), (toml_text, system)
+    if key not in charts:
+        with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
+                        f"{page_charts.DESIGN_COOLERS} rigs)…"):
+            png = page_charts.design_chart_png(toml_text, system, answers_for(toml_text))
+        while len(charts) >= keep:
+            charts.pop(next(iter(charts)))
+        charts[key] = png
+    return charts[key]
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    return _png(plot_trace(_scenario(toml_text), trace_for(toml_text), system))
-
-
-def design_png(toml_text: str, system: str) -> bytes:
-    key = ("png", toml_text, system)
-    if key in _design_store():
-        return _design_store()[key]
-    bar = st.progress(0.0, text="Working out the design chart (10 × 10 rigs)…")
-    sweep = design_sweep_for(toml_text, progress=lambda f: bar.progress(f, text="Working out the design chart…"))
-    png = _remember(key, lambda: _png(plot_design_chart(_scenario(toml_text), sweep, system)))
-    bar.empty()
-    return png
+    return page_charts.trace_chart_png(toml_text, system, trace_for(toml_text))
 
 
 @st.cache_resource(max_entries=8, show_spinner=False)
@@ -433,7 +408,7 @@ with left:
     st.image(trace_image, width="stretch")
 with right:
     st.markdown("**Design chart: more oil or a cooler?**")
-    design_image = design_png(toml_text, system)
+    design_image = design_chart(toml_text, system)
     st.image(design_image, width="stretch")
 
 st.markdown("**Ready-to-pull schedule**")
@@ -501,6 +476,6 @@ if fit_log is not None:
             st.warning(warning)
         for note in result.get("notes", []):
             st.caption(note)
-        st.image(_png(plot_fit(fit, system)), width="stretch")
+        st.image(page_charts.png_bytes(plot_fit(fit, system)), width="stretch")
         st.toggle("Use the calibrated model for the answers above", key="use_calibrated",
                   help="Plans with the heat loss and capacity learned from the log.")

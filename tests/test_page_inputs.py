@@ -145,24 +145,3 @@ def test_trace_csv_in_us_units(default):
     assert header == "time_s,oil_F,return_F,wall_F,hardware_F,power_hp"
     assert float(first.split(",")[1]) == pytest.approx(68.0, abs=1e-6)  # start 20 degC = 68 degF
     assert len(text.splitlines()) == trace.time_s.shape[0] + 1
-
-
-def test_design_grid_brackets_the_rig_and_the_answers(default):
-    answers = report(default)
-    volumes, coolers = pi.design_grid(default, answers)
-    assert volumes[0] < default.oil_volume_L < volumes[-1]
-    assert volumes[0] < answers["min_oil_volume_L"]
-    assert coolers[0] == 0.0 and coolers[-1] > answers["cooler_required_sustained_W_per_K"]
-
-
-def test_sweep_in_parts_equals_one_batch(default):
-    from thermo_budget.design_sweep import sweep
-    volumes, coolers = [8.0, 14.0, 20.0], [0.0, 2.0, 4.0, 6.0]
-    seen = []
-    parts = pi.sweep_in_parts(default, volumes, coolers, parts=2, progress=seen.append)
-    whole = sweep(default, volumes, coolers)
-    assert seen == [0.5, 1.0]
-    assert parts.coolers_W_per_K.tolist() == coolers
-    assert parts.runs_before_limit.shape == (3, 4)
-    assert (parts.pulls_under_limit == whole.pulls_under_limit).all()
-    assert parts.peak_C == pytest.approx(whole.peak_C, abs=1e-9)

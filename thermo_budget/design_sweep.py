@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome
+from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
 from .scenario import Scenario, build_rig, limit_K
 
 
@@ -60,10 +60,11 @@ def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = M
     rig = build_rig(scenario, oil_volume_m3=V.ravel() / 1000.0, cooler_W_K=K.ravel())
     n = V.size
     limit, _ = limit_K(scenario)
-    peak, under = session_outcome(scenario, rig, n)
+    session = session_trace(scenario, rig, n)
+    peak, under = session_outcome(scenario, rig, n, trace=session)
     _, periodic_peak, converged = periodic_state(scenario, rig, n)
     sustainable = converged & (periodic_peak <= limit) & (peak <= limit)
-    runs = runs_before_limit(scenario, rig, n, sustainable, max_pulls)
+    runs = runs_before_limit(scenario, rig, n, sustainable, max_pulls, session=session)
     shape = V.shape
     return SweepResult(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs.reshape(shape),
                        sustainable=sustainable.reshape(shape), peak_C=(peak - 273.15).reshape(shape),

@@ -10,7 +10,7 @@ from __future__ import annotations
 import copy
 import math
 import re
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -459,41 +459,6 @@ def trace_csv_shown(trace, system: str) -> str:
     lines = [",".join(header)]
     lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
     return "\n".join(lines) + "\n"
-
-
-def design_grid(scenario, answers: dict, n_volumes: int = 12, n_coolers: int = 12):
-    """Oil volumes (L) and cooler sizes (W/K) for the design chart: from a quarter to three times
-    the current oil (and past the smallest reservoir answer), and coolers from none to past the
-    sizing answers (2.5 x the all-day cooler), or to three times the rig's own passive loss at the
-    limit where no cooler can sustain the cadence."""
-    volume_L = scenario.oil_volume_L
-    top_L = max(3.0 * volume_L, 1.3 * (answers.get("min_oil_volume_L") or 0.0))
-    volumes = np.linspace(0.25 * volume_L, top_L, n_volumes)
-    sustained = answers.get("cooler_required_sustained_W_per_K")
-    sizes = [1.5 * scenario.cooler_W_K, 1.5 * (answers.get("cooler_required_W_per_K") or 0.0)]
-    if sustained:
-        sizes.append(2.5 * sustained)
-    else:
-        passive_W_K = answers["passive_rejection_at_limit_W"] / max(answers["limit_C"] - answers["ambient_C"], 1e-9)
-        sizes.append(3.0 * passive_W_K)
-    coolers = np.linspace(0.0, max(max(sizes), 1.0), n_coolers)
-    return volumes, coolers
-
-
-def sweep_in_parts(scenario, volumes_L, coolers_W_K, parts: int = 2, progress=None, max_pulls: int = 150):
-    """The design sweep cut into `parts` batches of cooler columns so that the page can show
-    progress; progress(fraction) is called after each batch. Returns one SweepResult. Counting
-    stops at max_pulls (the chart's colour scale ends at 100 pulls)."""
-    from .design_sweep import sweep
-    chunks = [c for c in np.array_split(np.asarray(coolers_W_K, dtype=float), parts) if c.size]
-    results = []
-    for i, chunk in enumerate(chunks, start=1):
-        results.append(sweep(scenario, volumes_L, chunk, max_pulls=max_pulls))
-        if progress is not None:
-            progress(i / len(chunks))
-    joined = {name: np.concatenate([getattr(r, name) for r in results], axis=1)
-              for name in ("runs_before_limit", "sustainable", "peak_C", "pulls_under_limit")}
-    return replace(results[0], coolers_W_per_K=np.concatenate([r.coolers_W_per_K for r in results]), **joined)
 
 
 # Step of the +/- buttons of each input, by display quantity and system.

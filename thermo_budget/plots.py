@@ -101,7 +101,7 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     ax.plot([rig_volume], [rig_cooler], marker="*", ms=16, color="#d62728", mec="white", mew=1.2, ls="none",
             label="your rig now", clip_on=False, zorder=5)
     bar = fig.colorbar(bands, ax=ax, ticks=levels[:-1])
-    bar.set_label("pulls before the oil reaches the limit")
+    bar.set_label(f"pulls before the oil reaches the limit (top band: {levels[-2]} or more)")
     v_unit, k_unit = unit_symbol("oil_volume", system), unit_symbol("conductance", system)
     ax.set_xlabel(f"oil in the tank ({v_unit}); tank scaled to keep its shape")
     ax.set_ylabel(f"cooler size ({k_unit} of ETD)")

@@ -77,10 +77,11 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
     }
 
 
-def report(scenario: Scenario) -> dict:
-    """Everything `run --json` prints: the session's thermal answers and the planning answers."""
+def report(scenario: Scenario, trace: Trace | None = None) -> dict:
+    """Everything `run --json` prints: the session's thermal answers and the planning answers.
+    trace : optional simulate(scenario) already computed."""
     from .planning import planning_answers
-    trace = simulate(scenario)
+    trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
     return result

@@ -1,0 +1,77 @@
+"""The page's two charts as pure functions of a scenario's TOML text, returning PNG bytes.
+
+Text in, bytes out: easy to cache by the scenario's text, and nothing here depends on Streamlit.
+"""
+from __future__ import annotations
+
+import io
+
+import numpy as np
+
+from .network import passive_rejection_W
+from .planning import minimum_oil_volume_L, required_cooler_W_K
+from .plots import plot_design_chart, plot_trace
+from .report import simulate
+from .scenario import Scenario, build_rig, limit_K, load_scenario, read_toml_text
+
+DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
+CHART_DPI = 90
+
+
+def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format="png", dpi=dpi)
+    return buffer.getvalue()
+
+
+def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_sustained_W_K: float | None,
+                n_volumes: int = DESIGN_VOLUMES, n_coolers: int = DESIGN_COOLERS):
+    """Oil volumes (L) and cooler sizes (W/K) for the design chart.
+
+    Volumes run from a quarter to three times the current oil, and past the smallest reservoir that
+    finishes the session (1.3 x) where that is larger. Coolers run from none to 2.5 x the all-day
+    cooler (which is at least the session's cooler), and past 1.5 x the rig's own cooler; where no
+    cooler can sustain the cadence, to three times the rig's own passive loss at the limit.
+    """
+    volume_L = scenario.oil_volume_L
+    top_L = max(3.0 * volume_L, 1.3 * (min_oil_volume_L or 0.0))
+    volumes = np.linspace(0.25 * volume_L, top_L, n_volumes)
+    sizes = [1.5 * scenario.cooler_W_K]
+    if cooler_sustained_W_K:
+        sizes.append(2.5 * cooler_sustained_W_K)
+    else:
+        limit, _ = limit_K(scenario)
+        passive_W = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0])
+        sizes.append(3.0 * passive_W / max(limit - scenario.ambient_K, 1e-9))
+    coolers = np.linspace(0.0, max(max(sizes), 1.0), n_coolers)
+    return volumes, coolers
+
+
+def design_axes(scenario: Scenario, answers: dict | None = None, n_volumes: int = DESIGN_VOLUMES,
+                n_coolers: int = DESIGN_COOLERS):
+    """design_grid with the two sizing answers it needs: taken from `answers` (the scenario's
+    report) where given, else worked out here by the report's own searches."""
+    if answers is None:
+        notes: list[str] = []
+        answers = {"cooler_required_sustained_W_per_K": required_cooler_W_K(scenario, notes, sustained=True),
+                   "min_oil_volume_L": minimum_oil_volume_L(scenario, notes)}
+    return design_grid(scenario, answers["min_oil_volume_L"], answers["cooler_required_sustained_W_per_K"],
+                       n_volumes, n_coolers)
+
+
+def design_chart_png(toml_text: str, system: str, answers: dict | None = None) -> bytes:
+    """The design chart (pulls before the limit over oil volume x cooler size) of the scenario in
+    `toml_text`, drawn in the units of `system`; answers: its report, if known. Counting stops at
+    four times the planned pulls (at least 40): the colour scale needs no more."""
+    from .design_sweep import sweep
+    scenario = load_scenario(read_toml_text(toml_text))
+    volumes, coolers = design_axes(scenario, answers)
+    planned = sum(step.is_pull for step in scenario.steps)
+    result = sweep(scenario, volumes, coolers, max_pulls=max(4 * planned, 40))
+    return png_bytes(plot_design_chart(scenario, result, system))
+
+
+def trace_chart_png(toml_text: str, system: str, trace=None) -> bytes:
+    """The temperature chart of the planned session (trace: simulate() of it, if already known)."""
+    scenario = load_scenario(read_toml_text(toml_text))
+    return png_bytes(plot_trace(scenario, simulate(scenario) if trace is None else trace, system))

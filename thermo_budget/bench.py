@@ -6,6 +6,9 @@
 2. report() for the default scenario, as a multiple of one plain simulation of the session.
 3. The floor: the same planned-session sweep with coefficients frozen at the start state and one
    closed-form step (matrix exponential of the augmented affine system) per step.
+4. The page's work after one input change (a new oil volume on the default scenario): the answers,
+   the temperature chart and the design chart, as the page computes them, without Streamlit; with
+   --page, also whole reruns of app.py in Streamlit's AppTest (no browser).
 """
 from __future__ import annotations
 
@@ -79,9 +82,45 @@ def frozen_expm_session(rig, steps, T0_K, n, use_eigh=False):
     return peak
 
 
+def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float]:
+    """Seconds the page spends, after the oil volume changes to a value not seen before, on (the
+    answers, the temperature chart PNG, the design chart PNG)."""
+    from . import page_charts
+    from .report import simulate
+    changed = scenario.changed(**{"reservoir.oil_volume": f"{oil_volume_L} L"})
+    text = changed.to_toml()
+    start = time.perf_counter()
+    trace = simulate(changed)
+    answers = report(changed, trace)
+    answered = time.perf_counter()
+    page_charts.trace_chart_png(text, changed.units, trace)
+    traced = time.perf_counter()
+    page_charts.design_chart_png(text, changed.units, answers)
+    return answered - start, traced - answered, time.perf_counter() - traced
+
+
+def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[float] | None:
+    """Seconds per rerun of app.py (Streamlit AppTest, no browser) after the oil volume changes to
+    each value in turn; None where app.py is not beside the package."""
+    from pathlib import Path
+    app = Path(__file__).resolve().parent.parent / "app.py"
+    if not app.exists():
+        return None
+    from streamlit.testing.v1 import AppTest
+    page = AppTest.from_file(str(app), default_timeout=120).run()
+    times = []
+    for volume in oil_volumes_L:
+        oil = next(w for w in page.number_input if w.label.startswith("Oil in the tank"))
+        start = time.perf_counter()
+        oil.set_value(volume).run()
+        times.append(time.perf_counter() - start)
+    return times
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(prog="python -m thermo_budget.bench")
     parser.add_argument("--quick", action="store_true", help="a smaller solve_ivp subset")
+    parser.add_argument("--page", action="store_true", help="also time whole reruns of app.py (Streamlit AppTest)")
     args = parser.parse_args(argv)
     scenario = load_scenario(DEFAULT_SCENARIO)
     volumes = np.linspace(5.0, 40.0, 50)
@@ -106,6 +145,11 @@ def main(argv=None):
     report(scenario)
     t_report, _ = _best_of(3, lambda: report(scenario))
 
+    page_redraw_s(scenario, 17.0)   # warm up matplotlib
+    redraws = [page_redraw_s(scenario, volume) for volume in (16.5, 17.5, 18.5, 19.5, 20.5)]
+    best_redraw = min(redraws, key=sum)
+    median_total = float(np.median([sum(r) for r in redraws]))
+
     print(f"sweep, 2,500 designs (session, sustainability, runs before limit): {t_sweep:.3f} s")
     print(f"  planned session for all designs, one batch:   {t_session:.3f} s")
     print(f"  solve_ivp RK45 loop (rtol 1e-6), scaled from {subset.size} designs: {t_loop:.1f} s"
@@ -118,6 +162,13 @@ def main(argv=None):
           f"{t_session / t_floor_eigh:.2f}")
     print(f"report() with every sizing answer: {t_report:.3f} s = {t_report / t_one:.1f} plain simulations "
           f"of {t_one * 1000:.1f} ms (targets <= 40 and well under 0.5 s)")
+    print(f"page after one input change (5 new oil volumes): median {median_total:.3f} s; best {sum(best_redraw):.3f} s ="
+          f" answers {best_redraw[0]:.3f} + temperature chart {best_redraw[1]:.3f} + design chart {best_redraw[2]:.3f}"
+          " (Streamlit and the browser add their own time)")
+    reruns = apptest_redraws_s() if args.page else None
+    if reruns:
+        print(f"  the whole page in Streamlit's AppTest (no browser), 5 new oil volumes: median {np.median(reruns):.3f} s,"
+              f" range {min(reruns):.3f}-{max(reruns):.3f} s")
 
 
 if __name__ == "__main__":

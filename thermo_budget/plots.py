@@ -44,6 +44,8 @@ def plot_trace(scenario, trace, system: str | None = None) -> Figure:
     limit_shown = to_shown(limit, "temperature", system)
     why = "hottest allowed" if reason == "max_temperature" else "pump's thinnest oil"
     ax.axhline(limit_shown, color=LIMIT_COLOUR, lw=1.5, ls=":")
+    low, high = ax.get_ylim()   # headroom above the limit line for its label
+    ax.set_ylim(low, max(high, limit_shown + 0.08 * (max(high, limit_shown) - low)))
     ax.annotate(f"limit {limit_shown:.0f} {symbol} ({why})", (t_min[-1], limit_shown), xytext=(0, 4),
                 textcoords="offset points", ha="right", va="bottom", color=LIMIT_COLOUR, fontsize=9)
     ax.fill_between([], [], color=PULL_SHADE, label="pulls")  # legend entry for the shading

@@ -366,3 +366,22 @@ def test_energy_balance_on_random_rigs(raw):
     assert abs(float(residual[0] / trace.energy_in_J[0])) < 1e-6
     # the oil never falls below ambient when it starts at ambient and only gets heat
     assert np.all(trace.T_K[:, 0, :] >= scenario.ambient_K - 1e-6)
+
+
+def test_stop_above_ends_the_trace_once_every_design_is_over():
+    scenario = load_scenario(SHIPPED_SCENARIOS[0].parent / "default.toml")
+    steps = list(scenario.cycle) * 60
+    rig = build_rig(scenario, oil_volume_m3=np.array([0.008, 0.012]))
+    full = integrate(rig, steps, scenario.start_K, n_designs=2, resolution=PLAN_RESOLUTION)
+    limit, _ = limit_K(scenario)
+    stopped = integrate(rig, steps, scenario.start_K, n_designs=2, resolution=PLAN_RESOLUTION, stop_above_K=limit)
+    m = stopped.time_s.shape[0]
+    assert m < full.time_s.shape[0]
+    # the same points up to the stop, and both designs over the limit by then
+    np.testing.assert_array_equal(stopped.T_K, full.T_K[:m])
+    assert (stopped.T_K[:, :, OIL].max(axis=0) > limit).all()
+    np.testing.assert_array_equal(pulls_completed_under(stopped, limit), pulls_completed_under(full, limit))
+    # a temperature never reached changes nothing
+    never = integrate(rig, steps[:6], scenario.start_K, n_designs=2, resolution=PLAN_RESOLUTION, stop_above_K=1e4)
+    assert never.time_s.shape[0] == integrate(rig, steps[:6], scenario.start_K, n_designs=2,
+                                              resolution=PLAN_RESOLUTION).time_s.shape[0]

@@ -123,9 +123,9 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
     Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls.
 
-    The cycle is integrated in chunks that double (the planned session first, then twice as many
-    cycles, and so on), the last one cut to end at max_pulls. session : optional session_trace of
-    the same rig and designs, used as the first chunk.
+    Two chunks: the planned session (or `session`, a session_trace of the same rig and designs),
+    then the cycles that remain up to max_pulls, integrated only until every design still counted
+    has crossed the limit.
     """
     limit, _ = limit_K(scenario)
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
@@ -133,21 +133,22 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     active = np.flatnonzero(~sustainable)
     X = np.array(np.broadcast_to(scenario.start_K, (n, 3)), dtype=float)
     done_pulls = 0
-    cycles = max(scenario.repeat, 1)
     while active.size and done_pulls < max_pulls:
-        if done_pulls == 0 and session is not None:
-            trace = session.designs(active)
+        if done_pulls == 0:
+            cycles = max(scenario.repeat, 1)
+            trace = session.designs(active) if session is not None else integrate(
+                take_designs(rig, active), list(scenario.cycle) * cycles, X[active], n_designs=active.size,
+                resolution=PLAN_RESOLUTION)
         else:
+            cycles = -(-(max_pulls - done_pulls) // pulls_per_cycle)
             trace = integrate(take_designs(rig, active), list(scenario.cycle) * cycles, X[active],
-                              n_designs=active.size, resolution=PLAN_RESOLUTION)
+                              n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=limit)
         under = pulls_completed_under(trace, limit)
-        total_pulls = cycles * pulls_per_cycle
-        crossed = under < total_pulls
+        crossed = under < cycles * pulls_per_cycle
         runs[active[crossed]] = done_pulls + under[crossed]
         X[active] = trace.final_K
-        done_pulls += total_pulls
+        done_pulls += cycles * pulls_per_cycle
         active = active[~crossed]
-        cycles = min(2 * cycles, -(-(max_pulls - done_pulls) // pulls_per_cycle))
     return runs
 
 

@@ -99,11 +99,13 @@ class Trace:
 
 
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
-              resolution: Resolution = Resolution(), start_time_s=0.0) -> Trace:
+              resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None) -> Trace:
     """Integrate the steps in order from the state T0_K ((N,3) or (3,) K).
 
     durations_s : optional list, one (N,) array or float per step, overriding step.duration_s (used
     by sweeps whose designs differ in their waits).
+    stop_above_K : optional; stop after the first step by whose end the bulk oil of every design has
+    been above this temperature at a recorded point (the trace then ends there).
     """
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, 3)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
@@ -112,6 +114,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     energy_in = np.zeros(n_designs)
     energy_lost = np.zeros(n_designs)
     pull_start, pull_end = [], []
+    been_above = np.zeros(n_designs, bool)
     for index, step in enumerate(steps):
         duration = np.broadcast_to(np.asarray(
             step.duration_s if durations_s is None else durations_s[index], dtype=float), (n_designs,))
@@ -136,8 +139,12 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
             powers.append(inputs.power_W)
             returns.append(T[:, OIL] + return_line_rise_K(rig, T[:, OIL], inputs))
             indices.append(index)
+            if stop_above_K is not None:
+                been_above |= T[:, OIL] > stop_above_K
         if step.is_pull:
             pull_end.append(t.copy())
+        if stop_above_K is not None and been_above.all():
+            break
     stored = np.sum(node_enthalpy_J(rig, T) - H_start, axis=1)
     return Trace(time_s=np.array(times), T_K=np.array(temps), return_K=np.array(returns),
                  power_W=np.array(powers), step_index=np.array(indices), energy_in_J=energy_in,

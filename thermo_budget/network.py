@@ -85,6 +85,24 @@ class Inputs:
         return np.asarray(self.volume_flow_m3_s) > 0.0
 
 
+def _columns(*values, n=None) -> np.ndarray:
+    """Floats or (N,) arrays as the columns of one (N, k) array (cheaper than np.stack of broadcasts)."""
+    n = next(np.shape(v)[0] for v in values if np.ndim(v)) if n is None else n
+    out = np.empty((n, len(values)))
+    for j, value in enumerate(values):
+        out[:, j] = value
+    return out
+
+
+def _rows(*values, like=None) -> np.ndarray:
+    """Floats or (N,) arrays as the rows of one (k, N) array; N from `like` or the first array."""
+    reference = next(v for v in values if np.ndim(v)) if like is None else like
+    out = np.empty((len(values), np.shape(reference)[0]))
+    for i, value in enumerate(values):
+        out[i] = value
+    return out
+
+
 def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndarray:
     """Node heat capacities (N, 3), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK, if
     the caller has it already)."""
@@ -101,8 +119,7 @@ def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     oil = rig.oil_mass_kg * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
     wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
     hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    return rig.capacity_multiplier * np.stack([oil, np.broadcast_to(wall, oil.shape),
-                                               np.broadcast_to(hardware, oil.shape)], axis=-1)
+    return rig.capacity_multiplier * _columns(oil, wall, hardware)
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
@@ -111,7 +128,7 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / rig.oil_mass_kg)
     wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
     hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
-    return np.stack([oil, wall, hardware], axis=-1)
+    return _columns(oil, wall, hardware)
 
 
 def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None,
@@ -188,14 +205,14 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K):
     and the bottom (same face, same temperature).
     """
     T_a, m, speed = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s
-    T_s = np.stack(np.broadcast_arrays(np.asarray(T_wall_K, dtype=float), np.asarray(T_hardware_K, dtype=float)))
+    T_s = _rows(np.atleast_1d(T_wall_K), np.atleast_1d(T_hardware_K))
     k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # row 0 at the wall's film, row 1 the hardware's
     dT = T_s - T_a
     h_rad_wall = h_radiation_grey(rig.wall_emissivity, T_s[0], T_a)
     h_rad_hw = h_radiation_grey(rig.hardware_emissivity, T_s[1], T_a)
 
-    vertical_length = np.stack(np.broadcast_arrays(rig.side_height_m, rig.body_length_m, T_s[0]))[:2]
-    forced_length = np.stack(np.broadcast_arrays(rig.plate_length_m, rig.body_length_m, T_s[0]))[:2]
+    vertical_length = _rows(rig.side_height_m, rig.body_length_m, like=T_s[0])
+    forced_length = _rows(rig.plate_length_m, rig.body_length_m, like=T_s[0])
     Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta, dT, vertical_length, nu, pr), pr)
     h_side, h_body = _with_forced_air(Nu_vertical * k / vertical_length, (k, nu, pr), speed, forced_length)
 
@@ -288,7 +305,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     L[:, HARDWARE, HARDWARE] = G_oh + G_ha
     L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
     L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_oh
-    g_amb = np.stack(np.broadcast_arrays(G_cool, G_wa, G_ha), axis=-1)
+    g_amb = _columns(G_cool, G_wa, G_ha, n=n)
     # The loop hardware sees the mean loop oil temperature, bulk + half the return-line rise;
     # the cooler sees the return line, bulk + the full rise.
     b = g_amb * T_a

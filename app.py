@@ -406,10 +406,7 @@ with left:
     st.markdown("**Temperatures through the planned session**")
     trace_image = trace_png(toml_text, system)
     st.image(trace_image, width="stretch")
-with right:
-    st.markdown("**Design chart: more oil or a cooler?**")
-    design_image = design_chart(toml_text, system)
-    st.image(design_image, width="stretch")
+right.markdown("**Design chart: more oil or a cooler?**")   # the chart itself comes last, below
 
 st.markdown("**Ready-to-pull schedule**")
 temp_unit = unit_label("temperature", system)
@@ -432,7 +429,6 @@ d1.download_button("Scenario (.toml)", planned.changed(units=system).to_toml(), 
 d2.download_button("Trace (.csv)", pi.trace_csv_shown(trace_for(toml_text), system), file_name="trace.csv",
                    mime="text/csv", help="Temperatures against time, in the units shown.")
 d3.download_button("Temperature chart (.png)", trace_image, file_name="trace.png", mime="image/png")
-d4.download_button("Design chart (.png)", design_image, file_name="design_chart.png", mime="image/png")
 
 with st.expander("More figures"):
     pump = answers["pump"]
@@ -479,3 +475,12 @@ if fit_log is not None:
         st.image(page_charts.png_bytes(plot_fit(fit, system)), width="stretch")
         st.toggle("Use the calibrated model for the answers above", key="use_calibrated",
                   help="Plans with the heat loss and capacity learned from the log.")
+
+# ------------------------------------------------------------------ the design chart, last
+
+# The slowest part of the page (a sweep over 100 rigs) is drawn into its place once everything else
+# is up; until then the page keeps showing the previous chart.
+with right:
+    design_image = design_chart(toml_text, system)
+    st.image(design_image, width="stretch")
+d4.download_button("Design chart (.png)", design_image, file_name="design_chart.png", mime="image/png")

@@ -35,6 +35,13 @@ def test_default_scenario_runs_without_exception(page):
     assert any("Safety" in e.label for e in page.expander)
 
 
+def test_both_charts_are_drawn_and_the_design_chart_follows_an_input(page):
+    charts = page.get("image")
+    assert len(charts) == 2   # the temperature chart and the design chart (drawn last, into its place)
+    number_input(page, "Oil in the tank").set_value(12.0).run()
+    assert not page.exception and len(page.get("image")) == 2
+
+
 def test_changing_oil_volume_changes_headline_pull_count(page):
     before = int(metrics(page)["Pulls before the limit"])
     number_input(page, "Oil in the tank").set_value(12.0).run()

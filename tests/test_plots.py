@@ -87,3 +87,12 @@ def test_design_chart_from_real_sweep(default):
     fig = plot_design_chart(default, result)
     assert any("planned session" in t.get_text() for t in fig.axes[0].texts) or \
         np.all(np.nan_to_num(result.runs_before_limit, nan=1e9) >= result.pulls_planned)
+
+
+@pytest.mark.parametrize("planned,highest", [(12, 43.0), (10, 20.0), (10, 9.0), (1, 1.0), (40, 55.0), (3, 2000.0)])
+def test_run_levels_cover_every_count(planned, highest):
+    from thermo_budget.plots import _run_levels
+    levels = _run_levels(planned, highest)
+    assert levels[0] == 0 and all(a < b for a, b in zip(levels, levels[1:]))
+    assert planned in levels
+    assert levels[-1] > max(highest, planned)   # the top band holds the highest count and the unlimited ones

@@ -59,11 +59,13 @@ def plot_trace(scenario, trace, system: str | None = None) -> Figure:
 
 
 def _run_levels(planned: int, highest: float) -> list:
-    """Colour bands for pulls before the limit: a 1-2-5 ladder up to the highest finite count,
-    with the planned session's count as one of the edges."""
-    ladder = [m * 10**e for e in range(0, 6) for m in (1, 2, 5)]
-    levels = sorted({v for v in ladder if v <= max(highest, planned)} | {planned})
-    return [0] + levels + [levels[-1] * 2]
+    """Colour bands for pulls before the limit: a 1-2-5 ladder up to the highest finite count, with
+    the planned session's count as one of the edges, closed by the next ladder value above both
+    (so the top band holds every count above its lower edge, and the unlimited ones)."""
+    ladder = [m * 10**e for e in range(0, 7) for m in (1, 2, 5)]
+    top = max(highest, planned)
+    levels = sorted({v for v in ladder if v <= top} | {planned})
+    return [0] + levels + [next(v for v in ladder if v > top)]
 
 
 def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figure:

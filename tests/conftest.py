@@ -132,6 +132,7 @@ BAD_INPUTS = [
     ("bad shape", _put("reservoir.shape", "sphere"), "reservoir.shape"),
     ("cylinder without diameter", _put("reservoir.shape", "cylinder"), "reservoir.diameter"),
     ("bad material", _put("reservoir.wall_material", "wood"), "reservoir.wall_material"),
+    ("wall thicker than 50 mm", _put("reservoir.wall_thickness", "80 mm"), "reservoir.wall_thickness"),
     ("bad bottom", _put("reservoir.bottom", "hanging"), "reservoir.bottom"),
     ("emissivity above one", _put("reservoir.emissivity", 1.5), "reservoir.emissivity"),
     ("emissivity as text", _put("hardware.emissivity", "high"), "hardware.emissivity"),

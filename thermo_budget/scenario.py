@@ -18,7 +18,7 @@ from .materials import MATERIALS
 from .network import Rig
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .session import EngineCurve, Step
-from .units import parse_quantity
+from .units import SI_UNIT, convert, parse_quantity
 
 MAX_FILE_BYTES = 1_000_000
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
@@ -53,12 +53,16 @@ class _Table:
             raise ScenarioError(self.key(name), None, "a value (the key is missing)")
         return default
 
-    def quantity(self, name, kind, bare_unit, default=_MISSING, minimum=None, above=None):
+    def quantity(self, name, kind, bare_unit, default=_MISSING, minimum=None, above=None, maximum=None):
+        """The value in SI; minimum, above and maximum are in SI too (maximum is quoted back in
+        bare_unit when it is exceeded)."""
         value = self.get(name, default)
         if value is None:
             return None
         si = parse_quantity(value, self.key(name), kind, bare_unit)
         _check_range(self.key(name), value, si, minimum, above, kind)
+        if maximum is not None and si > maximum:
+            raise ScenarioError(self.key(name), value, f"at most {convert(maximum, SI_UNIT[kind], bare_unit):g} {bare_unit}")
         return si
 
     def number(self, name, default=_MISSING, minimum=None, maximum=None, above=None, integer=False):
@@ -239,8 +243,7 @@ def _parse(raw: dict) -> Scenario:
         length_m=length, width_m=width, diameter_m=diameter,
         height_m=r.quantity("height", "length", "m", above=0.0),
         wall_material=r.choice("wall_material", tuple(MATERIALS)),
-        wall_thickness_m=_at_most(r, "wall_thickness", r.quantity("wall_thickness", "length", "mm", above=0.0),
-                                  0.05, "at most 50 mm"),
+        wall_thickness_m=r.quantity("wall_thickness", "length", "mm", above=0.0, maximum=0.05),
         emissivity=r.number("emissivity", minimum=0.0, maximum=1.0),
         bottom=r.choice("bottom", ("open", "floor")))
     r.finish()
@@ -368,12 +371,6 @@ def _parse_step(raw, path: str, displacement_m3: float) -> Step:
             step = Step(kind="wait", duration_s=duration, engine="off")
     t.finish()
     return step
-
-
-def _at_most(table: _Table, name: str, value_si: float, limit_si: float, expected: str) -> float:
-    if value_si > limit_si:
-        raise ScenarioError(table.key(name), table.raw[name], expected)
-    return value_si
 
 
 def _number_list(t: _Table, name: str, minimum=None) -> list:

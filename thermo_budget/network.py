@@ -80,10 +80,6 @@ class Inputs:
     power_W: np.ndarray
     volume_flow_m3_s: np.ndarray
 
-    @property
-    def flowing(self):
-        return np.asarray(self.volume_flow_m3_s) > 0.0
-
 
 def _columns(*values, n=None) -> np.ndarray:
     """Floats or (N,) arrays as the columns of one (N, k) array (cheaper than np.stack of broadcasts)."""

@@ -189,7 +189,3 @@ class Oil:
         cp = self.specific_heat(T_K)
         rho = self.density_kg_m3(T_K)
         return nu, k, cp, rho, nu * rho * cp / k
-
-    def prandtl(self, T_K):
-        rho = self.density_kg_m3(T_K)
-        return self.kinematic_viscosity_m2_s(T_K) * rho * self.specific_heat(T_K) / self.conductivity(T_K)

@@ -38,18 +38,17 @@ def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
     return per_cycle * repeat
 
 
-def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None):
+def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
     """The planned session for n designs at the planning resolution (a Trace)."""
-    steps = scenario.steps
     durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    return integrate(rig, steps, scenario.start_K if start_K is None else start_K, n_designs=n,
-                     durations_s=durations, resolution=PLAN_RESOLUTION)
+    return integrate(rig, scenario.steps, scenario.start_K, n_designs=n, durations_s=durations,
+                     resolution=PLAN_RESOLUTION)
 
 
-def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, start_K=None, trace=None):
+def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):
     """Integrate the planned session for n designs (or take `trace`, a session_trace already
     computed). Returns (peak oil K (N,), pulls under limit (N,))."""
-    trace = session_trace(scenario, rig, n, wait_s, start_K) if trace is None else trace
+    trace = session_trace(scenario, rig, n, wait_s) if trace is None else trace
     limit, _ = limit_K(scenario)
     return peak_oil_K(trace), pulls_completed_under(trace, limit)
 
@@ -271,8 +270,7 @@ def _pull_and_wait_blocks(scenario: Scenario):
 
 
 def _run_steps(rig, steps, X):
-    trace = integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
-    return trace
+    return integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
 
 
 def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
@@ -380,9 +378,9 @@ def planning_answers(scenario: Scenario) -> dict:
                      f"{steady_peak - 273.15:.1f} degC, below the {limit - 273.15:.1f} degC limit.")
     elif np.isnan(runs):
         notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
-    uncooled = None if scenario.cooler_W_K > 0 else session
-    peak, _ = session_outcome(scenario, build_rig(scenario, cooler_W_K=0.0), 1, trace=uncooled)
-    cooler_needed = bool(peak[0] > limit)
+    # the planned session without a cooler: the session already run, where the scenario has none
+    uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
+    cooler_needed = bool(peak_oil_K(uncooled)[0] > limit)
     cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
     if not cooler_needed:
         notes.append("No cooler is needed for the planned session.")

@@ -12,8 +12,12 @@ def plot_fit(result, system: str | None = None) -> Figure:
     residuals (measured minus fitted) with the RMS band. system: "SI" or "US" (default: the
     scenario's units). Returns a matplotlib Figure (no pyplot state)."""
     system = system or result.units
-    to_temperature = np.vectorize(lambda K: to_display(K, "temperature", system))
-    delta = 1.0 if system == "SI" else 1.8
+    def to_temperature(T_K):
+        return to_display(np.asarray(T_K, dtype=float), "temperature", system)
+
+    def delta(dT_K):
+        return to_display(dT_K, "temperature_difference", system)
+
     t_min = np.asarray(result.time_s) / 60.0
     t_label, d_label = unit_label("temperature", system), unit_label("temperature_difference", system)
     sensor = "bulk oil (tank)" if result.sensor == "bulk" else "return-line oil"
@@ -22,19 +26,19 @@ def plot_fit(result, system: str | None = None) -> Figure:
     top, bottom = figure.subplots(2, 1, sharex=True, height_ratios=(3, 1.3))
     top.plot(t_min, to_temperature(result.measured_K), ".", ms=3, color="0.35", label="measured")
     top.plot(t_min, to_temperature(result.uncalibrated_K), "--", lw=1.0, color="tab:orange",
-             label=f"model as given (RMS {delta * result.rms_uncalibrated_K:.2f} {d_label})")
+             label=f"model as given (RMS {delta(result.rms_uncalibrated_K):.2f} {d_label})")
     top.plot(t_min, to_temperature(result.fitted_K), "-", lw=1.6, color="tab:blue",
-             label=f"fitted (RMS {delta * result.rms_K:.2f} {d_label})")
+             label=f"fitted (RMS {delta(result.rms_K):.2f} {d_label})")
     top.set_ylabel(f"{sensor}, {t_label}")
     top.set_title(f"convection × {result.convection_multiplier:.3f}, capacity × {result.capacity_multiplier:.3f}, "
                   f"{result.n_points} points", fontsize=10)
     top.legend(loc="best", fontsize=8)
     top.grid(alpha=0.3)
 
-    residual = delta * (np.asarray(result.measured_K) - np.asarray(result.fitted_K))
+    residual = delta(np.asarray(result.measured_K) - np.asarray(result.fitted_K))
     bottom.axhline(0.0, color="0.2", lw=0.8)
     for sign in (-1.0, 1.0):
-        bottom.axhline(sign * delta * result.rms_K, color="tab:blue", lw=0.8, ls=":")
+        bottom.axhline(sign * delta(result.rms_K), color="tab:blue", lw=0.8, ls=":")
     bottom.plot(t_min, residual, ".", ms=3, color="tab:blue")
     bottom.set_ylabel(f"residual, {d_label}")
     bottom.set_xlabel("time from session start, min")

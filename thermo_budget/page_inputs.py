@@ -18,7 +18,7 @@ from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
 from .scenario import with_path
-from .units import SI_UNIT, convert, parse_quantity
+from .units import SI_UNIT, UNIT_LABEL, convert, parse_quantity
 
 SYSTEMS = ("SI", "US")
 SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
@@ -45,13 +45,6 @@ QUANTITIES = {
     "wait_time": ("time", {"SI": "min", "US": "min"}, {"SI": 2, "US": 2}),
 }
 
-UNIT_SYMBOLS = {"L": "L", "gal": "gal", "m": "m", "in": "in", "mm": "mm", "ft": "ft", "degC": "°C",
-                "degF": "°F", "kg/m^3": "kg/m³", "lb/ft^3": "lb/ft³", "cSt": "cSt", "cm^3": "cm³",
-                "in^3": "in³", "kg": "kg", "lb": "lb", "m/s": "m/s", "ft/s": "ft/s", "W/K": "W/K",
-                "BTU/hr/delta_degF": "BTU/hr/°F", "kW": "kW", "hp": "hp", "W": "W", "s": "s", "min": "min",
-                "N*m": "N·m", "lbf*ft": "lbf·ft"}
-
-
 def to_shown(value_si, quantity: str, system: str):
     """An SI value (K, m^3, W, ...; float or array) in the display unit of `quantity` in `system`."""
     kind, unit, _ = QUANTITIES[quantity]
@@ -65,7 +58,7 @@ def from_shown(value, quantity: str, system: str):
 
 
 def unit_symbol(quantity: str, system: str) -> str:
-    return UNIT_SYMBOLS[QUANTITIES[quantity][1][system]]
+    return UNIT_LABEL[QUANTITIES[quantity][1][system]]
 
 
 def decimals(quantity: str, system: str) -> int:

@@ -79,11 +79,13 @@ DISPLAY_UNITS = {
            "time": "s", "length": "in", "mass": "lb", "energy": "BTU", "torque": "lbf*ft"},
 }
 
+# The printed symbol of every unit the package displays (here and on the page's inputs).
 UNIT_LABEL = {"degC": "°C", "degF": "°F", "delta_degC": "K", "delta_degF": "°F", "L": "L", "gal": "gal",
-              "kW": "kW", "hp": "hp", "L/min": "L/min", "gal/min": "gpm", "bar": "bar", "psi": "psi",
+              "kW": "kW", "W": "W", "hp": "hp", "L/min": "L/min", "gal/min": "gpm", "bar": "bar", "psi": "psi",
               "cm^3": "cm³", "in^3": "in³", "W/K": "W/K", "BTU/hr/delta_degF": "BTU/hr/°F", "s": "s",
-              "m": "m", "in": "in", "kg": "kg", "lb": "lb", "kJ": "kJ", "BTU": "BTU", "N*m": "N·m",
-              "lbf*ft": "lbf·ft"}
+              "min": "min", "m": "m", "mm": "mm", "in": "in", "ft": "ft", "kg": "kg", "lb": "lb",
+              "kg/m^3": "kg/m³", "lb/ft^3": "lb/ft³", "cSt": "cSt", "m/s": "m/s", "ft/s": "ft/s",
+              "kJ": "kJ", "BTU": "BTU", "N*m": "N·m", "lbf*ft": "lbf·ft"}
 
 _SI_OF_DISPLAY_KIND = {"temperature": "K", "temperature_difference": "delta_degC", "volume": "m^3",
                        "power": "W", "flow": "m^3/s", "pressure": "Pa", "displacement": "m^3",

@@ -18,6 +18,7 @@ from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
 from .scenario import with_path
+from .session import shaft_power_W
 from .units import SI_UNIT, UNIT_LABEL, convert, parse_quantity
 
 SYSTEMS = ("SI", "US")
@@ -218,26 +219,19 @@ def with_shape(raw: dict, shape: str) -> dict:
         return raw
     new = with_path(raw, "reservoir.shape", shape)
     if shape == "cylinder":
-        L = _metres(raw, "reservoir.length")
-        W = _metres(raw, "reservoir.width")
+        L = _si(get_path(raw, "reservoir.length"), "length", "m")
+        W = _si(get_path(raw, "reservoir.width"), "length", "m")
         diameter = math.sqrt(4.0 * L * W / math.pi) if L and W else 0.3
         new = with_path(new, "reservoir.diameter", f"{diameter:.4g} m")
         for key in ("reservoir.length", "reservoir.width"):
             new = with_path(new, key, None)
     else:
-        D = _metres(raw, "reservoir.diameter")
+        D = _si(get_path(raw, "reservoir.diameter"), "length", "m")
         side = math.sqrt(math.pi / 4.0) * D if D else 0.3
         new = with_path(new, "reservoir.length", f"{side:.4g} m")
         new = with_path(new, "reservoir.width", f"{side:.4g} m")
         new = with_path(new, "reservoir.diameter", None)
     return new
-
-
-def _metres(raw, path):
-    try:
-        return parse_quantity(get_path(raw, path), path, "length", "m")
-    except ScenarioError:
-        return None
 
 
 def grade_of(raw: dict):
@@ -488,9 +482,9 @@ def note_in(note: str, system: str) -> str:
 
 def constant_from_curve(view: SessionView):
     """(power W, rpm) of a constant-power pull standing in for an engine-curve pull: the curve's
-    highest power over its sweep (power = torque x 2 pi n / 60 for a torque curve)."""
+    highest power over its sweep (a torque curve converted by session.shaft_power_W)."""
     low, high = sorted((view.rpm_start or 0.0, view.rpm_end or 0.0))
-    points = [(n, v * 2.0 * math.pi * n / 60.0 if view.curve_is_torque else v)
+    points = [(n, float(shaft_power_W(v, n)) if view.curve_is_torque else v)
               for n, v in zip(view.curve_rpm, view.curve_values) if low <= n <= high and v is not None]
     if not points:
         return 1000.0, 3000.0

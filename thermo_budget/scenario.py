@@ -17,7 +17,7 @@ from .errors import ScenarioError
 from .materials import MATERIALS
 from .network import Rig
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
-from .session import EngineCurve, Step
+from .session import EngineCurve, Step, shaft_power_W
 from .units import SI_UNIT, convert, parse_quantity
 
 MAX_FILE_BYTES = 1_000_000
@@ -342,7 +342,7 @@ def _parse_step(raw, path: str, displacement_m3: float) -> Step:
             speeds = _number_list(t, "curve_rpm", minimum=0.0)
             if "curve_torque" in raw:
                 torque = _quantity_list(t, "curve_torque", "torque", "N*m", len(speeds))
-                power = [tau * 2.0 * np.pi * n / 60.0 for tau, n in zip(torque, speeds)]
+                power = [float(shaft_power_W(tau, n)) for tau, n in zip(torque, speeds)]
             else:
                 power = _quantity_list(t, "curve_power", "power", "W", len(speeds))
             if any(b <= a for a, b in zip(speeds, speeds[1:])):

@@ -79,6 +79,11 @@ class Step:
         return replace(self, duration_s=duration_s)
 
 
+def shaft_power_W(torque_N_m, rpm):
+    """Shaft power P = tau omega = tau 2 pi n / 60, W; n in rev/min."""
+    return np.asarray(torque_N_m) * 2.0 * np.pi * np.asarray(rpm) / 60.0
+
+
 def pump_flow_m3_s(displacement_m3: float, rpm, volumetric_efficiency: float):
     """Pump delivery Q = D n eta_v, m^3/s; D per revolution, n in rev/min."""
     return displacement_m3 * np.asarray(rpm) / 60.0 * volumetric_efficiency

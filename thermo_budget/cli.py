@@ -57,14 +57,13 @@ def summary_text(result: dict) -> str:
 def _run(args) -> int:
     from .report import report, simulate, trace_csv
     scenario = load_scenario(args.scenario)
-    result = report(scenario)
-    if args.csv or args.plot:
-        trace = simulate(scenario)
-        if args.csv:
-            Path(args.csv).write_text(trace_csv(trace), encoding="utf-8")
-        if args.plot:
-            from .plots import plot_trace
-            plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
+    trace = simulate(scenario)
+    result = report(scenario, trace)
+    if args.csv:
+        Path(args.csv).write_text(trace_csv(trace), encoding="utf-8")
+    if args.plot:
+        from .plots import plot_trace
+        plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
     print(json.dumps(result, indent=2) if args.json else summary_text(result))
     return 0
 
@@ -130,8 +129,6 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
     fit.set_defaults(handler=_fit)
     return parser
-
-
 
 
 def main(argv=None) -> int:

@@ -74,20 +74,13 @@ class LogModel:
     notes: tuple
 
     def temperatures_K(self, convection, capacity, start_offset_K=0.0) -> np.ndarray:
-        """Sensor temperature (N, M) K at the log's times for N parameter sets (arrays (N,)).
-
-        The capacity multiplier is applied to the node capacities themselves (oil mass, wall and
-        hardware capacities), which is what Rig.capacity_multiplier does, so that N sets run in one
-        vectorised integration."""
+        """Sensor temperature (N, M) K at the log's times for N parameter sets (arrays (N,)), run in
+        one vectorised integration."""
         convection = np.atleast_1d(np.asarray(convection, dtype=float))
         capacity = np.atleast_1d(np.asarray(capacity, dtype=float))
         offset = np.broadcast_to(np.asarray(start_offset_K, dtype=float), convection.shape)
         n = convection.size
-        base = self.rig
-        rig = base.with_changes(convection_multiplier=convection, capacity_multiplier=1.0,
-                                oil_mass_kg=np.asarray(base.oil_mass_kg) * capacity,
-                                wall_capacity_J_K=np.asarray(base.wall_capacity_J_K) * capacity,
-                                hardware_capacity_J_K=np.asarray(base.hardware_capacity_J_K) * capacity)
+        rig = self.rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity)
         T0 = np.repeat((self.start_K + offset)[:, None], 3, axis=1)
         trace = integrate(rig, list(self.pieces), T0, n_designs=n, resolution=FIT_RESOLUTION)
         series = trace.T_K[:, :, OIL] if self.sensor == "bulk" else trace.return_K

@@ -60,8 +60,8 @@ class Rig:
     # surroundings and multipliers
     ambient_K: float
     air_speed_m_s: float = 0.0
-    convection_multiplier: float = 1.0
-    capacity_multiplier: float = 1.0
+    convection_multiplier: float = 1.0       # a float, or one per design
+    capacity_multiplier: float = 1.0         # a float, or one per design
     # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
     cooler_W_K: np.ndarray = 0.0
     cooler_fan: str = "with_flow"
@@ -107,7 +107,13 @@ def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndar
     C[:, OIL] = rig.oil_mass_kg * cp
     C[:, WALL] = rig.wall_capacity_J_K
     C[:, HARDWARE] = rig.hardware_capacity_J_K
-    return rig.capacity_multiplier * C
+    return _capacity_scale(rig) * C
+
+
+def _capacity_scale(rig: Rig):
+    """The capacity multiplier, shaped to scale (N, 3) node arrays (it may be one per design)."""
+    m = rig.capacity_multiplier
+    return np.asarray(m, dtype=float)[:, None] if np.ndim(m) else m
 
 
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
@@ -115,12 +121,12 @@ def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     oil = rig.oil_mass_kg * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
     wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
     hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    return rig.capacity_multiplier * _columns(oil, wall, hardware)
+    return _capacity_scale(rig) * _columns(oil, wall, hardware)
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
-    H = H_J / rig.capacity_multiplier
+    H = H_J / _capacity_scale(rig)
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / rig.oil_mass_kg)
     wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
     hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15

@@ -22,7 +22,7 @@ from scipy.optimize import least_squares
 
 from .errors import ScenarioError
 from .measured_log import MeasuredLog, log_file_text, read_log
-from .network import OIL, hardware_to_ambient_W_K, heat_capacities_J_K, wall_to_ambient_W_K
+from .network import OIL, cooling_time_constant_s
 from .scenario import Scenario, build_rig
 from .session import Resolution, Step
 from .solver import integrate
@@ -362,7 +362,8 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     # Noise from successive differences of the residuals, blind to a slow misfit (von Neumann et
     # al., Ann. Math. Stat. 12, 1941): sigma^2 ~ mean(diff(r)^2) / 2.
     noise = float(np.sqrt(np.mean(np.diff(residual) ** 2) / 2.0))
-    tau = _time_constant_s(model.rig, convection, capacity, float(np.max(measured)))
+    tau = cooling_time_constant_s(model.rig.with_changes(convection_multiplier=convection,
+                                                         capacity_multiplier=capacity), float(np.max(measured)))
     calibrated = scenario.changed(**{"losses.convection_multiplier": float(f"{convection:.4g}"),
                                      "losses.capacity_multiplier": float(f"{capacity:.4g}")})
     in_wait = np.array([piece < 0 or not model.pieces[piece].is_pull for piece in model.point_piece[used]])
@@ -406,16 +407,6 @@ def _intervals(theta, J, residual, names):
             half_width[name] = 0.0
     correlation = float(cov[0, 1] / np.sqrt(cov[0, 0] * cov[1, 1])) if se[0] > 0 and se[1] > 0 else None
     return ci95, correlation, half_width
-
-
-def _time_constant_s(rig, convection: float, capacity: float, T_K: float) -> float:
-    """Overall cooling time constant of the calibrated rig, s: total heat capacity over the total
-    conductance to ambient, with all nodes at T_K (engine off, no cooler)."""
-    calibrated = rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity)
-    T = np.full((1, 3), T_K)
-    C = float(np.sum(heat_capacities_J_K(calibrated, T)))
-    G = float(np.sum(wall_to_ambient_W_K(calibrated, T[:, 1]) + hardware_to_ambient_W_K(calibrated, T[:, 2])))
-    return C / G if G > 0 else float("inf")
 
 
 def _largest_fall_K(T_K) -> float:

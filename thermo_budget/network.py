@@ -340,6 +340,16 @@ def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
     return np.where(Q > 0, inputs.power_W / np.maximum(capacity_rate, 1e-30), 0.0)
 
 
+def cooling_time_constant_s(rig: Rig, T_K: float) -> float:
+    """Whole-rig cooling time constant with every node at T_K, engine off, no cooler: the total heat
+    capacity over the total conductance to the air, s (inf where nothing is lost). Design 0."""
+    T = np.full((1, 3), float(T_K))
+    C = float(np.sum(heat_capacities_J_K(rig, T)[0]))
+    wall, hardware = ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE])
+    G = float(np.atleast_1d(wall)[0] + np.atleast_1d(hardware)[0])
+    return C / G if G > 0 else float("inf")
+
+
 def passive_rejection_W(rig: Rig, T_K: float):
     """Steady heat loss to ambient with the whole rig at T_K, engine off, no cooler, W."""
     T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))

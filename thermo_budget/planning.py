@@ -6,7 +6,7 @@ from dataclasses import fields
 
 import numpy as np
 
-from .network import OIL, Rig, heat_capacities_J_K, passive_rejection_W
+from .network import OIL, Rig, cooling_time_constant_s
 from .outcome import peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
@@ -180,11 +180,8 @@ def _round_up(value: float, digits: int) -> float:
 
 def time_constant_s(scenario: Scenario) -> float:
     """Whole-rig cooling time constant with the engine off, no cooler, at the limit: C / UA, s."""
-    rig = build_rig(scenario)
     limit, _ = limit_K(scenario)
-    C = float(np.sum(heat_capacities_J_K(rig, np.full((1, 3), limit))))
-    UA = float(passive_rejection_W(rig, limit)[0]) / (limit - scenario.ambient_K)
-    return C / UA if UA > 0 else float("inf")
+    return cooling_time_constant_s(build_rig(scenario), limit)
 
 
 def _waits_of(scenario: Scenario) -> list[float]:

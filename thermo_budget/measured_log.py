@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import ScenarioError
+from .units import convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
@@ -37,7 +38,7 @@ MISSING_CELLS = {"", "nan", "na", "n/a", "null", "none", "-"}
 OIL_RANGE_C = (-60.0, 300.0)
 AMBIENT_RANGE_C = (-60.0, 70.0)
 
-_TEMPERATURE_COLUMNS = {"C": lambda v: v + 273.15, "F": lambda v: (v - 32.0) / 1.8 + 273.15, "K": lambda v: v}
+_TEMPERATURE_UNITS = {"C": "degC", "F": "degF", "K": "K"}   # by the last letter of the column name
 
 
 @dataclass(frozen=True)
@@ -291,7 +292,7 @@ def _times_s(times: list, column: str, source: str) -> np.ndarray:
 
 
 def _to_kelvin(values: np.ndarray, column: str) -> np.ndarray:
-    return _TEMPERATURE_COLUMNS[column[-1].upper()](values)
+    return convert(values, _TEMPERATURE_UNITS[column[-1].upper()], "K")
 
 
 def _check_range(values_K, range_C, column, source, line_numbers):

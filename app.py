@@ -16,7 +16,7 @@ from thermo_budget import ScenarioError, load_scenario
 from thermo_budget import page_charts
 from thermo_budget import page_inputs as pi
 from thermo_budget.report import report, simulate
-from thermo_budget.scenario import MAX_FILE_BYTES, read_toml_text
+from thermo_budget.scenario import read_toml_text
 from thermo_budget.units import to_display, unit_label
 
 try:  # the log-calibration feature is optional: the page hides its section without it
@@ -148,8 +148,6 @@ if uploaded is not None and uploaded.file_id != ss.upload_seen:
     ss.upload_seen = uploaded.file_id
     data = uploaded.getvalue()
     try:
-        if len(data) > MAX_FILE_BYTES:
-            raise ScenarioError(uploaded.name, f"{len(data)} bytes", f"a file of at most {MAX_FILE_BYTES} bytes")
         try:
             text = data.decode("utf-8")
         except UnicodeDecodeError:
@@ -169,14 +167,22 @@ units_box.radio("Units", pi.SYSTEMS, format_func=pi.SYSTEM_NAMES.get, key="syste
                      "(°F, gal, hp, psi, in³, BTU/hr/°F). The answers do not change.")
 system = ss.system
 
-# The draft as last edited; the inputs below show it. A draft that does not load is refused and
-# the page keeps the last scenario that did.
-try:
-    current = load_scenario(ss.draft)
-    draft_error = None
-except (ScenarioError, ValueError, TypeError, KeyError) as error:
-    current = _scenario(ss.good_toml)
-    draft_error = str(error)
+
+
+def load_draft():
+    """(the scenario the answers are for, the error or None). A draft that does not load is
+    refused and the page keeps the last scenario that did."""
+    try:
+        scenario = load_scenario(ss.draft)
+    except (ScenarioError, ValueError, TypeError, KeyError) as error:
+        return _scenario(ss.good_toml), str(error)
+    ss.good_toml = scenario.to_toml()
+    return scenario, None
+
+
+# The draft as last edited; the inputs below show it.
+draft_at_start = ss.draft
+current, draft_error = load_draft()
 
 # ------------------------------------------------------------------ inputs, grouped as the rig is
 
@@ -303,11 +309,8 @@ if fitted:
 
 # ------------------------------------------------------------------ the scenario the answers are for
 
-try:
-    current = load_scenario(ss.draft)
-    ss.good_toml, draft_error = current.to_toml(), None
-except (ScenarioError, ValueError, TypeError, KeyError) as error:
-    current, draft_error = _scenario(ss.good_toml), str(error)
+if ss.draft is not draft_at_start:   # the curve editor changes the draft while the page is drawn
+    current, draft_error = load_draft()
 
 log_file = ss.get("log_upload")
 fit, fit_error = None, None

@@ -15,6 +15,7 @@ import thermo_budget as tb
 from thermo_budget import ScenarioError, load_scenario
 from thermo_budget import page_charts
 from thermo_budget import page_inputs as pi
+from thermo_budget.planning import MAX_PULLS
 from thermo_budget.report import report, simulate
 from thermo_budget.scenario import read_toml_text
 from thermo_budget.units import to_display, unit_label
@@ -342,7 +343,7 @@ runs = answers["runs_before_limit"]
 if answers["sustainable"]:
     pulls_value, pulls_text = "No limit", "This cadence can go on all day without reaching the limit."
 elif runs is None:
-    pulls_value, pulls_text = "Very many", "No pull within 20,000 crosses the limit."
+    pulls_value, pulls_text = "Very many", f"No pull within {MAX_PULLS:,} crosses the limit."
 else:
     pulls_value, pulls_text = f"{runs}", f"{runs} pulls before the oil reaches {limit_text}."
 

@@ -26,20 +26,12 @@ def air_table() -> dict[str, np.ndarray]:
 
 
 def air_properties(T_film_K):
-    """Air properties at the film temperature T_film_K (K), by linear interpolation in the table.
+    """Air properties at the film temperature T_film_K (K), by linear interpolation in the table
+    (held at the table's ends outside it).
 
     Returns (k W/(m K), nu m^2/s, Pr, beta 1/K); beta = 1/T for an ideal gas.
     """
-    columns = _stacked_table()
-    T = np.clip(np.asarray(T_film_K, dtype=float), TABLE_T_K[0], TABLE_T_K[-1])
-    position = (T - TABLE_T_K[0]) / TABLE_STEP_K          # the grid is uniform
-    index = np.minimum(position.astype(int), TABLE_T_K.size - 2)
-    weight = (position - index)[..., None]
-    values = columns[index] * (1.0 - weight) + columns[index + 1] * weight
-    return values[..., 0], values[..., 1], values[..., 2], 1.0 / T
-
-
-@lru_cache(maxsize=1)
-def _stacked_table() -> np.ndarray:
     table = air_table()
-    return np.stack([table["k_W_mK"], table["nu_m2_s"], table["Pr"]], axis=-1)
+    T = np.minimum(np.maximum(T_film_K, TABLE_T_K[0]), TABLE_T_K[-1])
+    return (np.interp(T, TABLE_T_K, table["k_W_mK"]), np.interp(T, TABLE_T_K, table["nu_m2_s"]),
+            np.interp(T, TABLE_T_K, table["Pr"]), 1.0 / T)

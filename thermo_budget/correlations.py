@@ -158,6 +158,8 @@ def Nu_tube_turbulent_Gnielinski(Re, Pr):
 def Nu_tube_Hausen_Gnielinski(Re, Pr, diameter_m, length_m):
     """Tube flow over all Re: Hausen below 2300, Gnielinski above 3000, linear blend between."""
     laminar = Nu_tube_laminar_Hausen(np.minimum(Re, 2300.0), Pr, diameter_m, length_m)
+    if np.max(Re) <= 2300.0:
+        return laminar
     turbulent = Nu_tube_turbulent_Gnielinski(Re, Pr)
     weight = np.clip((np.asarray(Re) - 2300.0) / 700.0, 0.0, 1.0)
     return np.maximum((1.0 - weight) * laminar + weight * turbulent, laminar)

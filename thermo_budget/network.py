@@ -90,6 +90,13 @@ def _columns(*values, n=None) -> np.ndarray:
     return out
 
 
+def per_design(value, n: int) -> np.ndarray:
+    """A float or an (n,) array as an (n,) float array (the array itself when it already is one)."""
+    if isinstance(value, np.ndarray) and value.shape == (n,) and value.dtype == float:
+        return value
+    return np.broadcast_to(np.asarray(value, dtype=float), (n,))
+
+
 def _rows(*values, like=None) -> np.ndarray:
     """Floats or (N,) arrays as the rows of one (k, N) array; N from `like` or the first array."""
     reference = next(v for v in values if np.ndim(v)) if like is None else like
@@ -207,7 +214,7 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K):
     and the bottom (same face, same temperature).
     """
     T_a, m, speed = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s
-    T_s = _rows(np.atleast_1d(T_wall_K), np.atleast_1d(T_hardware_K))
+    T_s = _rows(T_wall_K, T_hardware_K, like=np.atleast_1d(T_wall_K))
     k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # row 0 at the wall's film, row 1 the hardware's
     dT = T_s - T_a
     h_rad_wall = h_radiation_grey(rig.wall_emissivity, T_s[0], T_a)
@@ -265,7 +272,7 @@ def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_
     nu, k_oil, _, _, pr = rig.oil.transport(T_oil_K) if oil_props is None else oil_props
     still = k_oil * (0.25 * np.pi * D_i**2) / (0.5 * L)
     flowing = np.asarray(volume_flow_m3_s) > 0
-    if not np.any(flowing):
+    if not flowing.any():
         return still
     velocity = volume_flow_m3_s / (0.25 * np.pi * D_i**2)
     Nu = Nu_tube_Hausen_Gnielinski(velocity * D_i / nu, pr, D_i, L)
@@ -288,8 +295,8 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     n = T_K.shape[0]
     T_oil, T_wall, T_hw = T_K[:, OIL], T_K[:, WALL], T_K[:, HARDWARE]
     T_a = rig.ambient_K
-    Q = np.broadcast_to(np.asarray(inputs.volume_flow_m3_s, dtype=float), (n,))
-    P = np.broadcast_to(np.asarray(inputs.power_W, dtype=float), (n,))
+    Q = per_design(inputs.volume_flow_m3_s, n)
+    P = per_design(inputs.power_W, n)
     flowing = Q > 0
     oil_props = rig.oil.transport(T_oil)
     cp, rho = oil_props[2], oil_props[3]
@@ -325,7 +332,7 @@ def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
     rated value.
     """
     K = np.asarray(rig.cooler_W_K, dtype=float)
-    if not np.any(K > 0):
+    if not (K > 0).any():
         return np.zeros_like(np.asarray(capacity_rate_W_K, dtype=float))
     running = np.where(flowing, np.minimum(K, capacity_rate_W_K), 0.0)
     if rig.cooler_fan == "always":

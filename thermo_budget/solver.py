@@ -60,7 +60,7 @@ def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
     T_pred, _ = propagate_linear(C, L, b, T0, h)
     C, L, b, g_amb, loss_offset = node_equations(rig, 0.5 * (T0 + T_pred), inputs)
     T_lin, T_int = propagate_linear(C, L, b, T0, h)
-    heat_in = np.broadcast_to(inputs.power_W, h.shape) * h
+    heat_in = inputs.power_W * h
     heat_lost = np.sum(g_amb * (T_int - ambient_K * h[:, None]), axis=1) + loss_offset * h
     H1 = node_enthalpy_J(rig, T0) + C * (T_lin - T0)
     return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (C, L, b)

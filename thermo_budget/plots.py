@@ -52,7 +52,7 @@ def plot_trace(scenario, trace, system: str | None = None) -> Figure:
     ax.set_xlim(0.0, t_min[-1])
     ax.set_xlabel("time since the first pull started (min)")
     ax.set_ylabel(f"temperature ({symbol})")
-    ax.set_title(scenario.name or "planned session", fontsize=11, loc="left")
+    ax.set_title(scenario.name or "planned session", fontsize=11, loc="left", y=1.0)
     ax.grid(alpha=0.3)
     ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
     return fig
@@ -111,6 +111,6 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     ax.set_ylabel(f"cooler size ({k_unit} of ETD)")
     limit_shown = to_shown(r.limit_C + 273.15, "temperature", system)
     ax.set_title(f"Pulls before {limit_shown:.0f} {unit_symbol('temperature', system)}, repeating the planned "
-                 f"cycle. Hatched: can go on all day", fontsize=10, loc="left")
+                 f"cycle. Hatched: can go on all day", fontsize=10, loc="left", y=1.0)
     ax.legend(loc="upper right", fontsize=9, framealpha=0.9)
     return fig

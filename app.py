@@ -53,12 +53,17 @@ def _design_charts() -> dict:
     return {}
 
 
+@st.cache_data(max_entries=32, show_spinner=False)
+def design_sweep_for(toml_text: str):
+    return page_charts.design_sweep(toml_text, answers_for(toml_text))
+
+
 def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
     charts, key = _design_charts(), (toml_text, system)
     if key not in charts:
         with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
                         f"{page_charts.DESIGN_COOLERS} rigs)…"):
-            png = page_charts.design_chart_png(toml_text, system, answers_for(toml_text))
+            png = page_charts.design_chart_png(toml_text, system, result=design_sweep_for(toml_text))
         while len(charts) >= keep:
             charts.pop(next(iter(charts)))
         charts[key] = png

@@ -44,3 +44,11 @@ def test_charts_are_png(default, system):
     text = default.to_toml()
     assert page_charts.design_chart_png(text, system).startswith(PNG_SIGNATURE)
     assert page_charts.trace_chart_png(text, system).startswith(PNG_SIGNATURE)
+
+
+def test_design_chart_from_a_kept_sweep_is_the_same_picture(default):
+    # The page keeps the sweep (it does not depend on the units) and only redraws on a unit switch.
+    text = default.to_toml()
+    result = page_charts.design_sweep(text)
+    for system in ("SI", "US"):
+        assert page_charts.design_chart_png(text, system, result=result) == page_charts.design_chart_png(text, system)

@@ -59,15 +59,23 @@ def design_axes(scenario: Scenario, answers: dict | None = None, n_volumes: int 
                        n_volumes, n_coolers)
 
 
-def design_chart_png(toml_text: str, system: str, answers: dict | None = None) -> bytes:
-    """The design chart (pulls before the limit over oil volume x cooler size) of the scenario in
-    `toml_text`, drawn in the units of `system`; answers: its report, if known. Counting stops at
-    four times the planned pulls (at least 40): the colour scale needs no more."""
+def design_sweep(toml_text: str, answers: dict | None = None):
+    """The design chart's sweep (pulls before the limit over oil volume x cooler size) of the
+    scenario in `toml_text`; answers: its report, if known. It does not depend on the unit system,
+    so a page can keep it and redraw only the chart when the units change. Counting stops at four
+    times the planned pulls (at least 40): the colour scale needs no more."""
     from .design_sweep import sweep
     scenario = load_scenario(read_toml_text(toml_text))
     volumes, coolers = design_axes(scenario, answers)
     planned = sum(step.is_pull for step in scenario.steps)
-    result = sweep(scenario, volumes, coolers, max_pulls=max(4 * planned, 40))
+    return sweep(scenario, volumes, coolers, max_pulls=max(4 * planned, 40))
+
+
+def design_chart_png(toml_text: str, system: str, answers: dict | None = None, result=None) -> bytes:
+    """The design chart of the scenario in `toml_text`, drawn in the units of `system`.
+    result: its design_sweep, if already known (else worked out here)."""
+    scenario = load_scenario(read_toml_text(toml_text))
+    result = design_sweep(toml_text, answers) if result is None else result
     return png_bytes(plot_design_chart(scenario, result, system))
 
 

@@ -68,6 +68,13 @@ def _run_levels(planned: int, highest: float) -> list:
     return [0] + levels + [next(v for v in ladder if v > top)]
 
 
+def _ink_on(rgba) -> str:
+    """Black or white, whichever reads better on a band of colour rgba (by its relative luminance,
+    WCAG 2 weights on the sRGB values, without the gamma step: enough to pick one of two inks)."""
+    red, green, blue = rgba[:3]
+    return "k" if 0.2126 * red + 0.7152 * green + 0.0722 * blue > 0.45 else "w"
+
+
 def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figure:
     """Pulls before the limit over oil volume (x) and cooler size (y), repeating the planned cycle
     from a cold start. The line where it equals the planned session's pull count is drawn bold;
@@ -94,8 +101,9 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     bands = ax.contourf(X, Y, filled, levels=levels, cmap=cmap, norm=norm)
     if all_day.any():
         ax.contourf(X, Y, all_day.astype(float), levels=[0.5, 1.5], colors="none", hatches=["//"])
-    lines = ax.contour(X, Y, filled, levels=[lv for lv in levels[1:-1] if lv != r.pulls_planned],
-                       colors="k", linewidths=0.4, alpha=0.5)
+    edges = [lv for lv in levels[1:-1] if lv != r.pulls_planned]
+    lines = ax.contour(X, Y, filled, levels=edges, colors=[_ink_on(cmap(norm(lv))) for lv in edges],
+                       linewidths=0.4, alpha=0.6)
     ax.clabel(lines, fmt="%d", fontsize=7)
     if finite.size and (filled.min() < r.pulls_planned < filled.max()):
         planned = ax.contour(X, Y, filled, levels=[r.pulls_planned], colors=LIMIT_COLOUR, linewidths=2.5)

@@ -96,3 +96,12 @@ def test_run_levels_cover_every_count(planned, highest):
     assert levels[0] == 0 and all(a < b for a, b in zip(levels, levels[1:]))
     assert planned in levels
     assert levels[-1] > max(highest, planned)   # the top band holds the highest count and the unlimited ones
+
+
+def test_band_edges_are_inked_to_read_on_their_band():
+    # White on the darkest band of the chart's colour map, black on the palest (common practice, no source).
+    import matplotlib
+    from thermo_budget.plots import _ink_on
+    cmap = matplotlib.colormaps["YlGnBu"]
+    assert _ink_on(cmap(1.0)) == "w"
+    assert _ink_on(cmap(0.0)) == "k"

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (OIL, Inputs, Rig, node_enthalpy_J, node_equations, return_line_rise_K,
+from .network import (OIL, Inputs, Rig, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
                       temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
@@ -116,8 +116,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     pull_start, pull_end = [], []
     been_above = np.zeros(n_designs, bool)
     for index, step in enumerate(steps):
-        duration = np.broadcast_to(np.asarray(
-            step.duration_s if durations_s is None else durations_s[index], dtype=float), (n_designs,))
+        duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
         n_sub = resolution.substeps(step, float(np.max(duration)))
         h = duration / n_sub
         if step.is_pull:

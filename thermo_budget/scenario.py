@@ -6,7 +6,6 @@ raises ScenarioError naming the key path, the value and what was expected.
 from __future__ import annotations
 
 import copy
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -15,97 +14,18 @@ import tomli_w
 
 from .errors import ScenarioError
 from .materials import MATERIALS
-from .network import Rig
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
+from .rig_build import build_rig, limit_K  # noqa: F401  (build_rig re-exported: the scenario's network)
 from .session import EngineCurve, Step, shaft_power_W
-from .units import SI_UNIT, convert, parse_quantity
+from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
+                             with_path)
+from .units import parse_quantity
 
-MAX_FILE_BYTES = 1_000_000
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
 DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
-
-_MISSING = object()
-
-
-class _Table:
-    """Reads one TOML table, remembering which keys were used so leftovers are reported."""
-
-    def __init__(self, raw, path: str, required: bool = True):
-        if raw is _MISSING or raw is None:
-            if required:
-                raise ScenarioError(path, None, f"a [{path}] table")
-            raw = {}
-        if not isinstance(raw, dict):
-            raise ScenarioError(path, raw, "a table")
-        self.raw, self.path, self.used = raw, path, set()
-
-    def key(self, name: str) -> str:
-        return f"{self.path}.{name}" if self.path else name
-
-    def get(self, name, default=_MISSING):
-        self.used.add(name)
-        if name in self.raw:
-            return self.raw[name]
-        if default is _MISSING:
-            raise ScenarioError(self.key(name), None, "a value (the key is missing)")
-        return default
-
-    def quantity(self, name, kind, bare_unit, default=_MISSING, minimum=None, above=None, maximum=None):
-        """The value in SI; minimum, above and maximum are in SI too (maximum is quoted back in
-        bare_unit when it is exceeded)."""
-        value = self.get(name, default)
-        if value is None:
-            return None
-        si = parse_quantity(value, self.key(name), kind, bare_unit)
-        _check_range(self.key(name), value, si, minimum, above, kind)
-        if maximum is not None and si > maximum:
-            raise ScenarioError(self.key(name), value, f"at most {convert(maximum, SI_UNIT[kind], bare_unit):g} {bare_unit}")
-        return si
-
-    def number(self, name, default=_MISSING, minimum=None, maximum=None, above=None, integer=False):
-        value = self.get(name, default)
-        if value is None:
-            return None
-        if isinstance(value, bool) or not isinstance(value, (int, float)) or (integer and not isinstance(value, int)):
-            raise ScenarioError(self.key(name), value, "a whole number" if integer else "a number")
-        if not np.isfinite(value):
-            raise ScenarioError(self.key(name), value, "a finite number")
-        if minimum is not None and value < minimum:
-            raise ScenarioError(self.key(name), value, f"a number of at least {minimum:g}")
-        if maximum is not None and value > maximum:
-            raise ScenarioError(self.key(name), value, f"a number of at most {maximum:g}")
-        if above is not None and value <= above:
-            raise ScenarioError(self.key(name), value, f"a number greater than {above:g}")
-        return value
-
-    def choice(self, name, options, default=_MISSING):
-        value = self.get(name, default)
-        if value not in options:
-            raise ScenarioError(self.key(name), value, "one of " + ", ".join(f'"{o}"' for o in options))
-        return value
-
-    def finish(self):
-        unknown = [k for k in self.raw if k not in self.used]
-        if unknown:
-            raise ScenarioError(self.key(unknown[0]), self.raw[unknown[0]],
-                                "no such key here; known keys: " + ", ".join(sorted(self.used)))
-
-
-def _check_range(key, value, si, minimum, above, kind):
-    if kind == "temperature":
-        if si <= 0.0:
-            raise ScenarioError(key, value, "a temperature above absolute zero")
-        if not -60.0 <= si - 273.15 <= 250.0:
-            raise ScenarioError(key, value, "a temperature between -60 and 250 degC (the range of a mineral-oil rig)")
-        return
-    if above is not None and si <= above:
-        raise ScenarioError(key, value, f"a value greater than {above:g} (SI)" if above else "a positive value")
-    if minimum is not None and si < minimum:
-        raise ScenarioError(key, value, "a value of zero or more" if minimum == 0 else f"at least {minimum:g} (SI)")
-
 
 @dataclass(frozen=True)
 class Reservoir:
@@ -184,29 +104,6 @@ class Scenario:
         for path, value in paths.items():
             raw = with_path(raw, path, value)
         return load_scenario(raw)
-
-
-def with_path(raw: dict, path: str, value) -> dict:
-    """A copy of the document raw with the key path "a.b" set to value (None removes the key)."""
-    new = copy.deepcopy(raw)
-    parts = path.split(".")
-    table = new
-    for part in parts[:-1]:
-        table = table.setdefault(part, {})
-    if value is None:
-        table.pop(parts[-1], None)
-    else:
-        table[parts[-1]] = value
-    return new
-
-
-def read_toml_text(text: str, source: str = "scenario") -> dict:
-    if len(text.encode("utf-8")) > MAX_FILE_BYTES:
-        raise ScenarioError(source, f"{len(text.encode('utf-8'))} bytes", f"a file of at most {MAX_FILE_BYTES} bytes")
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        raise ScenarioError(source, "malformed TOML", f"valid TOML ({error})") from None
 
 
 def load_scenario(path_or_dict) -> Scenario:
@@ -396,75 +293,21 @@ def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> l
 
 def _check_consistency(s: Scenario):
     """Checks across keys: the limit above ambient and start, the oil fitting the tank when hot."""
-    limit_K = min(s.max_temperature_K, s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt))
+    limit = limit_K(s)[0]
     if s.max_temperature_K <= s.ambient_K:
         raise ScenarioError("fluid.max_temperature", s.raw["fluid"]["max_temperature"],
                             "a limit above the ambient temperature")
-    if limit_K <= s.ambient_K:
+    if limit <= s.ambient_K:
         raise ScenarioError("fluid.min_viscosity", s.raw["fluid"]["min_viscosity"],
                             "a viscosity reached only above the ambient temperature (the fluid limit is below ambient)")
-    if s.start_K >= limit_K:
+    if s.start_K >= limit:
         raise ScenarioError("session.start_temperature", s.raw["session"]["start_temperature"],
-                            f"a start below the fluid limit ({limit_K - 273.15:.1f} degC)")
+                            f"a start below the fluid limit ({limit - 273.15:.1f} degC)")
     hot_volume = s.reservoir.oil_volume_m3 * (1.0 + s.oil.expansion_per_K * (s.max_temperature_K - 288.15))
     if hot_volume > s.reservoir.inner_volume_m3:
         raise ScenarioError("reservoir.oil_volume", s.raw["reservoir"]["oil_volume"],
                             f"at most the tank's {s.reservoir.inner_volume_m3 * 1000:.2f} L once expanded at the "
                             f"maximum temperature (needs {hot_volume * 1000:.2f} L)")
-    if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit_K:
+    if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit:
         raise ScenarioError("session.ready_temperature", s.raw["session"]["ready_temperature"],
                             "a temperature between ambient and the fluid limit")
-
-
-def build_rig(s: Scenario, oil_volume_m3=None, cooler_W_K=None, convection_multiplier=None,
-              capacity_multiplier=None) -> Rig:
-    """The network of a scenario. oil_volume_m3 and cooler_W_K may be arrays (N designs); a changed
-    oil volume scales the tank geometrically (same proportions and fill fraction)."""
-    res, hw = s.reservoir, s.hardware
-    volume = np.atleast_1d(np.asarray(res.oil_volume_m3 if oil_volume_m3 is None else oil_volume_m3, dtype=float))
-    scale = (volume / res.oil_volume_m3) ** (1.0 / 3.0)
-    if res.shape == "box":
-        perimeter = 2.0 * (res.length_m + res.width_m)
-        plate = res.length_m
-    else:
-        perimeter = np.pi * res.diameter_m
-        plate = res.diameter_m
-    footprint = res.footprint_m2
-    fill = res.oil_volume_m3 / footprint
-    side_area = perimeter * res.height_m * scale**2
-    top_area = footprint * scale**2
-    wall = MATERIALS[res.wall_material]
-    shell_area = side_area + 2.0 * top_area
-    hw_material = MATERIALS[hw.material]
-    return Rig(
-        oil=s.oil,
-        oil_mass_kg=volume * s.oil.density_15C_kg_m3,
-        side_area_m2=side_area, side_height_m=res.height_m * scale,
-        top_area_m2=top_area, top_length_m=footprint / perimeter * scale,
-        bottom_area_m2=top_area if res.bottom == "open" else np.zeros_like(top_area),
-        plate_length_m=plate * scale,
-        wetted_area_m2=(perimeter * fill + footprint) * scale**2,
-        fill_height_m=fill * scale, tank_cross_section_m2=top_area,
-        wall_thickness_m=res.wall_thickness_m, wall_conductivity_W_mK=wall["conductivity_W_mK"],
-        wall_capacity_J_K=shell_area * res.wall_thickness_m * wall["density_kg_m3"] * wall["specific_heat_J_kgK"],
-        wall_emissivity=res.emissivity,
-        hardware_capacity_J_K=hw.mass_kg * hw_material["specific_heat_J_kgK"],
-        hose_length_m=hw.hose_length_m, hose_outer_diameter_m=hw.hose_outer_diameter_m,
-        hose_inner_diameter_m=hw.hose_inner_diameter_m, body_area_m2=hw.body_area_m2,
-        body_length_m=np.sqrt(hw.body_area_m2 / 6.0) if hw.body_area_m2 > 0 else 0.1,
-        hardware_emissivity=hw.emissivity,
-        displacement_m3=s.displacement_m3, volumetric_efficiency=s.volumetric_efficiency,
-        ambient_K=s.ambient_K, air_speed_m_s=s.air_speed_m_s,
-        convection_multiplier=s.convection_multiplier if convection_multiplier is None else convection_multiplier,
-        capacity_multiplier=s.capacity_multiplier if capacity_multiplier is None else capacity_multiplier,
-        cooler_W_K=np.asarray(s.cooler_W_K if cooler_W_K is None else cooler_W_K, dtype=float),
-        cooler_fan=s.cooler_fan)
-
-
-def limit_K(s: Scenario) -> tuple[float, str]:
-    """The effective fluid limit: the lower of max_temperature and the temperature at which the
-    viscosity falls to the pump's minimum. Returns (K, "max_temperature" | "min_viscosity")."""
-    at_viscosity = s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt)
-    if at_viscosity < s.max_temperature_K:
-        return at_viscosity, "min_viscosity"
-    return s.max_temperature_K, "max_temperature"

@@ -385,3 +385,26 @@ def test_stop_above_ends_the_trace_once_every_design_is_over():
     never = integrate(rig, steps[:6], scenario.start_K, n_designs=2, resolution=PLAN_RESOLUTION, stop_above_K=1e4)
     assert never.time_s.shape[0] == integrate(rig, steps[:6], scenario.start_K, n_designs=2,
                                               resolution=PLAN_RESOLUTION).time_s.shape[0]
+
+
+def test_per_design_ambient_power_and_inside_multipliers_match_separate_runs():
+    """A batch whose designs differ in ambient, power, oil-side and hardware-coupling multipliers gives
+    each design the trace it gets alone (the batch is only a vector of independent rigs)."""
+    scenario = load_scenario(SCENARIO_DIR / "default.toml")
+    rig = build_rig(scenario)
+    ambient = np.array([285.0, 300.0])
+    power = np.array([0.9, 1.1])
+    oil_side = np.array([0.5, 2.0])
+    coupling = np.array([3.0, 0.7])
+    batch = integrate(rig.with_changes(ambient_K=ambient, power_multiplier=power, oil_side_multiplier=oil_side,
+                                       hardware_coupling_multiplier=coupling),
+                      scenario.steps, scenario.start_K, n_designs=2)
+    for i in range(2):
+        alone = integrate(rig.with_changes(ambient_K=float(ambient[i]), power_multiplier=float(power[i]),
+                                           oil_side_multiplier=float(oil_side[i]),
+                                           hardware_coupling_multiplier=float(coupling[i])),
+                          scenario.steps, scenario.start_K)
+        np.testing.assert_allclose(batch.T_K[:, i], alone.T_K[:, 0], rtol=0, atol=1e-9)
+        np.testing.assert_allclose(batch.energy_lost_J[i], alone.energy_lost_J[0], rtol=1e-12)
+        assert abs(batch.energy_in_J[i] - power[i] * integrate(rig, scenario.steps, scenario.start_K).energy_in_J[0]) \
+            < 1e-9 * batch.energy_in_J[i]

@@ -58,10 +58,15 @@ class Rig:
     displacement_m3: float
     volumetric_efficiency: float
     # surroundings and multipliers
-    ambient_K: float
+    ambient_K: float                         # a float, or one per design
     air_speed_m_s: float = 0.0
-    convection_multiplier: float = 1.0       # a float, or one per design
+    convection_multiplier: float = 1.0       # air side; a float, or one per design
     capacity_multiplier: float = 1.0         # a float, or one per design
+    # Multipliers on the inside of the rig and on the load, each a float or one per design (the
+    # uncertainty band samples them; 1 is the model as written).
+    oil_side_multiplier: float = 1.0         # the oil-side coefficient on the tank's wetted wall
+    hardware_coupling_multiplier: float = 1.0  # the conductance loop oil -> loop hardware
+    power_multiplier: float = 1.0            # the absorbed power of every step
     # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
     cooler_W_K: np.ndarray = 0.0
     cooler_fan: str = "with_flow"
@@ -95,6 +100,11 @@ def per_design(value, n: int) -> np.ndarray:
     if isinstance(value, np.ndarray) and value.shape == (n,) and value.dtype == float:
         return value
     return np.broadcast_to(np.asarray(value, dtype=float), (n,))
+
+
+def ambient_column(ambient_K):
+    """The ambient temperature (a float or one per design) shaped to broadcast over (N, k) arrays."""
+    return np.reshape(np.asarray(ambient_K, dtype=float), (-1, 1))
 
 
 def _rows(*values, like=None) -> np.ndarray:
@@ -194,7 +204,7 @@ def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     Nu_N = Nu_vertical_plate_Churchill_Chu(Ra, pr)
     velocity = volume_flow_m3_s / rig.tank_cross_section_m2
     Nu_F = Nu_flat_plate_forced_Incropera(velocity * rig.fill_height_m / nu, pr)
-    return Nu_combined_Churchill(Nu_F, Nu_N) * k / rig.fill_height_m
+    return rig.oil_side_multiplier * Nu_combined_Churchill(Nu_F, Nu_N) * k / rig.fill_height_m
 
 
 def _series(area_m2, h_W_m2K, resistance_m2K_W):
@@ -296,7 +306,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     T_oil, T_wall, T_hw = T_K[:, OIL], T_K[:, WALL], T_K[:, HARDWARE]
     T_a = rig.ambient_K
     Q = per_design(inputs.volume_flow_m3_s, n)
-    P = per_design(inputs.power_W, n)
+    P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
     flowing = Q > 0
     oil_props = rig.oil.transport(T_oil)
     cp, rho = oil_props[2], oil_props[3]
@@ -304,7 +314,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
-    G_oh = oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
+    G_oh = rig.hardware_coupling_multiplier * oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_wa, G_ha = ambient_conductances_W_K(rig, T_wall, T_hw)
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
@@ -317,7 +327,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     g_amb = _columns(G_cool, G_wa, G_ha, n=n)
     # The loop hardware sees the mean loop oil temperature, bulk + half the return-line rise;
     # the cooler sees the return line, bulk + the full rise.
-    b = g_amb * T_a
+    b = g_amb * ambient_column(T_a)
     b[:, OIL] += P - G_cool * return_rise - 0.5 * G_oh * return_rise
     b[:, HARDWARE] += 0.5 * G_oh * return_rise
     return heat_capacities_J_K(rig, T_K, cp), L, b, g_amb, G_cool * return_rise

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (OIL, Inputs, Rig, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
+from .network import (OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
                       temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
@@ -61,7 +61,7 @@ def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
     C, L, b, g_amb, loss_offset = node_equations(rig, 0.5 * (T0 + T_pred), inputs)
     T_lin, T_int = propagate_linear(C, L, b, T0, h)
     heat_in = inputs.power_W * h
-    heat_lost = np.sum(g_amb * (T_int - ambient_K * h[:, None]), axis=1) + loss_offset * h
+    heat_lost = np.sum(g_amb * (T_int - ambient_column(ambient_K) * h[:, None]), axis=1) + loss_offset * h
     H1 = node_enthalpy_J(rig, T0) + C * (T_lin - T0)
     return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (C, L, b)
 
@@ -115,6 +115,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     energy_lost = np.zeros(n_designs)
     pull_start, pull_end = [], []
     been_above = np.zeros(n_designs, bool)
+    power_scale = np.array(per_design(rig.power_multiplier, n_designs))
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
         n_sub = resolution.substeps(step, float(np.max(duration)))
@@ -126,7 +127,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
             f0, f1 = k / n_sub, (k + 1) / n_sub
             power = step.mean_power_W(f0, f1)
             flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
-            inputs = Inputs(power_W=np.full(n_designs, power), volume_flow_m3_s=np.full(n_designs, float(flow)))
+            inputs = Inputs(power_W=power_scale * power, volume_flow_m3_s=np.full(n_designs, float(flow)))
             constant_inputs = step.curve is None and k > 0
             T, q_in, q_lost, corrector = advance_substep(rig, T, inputs, h, rig.ambient_K,
                                                          corrector if constant_inputs else None)

@@ -1,9 +1,25 @@
 """thermo_budget: how hot the oil of an uncooled hydraulic brake gets over a planned test session,
-and what that means for the number of pulls, the waits, a cooler and the reservoir size."""
-from .design_sweep import SweepResult, sweep
-from .errors import ScenarioError
-from .report import report, simulate
-from .scenario import DEFAULT_SCENARIO, Scenario, build_rig, limit_K, load_scenario
+and what that means for the number of pulls, the waits, a cooler and the reservoir size.
+
+The names below are imported on first use, so that `python -m thermo_budget --help` starts at once.
+"""
+from importlib import import_module
+
+_WHERE = {"SweepResult": "design_sweep", "sweep": "design_sweep", "ScenarioError": "errors",
+          "report": "report", "simulate": "report", "DEFAULT_SCENARIO": "scenario", "Scenario": "scenario",
+          "build_rig": "scenario", "limit_K": "scenario", "load_scenario": "scenario"}
 
 __all__ = ["ScenarioError", "Scenario", "DEFAULT_SCENARIO", "load_scenario", "build_rig", "limit_K",
            "report", "simulate", "sweep", "SweepResult"]
+
+
+def __getattr__(name):
+    if name in _WHERE:
+        value = getattr(import_module(f".{_WHERE[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(list(globals()) + __all__)

@@ -1,15 +1,29 @@
 """The one project exception. It carries the key path, the value and what was expected."""
 
+MAX_SHOWN_CHARS = 60   # of the bad value, in a message; the rest is counted, not printed
+MAX_KEY_CHARS = 80
+
+
+def shown(value, limit: int = MAX_SHOWN_CHARS) -> str:
+    """A value as one line for a message: strings quoted with control characters escaped, at most
+    `limit` characters of it, and the length when it was cut."""
+    text = value if isinstance(value, str) else repr(value)
+    escaped = text.encode("unicode_escape").decode("ascii") if not text.isprintable() else text
+    cut = escaped if len(escaped) <= limit else f"{escaped[:limit]}… ({len(text)} characters)"
+    return f'"{cut}"' if isinstance(value, str) else cut
+
 
 class ScenarioError(ValueError):
     """Bad input: names the field, the value given and what was expected.
 
     The command line prints ``str(error)`` as one line and exits with code 2; the page shows it.
+    The value is quoted on one line, at most MAX_SHOWN_CHARS characters of it.
     """
 
     def __init__(self, key: str, value, expected: str):
         self.key = key
         self.value = value
         self.expected = expected
-        shown = repr(value) if not isinstance(value, str) else f'"{value}"'
-        super().__init__(f"{key}: got {shown}, expected {expected}")
+        key_text = shown(str(key), MAX_KEY_CHARS)[1:-1]
+        expected_text = " ".join(str(expected).split())
+        super().__init__(f"{key_text}: got {shown(value)}, expected {expected_text}")

@@ -1,15 +1,29 @@
 """The answers for one scenario, as the dict that `run --json` prints."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
+from .errors import ScenarioError
 from .network import HARDWARE, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
+from .units import to_display, unit_label
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
+# Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
+# 2 cSt. Past the lower of the two the model's temperatures are not shown as answers.
+CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + 273.15
+D341_MIN_CST = 2.0
+BEYOND_RANGE_KEYS = ("peak_C", "end_C", "end_wall_C", "end_hardware_C", "peak_return_C")
+
+
+def model_range_max_K(scenario: Scenario) -> float:
+    """The highest bulk oil temperature at which the model's oil data hold, K."""
+    return min(CRAGOE_MAX_K, scenario.oil.temperature_at_viscosity_K(D341_MIN_CST))
 
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
@@ -74,7 +88,36 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
         "oil": {"viscosity_40C_cSt": round(scenario.oil.nu40_cSt, 3), "viscosity_100C_cSt": round(scenario.oil.nu100_cSt, 3),
                 "viscosity_index": round(scenario.oil.viscosity_index, 1)},
+        "beyond_model_range": False,
     }
+
+
+def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> None:
+    """Where the bulk oil passes the range of the oil data, the session's temperatures become None
+    and a caution (first of the notes) says why, in place of numbers that would look real."""
+    ceiling = model_range_max_K(scenario)
+    if float(peak_oil_K(trace)[0]) <= ceiling and np.all(np.isfinite(trace.T_K)):
+        return
+    def temp(T_K):
+        return f"{to_display(T_K, 'temperature', scenario.units):.0f} {unit_label('temperature', scenario.units)}"
+    shown, limit = temp(ceiling), limit_K(scenario)[0]
+    result.update({key: None for key in BEYOND_RANGE_KEYS}, beyond_model_range=True)
+    result.setdefault("notes", []).insert(0, (
+        f"Caution: in the planned session the bulk oil would pass {shown}, beyond the range where the model's "
+        f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures are not "
+        f"given. It is far past the fluid limit ({temp(limit)}) long before that: stop well before."))
+
+
+def check_finite(result, path: str = "") -> None:
+    """Every number in a result (nested dicts and lists) is finite, or ScenarioError names it."""
+    items = result.items() if isinstance(result, dict) else enumerate(result) if isinstance(result, list) else ()
+    for key, value in items:
+        where = f"{path}.{key}" if path and isinstance(key, str) else f"{path}[{key}]" if path else str(key)
+        if isinstance(value, float) and not math.isfinite(value):
+            raise ScenarioError("scenario", f"{where} = {value}",
+                                "inputs for which every answer is finite (one of the values above gave a "
+                                f"non-finite {where}; check its units)")
+        check_finite(value, where)
 
 
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:
@@ -84,6 +127,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
+    _caution_beyond_range(scenario, trace, result)
+    check_finite(result)
     return result
 
 

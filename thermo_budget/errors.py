@@ -1,7 +1,7 @@
 """The one project exception. It carries the key path, the value and what was expected."""
 
 MAX_SHOWN_CHARS = 60   # of the bad value, in a message; the rest is counted, not printed
-MAX_KEY_CHARS = 80
+MAX_KEY_CHARS = 200  # of the key path; a longer one keeps its end (the column or key name)
 
 
 def shown(value, limit: int = MAX_SHOWN_CHARS) -> str:
@@ -24,6 +24,8 @@ class ScenarioError(ValueError):
         self.key = key
         self.value = value
         self.expected = expected
-        key_text = shown(str(key), MAX_KEY_CHARS)[1:-1]
+        key_text = shown(str(key), 10**6)[1:-1]
+        if len(key_text) > MAX_KEY_CHARS:
+            key_text = "…" + key_text[-MAX_KEY_CHARS:]
         expected_text = " ".join(str(expected).split())
         super().__init__(f"{key_text}: got {shown(value)}, expected {expected_text}")

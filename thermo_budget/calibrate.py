@@ -20,7 +20,8 @@ from scipy.optimize import least_squares
 from .errors import ScenarioError
 from .measured_log import MeasuredLog, read_log
 from .network import OIL, cooling_time_constant_s
-from .scenario import Scenario, build_rig
+from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
+from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, Step
 from .solver import integrate
 from .fit_report import (calibrated_toml, fit_command, fit_warnings, format_difference,  # noqa: F401 (re-exported)
@@ -291,14 +292,20 @@ class FitResult:
 
 
 def fit_log(scenario: Scenario, log_text: str, sensor: str = "bulk", fit_start_offset: bool = False,
-            source: str = "log") -> FitResult:
-    """Fit the convection and capacity multipliers (and optionally a start offset) to a log's CSV text."""
+            source: str = "log", strict: bool = False) -> FitResult:
+    """Fit the convection and capacity multipliers (and optionally a start offset) to a log's CSV text.
+    strict : refuse a log that looks implausible (log_checks) instead of warning."""
     log = read_log(log_text, sensor, source)
-    return fit_measured_log(scenario, log, sensor, fit_start_offset)
+    return fit_measured_log(scenario, log, sensor, fit_start_offset, strict, source)
 
 
 def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
-                     fit_start_offset: bool = False) -> FitResult:
+                     fit_start_offset: bool = False, strict: bool = False, source: str = "log") -> FitResult:
+    """The fit of a read log; a long one is thinned first (log_checks.thin_for_fit)."""
+    plausibility = plausibility_warnings(log, scenario.start_K, limit_K(scenario)[0], scenario.units)
+    if strict:
+        refuse_implausible(plausibility, source)
+    log = thin_for_fit(log)
     model = log_model(scenario, log, sensor)
     used = np.isfinite(log.oil_K)
     measured = log.oil_K[used]
@@ -350,7 +357,7 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     calibrated = scenario.changed(**{"losses.convection_multiplier": float(f"{convection:.4g}"),
                                      "losses.capacity_multiplier": float(f"{capacity:.4g}")})
     in_wait = np.array([piece < 0 or not model.pieces[piece].is_pull for piece in model.point_piece[used]])
-    warnings = fit_warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
+    warnings = plausibility + fit_warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
                          names, solution, tau, fit_start_offset)
     notes = list(log.notes) + list(model.notes)
     if offset is not None:

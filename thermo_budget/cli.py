@@ -15,10 +15,10 @@ import sys
 from pathlib import Path
 
 from .errors import ScenarioError, shown
-from .units import to_display, unit_label
 
 
 def _fmt(value_si, kind, system, digits=1):
+    from .units import to_display, unit_label
     if value_si is None:
         return "n/a"
     return f"{to_display(value_si, kind, system):.{digits}f} {unit_label(kind, system)}"

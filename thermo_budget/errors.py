@@ -6,10 +6,18 @@ MAX_KEY_CHARS = 200  # of the key path; a longer one keeps its end (the column o
 
 def shown(value, limit: int = MAX_SHOWN_CHARS) -> str:
     """A value as one line for a message: strings quoted with control characters escaped, at most
-    `limit` characters of it, and the length when it was cut."""
+    `limit` characters of it (its start and its end, which for a path is the file's name), and the
+    length when it was cut."""
     text = value if isinstance(value, str) else repr(value)
-    escaped = text.encode("unicode_escape").decode("ascii") if not text.isprintable() else text
-    cut = escaped if len(escaped) <= limit else f"{escaped[:limit]}… ({len(text)} characters)"
+    if len(text) > 4 * limit:
+        text_for_message = text[:limit] + text[-limit:]
+    else:
+        text_for_message = text
+    escaped = (text_for_message if text_for_message.isprintable()
+               else text_for_message.encode("unicode_escape").decode("ascii"))
+    head = limit * 2 // 5
+    cut = (escaped if len(escaped) <= limit and text_for_message is text
+           else f"{escaped[:head]}…{escaped[-(limit - head):]} ({len(text)} characters)")
     return f'"{cut}"' if isinstance(value, str) else cut
 
 

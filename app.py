@@ -75,7 +75,7 @@ def trace_png(toml_text: str, system: str) -> bytes:
     return page_charts.trace_chart_png(toml_text, system, trace_for(toml_text))
 
 
-@st.cache_resource(max_entries=8, show_spinner=False)
+@st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
 def fit_for(toml_text: str, log_text: str, sensor: str):
     return fit_log(_scenario(toml_text), log_text, sensor)
 

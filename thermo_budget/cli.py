@@ -215,3 +215,8 @@ def _stdout_to_devnull():
         os.dup2(devnull, sys.stdout.fileno())
     except (OSError, ValueError):
         pass
+
+
+def console_main() -> None:
+    """The `thermo-budget` command that `pip install .` puts on the path."""
+    sys.exit(main())

@@ -26,9 +26,10 @@ DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
-# Steps in a planned session (repeat x steps of the cycle). Work grows with it: report() runs about
-# ten integrations of the session, 0.1-0.2 s per 100 steps on a 2-core machine (bench.py).
-MAX_SESSION_STEPS = 2000
+# Steps in a planned session (repeat x steps of the cycle). The work of report() grows with it, most
+# with the pulls past the limit, whose ready-to-pull waits are searched one by one: measured on a
+# busy 2-core machine, 10 s for 100 pulls (200 steps) past the limit, 130 s for 2,000 steps.
+MAX_SESSION_STEPS = 120
 
 @dataclass(frozen=True)
 class Reservoir:

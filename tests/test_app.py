@@ -158,3 +158,22 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
     assert metrics(page)["Pulls before the limit"] == before
+
+
+def test_a_log_with_a_giant_cell_is_refused_and_the_uploader_stays(page):
+    # a cell over the csv module's 131,072-character limit used to raise on every rerun and hide
+    # the uploader until a reload
+    giant = ("time_s,oil_C\n" + "\n".join(f"{i * 10},{20 + i}" for i in range(20)) + "\n210,"
+             + "9" * 140_000 + "\n").encode()
+    page.file_uploader(key="log_upload").set_value(("giant.csv", giant, "text/csv")).run()
+    assert not page.exception
+    assert any("The log was not used" in e.value and "characters" in e.value for e in page.error)
+    page.run()
+    assert not page.exception
+    assert page.file_uploader(key="log_upload") is not None
+
+
+def test_a_binary_scenario_upload_is_refused(page):
+    page.file_uploader(key="upload").set_value(("binary.toml", bytes(range(256)) * 8, "application/toml")).run()
+    assert not page.exception
+    assert any("binary.toml" in e.value for e in page.error)

@@ -389,9 +389,9 @@ def _intervals(theta, J, residual, names):
     half_width = {}
     for i, name in enumerate(names):
         low, high = theta[i] - t * se[i], theta[i] + t * se[i]
-        if name.endswith("multiplier"):
-            ci95[name] = [float(np.exp(low)), float(np.exp(high))]
-            half_width[name] = float(np.expm1(t * se[i]))
+        if name.endswith("multiplier"):   # an interval past e^50 is none at all
+            ci95[name] = [float(np.exp(low)), float(np.exp(high))] if t * se[i] < 50.0 else None
+            half_width[name] = float(np.expm1(t * se[i])) if t * se[i] < 50.0 else np.inf
         else:
             ci95[name] = [float(low), float(high)]
             half_width[name] = 0.0

@@ -54,7 +54,8 @@ def fit_warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, c
         warnings.append("the log cannot tell the parameters apart at all (singular Jacobian); no intervals")
     for name in names[:2]:
         if half_width.get(name, 0.0) > POOR_RELATIVE_HALF_WIDTH and correlation is not None:
-            warnings.append(f"{name} is poorly determined (95 % interval about +-{100 * half_width[name]:.0f} %)")
+            width = f"about +-{100 * half_width[name]:.0f} %" if np.isfinite(half_width[name]) else "without bound"
+            warnings.append(f"{name} is poorly determined (95 % interval {width})")
     for i, name in enumerate(names):
         if np.isclose(theta[i], lower[i], atol=1e-6) or np.isclose(theta[i], upper[i], atol=1e-6):
             warnings.append(f"{name} ended at the edge of its allowed range; the model does not match this log")
@@ -134,6 +135,7 @@ def toml_comment(text: str) -> str:
 def fit_command(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
     from .calibrate import fit_log
+    from .report import check_finite
     from .measured_log import log_file_text
     from .scenario import load_scenario
     scenario = load_scenario(args.scenario)
@@ -146,5 +148,7 @@ def fit_command(args) -> int:
         from .fit_plot import plot_fit
         figure = plot_fit(result)
         figure.savefig(args.plot, dpi=120, bbox_inches="tight")
-    print(json.dumps(result.to_dict(include_series=False), indent=2) if args.json else summary_text(result))
+    answers = result.to_dict(include_series=False)
+    check_finite(answers)
+    print(json.dumps(answers, indent=2, allow_nan=False) if args.json else summary_text(result))
     return 0

@@ -2,6 +2,8 @@
 without changing answers, refuses bad uploads and impossible inputs while keeping the last answers."""
 from __future__ import annotations
 
+import html
+import re
 from pathlib import Path
 
 import pytest
@@ -16,8 +18,32 @@ def page():
     return AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
 
 
+_CARD = re.compile(r'<div class="tb-card[^"]*" data-key="(\w+)"[^>]*>(.*?)</div></div>(?=<div class="tb-card|</div></div>$)', re.S)
+_PART = re.compile(r'<div class="tb-(label|value|unit|detail)">(.*?)</div>', re.S)
+
+
+def cards(at) -> dict:
+    """The headline cards as drawn: {key: {"label", "value", "unit", "details": [...]}}."""
+    source = next(m.value for m in at.markdown if "tb-grid" in m.value)
+    found = {}
+    for key, body in _CARD.findall(source.strip()):
+        card = {"label": "", "value": "", "unit": "", "details": []}
+        for part, text in _PART.findall(body + "</div>"):
+            if part == "detail":
+                card["details"].append(html.unescape(text))
+            else:
+                card[part] = html.unescape(text)
+        found[key] = card
+    return found
+
+
 def metrics(at) -> dict:
-    return {m.label: m.value for m in at.metric}
+    """Each headline card's label -> its value and unit, as a reader sees them."""
+    return {c["label"]: (c["value"] + " " + c["unit"]).strip() for c in cards(at).values()}
+
+
+def headline(at) -> str:
+    return cards(at)["pulls"]["value"]
 
 
 def number_input(at, label_start: str):
@@ -28,25 +54,26 @@ def test_default_scenario_runs_without_exception(page):
     assert not page.exception
     assert not page.error
     shown = metrics(page)
-    for label in ("Pulls before the limit", "Time to the limit", "Wait needed between pulls", "Cooler", "Smallest tank"):
+    for label in ("Pulls before the limit", "Hottest oil, planned session", "Time to the limit", "Wait between pulls",
+                  "Cooler for the plan", "Smallest tank", "Oil ageing today", "Head room at the limit"):
         assert label in shown
-    assert shown["Pulls before the limit"].isdigit()
-    assert any("The limit is" in m.value for m in page.markdown)
+    assert headline(page).isdigit()
+    assert any("The bulk limit is" in m.value for m in page.markdown)
     assert any("Safety" in e.label for e in page.expander)
 
 
 def test_both_charts_are_drawn_and_the_design_chart_follows_an_input(page):
     charts = page.get("image")
-    assert len(charts) == 2   # the temperature chart and the design chart (drawn last, into its place)
+    assert len(charts) == 3   # the temperature chart, the hot-day chart and the design chart (drawn last)
     number_input(page, "Oil in the tank").set_value(12.0).run()
-    assert not page.exception and len(page.get("image")) == 2
+    assert not page.exception and len(page.get("image")) == 3
 
 
 def test_changing_oil_volume_changes_headline_pull_count(page):
-    before = int(metrics(page)["Pulls before the limit"])
+    before = int(headline(page))
     number_input(page, "Oil in the tank").set_value(12.0).run()
     assert not page.exception and not page.error
-    after = int(metrics(page)["Pulls before the limit"])
+    after = int(headline(page))
     assert after < before  # less oil never means more pulls (invariant of the model)
 
 
@@ -60,7 +87,7 @@ def test_unit_switch_changes_units_not_answers(page):
     assert oil.label.endswith("(gal)")
     assert oil.value == pytest.approx(18.0 / 3.785411784, rel=1e-6)  # 1 US gal = 3.785411784 L exactly (NIST SP 811)
     assert us["Pulls before the limit"] == si["Pulls before the limit"]
-    assert us["Smallest tank"].endswith("gal") and si["Smallest tank"].endswith("L")
+    assert us["Smallest tank"].endswith("gal of oil") and si["Smallest tank"].endswith("L of oil")
     assert number_input(page, "Hottest the oil may get").value == pytest.approx(176.0)  # 80 degC = 176 degF
     page.radio(key="system").set_value("SI").run()
     assert metrics(page) == si
@@ -122,7 +149,7 @@ def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
     again = report(load_scenario(read_toml_text(text)))
-    assert str(again["runs_before_limit"]) == metrics(page)["Pulls before the limit"]
+    assert str(again["runs_before_limit"]) == headline(page)
 
 
 def test_cooler_toggle_adds_a_cooler_input(page):
@@ -149,12 +176,13 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.report import simulate, trace_csv
-    before = metrics(page)["Pulls before the limit"]
+    before = headline(page)
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
     assert not page.exception and not page.error
-    shown = metrics(page)
+    shown = {m.label: m.value for m in page.metric}
     assert shown["Heat loss scale"] == "1.00" and shown["Heat capacity scale"] == "1.00"  # self-consistency
+    assert any("heat loss scale" in c.value and " to " in c.value and "{" not in c.value for c in page.caption)
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
-    assert metrics(page)["Pulls before the limit"] == before
+    assert headline(page) == before

@@ -125,7 +125,7 @@ def cautions(scenario: Scenario, result: dict) -> list[str]:
                      "its seals and hoses are usually rated for, water in it boils and it ages fast. Check the "
                      "inputs; if they are right, do not run this session without a cooler or more oil.")
     elif peak_return >= flash - 30.0:
-        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, within 30 degC of the flash point "
+        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, less than 30 K below the flash point "
                      f"({flash:.1f} degC, {where}).")
     if result["headroom_at_peak_L"] <= 0.0:
         found.append("The hot oil overfills the tank at the predicted peak.")

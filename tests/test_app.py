@@ -186,3 +186,125 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
     assert headline(page) == before
+
+
+# ------------------------------------------------------------------ every figure is the package's own
+
+# Exact conversion factors (NIST SP 811, Appendix B): 1 gal = 3.785411784 L; degF = 1.8 degC + 32;
+# 1 hp = 745.69987158227 W; 1 psi = 6894.757293168 Pa; 1 BTU_IT/hr/degF = 1055.05585262 / 3600 * 1.8 W/K.
+SI_TO_US = {"C": lambda c: 1.8 * c + 32.0, "L": lambda v: v / 3.785411784, "W/K": lambda g: g / (1055.05585262 / 3600.0 * 1.8),
+            "L/min": lambda q: q / 3.785411784, "bar": lambda p: p * 1e5 / 6894.757293168, "mm": lambda x: x / 25.4,
+            "kW": lambda p: p * 1000.0 / 745.69987158227}
+
+
+def _figure(text: str) -> float:
+    return float(re.search(r"-?[\d,]+(?:\.\d+)?", text).group(0).replace(",", ""))
+
+
+def _close(shown: str, expected: float, rel: float = 2e-6):
+    """A shown figure equals the expected one to the last digit it shows."""
+    match = re.search(r"-?[\d,]+(?:\.(\d+))?", shown)
+    half_digit = 0.5 * 10.0 ** -len(match.group(1) or "")
+    assert abs(_figure(shown) - expected) <= half_digit + rel * abs(expected), (shown, expected)
+
+
+def _in(system: str, unit: str, value: float) -> float:
+    return value if system == "SI" else SI_TO_US[unit](value)
+
+
+@pytest.mark.parametrize("scenario_file", ["default.toml", "us_20hp_small_tank.toml"])
+def test_every_shown_figure_is_the_report_figure(scenario_file):
+    from thermo_budget import load_scenario
+    from thermo_budget.report import report
+    path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
+    assert not at.exception and not at.error
+    answers = report(load_scenario(path))
+    for system in ("SI", "US"):
+        if at.session_state["system"] != system:
+            at.radio(key="system").set_value(system).run()
+        shown = cards(at)
+        runs = answers["runs_before_limit"]
+        assert shown["pulls"]["value"] == str(runs)
+        assert f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in shown["pulls"]["details"][0]
+        _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
+        _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
+        if answers["min_oil_volume_L"] is not None:
+            _close(shown["tank"]["value"], _in(system, "L", answers["min_oil_volume_L"]))
+        if answers["cooler_needed"] and answers["cooler_required_W_per_K"]:
+            _close(shown["cooler"]["value"], _in(system, "W/K", answers["cooler_required_W_per_K"]))
+        _close(shown["ageing"]["value"], answers["oil_ageing_equivalent_h"])
+        _close(shown["headroom"]["value"], _in(system, "L", answers["headroom_at_limit_L"]))
+        # under "More figures": the pump's flow and pressure (the flow once read 756 L/min for 45.4)
+        figures = next(m.value for m in at.markdown if "Pump at the hardest pull" in m.value)
+        pump_line = figures.splitlines()[0]
+        flow_text, pressure_text = pump_line.split(": ")[1].split(" at ")[:2]
+        _close(flow_text, _in(system, "L/min", answers["pump"]["flow_L_min"]))
+        _close(pressure_text, _in(system, "bar", answers["pump"]["pressure_bar"]))
+        # the schedule: each pull's bulk and return-line peak
+        schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
+        cells = [re.findall(r"<td>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", schedule)[1:]]
+        assert len(cells) == len(answers["schedule"])
+        for row, expected in zip(cells, answers["schedule"]):
+            _close(row[3], _in(system, "C", expected["peak_C"]))
+            _close(row[4], _in(system, "C", expected["peak_return_C"]))
+
+
+def test_return_line_stop_is_said_in_the_headline():
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "us_20hp_small_tank.toml"
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
+    details = " ".join(cards(at)["pulls"]["details"])
+    assert "return line's limit" in details and "185.0 °F" in details
+    assert "(limit 185.0 °F)" in cards(at)["hottest"]["details"][0]
+
+
+def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
+    from thermo_budget.page_cards import pulls_card
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.report import report
+    answers = report(load_scenario(DEFAULT_SCENARIO))
+    plain = pulls_card(answers, "SI")
+    assert "likely" not in plain.unit
+    answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
+                          "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}}
+    card = pulls_card(answers, "SI")
+    assert card.value == "26" and card.unit == "pulls (likely 22–31)"
+    assert "Plan 22 pulls at 90 % confidence." in card.details
+    assert any("(likely 9–10)" in line for line in card.details)
+
+
+def test_name_edit_follows_into_the_titles_and_the_file(page):
+    next(box for box in page.text_input if box.label == "Rig name").input("Stand 2, bigger tank").run()
+    assert not page.exception and not page.error
+    assert page.subheader[0].value.startswith("Stand 2, bigger tank")
+    assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
+    from thermo_budget.plots import plot_trace
+    from thermo_budget import load_scenario
+    from thermo_budget.report import simulate
+    scenario = load_scenario(page.session_state["draft"])
+    assert plot_trace(scenario, simulate(scenario)).axes[0].get_title(loc="left") == "Stand 2, bigger tank"
+
+
+def test_failed_upload_error_is_cleared_by_a_later_action(page):
+    page.file_uploader(key="upload").set_value(("broken.toml", b"[reservoir\noil_volume = ", "application/toml")).run()
+    assert any("broken.toml" in e.value for e in page.error)
+    number_input(page, "Oil in the tank").set_value(16.0).run()
+    assert not page.exception and not any("broken.toml" in e.value for e in page.error)
+
+
+def test_speeds_say_their_unit(page):
+    assert number_input(page, "Engine speed in a pull").label.endswith("(rpm)")
+    assert number_input(page, "Idle speed").label.endswith("(rpm)")
+
+
+def test_a_return_line_limit_typed_on_the_page_stops_the_count(page):
+    before = int(headline(page))
+    number_input(page, "Return-line limit").set_value(50.0).run()
+    assert not page.exception and not page.error
+    assert int(headline(page)) < before
+    assert any("return line's limit" in d for d in cards(page)["pulls"]["details"])
+    number_input(page, "Return-line limit").set_value(200.0).run()   # far above the return line: no effect
+    assert int(headline(page)) == before

@@ -84,6 +84,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
+    from .bands import band_report
+    result.update(band_report(scenario, result))
     return result
 
 

@@ -19,6 +19,7 @@ from .rig_build import build_rig, limit_K  # noqa: F401  (build_rig re-exported:
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
                              with_path)
+from .uncertainty import UncertaintyModel, read_uncertainty
 from .units import parse_quantity
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
@@ -85,6 +86,7 @@ class Scenario:
     repeat: int
     cycle: tuple
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
+    uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
 
     @property
     def steps(self) -> list[Step]:
@@ -218,6 +220,7 @@ def _parse(raw: dict) -> Scenario:
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
+    uncertainty = read_uncertainty(top.get("uncertainty", None))
     top.finish()
 
     scenario = Scenario(raw=copy.deepcopy(raw), units=units, name=str(name), ambient_K=ambient,
@@ -225,7 +228,8 @@ def _parse(raw: dict) -> Scenario:
                         displacement_m3=displacement, volumetric_efficiency=eta_v, hardware=hardware,
                         convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
                         air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
-                        start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready)
+                        start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
+                        uncertainty=uncertainty)
     _check_consistency(scenario)
     return scenario
 

@@ -25,9 +25,9 @@ BAND_KEYS = ("pulls_under_limit", "runs_before_limit", "peak_C", "time_to_limit_
              "cooler_required_W_per_K", "min_oil_volume_L")
 COUNT_KEYS = ("pulls_under_limit", "runs_before_limit")
 SIZING_KEYS = ("min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L")
-SECANT_ROUNDS = 6
-PEAK_TOLERANCE_K = 0.1     # a sample's sizing answer is done when it keeps the peak within this of the target
-RELATIVE_TOLERANCE = 0.005
+SECANT_ROUNDS = 5
+PEAK_TOLERANCE_K = 0.2     # a sample's sizing answer is done when it keeps the peak within this of the target
+RELATIVE_TOLERANCE = 0.03   # bracket width at which the interpolated root is taken
 ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_required_W_per_K": 2,
                 "min_oil_volume_L": 2}
 
@@ -56,8 +56,9 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     """Every answer per sample: {key: (n,) array (inf where there is no finite answer: never crosses,
     no size suffices), "z": (n, k) standard normals, "envelope": ...}."""
     model = scenario.uncertainty
-    z = standard_normals(model, n_samples)
-    values = factor_values(model, z)
+    z_all = standard_normals(model, max(n_samples, n_sizing))
+    all_values = factor_values(model, z_all)
+    z, values = z_all[:n_samples], {key: v[:n_samples] for key, v in all_values.items()}
     rig = sample_rig(build_rig(scenario), values)
     limit, _ = limit_K(scenario)
     session = session_trace(scenario, rig, n_samples)
@@ -73,7 +74,7 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
                        "p50_C": np.round(np.quantile(oil, 0.5, axis=1), 3).tolist(),
                        "p90_C": np.round(np.quantile(oil, 0.9, axis=1), 3).tolist()}
-    small = {key: v[:n_sizing] for key, v in values.items()}
+    small = {key: v[:n_sizing] for key, v in all_values.items()}
     out.update(sizing_thresholds(scenario, small, n_sizing, point))
     return out
 
@@ -112,31 +113,96 @@ def sizing_thresholds(scenario, values: dict, n: int, point: dict) -> dict:
     def margins(x, items):
         return target - _session_peaks(scenario, values, [asked[k][0] for k in kinds[items]], sample[items], x)
 
-    lo, m_lo = np.full(m, np.nan), np.full(m, np.nan)     # largest value known to fail, and its margin
-    hi, m_hi = np.full(m, np.nan), np.full(m, np.nan)     # smallest value known to pass
-    done = np.zeros(m, bool)
-    # round 0: the floor (or a second guess) and the first guess, in one batch
-    first = np.array([a[2] for a in asked])[kinds]
-    second = np.array([a[1] if a[1] is not None else 1.25 * a[2] for a in asked])[kinds]
+    state = _Search(m, lows, highs, np.array([asked[k][5] for k in kinds]))
+    # round 0: two first guesses near the point answer (or the floor and a fallback where it is 0)
+    guess = np.array([a[2] for a in asked])[kinds]
+    floor = np.array([np.nan if a[1] is None else a[1] for a in asked])[kinds]
+    at_floor = np.array([a[1] is not None and point[a[0]] == a[1] for a in asked])[kinds]
+    first = np.where(at_floor, floor, 0.95 * guess)
+    second = np.where(at_floor, guess, 1.1 * guess)   # the guess is a fallback where the point is 0
     items = np.concatenate([np.arange(m), np.arange(m)])
     x = np.concatenate([first, second])
-    _record(x, margins(x, items), items, lo, m_lo, hi, m_hi)
-    floors = np.array([a[1] if a[1] is not None else np.nan for a in asked])[kinds]
-    done |= hi == floors                                  # the floor passes: no wait, no cooler needed
+    state.record(x, margins(x, items), items)
     for _ in range(SECANT_ROUNDS):
-        done |= _converged(lo, hi, m_hi)
-        todo = np.flatnonzero(~done)
+        todo = np.flatnonzero(~state.done())
         if todo.size == 0:
             break
-        x = _next_guess(lo[todo], m_lo[todo], hi[todo], m_hi[todo], lows[todo], highs[todo],
-                        np.array([asked[k][5] for k in kinds[todo]]))
+        x = state.next_guess(todo)
         stuck = np.isnan(x)                               # beyond the range: no size suffices
-        done[todo[stuck]] = True
+        state.stuck[todo[stuck]] = True
         todo, x = todo[~stuck], x[~stuck]
         if todo.size:
-            _record(x, margins(x, todo), todo, lo, m_lo, hi, m_hi)
-    answer = np.where(np.isnan(hi), np.inf, hi)
+            state.record(x, margins(x, todo), todo)
+    answer = state.answer()
     return {a[0]: answer[kinds == i] for i, a in enumerate(asked)}
+
+
+class _Search:
+    """Per item, the bracket (largest x known to fail, smallest known to pass, with their margins =
+    target - peak, >= 0 passes) and the last two points evaluated, for a secant on the margin."""
+
+    def __init__(self, m, lows, highs, in_log):
+        self.lows, self.highs, self.in_log = lows, highs, in_log
+        self.lo, self.m_lo, self.hi, self.m_hi = (np.full(m, np.nan) for _ in range(4))
+        self.last = np.full((m, 2, 2), np.nan)             # [item, newest/older, (x, margin)]
+        self.stuck = np.zeros(m, bool)
+
+    def record(self, x, margin, items):
+        for xi, mi, i in zip(x, margin, items):
+            self.last[i, 1] = self.last[i, 0]
+            self.last[i, 0] = (xi, mi)
+            if mi >= 0:
+                if np.isnan(self.hi[i]) or xi < self.hi[i]:
+                    self.hi[i], self.m_hi[i] = xi, mi
+            elif np.isnan(self.lo[i]) or xi > self.lo[i]:
+                self.lo[i], self.m_lo[i] = xi, mi
+
+    def done(self):
+        lo, hi = self.lo, self.hi
+        with np.errstate(invalid="ignore"):
+            bracketed = ~np.isnan(lo) & ~np.isnan(hi) & (
+                (self.m_hi <= PEAK_TOLERANCE_K) | (hi - lo <= RELATIVE_TOLERANCE * hi))
+            return self.stuck | bracketed | (hi <= self.lows)
+
+    def answer(self):
+        """Per item: the root interpolated inside the bracket (the bracket is narrow once done), the
+        smallest passing value where there is no bracket, inf where nothing passed."""
+        i = np.arange(self.lo.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            u_lo, u_hi = self._u(self.lo, i), self._u(self.hi, i)
+            root = self._x(np.clip(u_hi - self.m_hi * (u_hi - u_lo) / (self.m_hi - self.m_lo), u_lo, u_hi), i)
+        bracketed = ~np.isnan(self.lo) & ~np.isnan(self.hi)
+        return np.where(bracketed, root, np.where(np.isnan(self.hi), np.inf, self.hi))
+
+    def _u(self, x, i):
+        return np.where(self.in_log[i], np.log(np.maximum(x, 1e-300)), x)
+
+    def _x(self, u, i):
+        with np.errstate(over="ignore"):
+            return np.where(self.in_log[i], np.exp(u), u)
+
+    def next_guess(self, i):
+        """Regula falsi inside the bracket where there is one (kept 10 % in from its ends); else a
+        secant through the last two points, taken at most x 4 outward (x 3 without a usable slope).
+        NaN where the range is exhausted (no size suffices, or the lowest size already passes)."""
+        lo, hi, m_lo, m_hi = self.lo[i], self.hi[i], self.m_lo[i], self.m_hi[i]
+        (xa, ma), (xb, mb) = self.last[i, 0].T, self.last[i, 1].T
+        with np.errstate(invalid="ignore", divide="ignore"):
+            u_lo, u_hi = self._u(lo, i), self._u(hi, i)
+            u = u_hi - m_hi * (u_hi - u_lo) / (m_hi - m_lo)
+            inside = self._x(np.clip(u, u_lo + 0.1 * (u_hi - u_lo), u_hi - 0.1 * (u_hi - u_lo)), i)
+            ua, ub = self._u(xa, i), self._u(xb, i)
+            slope = (ma - mb) / (ua - ub)
+            outward = self._x(ua - ma / slope, i)
+            usable = np.isfinite(outward) & (slope > 0)
+            up = np.clip(np.where(usable, outward, 3.0 * lo), 1.05 * lo, 4.0 * np.maximum(lo, 1e-9))
+            down = np.clip(np.where(usable, outward, hi / 3.0), hi / 4.0, hi / 1.05)
+            # a floor of 0 (no wait, no cooler) is tried at once when the secant points far down
+            down = np.where((self.lows[i] == 0) & usable & (outward < hi / 4.0), 0.0, down)
+        x = np.where(np.isnan(lo), np.maximum(down, self.lows[i]),
+                     np.where(np.isnan(hi), np.minimum(up, self.highs[i]), inside))
+        exhausted = np.isnan(hi) & (lo >= self.highs[i])
+        return np.where(exhausted, np.nan, x)
 
 
 def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
@@ -150,38 +216,6 @@ def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
     trace = integrate(rig, scenario.steps, scenario.start_K, n_designs=x.size, durations_s=durations,
                       resolution=PLAN_RESOLUTION)
     return peak_oil_K(trace)
-
-
-def _record(x, margin, items, lo, m_lo, hi, m_hi):
-    """Narrow each item's bracket with the evaluated points (margin >= 0 passes)."""
-    for xi, mi, i in zip(x, margin, items):
-        if mi >= 0:
-            if np.isnan(hi[i]) or xi < hi[i]:
-                hi[i], m_hi[i] = xi, mi
-        elif np.isnan(lo[i]) or xi > lo[i]:
-            lo[i], m_lo[i] = xi, mi
-
-
-def _converged(lo, hi, m_hi):
-    bracketed = ~np.isnan(lo) & ~np.isnan(hi)
-    with np.errstate(invalid="ignore"):
-        return bracketed & ((m_hi <= PEAK_TOLERANCE_K) | (hi - lo <= RELATIVE_TOLERANCE * hi))
-
-
-def _next_guess(lo, m_lo, hi, m_hi, lows, highs, in_log):
-    """Secant between the bracket's ends (in ln x where asked), kept inside the bracket; a step of
-    x 3 (or / 3) outward where only one side is known. NaN where the range is exhausted."""
-    def to_u(v):
-        return np.where(in_log, np.log(np.maximum(v, 1e-300)), v)
-    u_lo, u_hi = to_u(lo), to_u(hi)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        u = u_hi - m_hi * (u_hi - u_lo) / (m_hi - m_lo)
-        inside = np.clip(u, u_lo + 0.1 * (u_hi - u_lo), u_hi - 0.1 * (u_hi - u_lo))
-        x_in = np.where(in_log, np.exp(inside), inside)
-    x = np.where(np.isnan(lo), np.maximum(hi / 3.0, lows), np.where(np.isnan(hi), np.minimum(
-        np.maximum(lo, 1e-9) * 3.0, highs), x_in))
-    at_end = (np.isnan(hi) & (lo >= highs)) | (np.isnan(lo) & (hi <= lows))
-    return np.where(at_end, np.nan, x)
 
 
 # --- quantiles, plan, ranking -----------------------------------------------------------------------
@@ -229,7 +263,8 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
             plan[key] = None
             continue
         v = _order_statistic(values, confidence)
-        plan[key] = round(v, ROUND_DIGITS[key]) if np.isfinite(v) else None
+        digits = ROUND_DIGITS[key]      # rounded up, so that the planned size still suffices
+        plan[key] = float(np.ceil(v * 10**digits - 1e-9) / 10**digits) if np.isfinite(v) else None
     return plan
 
 

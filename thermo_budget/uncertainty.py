@@ -97,9 +97,12 @@ class UncertaintyModel:
 
     @property
     def active(self) -> tuple:
-        """The factors that vary: width above 0, or fitted."""
+        """The factors that vary: width above 0, or fitted. A fitted convection multiplier stands for
+        the whole loss to the air on the logged day, radiation included, so the emissivity's prior
+        is dropped with it."""
         fitted = set(self.posterior.keys) if self.posterior else set()
-        return tuple(f for f in FACTORS if f.key in fitted or self.widths[f.key] > 0)
+        absorbed = {"emissivity"} if "convection" in fitted else set()
+        return tuple(f for f in FACTORS if f.key in fitted or (self.widths[f.key] > 0 and f.key not in absorbed))
 
     @property
     def spreads(self) -> bool:
@@ -114,7 +117,13 @@ class UncertaintyModel:
         """The factors, their distributions, widths and sources, for the report and the README."""
         rows = []
         fitted = dict(zip(self.posterior.keys, self.posterior.sd_ln)) if self.posterior else {}
+        active = {f.key for f in self.active}
         for f in FACTORS:
+            if f.key not in active:
+                absorbed = f.key == "emissivity" and "convection" in fitted
+                rows.append({"factor": f.key, "what": f.label, "distribution": "fixed (not sampled)", "sigma": "0",
+                             "source": "absorbed by the fitted convection multiplier" if absorbed else f.source})
+                continue
             if f.key in fitted:
                 width, dist = f"{100 * np.expm1(fitted[f.key]):.1f} %", "lognormal (fit posterior)"
                 source = "the log fit's covariance (linearised, Jacobian)"
@@ -242,3 +251,22 @@ def sample_rig(rig, values: dict, index=None):
         else:
             changes[f.rig_field] = np.asarray(getattr(rig, f.rig_field), dtype=float) * pick(v)
     return rig.with_changes(**changes)
+
+
+def posterior_from_fit(result) -> dict | None:
+    """The `[uncertainty.posterior]` table from a log fit (a calibrate.FitResult): the standard errors
+    of ln(convection) and ln(capacity) from its 95 % intervals (half-width / t(0.975, n - p)), and
+    their correlation. Where the residuals are correlated in time (lag-1 autocorrelation rho > 0), the
+    standard errors are widened by sqrt((1 + rho) / (1 - rho)), the variance inflation of the mean of
+    an AR(1) series (e.g. Box, Jenkins and Reinsel, Time Series Analysis), since the fit's intervals
+    assume independent noise. None where the fit gave no intervals."""
+    names = {"convection": "convection_multiplier", "capacity": "capacity_multiplier"}
+    if any(result.ci95.get(name) is None for name in names.values()) or result.correlation is None:
+        return None
+    t = float(stats.t.ppf(0.975, result.n_points - result.n_parameters))
+    rho = min(max(result.residual_lag1_autocorrelation, 0.0), 0.95)
+    inflation = np.sqrt((1.0 + rho) / (1.0 - rho))
+    sd = {key: inflation * np.log(result.ci95[name][1] / result.ci95[name][0]) / (2.0 * t)
+          for key, name in names.items()}
+    r = float(np.clip(result.correlation, -0.999, 0.999))
+    return posterior_table(sd, [[1.0, r], [r, 1.0]])

@@ -264,7 +264,7 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
             continue
         v = _order_statistic(values, confidence)
         digits = ROUND_DIGITS[key]      # rounded up, so that the planned size still suffices
-        plan[key] = float(np.ceil(v * 10**digits - 1e-9) / 10**digits) if np.isfinite(v) else None
+        plan[key] = max(0.0, float(np.ceil(v * 10**digits - 1e-9) / 10**digits)) if np.isfinite(v) else None
     return plan
 
 

@@ -50,6 +50,8 @@ def summary_text(result: dict) -> str:
                                                       else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
                   "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
+        from .band_text import summary_lines
+        lines += summary_lines(result)
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)
 

@@ -189,7 +189,9 @@ def plan(current: Scenario, draft_error: str | None, drawn_from: dict) -> PagePl
         except (ScenarioError, ValueError) as error:
             fit_error = str(error)
     calibrated = fit is not None and ss.get("use_calibrated", False)
-    planned = (current.changed(losses={**current.raw.get("losses", {}), **fit.calibrated_scenario.raw.get("losses", {})})
+    planned = (current.changed(losses={**current.raw.get("losses", {}), **fit.calibrated_scenario.raw.get("losses", {})},
+                               uncertainty={**current.raw.get("uncertainty", {}),
+                                            **fit.calibrated_scenario.raw.get("uncertainty", {})})
                if calibrated else current)
     toml_text = planned.to_toml()
     started = time.perf_counter()

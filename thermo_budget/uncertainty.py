@@ -253,20 +253,40 @@ def sample_rig(rig, values: dict, index=None):
     return rig.with_changes(**changes)
 
 
+FITTED_MULTIPLIERS = {"convection": "convection_multiplier", "capacity": "capacity_multiplier",
+                      "coupling": "hardware_coupling_multiplier"}
+
+
 def posterior_from_fit(result) -> dict | None:
     """The `[uncertainty.posterior]` table from a log fit (a calibrate.FitResult): the standard errors
-    of ln(convection) and ln(capacity) from its 95 % intervals (half-width / t(0.975, n - p)), and
-    their correlation. Where the residuals are correlated in time (lag-1 autocorrelation rho > 0), the
+    of ln(multiplier) of each fitted multiplier, from its 95 % interval (half-width / t(0.975, n - p)),
+    and the correlation of convection and capacity (the fit reports that one; any other pair is taken
+    as uncorrelated). Where the residuals are correlated in time (lag-1 autocorrelation rho > 0), the
     standard errors are widened by sqrt((1 + rho) / (1 - rho)), the variance inflation of the mean of
     an AR(1) series (e.g. Box, Jenkins and Reinsel, Time Series Analysis), since the fit's intervals
-    assume independent noise. None where the fit gave no intervals."""
-    names = {"convection": "convection_multiplier", "capacity": "capacity_multiplier"}
-    if any(result.ci95.get(name) is None for name in names.values()) or result.correlation is None:
+    assume independent noise. A factor whose standard error is not below its prior width keeps its
+    prior. None where the fit gave no intervals or narrowed nothing."""
+    names = {key: name for key, name in FITTED_MULTIPLIERS.items() if name in result.ci95}
+    if not names or any(result.ci95[name] is None for name in names.values()):
         return None
     t = float(stats.t.ppf(0.975, result.n_points - result.n_parameters))
     rho = min(max(result.residual_lag1_autocorrelation, 0.0), 0.95)
     inflation = np.sqrt((1.0 + rho) / (1.0 - rho))
     sd = {key: inflation * np.log(result.ci95[name][1] / result.ci95[name][0]) / (2.0 * t)
           for key, name in names.items()}
-    r = float(np.clip(result.correlation, -0.999, 0.999))
-    return posterior_table(sd, [[1.0, r], [r, 1.0]])
+    # a factor the log did not narrow below its prior keeps its prior
+    sd = {key: v for key, v in sd.items() if v < np.log1p(FACTOR_BY_KEY[key].width)}
+    if not sd:
+        return None
+    keys = list(sd)
+    correlation = np.eye(len(keys))
+    if {"convection", "capacity"} <= set(keys) and result.correlation is not None:
+        i, j = keys.index("convection"), keys.index("capacity")
+        correlation[i, j] = correlation[j, i] = float(np.clip(result.correlation, -0.999, 0.999))
+    return posterior_table(sd, correlation)
+
+
+def with_fit_posterior(calibrated, result):
+    """The calibrated scenario with the fit's posterior recorded in its [uncertainty] table."""
+    table = posterior_from_fit(result)
+    return calibrated if table is None else calibrated.changed(**{"uncertainty.posterior": table})

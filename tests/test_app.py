@@ -37,9 +37,10 @@ def test_default_scenario_runs_without_exception(page):
 
 def test_both_charts_are_drawn_and_the_design_chart_follows_an_input(page):
     charts = page.get("image")
-    assert len(charts) == 2   # the temperature chart and the design chart (drawn last, into its place)
+    # the temperature chart, the band's ranking chart and the design chart (drawn last, into its place)
+    assert len(charts) == 3
     number_input(page, "Oil in the tank").set_value(12.0).run()
-    assert not page.exception and len(page.get("image")) == 2
+    assert not page.exception and len(page.get("image")) == 3
 
 
 def test_changing_oil_volume_changes_headline_pull_count(page):

@@ -66,7 +66,8 @@ def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    return page_charts.trace_chart_png(toml_text, system, trace_for(toml_text))
+    from .page_bands import envelope_png   # the chart with the band's P10-P90 envelope
+    return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
 
 
 @st.cache_resource(max_entries=8, show_spinner=False)

@@ -129,7 +129,7 @@ def _sweep(args) -> int:
 
 
 def _fit(args) -> int:
-    from .calibrate import fit_command
+    from .fit_text import fit_command
     return fit_command(args)
 
 

@@ -39,7 +39,7 @@ def test_40kW_into_a_10L_plastic_tank_reports_with_a_caution():
     assert all_finite(result)
     assert result["beyond_model_range"] is True
     assert all(result[key] is None for key in BEYOND_RANGE_KEYS)
-    assert result["notes"][0].startswith("Caution:")
+    assert "beyond the range" in result["cautions"][0]
     assert result["pulls_under_limit"] == 0
     assert result["min_oil_volume_L"] is None or result["min_oil_volume_L"] > 10.0
 

@@ -48,6 +48,7 @@ SI_UNIT = {
     "per_kelvin": "1/K",
     "specific_heat": "J/(kg*K)",
     "thermal_conductivity": "W/(m*K)",
+    "temperature_difference": "K",
 }
 
 _LB_KG = 0.45359237            # exact (NIST SP 811, Appendix B)

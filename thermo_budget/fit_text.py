@@ -1,18 +1,14 @@
-"""The fit's report: its summary text, the calibrated scenario as TOML, and the `fit` command.
-The numerics are in calibrate.py."""
+"""The fit's words: its summary, the calibrated scenario's TOML and the `fit` command."""
 from __future__ import annotations
 
 import json
 from pathlib import Path
-
-import numpy as np
-import tomli_w
+from typing import TYPE_CHECKING
 
 from .units import to_display, unit_label
 
-STRONG_CORRELATION = 0.95
-POOR_RELATIVE_HALF_WIDTH = 0.25
-CORRELATED_RESIDUALS = 0.5            # lag-1 autocorrelation of the residuals
+if TYPE_CHECKING:
+    from .calibrate import FitResult
 
 
 def format_temperature(T_K: float, system: str) -> str:
@@ -27,60 +23,7 @@ def format_difference(dT_K: float, system: str) -> str:
     return f"{to_display(dT_K, 'temperature_difference', system):.2f} {unit_label('temperature_difference', system)} ({dT_K:.2f} K)"
 
 
-def largest_fall_K(T_K) -> float:
-    """Largest fall of the measured temperature below its running maximum, after a 5-point running
-    median that keeps single noisy readings from counting. Given the readings taken in waits only,
-    so that a return-line sensor's drop at the end of each pull does not count as cooling."""
-    if T_K.size >= 5:
-        windows = np.lib.stride_tricks.sliding_window_view(np.pad(T_K, 2, mode="edge"), 5)
-        T_K = np.median(windows, axis=1)
-    return float(np.max(np.maximum.accumulate(T_K) - T_K))
-
-
-def fit_warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, half_width, theta, lower, upper, names,
-              solution, tau, fit_start_offset) -> list:
-    u = scenario.units
-    warnings = []
-    fall = largest_fall_K(measured[in_wait]) if np.count_nonzero(in_wait) >= 2 else 0.0
-    if fall < max(1.0, 3.0 * noise):
-        warnings.append(
-            f"no cool-down segment: the oil never falls more than {format_difference(fall, u)} in the log, so a larger heat "
-            f"loss and a smaller thermal mass look alike. Log the cool-down after the last pull, engine "
-            f"off, for as long as practical (the rig's cooling time constant is about {tau / 60:.0f} min).")
-    if correlation is not None and abs(correlation) > STRONG_CORRELATION:
-        warnings.append(f"the convection and capacity multipliers are strongly correlated (r = {correlation:.3f}): "
-                        f"the log tells them apart poorly; the intervals show how far each can move")
-    if correlation is None:
-        warnings.append("the log cannot tell the parameters apart at all (singular Jacobian); no intervals")
-    for name in names[:2]:
-        if half_width.get(name, 0.0) > POOR_RELATIVE_HALF_WIDTH and correlation is not None:
-            width = f"about +-{100 * half_width[name]:.0f} %" if np.isfinite(half_width[name]) else "without bound"
-            warnings.append(f"{name} is poorly determined (95 % interval {width})")
-    for i, name in enumerate(names):
-        if np.isclose(theta[i], lower[i], atol=1e-6) or np.isclose(theta[i], upper[i], atol=1e-6):
-            warnings.append(f"{name} ended at the edge of its allowed range; the model does not match this log")
-    if not solution.success:
-        warnings.append(f"the fit did not converge ({solution.message})")
-    if lag1 > CORRELATED_RESIDUALS:
-        warnings.append(f"the residuals are correlated in time (lag-1 autocorrelation {lag1:.2f}): the model misses "
-                        f"part of this rig's behaviour, and the 95 % intervals, which assume independent noise, "
-                        f"are too narrow")
-    span = float(measured.max() - measured.min())
-    if rms > 0.05 * span:
-        warnings.append(f"the RMS residual ({format_difference(rms, u)}) is more than 5 % of the log's range "
-                        f"({format_difference(span, u)})")
-    early = np.nonzero(log.time_s[np.isfinite(log.oil_K)] <= 60.0)[0][:3]
-    if not fit_start_offset and early.size:
-        misfit = float(np.mean(residual[early]))
-        if abs(misfit) > max(1.0, 3.0 * noise):
-            warnings.append(f"the first readings sit {format_difference(abs(misfit), u)} "
-                            f"{'below' if misfit > 0 else 'above'} the fitted model: the oil probably did not start "
-                            f"at the scenario's start_temperature ({format_temperature(scenario.start_K, u)}); "
-                            f"set it to the log's start or fit a start offset")
-    return warnings
-
-
-def summary_text(result) -> str:
+def summary_text(result: FitResult) -> str:
     """A short readable summary in the scenario's units."""
     u = result.units
 
@@ -108,7 +51,7 @@ def summary_text(result) -> str:
     return "\n".join(lines)
 
 
-def calibrated_toml(result, log_name: str) -> str:
+def calibrated_toml(result: FitResult, log_name: str) -> str:
     """The calibrated scenario as TOML, with comment lines saying where the multipliers came from."""
     def fmt(name):
         pair = result.ci95.get(name)
@@ -124,6 +67,7 @@ def calibrated_toml(result, log_name: str) -> str:
 
 def toml_string(text: str) -> str:
     """text as a TOML basic string, escaped by tomli_w: no newline or quote in it can end the string."""
+    import tomli_w
     return tomli_w.dumps({"x": str(text)})[len("x = "):].rstrip("\n")
 
 
@@ -135,8 +79,8 @@ def toml_comment(text: str) -> str:
 def fit_command(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
     from .calibrate import fit_log
-    from .report import check_finite
     from .measured_log import log_file_text
+    from .report import check_finite
     from .scenario import load_scenario
     scenario = load_scenario(args.scenario)
     text = log_file_text(args.log)

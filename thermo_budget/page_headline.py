@@ -12,6 +12,7 @@ import streamlit as st
 
 from . import page_inputs as pi
 from .page_cards import Card, headline_cards
+from . import page_state as state
 from .page_state import PagePlan
 
 CARD_CSS = """
@@ -49,6 +50,9 @@ def section(page: PagePlan):
     answers, system, planned = page.answers, page.system, page.scenario
     name = planned.name or "This rig"
     st.subheader(name + ("  ·  calibrated from your log" if page.calibrated else ""))
+    if state.name_is_stale():
+        st.caption("✏️ The rig has changed since it was given this name: rename it under \"Rig name\" in the "
+                   "sidebar, so the titles and the saved file say what it is now.")
     for caution in answers.get("cautions", []):
         st.error("⚠️ " + pi.note_in(caution, system))
     view = pi.session_view(planned.raw)

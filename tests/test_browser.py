@@ -117,8 +117,17 @@ def _settled(page, expected_pulls: str, unit_text: str):
         " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
         arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
     page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)
-    page.wait_for_function("() => !document.querySelector('[data-testid=stStatusWidget] svg')",
-                           timeout=ANSWER_TIMEOUT_MS)
+    page.get_by_text("Hotter than today").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
+    _idle(page)
+
+
+def _idle(page):
+    """Wait until the page's script run is over (no "Running" status, no spinner)."""
+    page.wait_for_timeout(300)
+    page.wait_for_function(
+        "() => { const s = document.querySelector('[data-testid=stStatusWidget]');"
+        " return (!s || !/Running|Stop/.test(s.innerText)) && !document.querySelector('[data-testid=stSpinner]'); }",
+        timeout=ANSWER_TIMEOUT_MS)
     page.wait_for_timeout(300)
 
 
@@ -147,6 +156,7 @@ def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browse
     pulls = _expected_pulls(path)
     page = _open(browser, server, 1366)
     if rig != "default":
+        _settled(page, _expected_pulls(REPO / "scenarios" / "default.toml"), "°C")
         page.locator('[data-testid="stSidebar"] input[type=file]').first.set_input_files(str(path))
     failures = []
     systems = ("SI", "US") if rig == "default" else ("US", "SI")   # the rig's own units first

@@ -143,6 +143,13 @@ def _choose_units(page, system: str):
     page.locator('[data-testid="stSidebar"]').get_by_text(label, exact=True).click()
 
 
+def _screenshot(page, path: Path):
+    """A viewport screenshot, kept small: 128 colours (the page has few), PNG."""
+    from PIL import Image
+    page.screenshot(path=str(path))
+    Image.open(path).convert("RGB").quantize(colors=128).save(path, optimize=True)
+
+
 def _expected_pulls(path) -> str:
     from thermo_budget import load_scenario
     from thermo_budget.report import report
@@ -172,7 +179,7 @@ def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browse
             if found["bad"] or found["pageOverflow"] > 0:
                 failures.append((system, width, found))
             if (rig, system) in (("default", "SI"), ("us_20hp", "US")):
-                page.screenshot(path=str(shots / f"page_{rig}_{system}_{width}.png"))
+                _screenshot(page, shots / f"page_{rig}_{system}_{width}.png")
         page.set_viewport_size({"width": 1366, "height": HEIGHT})
     page.close()
     assert not failures, failures

@@ -18,7 +18,8 @@ from .page_state import PagePlan
 CARD_CSS = """
 <style>
 .tb-cards { container-type: inline-size; }
-.tb-grid { display: grid; gap: 0.6rem; grid-template-columns: repeat(auto-fill, minmax(min(100%, 10.5rem), 1fr)); }
+.tb-grid { display: grid; gap: 0.6rem;
+           grid-template-columns: repeat(auto-fill, minmax(max(min(100%, 10.5rem), calc(20% - 0.6rem)), 1fr)); }
 @container (min-width: 34rem) { .tb-main { grid-column: span 2; } }
 .tb-card { min-width: 0; border: 1px solid rgba(49, 51, 63, 0.2); border-radius: 0.5rem; padding: 0.55rem 0.7rem;
            overflow-wrap: anywhere; word-break: normal; }

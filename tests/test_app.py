@@ -64,9 +64,10 @@ def test_default_scenario_runs_without_exception(page):
 
 def test_both_charts_are_drawn_and_the_design_chart_follows_an_input(page):
     charts = page.get("image")
-    assert len(charts) == 3   # the temperature chart, the hot-day chart and the design chart (drawn last)
+    # the temperature chart, the hot-day chart, the band's ranking chart and the design chart (drawn last)
+    assert len(charts) == 4
     number_input(page, "Oil in the tank").set_value(12.0).run()
-    assert not page.exception and len(page.get("image")) == 3
+    assert not page.exception and len(page.get("image")) == 4
 
 
 def test_changing_oil_volume_changes_headline_pull_count(page):
@@ -228,7 +229,8 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         shown = cards(at)
         runs = answers["runs_before_limit"]
         assert shown["pulls"]["value"] == str(runs)
-        assert f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in shown["pulls"]["details"][0]
+        assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
+                   for line in shown["pulls"]["details"])
         _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
         if answers["min_oil_volume_L"] is not None:
@@ -273,7 +275,8 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.report import report
     answers = report(load_scenario(DEFAULT_SCENARIO))
-    plain = pulls_card(answers, "SI")
+    plain = pulls_card({key: value for key, value in answers.items()
+                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
     assert "likely" not in plain.unit
     answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},

@@ -79,10 +79,15 @@ def design_chart_png(toml_text: str, system: str, answers: dict | None = None, r
     return png_bytes(plot_design_chart(scenario, result, system))
 
 
+def trace_chart_figure(toml_text: str, system: str, trace=None):
+    """The temperature chart of the planned session as a Figure (trace: simulate() of it, if known)."""
+    scenario = load_scenario(read_toml_text(toml_text))
+    return plot_trace(scenario, simulate(scenario) if trace is None else trace, system)
+
+
 def trace_chart_png(toml_text: str, system: str, trace=None) -> bytes:
     """The temperature chart of the planned session (trace: simulate() of it, if already known)."""
-    scenario = load_scenario(read_toml_text(toml_text))
-    return png_bytes(plot_trace(scenario, simulate(scenario) if trace is None else trace, system))
+    return png_bytes(trace_chart_figure(toml_text, system, trace))
 
 
 def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:

@@ -66,7 +66,8 @@ def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    return page_charts.trace_chart_png(toml_text, system, trace_for(toml_text))
+    from .page_bands import envelope_png   # the chart with the band's P10-P90 envelope
+    return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
 
 
 @st.cache_data(max_entries=32, show_spinner=False)
@@ -219,7 +220,9 @@ def plan(current: Scenario, draft_error: str | None, drawn_from: dict) -> PagePl
         except (ScenarioError, ValueError) as error:
             fit_error = str(error)
     calibrated = fit is not None and ss.get("use_calibrated", False)
-    planned = (current.changed(losses={**current.raw.get("losses", {}), **fit.calibrated_scenario.raw.get("losses", {})})
+    planned = (current.changed(losses={**current.raw.get("losses", {}), **fit.calibrated_scenario.raw.get("losses", {})},
+                               uncertainty={**current.raw.get("uncertainty", {}),
+                                            **fit.calibrated_scenario.raw.get("uncertainty", {})})
                if calibrated else current)
     toml_text = planned.to_toml()
     started = time.perf_counter()

@@ -69,7 +69,8 @@ def _cycle_end(scenario, rig, X, wait_s=None):
 
 def _has_loss_path(rig: Rig) -> np.ndarray:
     cooler = np.asarray(rig.cooler_W_K) > 0
-    passive = (rig.convection_multiplier > 0) or (rig.wall_emissivity > 0) or (rig.hardware_emissivity > 0)
+    passive = ((np.asarray(rig.convection_multiplier) > 0) | (np.asarray(rig.wall_emissivity) > 0)
+               | (np.asarray(rig.hardware_emissivity) > 0))
     return np.asarray(cooler | passive)
 
 

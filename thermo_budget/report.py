@@ -146,6 +146,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     else:
         result["min_oil_volume_headroom_L"] = None
     result["cautions"] = cautions(scenario, result)
+    from .bands import band_report
+    result.update(band_report(scenario, result))
     return result
 
 

@@ -19,6 +19,7 @@ from .rig_build import build_rig, limit_K  # noqa: F401  (build_rig re-exported:
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
                              with_path)
+from .uncertainty import UncertaintyModel, read_uncertainty
 from .units import parse_quantity
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
@@ -92,6 +93,7 @@ class Scenario:
     return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
     flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
+    uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
 
     @property
     def steps(self) -> list[Step]:
@@ -227,6 +229,7 @@ def _parse(raw: dict) -> Scenario:
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
+    uncertainty = read_uncertainty(top.get("uncertainty", None))
     top.finish()
 
     scenario = Scenario(raw=copy.deepcopy(raw), units=units, name=str(name), ambient_K=ambient,
@@ -237,7 +240,8 @@ def _parse(raw: dict) -> Scenario:
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
-                        flash_point_given=flash_point is not None)
+                        flash_point_given=flash_point is not None,
+                        uncertainty=uncertainty)
     _check_consistency(scenario)
     return scenario
 

@@ -288,9 +288,13 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
 
 
 def test_name_edit_follows_into_the_titles_and_the_file(page):
+    assert not any("rename it" in c.value for c in page.caption)
+    number_input(page, "Oil in the tank").set_value(12.0).run()
+    assert any("rename it" in c.value for c in page.caption)   # the name was given to the 18 L rig
     next(box for box in page.text_input if box.label == "Rig name").input("Stand 2, bigger tank").run()
     assert not page.exception and not page.error
     assert page.subheader[0].value.startswith("Stand 2, bigger tank")
+    assert not any("rename it" in c.value for c in page.caption)
     assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
     from thermo_budget.plots import plot_trace
     from thermo_budget import load_scenario

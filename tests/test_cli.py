@@ -193,3 +193,19 @@ def test_a_log_name_cannot_inject_a_table_into_the_calibrated_file(tmp_path, cap
 def test_help_names_the_command():
     done = run_process("--help")
     assert done.returncode == 0 and "run" in done.stdout and "sweep" in done.stdout and "fit" in done.stdout
+
+
+def test_run_ambients_gives_the_hot_day_and_refuses_a_bad_range(capsys):
+    assert main(["run", DEFAULT, "--json", "--ambients", "20:40:3"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    hot = result["hot_day"]
+    assert hot["ambient_C"] == [20.0, 30.0, 40.0]
+    assert hot["pulls_before_limit"][0] == result["runs_before_limit"]       # today's air: the report's count
+    assert hot["pulls_before_limit"] == sorted(hot["pulls_before_limit"], reverse=True)   # hotter: never more
+    assert "oil_ageing_equivalent_h" in result
+    assert main(["run", DEFAULT, "--ambients"]) == 0
+    out = capsys.readouterr().out
+    assert "on a 35 °C day: " in out and "pulls" in out
+    assert main(["run", DEFAULT, "--ambients", "40:20:3"]) == 2
+    err = capsys.readouterr().err
+    assert "--ambients" in err and "40:20:3" in err and "Traceback" not in err

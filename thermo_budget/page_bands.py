@@ -68,7 +68,7 @@ def _likely(band, quantity, system, scale=1.0) -> str:
 
 def _table(answers: dict, system: str) -> list[dict]:
     bands, plan = answers["bands"], answers["plan_at_confidence"]
-    c = f"plan at {100 * answers['confidence']:.0f} %"
+    c = f"plan ({100 * answers['confidence']:.0f} %)"
 
     def row(what, key, quantity, scale=1.0):
         def one(v):
@@ -81,17 +81,17 @@ def _table(answers: dict, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model's figure": one(answers[key]) if answers[key] is not None else "n/a",
-                "likely (P10 to P90)": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
+        return {"answer": what, "model": one(answers[key]) if answers[key] is not None else "n/a",
+                "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
                                          f"{bands[key]['p10']} to {bands[key]['p90'] or 'no limit'}")),
                 c: one(plan[key]) if key in plan else ""}
     rows = [row("pulls before the limit", "runs_before_limit", "count"),
-            row("pulls of the planned session under the limit", "pulls_under_limit", "count"),
-            row("peak of the planned session", "peak_C", "temperature"),
+            row("of the planned pulls, under the limit", "pulls_under_limit", "count"),
+            row("peak of the planned pulls", "peak_C", "temperature"),
             row("wait needed between pulls", "min_wait_s", "duration"),
-            row("cooler for the planned session", "cooler_required_W_per_K", "conductance"),
+            row("cooler for the planned pulls", "cooler_required_W_per_K", "conductance"),
             row("smallest oil volume", "min_oil_volume_L", "oil_volume", 1e-3)]
     return rows
 
@@ -111,7 +111,7 @@ def section(page: PagePlan):
                      expanded=False):
         left, right = st.columns([3, 2])
         left.dataframe(pd.DataFrame(_table(answers, system)), hide_index=True, width="stretch")
-        left.caption(f"Likely: 8 in 10 of the rigs the uncertainty model allows fall in the range "
+        left.caption(f"Likely: from P10 to P90, i.e. 8 in 10 of the rigs the uncertainty model allows fall in the range "
                      f"({answers['uncertainty']['samples']} quasi-random samples). The plan keeps the session "
                      f"under the limit in {100 * answers['confidence']:.0f} % of them. The model's own figure "
                      f"is the one above the range.")

@@ -12,9 +12,9 @@ from __future__ import annotations
 import numpy as np
 
 from .network import OIL
-from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
-from .planning import SEARCH_MARGIN_K, runs_before_limit, session_trace, time_constant_s
-from .rig_build import build_rig, limit_K
+from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
+from .planning import SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, time_constant_s
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
 from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
@@ -60,10 +60,10 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     all_values = factor_values(model, z_all)
     z, values = z_all[:n_samples], {key: v[:n_samples] for key, v in all_values.items()}
     rig = sample_rig(build_rig(scenario), values)
-    limit, _ = limit_K(scenario)
+    limits = limits_K(scenario)      # the bulk limit, and the return line's where one is set
     session = session_trace(scenario, rig, n_samples)
-    crossing = first_crossing_s(session, limit)
-    out = {"z": z, "pulls_under_limit": pulls_completed_under(session, limit).astype(float),
+    crossing = first_crossing_s(session, *limits)
+    out = {"z": z, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
            "peak_C": peak_oil_K(session) - 273.15, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
         cap = 3 * int(point["runs_before_limit"]) + len(scenario.steps)
@@ -85,7 +85,8 @@ def sizing_thresholds(scenario, values: dict, n: int, point: dict) -> dict:
     """Per sample, the smallest wait (s), cooler (W/K) and oil volume (L) that keep the planned session
     under the limit (with the same margin as the point searches), searched together: one integration
     per round over (answers asked) x n designs. Returns {key: (n,) array, inf where none suffices}."""
-    limit, _ = limit_K(scenario)
+    limits = limits_K(scenario)
+    limit = limits[0]
     target = limit - SEARCH_MARGIN_K
     tau = time_constant_s(scenario)
     peak_power = max(step.peak_power_W() for step in scenario.cycle)
@@ -206,7 +207,9 @@ class _Search:
 
 
 def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
-    """Peak oil (K) of the planned session for designs that each change one sizing input."""
+    """The peak (K) the searches hold to the limit (planning.session_outcome's: the bulk oil's, or
+    outcome.limiting_peak_K with a return-line limit) of the planned session, for designs that each
+    change one sizing input."""
     keys = np.asarray(keys)
     volume = np.where(keys == "min_oil_volume_L", x / 1000.0, scenario.reservoir.oil_volume_m3)
     cooler = np.where(keys == "cooler_required_W_per_K", x, 0.0)
@@ -215,7 +218,7 @@ def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
                  for step in scenario.steps]
     trace = integrate(rig, scenario.steps, scenario.start_K, n_designs=x.size, durations_s=durations,
                       resolution=PLAN_RESOLUTION)
-    return peak_oil_K(trace)
+    return limiting_peak_K(trace, *limits_K(scenario))
 
 
 # --- quantiles, plan, ranking -----------------------------------------------------------------------

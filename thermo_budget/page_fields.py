@@ -69,6 +69,13 @@ FIELDS = {f.path: f for f in [
           minimum=None),
     Field("fluid.min_viscosity", "Thinnest oil the pump accepts",
           "The pump maker's minimum working viscosity; the oil thins as it heats.", "viscosity", "cSt"),
+    Field("fluid.flash_point", "Flash point (optional)",
+          "From the oil's data sheet (open cup, ASTM D92). Empty: a conservative 180 °C is assumed.",
+          "temperature", "degC", minimum=None),
+    Field("hardware.return_line_max_temperature", "Return-line limit (optional)",
+          "The temperature rating of the hoses and seals the hot oil returns through. The pull count stops "
+          "when the return-line oil passes it, if that comes before the bulk limit. Empty: no such limit.",
+          "temperature", "degC", minimum=None),
     Field("pump.displacement", "Pump displacement", "Volume the pump moves per shaft revolution.",
           "displacement", "cm^3"),
     Field("pump.volumetric_efficiency", "Pump volumetric efficiency",

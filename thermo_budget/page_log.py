@@ -14,6 +14,26 @@ except ImportError:
     plot_fit = None
 
 
+PARAMETER_NAMES = {"convection_multiplier": "heat loss scale", "capacity_multiplier": "heat capacity scale",
+                   "start_offset_K": "start temperature offset"}
+
+
+def intervals_text(ci95: dict, system: str) -> str:
+    """The fit's 95 % intervals in words, e.g. "heat loss scale 0.77 to 0.82; ..."."""
+    parts = []
+    for name, interval in ci95.items():
+        label = PARAMETER_NAMES.get(name, name.replace("_", " "))
+        if interval is None:
+            parts.append(f"{label}: not determined by this log")
+        elif name.endswith("_K"):
+            unit = unit_label("temperature_difference", system)
+            low, high = (to_display(v, "temperature_difference", system) for v in interval)
+            parts.append(f"{label} {low:.2f} to {high:.2f} {unit}")
+        else:
+            parts.append(f"{label} {interval[0]:.3f} to {interval[1]:.3f}")
+    return "; ".join(parts) + "."
+
+
 def section(page: PagePlan):
     if state.fit_log is None or plot_fit is None:
         return
@@ -41,7 +61,7 @@ def section(page: PagePlan):
     rms = to_display(result["rms_K"], "temperature_difference", system)
     f3.metric("Fit error (rms)", f"{rms:.2f} {unit_label('temperature_difference', system)}",
               help=f"Over {result['n_points']} logged points.")
-    st.caption(f"95 % confidence: {result['ci95']}")
+    st.caption("95 % confidence: " + intervals_text(result["ci95"], system))
     for warning in result.get("warnings", []):
         st.warning(warning)
     for note in result.get("notes", []):

@@ -32,6 +32,21 @@ def number(box, path: str, label: str | None = None):
                      args=(lambda raw, v: pi.with_field(raw, field, v, system), widget_key))
 
 
+def optional_number(box, path: str):
+    """A number input for an optional key: empty means the key is left out of the scenario."""
+    system = state.system()
+    field = pi.FIELDS[path]
+    value = pi.field_value(state.draft(), field, system)
+    widget_key = state.key(path)
+
+    def change(raw, shown):
+        return pi.with_path(raw, path, None) if shown is None else pi.with_field(raw, field, shown, system)
+
+    box.number_input(field.label_in(system), value=None if value is None else float(value), placeholder="none",
+                     step=pi.step_of(field, system), format=f"%.{pi.decimals(field.quantity, system)}f",
+                     help=field.help, key=widget_key, on_change=state.from_widget, args=(change, widget_key))
+
+
 def session_number(box, label, quantity, value_si, help_text, name, change, unit: str | None = None):
     """A number input for the pull or the wait (applies to every pull or wait of the cycle).
     quantity : a display quantity of page_format, or None for a plain number in `unit`."""
@@ -105,6 +120,7 @@ def oil(current: Scenario):
     number(fluid, "fluid.density_15C")
     number(fluid, "fluid.max_temperature")
     number(fluid, "fluid.min_viscosity")
+    optional_number(fluid, "fluid.flash_point")
 
 
 def hardware():
@@ -117,6 +133,7 @@ def hardware():
     number(hw, "hardware.hose_length")
     number(hw, "hardware.hose_outer_diameter")
     number(hw, "hardware.emissivity")
+    optional_number(hw, "hardware.return_line_max_temperature")
 
 
 def _curve_editor(ses, view: pi.SessionView, system: str):
@@ -208,8 +225,19 @@ def cooler(current: Scenario):
                lambda raw, v: pi.with_path(raw, "cooler.fan", v), radio=True)
 
 
+def name():
+    """The rig's name: the headline, the chart titles and the saved file follow it."""
+    widget_key = state.key("name")
+    st.sidebar.text_input("Rig name", value=str(pi.get_path(state.draft(), "name", "") or ""), key=widget_key,
+                          max_chars=120, help="Shown above the answers, on the charts and in the saved scenario. "
+                          "Rename the rig when you change it.",
+                          on_change=state.from_widget, args=(lambda raw, v: pi.with_path(raw, "name", v.strip()),
+                                                             widget_key))
+
+
 def rig_inputs(current: Scenario):
     """Every input of the rig and the session, in the sidebar."""
+    name()
     tank()
     oil(current)
     hardware()

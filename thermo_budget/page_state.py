@@ -70,6 +70,17 @@ def trace_png(toml_text: str, system: str) -> bytes:
     return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
 
 
+@st.cache_data(max_entries=32, show_spinner=False)
+def hot_day_for(toml_text: str):
+    from .hot_day import hot_day
+    return hot_day(scenario_of(toml_text))
+
+
+@st.cache_data(max_entries=32, show_spinner=False)
+def hot_day_png(toml_text: str, system: str) -> bytes:
+    return page_charts.hot_day_chart_png(toml_text, system, hot_day_for(toml_text))
+
+
 @st.cache_resource(max_entries=8, show_spinner=False)
 def fit_for(toml_text: str, log_text: str, sensor: str):
     return fit_log(scenario_of(toml_text), log_text, sensor)
@@ -138,6 +149,8 @@ def take_upload(uploaded):
             ss.system = loaded.units
     elif uploaded is None:
         ss.upload_seen, ss.upload_error = None, None
+    else:   # the same file as before: its error was shown on the run it was opened, and is done
+        ss.upload_error = None
 
 
 def load_draft():

@@ -27,6 +27,10 @@ DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
+# Flash point assumed when fluid.flash_point is not given. From memory, not from a cited source:
+# data sheets of mineral hydraulic oils of ISO VG 22-68 give about 190-240 degC (ASTM D92, open cup);
+# 180 degC is taken below that range on purpose, to be conservative.
+DEFAULT_FLASH_POINT_C = 180.0
 
 @dataclass(frozen=True)
 class Reservoir:
@@ -86,6 +90,9 @@ class Scenario:
     repeat: int
     cycle: tuple
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
+    return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
+    flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
+    flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
 
     @property
@@ -171,6 +178,7 @@ def _parse(raw: dict) -> Scenario:
     if not 600.0 <= oil.density_15C_kg_m3 <= 1100.0:
         raise ScenarioError("fluid.density_15C", f.raw["density_15C"], "a liquid density between 600 and 1100 kg/m^3")
     max_T = f.quantity("max_temperature", "temperature", "degC", above=0.0)
+    flash_point = f.quantity("flash_point", "temperature", "degC", None, above=0.0)
     min_nu = f.quantity("min_viscosity", "kinematic_viscosity", "cSt", above=0.0) * 1e6
     if min_nu < 2.0:
         raise ScenarioError("fluid.min_viscosity", f.raw["min_viscosity"], "at least 2 cSt (the range of ASTM D341's simple form)")
@@ -194,6 +202,7 @@ def _parse(raw: dict) -> Scenario:
                         hose_outer_diameter_m=hose_od, hose_inner_diameter_m=hose_id,
                         emissivity=h.number("emissivity", minimum=0.0, maximum=1.0),
                         body_area_m2=h.quantity("body_area", "area", "m^2", 6.0 * side * side, minimum=0.0))
+    return_line_max = h.quantity("return_line_max_temperature", "temperature", "degC", None, above=0.0)
     if hardware.hose_length_m == 0.0:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
     h.finish()
@@ -229,6 +238,9 @@ def _parse(raw: dict) -> Scenario:
                         convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
                         air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
+                        return_line_max_temperature_K=return_line_max,
+                        flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
+                        flash_point_given=flash_point is not None,
                         uncertainty=uncertainty)
     _check_consistency(scenario)
     return scenario
@@ -312,6 +324,12 @@ def _check_consistency(s: Scenario):
         raise ScenarioError("reservoir.oil_volume", s.raw["reservoir"]["oil_volume"],
                             f"at most the tank's {s.reservoir.inner_volume_m3 * 1000:.2f} L once expanded at the "
                             f"maximum temperature (needs {hot_volume * 1000:.2f} L)")
+    if s.return_line_max_temperature_K is not None and s.return_line_max_temperature_K <= s.start_K:
+        raise ScenarioError("hardware.return_line_max_temperature", s.raw["hardware"]["return_line_max_temperature"],
+                            "a return-line limit above the start temperature")
+    if s.flash_point_given and s.flash_point_K <= s.max_temperature_K:
+        raise ScenarioError("fluid.flash_point", s.raw["fluid"]["flash_point"],
+                            "a flash point above the fluid's max_temperature")
     if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit:
         raise ScenarioError("session.ready_temperature", s.raw["session"]["ready_temperature"],
                             "a temperature between ambient and the fluid limit")

@@ -106,8 +106,9 @@ def section(page: PagePlan):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
     plan = plan_phrase(answers)
-    st.markdown(f"#### {pulls_phrase(answers)}" + (f"  ·  {plan}" if plan else ""))
-    with st.expander("How sure is this? The likely range of every answer, and what to measure first",
+    st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") +
+                (f" {answers['band_advice']}" if answers["band_advice"] else ""))
+    with st.expander("The likely range of every answer, the plan at your confidence, and what moves them",
                      expanded=False):
         left, right = st.columns([3, 2])
         left.dataframe(pd.DataFrame(_table(answers, system)), hide_index=True, width="stretch")
@@ -118,8 +119,8 @@ def section(page: PagePlan):
         ranking = answers["band_ranking"]
         if ranking:
             right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking)), width="stretch")
-            right.caption(answers["band_advice"] + f" (The linear fit behind these shares explains "
-                                                   f"{100 * ranking[0]['r2']:.0f} % of the spread.)")
+            right.caption(f"Each input's share of the spread in the pull count (the linear fit behind the "
+                          f"shares explains {100 * ranking[0]['r2']:.0f} % of it).")
         if page.calibrated:
             before = state.answers_for(st.session_state.good_toml)
             st.markdown(f"**Before the log:** {pulls_phrase(before)}.  **After it:** {pulls_phrase(answers)}.")

@@ -13,7 +13,7 @@ import numpy as np
 
 from .network import OIL
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, time_constant_s
+from .planning import SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, take_designs, time_constant_s
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
@@ -26,6 +26,7 @@ BAND_KEYS = ("pulls_under_limit", "runs_before_limit", "peak_C", "time_to_limit_
 COUNT_KEYS = ("pulls_under_limit", "runs_before_limit")
 SIZING_KEYS = ("min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L")
 SECANT_ROUNDS = 5
+CENSORED_FRACTION = 0.05   # samples left uncounted past 1.5 x the point's pull count (all above P90)
 PEAK_TOLERANCE_K = 0.2     # a sample's sizing answer is done when it keeps the peak within this of the target
 RELATIVE_TOLERANCE = 0.03   # bracket width at which the interpolated root is taken
 ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_required_W_per_K": 2,
@@ -42,7 +43,7 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
-    ranking = spread_ranking(samples["z"], samples["runs_before_limit" if point.get("runs_before_limit") is not None
+    ranking = spread_ranking(samples["z"], samples["runs_for_ranking" if point.get("runs_before_limit") is not None
                                                   else "pulls_under_limit"], model.active)
     return {"bands": bands, "confidence": model.confidence,
             "plan_at_confidence": plan_at_confidence(samples, point, model.confidence),
@@ -66,9 +67,8 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     out = {"z": z, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
            "peak_C": peak_oil_K(session) - 273.15, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
-        cap = 3 * int(point["runs_before_limit"]) + len(scenario.steps)
-        runs = runs_before_limit(scenario, rig, n_samples, np.zeros(n_samples, bool), max_pulls=cap, session=session)
-        out["runs_before_limit"] = np.where(np.isnan(runs), np.inf, runs)
+        out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,
+                                                                         int(point["runs_before_limit"]))
     oil = session.T_K[:, :, OIL] - 273.15
     out["envelope"] = {"time_s": np.round(session.time_s[:, 0], 2).tolist(),
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
@@ -77,6 +77,22 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     small = {key: v[:n_sizing] for key, v in all_values.items()}
     out.update(sizing_thresholds(scenario, small, n_sizing, point))
     return out
+
+
+def _sample_runs(scenario, rig, n: int, session, point_runs: int):
+    """Pulls before the limit per sample: (for the band, inf where uncounted; for the ranking, an
+    uncounted sample at its lower bound). Counted first to 1.5 x the point answer, which most samples
+    reach; the rest are counted further (to 3 x) only where they are more than CENSORED_FRACTION of
+    the samples, since below that they lie above P90 whatever their count."""
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    cap = int(np.ceil(1.5 * point_runs)) + per_cycle
+    runs = runs_before_limit(scenario, rig, n, np.zeros(n, bool), max_pulls=cap, session=session)
+    uncounted = np.flatnonzero(np.isnan(runs))
+    if uncounted.size > CENSORED_FRACTION * n:
+        runs[uncounted] = runs_before_limit(scenario, take_designs(rig, uncounted), uncounted.size,
+                                            np.zeros(uncounted.size, bool), max_pulls=3 * point_runs + cap)
+        cap = 3 * point_runs + cap
+    return np.where(np.isnan(runs), np.inf, runs), np.where(np.isnan(runs), cap + 1, runs)
 
 
 # --- the sizing answers, per sample ------------------------------------------------------------------

@@ -216,6 +216,7 @@ def _in(system: str, unit: str, value: float) -> float:
 @pytest.mark.parametrize("scenario_file", ["default.toml", "us_20hp_small_tank.toml"])
 def test_every_shown_figure_is_the_report_figure(scenario_file):
     from thermo_budget import load_scenario
+    from thermo_budget.hot_day import hot_day
     from thermo_budget.report import report
     path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
@@ -244,6 +245,13 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         flow_text, pressure_text = pump_line.split(": ")[1].split(" at ")[:2]
         _close(flow_text, _in(system, "L/min", answers["pump"]["flow_L_min"]))
         _close(pressure_text, _in(system, "bar", answers["pump"]["pressure_bar"]))
+        # the hot day: each hotter ambient's pull count, as hot_day() gives it
+        hot = hot_day(load_scenario(path))
+        lines = next(m.value for m in at.markdown if m.value.startswith("Hotter than today")).splitlines()[1:]
+        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + 273.15 + 1e-9][:len(lines)]
+        for line, i in zip(lines, hotter):
+            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
+            assert f"{int(hot.pulls[i])} pulls" in line
         # the schedule: each pull's bulk and return-line peak
         schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
         cells = [re.findall(r"<td>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", schedule)[1:]]
@@ -266,8 +274,9 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     from thermo_budget.page_cards import pulls_card
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.report import report
-    answers = report(load_scenario(DEFAULT_SCENARIO).changed(uncertainty={"enabled": False}))
-    plain = pulls_card(answers, "SI")   # the band off: every band collapses, so none is shown
+    answers = report(load_scenario(DEFAULT_SCENARIO))
+    plain = pulls_card({key: value for key, value in answers.items()
+                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
     assert "likely" not in plain.unit
     answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},

@@ -151,13 +151,14 @@ def hot_day(page: PagePlan):
     from .hot_day import AROUND_K, DEFAULT_RANGE_C
     hot = state.hot_day_for(page.toml_text)
     system = page.system
-    st.markdown("**On a hotter (or colder) day**")
+    left, right = st.columns(2)
+    left.markdown("**On a hotter (or colder) day**")
     low, high = DEFAULT_RANGE_C
     within = low <= page.scenario.ambient_K - 273.15 <= high
     span = (f"{pi.shown_celsius(low, system)} to {pi.shown_celsius(high, system)}" if within else
             f"your room ± {AROUND_K:.0f} K")
-    st.caption(f"The same plan from {span}; the rig starts as much warmer as the air is. "
-               "Bars: pulls before the limit; line: the cooler the planned session needs.")
+    left.caption(f"The same plan from {span}; the rig starts as much warmer as the air is. "
+                 "Bars: pulls before the limit; line: the cooler the planned session needs.")
     sentences = []
     for ambient, pulls, all_day, cooler in zip(hot.ambients_K, hot.pulls, hot.all_day, hot.cooler_W_per_K):
         if ambient <= page.scenario.ambient_K + 1e-9:
@@ -166,10 +167,10 @@ def hot_day(page: PagePlan):
                  else f"{int(pulls)} pulls")
         need = ("no cooler" if cooler == 0 else "no cooler can do it" if cooler != cooler
                 else f"a {pi.shown(cooler, 'conductance', system)} cooler")
-        sentences.append(f"on a {pi.shown_celsius(ambient - 273.15, system)} day: {count}, {need}")
+        sentences.append(f"on a {pi.shown(ambient, 'temperature', system, 0)} day: {count}, {need}")
     if sentences:
-        st.markdown("Hotter than today, " + "; ".join(sentences[:3]) + ".")
-    st.image(state.hot_day_png(page.toml_text, system), width="stretch")
+        left.markdown("Hotter than today:\n" + "\n".join(f"- {s}" for s in sentences[:4]))
+    right.image(state.hot_day_png(page.toml_text, system), width="stretch")
 
 
 def design_chart(page: PagePlan, slots: Slots):

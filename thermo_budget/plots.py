@@ -19,10 +19,10 @@ from .scenario import limit_K  # noqa: E402
 OIL_COLOUR, RETURN_COLOUR, WALL_COLOUR, LIMIT_COLOUR = "#b5461f", "#e39b2d", "#4a6c8c", "#8b0000"
 PULL_SHADE = "#f2d7c9"
 # Fixed margins (fractions of the figure): a layout engine would cost a second draw of every label.
-_MARGINS = {"left": 0.11, "right": 0.98, "bottom": 0.14, "top": 0.91}
+_MARGINS = {"left": 0.14, "right": 0.98, "bottom": 0.15, "top": 0.91}
 # Text sizes that stay readable when a chart is shown 360 px wide on a phone (about 9 px high).
-_PAGE_FONTS = {"font.size": 12.5, "axes.titlesize": 12.5, "axes.labelsize": 12.5, "xtick.labelsize": 11.5,
-               "ytick.labelsize": 11.5, "legend.fontsize": 11}
+_PAGE_FONTS = {"font.size": 13, "axes.titlesize": 13, "axes.labelsize": 13, "xtick.labelsize": 12.5,
+               "ytick.labelsize": 12.5, "legend.fontsize": 11.5}
 
 
 def _temperatures(T_K, system):
@@ -41,7 +41,7 @@ def _draw_trace(scenario, trace, system: str) -> Figure:
     t_min = trace.time_s[:, 0] / 60.0
     limit, reason = limit_K(scenario)
     symbol = unit_symbol("temperature", system)
-    fig = Figure(figsize=(6.4, 4.4))
+    fig = Figure(figsize=(5.6, 4.2))
     fig.subplots_adjust(**_MARGINS)
     ax = fig.add_subplot()
     for start, end in zip(trace.pull_start_s[:, 0], trace.pull_end_s[:, 0]):
@@ -123,8 +123,8 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     filled = np.where(unlimited, 0.5 * (levels[-2] + levels[-1]), np.minimum(runs, cap))
 
     with matplotlib.rc_context(_PAGE_FONTS):
-        fig = Figure(figsize=(6.4, 5.2))
-        fig.subplots_adjust(left=0.13, right=0.84, bottom=0.19, top=0.92)
+        fig = Figure(figsize=(5.6, 5.0))
+        fig.subplots_adjust(left=0.15, right=0.82, bottom=0.2, top=0.92)
         ax = fig.add_subplot()
         X, Y = np.meshgrid(volumes, coolers, indexing="ij")
         colours = _band_colours(levels, planned)
@@ -177,8 +177,8 @@ def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
     capped = np.where(hot.all_day | np.isnan(hot.pulls), hot.max_pulls, hot.pulls)
     width = 0.7 * (float(np.min(np.diff(ambient))) if ambient.size > 1 else 5.0)
     with matplotlib.rc_context(_PAGE_FONTS):
-        fig = Figure(figsize=(6.4, 3.6))
-        fig.subplots_adjust(left=0.12, right=0.86, bottom=0.17, top=0.88)
+        fig = Figure(figsize=(5.6, 3.8))
+        fig.subplots_adjust(left=0.14, right=0.84, bottom=0.18, top=0.89)
         ax = fig.add_subplot()
         colours = ["#1f6f8b" if a else ("#9ecae1" if np.isnan(p) else "#e39b2d")
                    for a, p in zip(hot.all_day, hot.pulls)]
@@ -192,10 +192,13 @@ def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
         ax.set_xlabel(f"air temperature ({unit_symbol('temperature', system)})")
         ax.set_ylabel("pulls before the limit")
         cooler = to_shown(np.where(np.isnan(hot.cooler_W_per_K), np.nan, hot.cooler_W_per_K), "conductance", system)
-        right = ax.twinx()
-        right.plot(ambient, cooler, color=LIMIT_COLOUR, marker="o", ms=4, lw=1.5)
-        right.set_ylim(0, max(float(np.nanmax(cooler)) if np.isfinite(cooler).any() else 0.0, 1.0) * 1.15)
-        right.set_ylabel(f"cooler needed ({unit_symbol('conductance', system)})", color=LIMIT_COLOUR)
-        ax.set_title("A hotter day: pulls (bars) and cooler for the plan (line)", loc="left", y=1.0,
-                     fontsize="medium")
+        if np.nanmax(np.append(cooler, 0.0)) > 0 or np.isnan(cooler).any():
+            right = ax.twinx()
+            right.plot(ambient, cooler, color=LIMIT_COLOUR, marker="o", ms=4, lw=1.5)
+            right.set_ylim(0, max(float(np.nanmax(cooler)) if np.isfinite(cooler).any() else 0.0, 1.0) * 1.15)
+            right.set_ylabel(f"cooler needed ({unit_symbol('conductance', system)})", color=LIMIT_COLOUR)
+            title = "Pulls (bars) and the cooler the plan needs (line)"
+        else:
+            title = "Pulls before the limit; the plan needs no cooler at any of these"
+        ax.set_title(title, loc="left", y=1.0, fontsize="medium")
     return fig

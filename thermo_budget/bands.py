@@ -45,9 +45,14 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
     ranking = spread_ranking(samples["z"], samples["runs_for_ranking" if point.get("runs_before_limit") is not None
                                                   else "pulls_under_limit"], model.active)
+    of_what = "the pull count"
+    if not ranking:       # the count does not move (e.g. every sample finishes the session): rank the peak
+        ranking, of_what = spread_ranking(samples["z"], samples["peak_C"], model.active), "the session's peak"
+    for row in ranking:
+        row["of"] = of_what
     return {"bands": bands, "confidence": model.confidence,
             "plan_at_confidence": plan_at_confidence(samples, point, model.confidence),
-            "band_ranking": ranking, "band_advice": advice_sentence(ranking),
+            "band_ranking": ranking, "band_advice": advice_sentence(ranking, of_what),
             "band_envelope": samples["envelope"],
             "uncertainty": {"enabled": True, "samples": n_samples, "sizing_samples": n_sizing,
                             "factors": model.table()}}
@@ -308,7 +313,7 @@ def spread_ranking(z: np.ndarray, answer: np.ndarray, factors) -> list[dict]:
     return rows
 
 
-def advice_sentence(ranking: list[dict]) -> str:
+def advice_sentence(ranking: list[dict], of_what: str = "the pull count") -> str:
     """What to measure first: the inputs that together explain at least 60 % of the spread."""
     if not ranking:
         return ""
@@ -322,4 +327,4 @@ def advice_sentence(ranking: list[dict]) -> str:
     what = names[0] if len(names) == 1 else ", the ".join(names[:-1]) + " and the " + names[-1]
     verb = "explains" if len(names) == 1 else "explain"
     measures = "; ".join(row["measure"] for row in top)
-    return f"The {what} {verb} {100 * total:.0f} % of the spread in the pull count: measure first {measures}."
+    return f"The {what} {verb} {100 * total:.0f} % of the spread in {of_what}: measure first {measures}."

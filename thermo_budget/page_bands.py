@@ -33,7 +33,7 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
 
 
 @st.cache_data(max_entries=32, show_spinner=False)
-def ranking_png(rows: tuple) -> bytes:
+def ranking_png(rows: tuple, of_what: str = "the pull count") -> bytes:
     """A small horizontal bar chart: each uncertain input's share of the spread in the pull count."""
     figure = Figure(figsize=(4.6, 0.42 * len(rows) + 0.7))
     figure.subplots_adjust(left=0.42, right=0.97, bottom=0.2 if len(rows) > 3 else 0.3, top=0.97)
@@ -44,7 +44,7 @@ def ranking_png(rows: tuple) -> bytes:
     for y, share in enumerate(shares):
         ax.annotate(f"{share:.0f} %", (share, y), xytext=(3, 0), textcoords="offset points", va="center", fontsize=8)
     ax.set_xlim(0, max(shares) * 1.25 + 1)
-    ax.set_xlabel("share of the spread in the pull count (%)", fontsize=8)
+    ax.set_xlabel(f"share of the spread in {of_what} (%)", fontsize=8)
     ax.tick_params(labelsize=8)
     ax.grid(axis="x", alpha=0.3)
     return png_bytes(figure)
@@ -118,8 +118,9 @@ def section(page: PagePlan):
                      f"is the one above the range.")
         ranking = answers["band_ranking"]
         if ranking:
-            right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking)), width="stretch")
-            right.caption(f"Each input's share of the spread in the pull count (the linear fit behind the "
+            right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking), ranking[0]["of"]),
+                        width="stretch")
+            right.caption(f"Each input's share of the spread in {ranking[0]['of']} (the linear fit behind the "
                           f"shares explains {100 * ranking[0]['r2']:.0f} % of it).")
         if page.calibrated:
             before = state.answers_for(st.session_state.good_toml)

@@ -230,7 +230,7 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         runs = answers["runs_before_limit"]
         assert shown["pulls"]["value"] == str(runs)
         assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
-                   for line in shown["pulls"]["details"])
+                   for line in shown["pulls"]["details"])   # after the plan at the confidence, where there is one
         _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
         if answers["min_oil_volume_L"] is not None:
@@ -280,7 +280,7 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     assert "likely" not in plain.unit
     answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}}
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}, "uncertainty": {"samples": 128}}
     card = pulls_card(answers, "SI")
     assert card.value == "26" and card.unit == "pulls (likely 22–31)"
     assert "Plan 22 pulls at 90 % confidence." in card.details

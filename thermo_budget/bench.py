@@ -8,7 +8,9 @@
    closed-form step (matrix exponential of the augmented affine system) per step.
 0. Start-up: whole processes of `--help`, `run --json` on the default scenario and the 2,500-design
    sweep (median of three runs each); `--startup` prints only these.
-4. The page's work after one input change (a new oil volume on the default scenario): the answers,
+4. report() with the uncertainty band, and the band's share of it (default scenario, and the same
+   rig asked for 30 pulls, where every sizing answer is non-trivial).
+5. The page's work after one input change (a new oil volume on the default scenario): the answers,
    the temperature chart and the design chart, as the page computes them, without Streamlit; with
    --page, also whole reruns of app.py in Streamlit's AppTest (no browser).
 """
@@ -105,6 +107,19 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
     return answered - start, traced - answered, swept - traced, time.perf_counter() - swept
 
 
+def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
+    """(report() with the band, of it the band alone) s, best of `repeats` each."""
+    from .bands import band_report
+    from .planning import planning_answers
+    from .report import session_report, simulate
+    trace = simulate(scenario)
+    point = session_report(scenario, trace)
+    point.update(planning_answers(scenario))
+    t_report, _ = _best_of(repeats, lambda: report(scenario, trace))
+    t_band, _ = _best_of(repeats, lambda: band_report(scenario, point))
+    return t_report, t_band
+
+
 def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[float] | None:
     """Seconds per rerun of app.py (Streamlit AppTest, no browser) after the oil volume changes to
     each value in turn; None where app.py is not beside the package."""
@@ -183,6 +198,9 @@ def main(argv=None):
     report(scenario)
     t_report, _ = _best_of(3, lambda: report(scenario))
 
+    band_figures = [(name, *band_share_s(s)) for name, s in
+                    (("default", scenario), ("default asked for 30 pulls", scenario.changed(**{"session.repeat": 30})))]
+
     page_redraw_s(scenario, 17.0)   # warm up matplotlib
     redraws = [page_redraw_s(scenario, volume) for volume in (16.5, 17.5, 18.5, 19.5, 20.5)]
     best_redraw = min(redraws, key=sum)
@@ -200,6 +218,11 @@ def main(argv=None):
           f"{t_session / t_floor_eigh:.2f}")
     print(f"report() with every sizing answer: {t_report:.3f} s = {t_report / t_one:.1f} plain simulations "
           f"of {t_one * 1000:.1f} ms (targets <= 40 and well under 0.5 s)")
+    from .bands import N_SAMPLES, N_SIZING_SAMPLES
+    for name, t_with, t_band in band_figures:
+        print(f"report() with the band ({N_SAMPLES} samples, {N_SIZING_SAMPLES} for the sizing answers), {name}: "
+              f"{t_with:.3f} s, of it the band {t_band:.3f} s ({100 * t_band / t_with:.0f} %, "
+              f"{t_band / t_one:.1f} plain simulations) (target <= 1 s)")
     print(f"page after one input change (5 new oil volumes): median {median_total:.3f} s; best {sum(best_redraw):.3f} s ="
           f" answers {best_redraw[0]:.3f} + temperature chart {best_redraw[1]:.3f} + design chart's sweep"
           f" {best_redraw[2]:.3f} + its drawing {best_redraw[3]:.3f}"

@@ -64,9 +64,9 @@ def summary_text(result: dict) -> str:
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
         if result.get("runs_stopped_by") == "return_line":
             lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
-        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
         from .band_text import summary_lines
         lines += summary_lines(result)
+        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)
 

@@ -31,6 +31,7 @@ from .units import convert
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
 MAX_CELL_CHARS = 1_000
+MAX_LOG_SPAN_S = 12 * 3600.0   # a test day; the fit integrates every logged second (found by the fuzz test)
 MAX_POWER_W = 1e6          # the plausible range of a pull's power (scenario_table.KEYS)
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
@@ -172,7 +173,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
         bad = np.nonzero((power_W < 0) | (power_W > MAX_POWER_W))[0]
         if bad.size:
             raise ScenarioError(f"{source} line {line_numbers[bad[0]]}, column {columns['power'][0]}",
-                                float(power_W[bad[0]]), f"an absorbed power from 0 to {MAX_POWER_W:g} W")
+                                float(power_W[bad[0]]), f"an absorbed power of zero or more and at most {MAX_POWER_W:g} W")
     if pull is not None:
         bad = np.nonzero(np.isfinite(pull) & (pull != 0) & (pull != 1))[0]
         if bad.size:
@@ -278,9 +279,9 @@ def _times_s(times: list, column: str, source: str) -> np.ndarray:
             except ValueError:
                 raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
                                     "seconds from the session start as a number (for clock times name the column time)") from None
-            if not math.isfinite(value) or value < 0:
+            if not math.isfinite(value) or value < 0 or value > MAX_LOG_SPAN_S:
                 raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
-                                    "seconds from the session start, zero or more")
+                                    f"seconds from the session start, zero or more and at most {MAX_LOG_SPAN_S:.0f} (12 h)")
             values.append(value)
         return np.array(values)
     stamps = []
@@ -302,7 +303,11 @@ def _times_s(times: list, column: str, source: str) -> np.ndarray:
     if len(aware) > 1:
         raise ScenarioError(f"{source} column {column}", "mixed", "timestamps all with a time zone or all without")
     start = min(stamps)
-    return np.array([(stamp - start).total_seconds() for stamp in stamps])
+    seconds = np.array([(stamp - start).total_seconds() for stamp in stamps])
+    if seconds.max() > MAX_LOG_SPAN_S:
+        raise ScenarioError(f"{source} column {column}", f"{seconds.max():.0f} s from the first timestamp",
+                            f"a log spanning at most {MAX_LOG_SPAN_S:.0f} s (12 h)")
+    return seconds
 
 
 def _to_kelvin(values: np.ndarray, column: str) -> np.ndarray:

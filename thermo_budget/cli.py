@@ -1,4 +1,4 @@
-"""Command line: `python -m thermo_budget run|sweep|fit ...`. Exit 0 on success, 2 on bad input."""
+"""Command line: `python -m thermo_budget run|sweep|fit|watch ...`. Exit 0 on success, 2 on bad input."""
 from __future__ import annotations
 
 import argparse
@@ -102,6 +102,11 @@ def _fit(args) -> int:
     return fit_command(args)
 
 
+def _watch(args) -> int:
+    from .live_watch import watch_command
+    return watch_command(args)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="python -m thermo_budget",
                                      description="Oil temperature budget of an uncooled hydraulic engine brake.")
@@ -128,6 +133,14 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--plot", metavar="FIT.png")
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
     fit.set_defaults(handler=_fit)
+    watch = sub.add_parser("watch", help="follow a logger's file live: the state of every node and when the next pull may start")
+    watch.add_argument("scenario")
+    watch.add_argument("log", metavar="LOG.csv")
+    watch.add_argument("--sensor", choices=("bulk", "return"), default="bulk", help="where the log's thermocouple sits")
+    watch.add_argument("--once", action="store_true", help="read the file as it stands, print one forecast, exit")
+    watch.add_argument("--json", action="store_true", help="one JSON object per line, one per update")
+    watch.add_argument("--interval", type=float, default=2.0, metavar="SECONDS", help="how often to poll the file")
+    watch.set_defaults(handler=_watch)
     return parser
 
 

@@ -74,7 +74,7 @@ class LiveWatch:
     def _reset(self):
         self.lines: list[str] = []
         self.estimate: se.Estimate | None = None
-        self.rows_done = 0
+        self.rows_done = self.raw_rows_done = 0
         self.last_time_s = None
         self.pulls_started = 0
         self.in_pull = False
@@ -115,8 +115,9 @@ class LiveWatch:
             return None
         if self.rows_done and not self._continues(log):
             self._say("the log's time went backwards: a new session; the estimate starts again", once=False)
+            header, last = self._header_line(), self.last_time_s
             self._reset()
-            self.lines = [self._header_line()] + poll.lines if self._header_line() not in poll.lines else poll.lines
+            self.lines = [header] + _from_step_back(header, poll.lines, last, self.sensor)
             log = self._parse()
             if log is None:
                 return None
@@ -150,10 +151,13 @@ class LiveWatch:
         raise ScenarioError(str(self.path), "too many unreadable lines", "a log the reader can read")
 
     def _continues(self, log) -> bool:
-        """The rows already taken are still the first rows, at the same times (no step back in time)."""
+        """The rows already taken are still the first rows, at the same times, and the new rows come
+        after them (one new row at an old time is let pass as a duplicate; more mean a step back)."""
         t = log.time_s
+        later = np.count_nonzero(t > self.last_time_s + 1e-6)
         return (t.size >= self.rows_done and abs(t[self.rows_done - 1] - self.last_time_s) < 1e-6
-                and np.count_nonzero(t <= self.last_time_s + 1e-6) == self.rows_done)
+                and np.count_nonzero(t <= self.last_time_s + 1e-6) == self.rows_done
+                and log.n_rows - self.raw_rows_done - later <= 1)
 
     # ------------------------------------------------------------------ estimating
 
@@ -180,10 +184,10 @@ class LiveWatch:
                   f"taken as the scenario's pull ({power:.0f} W)")
         dt = float(log.time_s[row] - log.time_s[row - 1])
         f = se.detected_pull_fraction(self.rig, self.estimate, float(log.oil_K[row]), pull.with_duration(dt),
-                                      wait.with_duration(dt), self.sensor)
+                                      wait.with_duration(dt), self.sensor, self.in_pull)
         if f <= 0.0:
             return [wait.with_duration(dt)], 0.0
-        if f >= 1.0:
+        if f >= 1.0 or (self.in_pull and f >= 0.5):       # a running pull ends only on a clear drop in the rise
             return [pull.with_duration(dt)], 1.0
         parts = [pull.with_duration(f * dt), wait.with_duration((1 - f) * dt)]
         return (parts if self.in_pull else parts[::-1]), f
@@ -206,7 +210,7 @@ class LiveWatch:
                 self._mark_reading(t, reading)
                 if not accepted:
                     self._say(f"reading {reading - 273.15:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
-        self.rows_done = log.time_s.size
+        self.rows_done, self.raw_rows_done = log.time_s.size, log.n_rows
         self.last_time_s = float(log.time_s[-1])
 
     def _mark_reading(self, t, reading):
@@ -262,6 +266,19 @@ class LiveWatch:
         if oil > self.limit_K - NEAR_LIMIT_K:
             return f"The oil is within {NEAR_LIMIT_K:.0f} K of its {limit} limit."
         return None
+
+
+def _from_step_back(header: str, lines: list[str], last_time_s: float, sensor: str) -> list[str]:
+    """The new lines from the first one whose time is not after last_time_s (seconds logs; a log
+    of clock times keeps them all)."""
+    for j, line in enumerate(lines):
+        try:
+            row = read_log(header + "\n" + line, sensor, require_heating=False)
+        except ScenarioError:
+            continue
+        if "time_s" in header.lower() and row.time_s.size and row.time_s[0] <= last_time_s + 1e-6:
+            return lines[j:]
+    return lines
 
 
 def _temperature(T_K: float, system: str) -> str:

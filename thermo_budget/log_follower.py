@@ -83,9 +83,14 @@ class LogFollower:
 
 
 def _decode(data: bytes, first: bool) -> str:
-    """UTF-8 (a byte-order mark at the file's start dropped); other bytes as Latin-1, which keeps digits."""
-    try:
-        text = data.decode("utf-8")
-    except UnicodeDecodeError:
-        text = data.decode("latin-1")
-    return text.lstrip("\ufeff") if first else text
+    """Line by line UTF-8 (a byte-order mark at the file's start dropped); a line that is not UTF-8
+    is read as Latin-1, which keeps digits."""
+    if first and data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    lines = []
+    for line in data.split(b"\n"):
+        try:
+            lines.append(line.decode("utf-8"))
+        except UnicodeDecodeError:
+            lines.append(line.decode("latin-1"))
+    return "\n".join(lines)

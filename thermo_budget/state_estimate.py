@@ -177,16 +177,17 @@ def update(estimate: Estimate, reading_K: float, offset_K: float = 0.0) -> tuple
 
 
 def detected_pull_fraction(rig: Rig, estimate: Estimate, reading_K: float, pull: Step, wait: Step,
-                           sensor: str) -> float:
+                           sensor: str, pulling: bool = False) -> float:
     """Fraction 0..1 of an interval spent pulling, from the oil's rise over it (a log without pull
     or power columns). 0 unless the reading lies more than three standard deviations above what a
-    wait would give; else the fraction that best explains the reading, between a wait (0) and a
+    wait would give (one, while a pull is already running: a pull goes on more easily than it
+    starts); else the fraction that best explains the reading, between a wait (0) and a
     whole-interval pull (1)."""
     if not np.isfinite(reading_K):
         return 0.0
     waited, pulled = predict(rig, estimate, [wait]), predict(rig, estimate, [pull])
     nu_wait, S = innovation(waited, reading_K, sensor_offset_K(rig, waited, wait, sensor))
-    if nu_wait <= 3.0 * np.sqrt(S):
+    if nu_wait <= (1.0 if pulling else 3.0) * np.sqrt(S):
         return 0.0
     rise = (pulled.state[OIL] + sensor_offset_K(rig, pulled, pull, sensor)
             - waited.state[OIL] - sensor_offset_K(rig, waited, wait, sensor))

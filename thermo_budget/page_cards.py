@@ -43,7 +43,7 @@ def _band_text(band) -> str | None:
     if not isinstance(band, dict) or band.get("p10") is None or band.get("p90") is None:
         return None
     low, high = band["p10"], band["p90"]
-    return f"likely {low}" if low == high else f"likely {low}–{high}"
+    return None if low == high else f"likely {low}–{high}"   # a band of one value says nothing more
 
 
 def _confidence_text(answers: dict) -> str:

@@ -230,7 +230,7 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         runs = answers["runs_before_limit"]
         assert shown["pulls"]["value"] == str(runs)
         assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
-                   for line in shown["pulls"]["details"])
+                   for line in shown["pulls"]["details"])   # after the plan at the confidence, where there is one
         _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
         if answers["min_oil_volume_L"] is not None:
@@ -280,7 +280,7 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     assert "likely" not in plain.unit
     answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}}
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}, "uncertainty": {"samples": 128}}
     card = pulls_card(answers, "SI")
     assert card.value == "26" and card.unit == "pulls (likely 22–31)"
     assert "Plan 22 pulls at 90 % confidence." in card.details
@@ -323,3 +323,22 @@ def test_a_return_line_limit_typed_on_the_page_stops_the_count(page):
     assert any("return line's limit" in d for d in cards(page)["pulls"]["details"])
     number_input(page, "Return-line limit").set_value(200.0).run()   # far above the return line: no effect
     assert int(headline(page)) == before
+
+
+def test_a_log_with_a_giant_cell_is_refused_and_the_uploader_stays(page):
+    # a cell over the csv module's 131,072-character limit used to raise on every rerun and hide
+    # the uploader until a reload
+    giant = ("time_s,oil_C\n" + "\n".join(f"{i * 10},{20 + i}" for i in range(20)) + "\n210,"
+             + "9" * 140_000 + "\n").encode()
+    page.file_uploader(key="log_upload").set_value(("giant.csv", giant, "text/csv")).run()
+    assert not page.exception
+    assert any("The log was not used" in e.value and "characters" in e.value for e in page.error)
+    page.run()
+    assert not page.exception
+    assert page.file_uploader(key="log_upload") is not None
+
+
+def test_a_binary_scenario_upload_is_refused(page):
+    page.file_uploader(key="upload").set_value(("binary.toml", bytes(range(256)) * 8, "application/toml")).run()
+    assert not page.exception
+    assert any("binary.toml" in e.value for e in page.error)

@@ -60,6 +60,8 @@ def pulls_card(answers: dict, system: str) -> Card:
     else:
         value, unit = f"{runs}", "pull" if runs == 1 else "pulls"
     bands = answers.get("bands") or {}
+    if not (answers.get("uncertainty") or {}).get("samples", 1):
+        bands = {}   # the band is off: it only repeats the model's figure
     details = []
     band = _band_text(bands.get("runs_before_limit"))
     if band and runs is not None:

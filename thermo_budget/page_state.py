@@ -81,7 +81,7 @@ def hot_day_png(toml_text: str, system: str) -> bytes:
     return page_charts.hot_day_chart_png(toml_text, system, hot_day_for(toml_text))
 
 
-@st.cache_resource(max_entries=8, show_spinner=False)
+@st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
 def fit_for(toml_text: str, log_text: str, sensor: str):
     return fit_log(scenario_of(toml_text), log_text, sensor)
 

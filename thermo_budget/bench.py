@@ -6,6 +6,8 @@
 2. report() for the default scenario, as a multiple of one plain simulation of the session.
 3. The floor: the same planned-session sweep with coefficients frozen at the start state and one
    closed-form step (matrix exponential of the augmented affine system) per step.
+0. Start-up: whole processes of `--help`, `run --json` on the default scenario and the 2,500-design
+   sweep (median of three runs each); `--startup` prints only these.
 4. report() with the uncertainty band, and the band's share of it (default scenario, and the same
    rig asked for 30 pulls, where every sizing answer is non-trivial).
 5. The page's work after one input change (a new oil volume on the default scenario): the answers,
@@ -15,6 +17,8 @@
 from __future__ import annotations
 
 import argparse
+import subprocess
+import sys
 import time
 
 import numpy as np
@@ -134,11 +138,43 @@ def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[floa
     return times
 
 
+STARTUP_COMMANDS = {
+    "--help": ["--help"],
+    "run --json": ["run", str(DEFAULT_SCENARIO), "--json"],
+    "sweep, 2,500 designs": ["sweep", str(DEFAULT_SCENARIO), "--oil-volumes", "5:40:50", "--coolers", "0:100:50"],
+}
+STARTUP_TARGETS_S = {"--help": 0.5, "run --json": 1.0, "sweep, 2,500 designs": 2.5}
+
+
+def startup_s(repeats: int = 3) -> dict[str, float]:
+    """Median wall time (s) of each STARTUP_COMMANDS as a whole process (`python -m thermo_budget ...`)."""
+    times = {}
+    for name, args in STARTUP_COMMANDS.items():
+        runs = []
+        for _ in range(repeats):
+            start = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "thermo_budget", *args], stdout=subprocess.DEVNULL, check=True)
+            runs.append(time.perf_counter() - start)
+        times[name] = float(np.median(runs))
+    return times
+
+
+def startup_line(times: dict[str, float]) -> str:
+    python_alone = float(np.median([_best_of(1, lambda: subprocess.run([sys.executable, "-c", "pass"]))[0]
+                                    for _ in range(3)]))
+    parts = [f"{name} {t:.2f} s (target < {STARTUP_TARGETS_S[name]:g})" for name, t in times.items()]
+    return "start-up, whole process, median of 3: " + "; ".join(parts) + f"; python alone {python_alone:.2f} s"
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(prog="python -m thermo_budget.bench")
     parser.add_argument("--quick", action="store_true", help="a smaller solve_ivp subset")
     parser.add_argument("--page", action="store_true", help="also time whole reruns of app.py (Streamlit AppTest)")
+    parser.add_argument("--startup", action="store_true", help="only the start-up times of whole processes")
     args = parser.parse_args(argv)
+    print(startup_line(startup_s()), flush=True)
+    if args.startup:
+        return
     scenario = load_scenario(DEFAULT_SCENARIO)
     volumes = np.linspace(5.0, 40.0, 50)
     coolers = np.linspace(0.0, 100.0, 50)

@@ -1,9 +1,7 @@
 """Calibrate the model from a measured log: fit the convection and heat-capacity multipliers.
 
-The model is the scenario's network, driven by the heat input of the logged day: the log's power_W
-or pull columns where it has them, else the scenario's planned steps from time 0 (and engine off
-after their end). It is integrated with its steps cut at the log's times, so the model is read at
-exactly the logged instants. The fit is weighted least squares (all readings equal weight) with
+The model of the logged day is `log_model.LogModel`; the summary text, the calibrated TOML and the
+`fit` command are in `fit_text.py`. The fit is weighted least squares (all readings equal weight) with
 scipy.optimize.least_squares on theta = (ln convection multiplier, ln capacity multiplier
 [, start offset K]); the logarithms keep the multipliers positive and make their intervals
 multiplicative. The 95 % intervals are the usual linearised ones, theta +- t(0.975, n - p) * se with
@@ -12,25 +10,24 @@ they assume independent noise, and the result says when the residuals show other
 """
 from __future__ import annotations
 
-import json
-from dataclasses import dataclass, field, replace
-from pathlib import Path
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
 from scipy.optimize import least_squares
 
-from .errors import ScenarioError
-from .measured_log import MeasuredLog, log_file_text, read_log
-from .network import OIL, cooling_time_constant_s
-from .scenario import Scenario, build_rig
-from .session import Resolution, Step
-from .solver import integrate
-from .units import to_display, unit_label
+from .fit_text import calibrated_toml, fit_command, format_difference, format_temperature, summary_text
+from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
+from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
+from .measured_log import MeasuredLog, read_log
+from .network import cooling_time_constant_s
+from .scenario import Scenario, limit_K
+from .uncertainty import with_fit_posterior
 
-# One sub-step per logged interval up to 30 s; the model error this leaves is checked against a
-# 2.5 s reference in the tests (well under a thermocouple's noise).
-FIT_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=2, max_substep_s=30.0, max_substeps=100_000)
+# re-exported: the log's model and the fit's text live beside this module
+__all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "calibrated_toml", "fit_command", "fit_log",
+           "fit_measured_log", "log_model", "predict_log_K", "summary_text"]
+
 CONVECTION_BOUNDS = (0.01, 10.0)      # the scenario file accepts 0 to 10
 CAPACITY_BOUNDS = (0.05, 10.0)        # the scenario file accepts above 0 up to 10
 START_OFFSET_BOUNDS_K = (-30.0, 30.0)
@@ -38,199 +35,6 @@ DIFFERENCE_STEP = 1e-4                # central-difference step in ln(multiplier
 STRONG_CORRELATION = 0.95
 POOR_RELATIVE_HALF_WIDTH = 0.25
 CORRELATED_RESIDUALS = 0.5            # lag-1 autocorrelation of the residuals
-TIME_TOLERANCE_S = 1e-6
-
-
-def format_temperature(T_K: float, system: str) -> str:
-    """A temperature in the display unit of "SI" or "US", e.g. '47.3 °C'."""
-    return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
-
-
-def format_difference(dT_K: float, system: str) -> str:
-    """A temperature difference: '0.31 K', or '0.56 °F (0.31 K)' in US units."""
-    if system == "SI":
-        return f"{dT_K:.2f} K"
-    return f"{to_display(dT_K, 'temperature_difference', system):.2f} {unit_label('temperature_difference', system)} ({dT_K:.2f} K)"
-
-
-@dataclass(frozen=True)
-class LogModel:
-    """The scenario's network driven by one log's heat input, read at the log's times.
-
-    rig : the network with multipliers 1 and the ambient used for the fit.
-    pieces : the steps, cut at every logged time. point_index : (M,) index of each log row in the
-    integrated trace (0 = the start state). point_piece : (M,) the piece that ends at each log row
-    (-1 for a row at time 0).
-    """
-    rig: object
-    pieces: tuple
-    point_index: np.ndarray
-    point_piece: np.ndarray
-    start_K: float
-    sensor: str
-    ambient_K: float
-    ambient_source: str
-    heat_input: str
-    notes: tuple
-
-    def temperatures_K(self, convection, capacity, start_offset_K=0.0) -> np.ndarray:
-        """Sensor temperature (N, M) K at the log's times for N parameter sets (arrays (N,)), run in
-        one vectorised integration."""
-        convection = np.atleast_1d(np.asarray(convection, dtype=float))
-        capacity = np.atleast_1d(np.asarray(capacity, dtype=float))
-        offset = np.broadcast_to(np.asarray(start_offset_K, dtype=float), convection.shape)
-        n = convection.size
-        rig = self.rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity)
-        T0 = np.repeat((self.start_K + offset)[:, None], 3, axis=1)
-        trace = integrate(rig, list(self.pieces), T0, n_designs=n, resolution=FIT_RESOLUTION)
-        series = trace.T_K[:, :, OIL] if self.sensor == "bulk" else trace.return_K
-        return series[self.point_index].T
-
-
-def log_model(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk") -> LogModel:
-    """Build the model of a logged day: heat input, cut points and ambient."""
-    if sensor not in ("bulk", "return"):
-        raise ScenarioError("sensor", sensor, 'one of "bulk", "return"')
-    notes = []
-    rig = build_rig(scenario, convection_multiplier=1.0, capacity_multiplier=1.0)
-    ambient = log.mean_ambient_K
-    if ambient is None:
-        ambient, ambient_source = scenario.ambient_K, "scenario"
-    else:
-        ambient_source = "log mean"
-        rig = rig.with_changes(ambient_K=ambient)
-        notes.append(f"ambient: mean of the log's {np.count_nonzero(np.isfinite(log.ambient_K))} readings, "
-                     f"{format_temperature(ambient, scenario.units)} "
-                     f"(scenario: {format_temperature(scenario.ambient_K, scenario.units)})")
-    if log.has_heat_input:
-        pieces, cuts, input_notes = _log_pieces(scenario, log)
-        columns = " and ".join(c for c, v in (("power_W", log.power_W), ("pull", log.pull)) if v is not None)
-        heat_input = f"the log's {columns} column" + ("s" if " and " in columns else "")
-    else:
-        pieces, cuts, input_notes = _scenario_pieces(list(scenario.steps), log.time_s)
-        heat_input = "the scenario's planned steps from time 0"
-    notes += input_notes
-    trace_index = _piece_end_index(pieces)
-    cut_of_time = np.searchsorted(cuts, log.time_s - TIME_TOLERANCE_S)
-    point_piece = cut_of_time - 1
-    point_index = np.where(point_piece < 0, 0, trace_index[np.maximum(point_piece, 0)])
-    return LogModel(rig=rig, pieces=tuple(pieces), point_index=point_index, point_piece=point_piece,
-                    start_K=scenario.start_K,
-                    sensor=sensor, ambient_K=ambient, ambient_source=ambient_source, heat_input=heat_input,
-                    notes=tuple(notes))
-
-
-def _piece_end_index(pieces) -> np.ndarray:
-    """Index in the trace of the last recorded point of each piece (the trace starts with the start state)."""
-    counts = [FIT_RESOLUTION.substeps(piece, piece.duration_s) for piece in pieces]
-    return np.cumsum(counts)
-
-
-def _merged_cuts(times) -> np.ndarray:
-    cuts = np.unique(np.asarray(times, dtype=float))
-    return cuts[np.concatenate([[True], np.diff(cuts) > TIME_TOLERANCE_S])]
-
-
-def _piece(step: Step, f0: float, f1: float) -> Step:
-    """The part of a step between fractions f0 and f1 of it."""
-    piece = step.with_duration((f1 - f0) * step.duration_s)
-    if step.curve is not None:
-        piece = replace(piece, rpm_start=float(step.rpm_at(f0)), rpm_end=float(step.rpm_at(f1)))
-    return piece
-
-
-def _scenario_pieces(steps: list, times_s: np.ndarray):
-    """The planned steps cut at the log's times; logged time past their end is engine off."""
-    durations = np.array([step.duration_s for step in steps])
-    ends = np.cumsum(durations)
-    starts = ends - durations
-    cuts = _merged_cuts(np.concatenate([[0.0], ends, times_s]))
-    cuts = cuts[cuts <= max(times_s.max(), TIME_TOLERANCE_S) + TIME_TOLERANCE_S]
-    notes, pieces = [], []
-    for a, b in zip(cuts[:-1], cuts[1:]):
-        middle = 0.5 * (a + b)
-        if middle >= ends[-1]:
-            pieces.append(Step(kind="wait", duration_s=b - a, engine="off"))
-            continue
-        j = int(np.searchsorted(ends, middle))
-        pieces.append(_piece(steps[j], (a - starts[j]) / durations[j], (b - starts[j]) / durations[j]))
-    if times_s.max() > ends[-1] + TIME_TOLERANCE_S:
-        notes.append(f"the log runs {times_s.max() - ends[-1]:.0f} s past the end of the scenario's session "
-                     f"({ends[-1]:.0f} s); that time is modelled with the engine off")
-    if times_s.max() < ends[-1] - TIME_TOLERANCE_S:
-        notes.append(f"the log ends at {times_s.max():.0f} s, before the end of the scenario's session ({ends[-1]:.0f} s)")
-    return pieces, cuts, notes
-
-
-def _reference_steps(scenario: Scenario):
-    """The pull and the wait that stand for the log's pulls and waits, with notes where the
-    scenario's steps differ among themselves."""
-    notes = []
-    pulls = [step for step in scenario.cycle if step.is_pull]
-    waits = [step for step in scenario.cycle if not step.is_pull]
-    pull = pulls[0]
-
-    def rpm(step):
-        return 0.5 * (step.rpm_start + step.rpm_end) if step.curve is not None else step.rpm
-    if pull.curve is not None:
-        notes.append("a logged pull runs at the mean speed of the scenario's engine-curve sweep; without power_W "
-                     "it absorbs the sweep's mean power, evenly over the pull")
-    if len({(rpm(p), round(p.mean_power_W(0.0, 1.0), 6)) for p in pulls}) > 1:
-        notes.append("the scenario's pulls differ; the log's pulls take the speed (and, without power_W, "
-                     "the power) of its first pull")
-    wait = waits[0] if waits else Step(kind="wait", duration_s=1.0, engine="off")
-    if not waits:
-        notes.append("the scenario has no wait step; the log's waits are taken as engine off")
-    elif len({(w.engine, w.power_W, w.rpm) for w in waits}) > 1:
-        notes.append("the scenario's waits differ; the log's waits take the engine state of its first wait")
-    return pull, rpm(pull), pull.mean_power_W(0.0, 1.0), wait, notes
-
-
-def _log_pieces(scenario: Scenario, log: MeasuredLog):
-    """Piecewise-constant steps between the log's rows, from its power_W and pull columns.
-
-    The values on a row hold over the interval that ends at it (the convention of `run --csv`);
-    the first interval starts at the session start, t = 0. Without a pull column an interval is a
-    pull when its power lies above half-way between the scenario's largest wait load and its pull's
-    mean power. A wait with zero logged power is engine off; with power, the scenario's wait state.
-    """
-    pull, pull_rpm, pull_power, wait, notes = _reference_steps(scenario)
-    wait_power = wait.power_W if wait.engine == "idle" else 0.0
-    threshold = 0.5 * (wait_power + pull_power)
-    if log.pull is None:
-        notes.append(f"intervals with more than {threshold:.0f} W logged are pulls (half-way between the "
-                     f"scenario's wait load and its pull power)")
-    cuts = _merged_cuts(np.concatenate([[0.0], log.time_s]))
-    row_of_cut = np.searchsorted(log.time_s, cuts[1:] - TIME_TOLERANCE_S)
-    pieces, off_in_idle, powered_off = [], 0, 0
-    for (a, b), row in zip(zip(cuts[:-1], cuts[1:]), row_of_cut):
-        power = None if log.power_W is None else float(log.power_W[row])
-        is_pull = bool(log.pull[row]) if log.pull is not None else power > threshold
-        d = b - a
-        if is_pull:
-            pieces.append(Step(kind="pull", duration_s=d, engine="on",
-                               power_W=pull_power if power is None else power, rpm=pull_rpm))
-        elif power is None:
-            pieces.append(wait.with_duration(d))
-        elif power == 0.0 and not (wait.engine == "idle" and wait.power_W == 0.0):
-            off_in_idle += wait.engine == "idle"
-            pieces.append(Step(kind="wait", duration_s=d, engine="off"))
-        else:
-            idle_rpm = wait.rpm if wait.engine == "idle" else pull_rpm
-            powered_off += wait.engine == "off"
-            pieces.append(Step(kind="wait", duration_s=d, engine="idle", power_W=power, rpm=idle_rpm))
-    if off_in_idle:
-        notes.append(f"{off_in_idle} wait intervals with 0 W logged are taken as engine off (the scenario's waits idle)")
-    if powered_off:
-        notes.append(f"{powered_off} wait intervals have power logged although the scenario's waits are engine off; "
-                     f"they are taken as turning at the pull speed, {pull_rpm:.0f} rpm")
-    return pieces, cuts, notes
-
-
-def predict_log_K(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk", start_offset_K: float = 0.0) -> np.ndarray:
-    """The scenario's model (with its own multipliers) at the log's times, (M,) K."""
-    model = log_model(scenario, log, sensor)
-    return model.temperatures_K(scenario.convection_multiplier, scenario.capacity_multiplier, start_offset_K)[0]
 
 
 @dataclass
@@ -308,14 +112,20 @@ class FitResult:
 
 
 def fit_log(scenario: Scenario, log_text: str, sensor: str = "bulk", fit_start_offset: bool = False,
-            source: str = "log") -> FitResult:
-    """Fit the convection and capacity multipliers (and optionally a start offset) to a log's CSV text."""
+            source: str = "log", strict: bool = False) -> FitResult:
+    """Fit the convection and capacity multipliers (and optionally a start offset) to a log's CSV text.
+    strict : refuse a log that looks implausible (log_checks) instead of warning."""
     log = read_log(log_text, sensor, source)
-    return fit_measured_log(scenario, log, sensor, fit_start_offset)
+    return fit_measured_log(scenario, log, sensor, fit_start_offset, strict, source)
 
 
 def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
-                     fit_start_offset: bool = False) -> FitResult:
+                     fit_start_offset: bool = False, strict: bool = False, source: str = "log") -> FitResult:
+    """The fit of a read log; a long one is thinned first (log_checks.thin_for_fit)."""
+    plausibility = plausibility_warnings(log, scenario.start_K, limit_K(scenario)[0], scenario.units)
+    if strict:
+        refuse_implausible(plausibility, source)
+    log = thin_for_fit(log)
     model = log_model(scenario, log, sensor)
     used = np.isfinite(log.oil_K)
     measured = log.oil_K[used]
@@ -367,12 +177,12 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     calibrated = scenario.changed(**{"losses.convection_multiplier": float(f"{convection:.4g}"),
                                      "losses.capacity_multiplier": float(f"{capacity:.4g}")})
     in_wait = np.array([piece < 0 or not model.pieces[piece].is_pull for piece in model.point_piece[used]])
-    warnings = _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
+    warnings = plausibility + _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
                          names, solution, tau, fit_start_offset)
     notes = list(log.notes) + list(model.notes)
     if offset is not None:
         notes.append("the start offset describes that day's start only; it is not written to the calibrated scenario")
-    return FitResult(
+    result = FitResult(
         sensor=sensor, units=scenario.units, convection_multiplier=convection, capacity_multiplier=capacity,
         start_offset_K=offset, ci95=ci95, correlation=correlation, rms_K=rms,
         max_abs_residual_K=float(np.max(np.abs(residual))),
@@ -383,6 +193,8 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         time_constant_s=tau, converged=bool(solution.success), warnings=warnings, notes=notes,
         time_s=log.time_s[used], measured_K=measured, fitted_K=fitted, uncalibrated_K=uncalibrated,
         calibrated_scenario=calibrated)
+    result.calibrated_scenario = with_fit_posterior(calibrated, result)   # the band's posterior (uncertainty.py)
+    return result
 
 
 def _intervals(theta, J, residual, names):
@@ -400,8 +212,9 @@ def _intervals(theta, J, residual, names):
     for i, name in enumerate(names):
         low, high = theta[i] - t * se[i], theta[i] + t * se[i]
         if name.endswith("multiplier"):
-            ci95[name] = [float(np.exp(low)), float(np.exp(high))]
-            half_width[name] = float(np.expm1(t * se[i]))
+            # an interval past e^50 is none at all (it overflowed to Infinity in the JSON)
+            ci95[name] = [float(np.exp(low)), float(np.exp(high))] if t * se[i] < 50.0 else None
+            half_width[name] = float(np.expm1(t * se[i])) if t * se[i] < 50.0 else np.inf
         else:
             ci95[name] = [float(low), float(high)]
             half_width[name] = 0.0
@@ -436,7 +249,8 @@ def _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, corr
         warnings.append("the log cannot tell the parameters apart at all (singular Jacobian); no intervals")
     for name in names[:2]:
         if half_width.get(name, 0.0) > POOR_RELATIVE_HALF_WIDTH and correlation is not None:
-            warnings.append(f"{name} is poorly determined (95 % interval about +-{100 * half_width[name]:.0f} %)")
+            width = f"about +-{100 * half_width[name]:.0f} %" if np.isfinite(half_width[name]) else "without bound"
+            warnings.append(f"{name} is poorly determined (95 % interval {width})")
     for i, name in enumerate(names):
         if np.isclose(theta[i], lower[i], atol=1e-6) or np.isclose(theta[i], upper[i], atol=1e-6):
             warnings.append(f"{name} ended at the edge of its allowed range; the model does not match this log")
@@ -459,62 +273,3 @@ def _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, corr
                             f"at the scenario's start_temperature ({format_temperature(scenario.start_K, u)}); "
                             f"set it to the log's start or fit a start offset")
     return warnings
-
-
-def summary_text(result: FitResult) -> str:
-    """A short readable summary in the scenario's units."""
-    u = result.units
-
-    def diff(K):
-        return format_difference(K, u)
-
-    def ci(name):
-        pair = result.ci95.get(name)
-        return "n/a" if pair is None else f"{pair[0]:.3f} to {pair[1]:.3f}"
-
-    lines = [f"fit of the {result.sensor} sensor, {result.n_points} points, heat input from {result.heat_input}",
-             f"  convection multiplier {result.convection_multiplier:.3f}  (95 %: {ci('convection_multiplier')})",
-             f"  capacity multiplier   {result.capacity_multiplier:.3f}  (95 %: {ci('capacity_multiplier')})"]
-    if result.start_offset_K is not None:
-        lines.append(f"  start offset          {diff(result.start_offset_K)}  (95 %: {ci('start_offset_K')} K)")
-    lines += [f"  RMS residual          {diff(result.rms_K)} (largest {diff(result.max_abs_residual_K)}); "
-              f"uncalibrated {diff(result.rms_uncalibrated_K)}",
-              f"  sensor noise (est.)   {diff(result.noise_K)} from successive differences",
-              f"  ambient               {format_temperature(result.ambient_C + 273.15, u)} ({result.ambient_source})",
-              f"  cooling time constant {result.time_constant_s / 60:.0f} min"]
-    if result.correlation is not None:
-        lines.append(f"  correlation of the two multipliers {result.correlation:+.3f}")
-    lines += [f"  warning: {w}" for w in result.warnings]
-    lines += [f"  note: {n}" for n in result.notes]
-    return "\n".join(lines)
-
-
-def calibrated_toml(result: FitResult, log_name: str) -> str:
-    """The calibrated scenario as TOML, with comment lines saying where the multipliers came from."""
-    def fmt(name):
-        pair = result.ci95.get(name)
-        return "n/a" if pair is None else f"{pair[0]:.3g} to {pair[1]:.3g}"
-
-    header = [f"# Calibrated by `thermo_budget fit` from {Path(log_name).name} ({result.sensor} sensor, "
-              f"{result.n_points} points, RMS residual {result.rms_K:.2f} K).",
-              f"# convection_multiplier 95 %: {fmt('convection_multiplier')}; "
-              f"capacity_multiplier 95 %: {fmt('capacity_multiplier')}."]
-    header += [f"# warning: {w}" for w in result.warnings]
-    return "\n".join(header) + "\n" + result.calibrated_scenario.to_toml()
-
-
-def fit_command(args) -> int:
-    """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
-    from .scenario import load_scenario
-    scenario = load_scenario(args.scenario)
-    text = log_file_text(args.log)
-    result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
-                     source=str(args.log))
-    if args.write:
-        Path(args.write).write_text(calibrated_toml(result, args.log), encoding="utf-8")
-    if args.plot:
-        from .fit_plot import plot_fit
-        figure = plot_fit(result)
-        figure.savefig(args.plot, dpi=120, bbox_inches="tight")
-    print(json.dumps(result.to_dict(include_series=False), indent=2) if args.json else summary_text(result))
-    return 0

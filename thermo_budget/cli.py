@@ -1,24 +1,31 @@
-"""Command line: `python -m thermo_budget run|sweep|fit|watch ...`. Exit 0 on success, 2 on bad input."""
+"""Command line: `thermo-budget run|sweep|fit|watch ...` (or `python -m thermo_budget ...`).
+
+Exit 0 on success, 2 on bad input (one line naming the key, the value and what was expected), 1 on
+a full disk; a closed pipe (`... | head`) ends it quietly. Every subcommand runs inside one wrapper,
+`run_guarded`, that turns these into exit codes; a new subcommand only adds its parser and handler.
+The heavy modules are imported inside the handlers, so that `--help` answers at once.
+"""
 from __future__ import annotations
 
 import argparse
+import errno
 import json
+import os
 import sys
 from pathlib import Path
 
-from .errors import ScenarioError
-from .scenario import load_scenario
-from .units import to_display, unit_label
+from .errors import ScenarioError, shown
 
 
 def _fmt(value_si, kind, system, digits=1):
+    from .units import to_display, unit_label
     if value_si is None:
         return "n/a"
     return f"{to_display(value_si, kind, system):.{digits}f} {unit_label(kind, system)}"
 
 
 def _temp(celsius, system):
-    return "n/a" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
+    return "beyond the model's range" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
 
 
 def summary_text(result: dict) -> str:
@@ -29,14 +36,19 @@ def summary_text(result: dict) -> str:
              f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
              f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
              f"end {_temp(result['end_C'], u)}",
-             f"  return line peak {_temp(result['peak_return_C'], u)}",
+             f"  return line peak {_temp(result['peak_return_C'], u)}"
+             + (f" (limit {_temp(result['return_line_limit_C'], u)})" if result.get("return_line_limit_C") is not None else ""),
              "  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
                                       else f"{result['time_to_limit_s'] / 60:.1f} min"),
              f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
              f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
              f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
              f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
-             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in"]
+             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in",
+             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at 60 degC "
+             "(rate doubling per 10 K; common practice, a relative figure)",
+             f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
+             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3)})"]
     if "runs_before_limit" in result:
         runs = result["runs_before_limit"]
         lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
@@ -50,13 +62,49 @@ def summary_text(result: dict) -> str:
                                                       else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
                   "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
+        if result.get("runs_stopped_by") == "return_line":
+            lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
+        from .band_text import summary_lines
+        lines += summary_lines(result)
+        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)
 
 
+def check_outputs(args, inputs: tuple, outputs: tuple) -> None:
+    """Before any work: every output path (the options named in `outputs`) must be in an existing
+    folder, not a folder itself, not one of the input files (`inputs`, option names) and not
+    another output. Raises ScenarioError naming the option."""
+    seen = {}
+    for name in inputs:
+        path = Path(getattr(args, name))
+        if path.exists():
+            seen[path.resolve()] = name
+    for option in outputs:
+        value = getattr(args, option, None)
+        if not value:
+            continue
+        path = Path(value)
+        flag = "--" + option.replace("_", "-")
+        if not path.parent.is_dir():
+            raise ScenarioError(flag, value, f"a file in an existing folder ({path.parent} does not exist)")
+        if path.is_dir():
+            raise ScenarioError(flag, value, "a file name, not a folder")
+        resolved = path.resolve()
+        if resolved in seen:
+            raise ScenarioError(flag, value, f"a new file name, not the {seen[resolved]} file it would overwrite")
+        seen[resolved] = flag
+
+
+def _load(path):
+    from .scenario import load_scenario
+    return load_scenario(path)
+
+
 def _run(args) -> int:
     from .report import report, simulate, trace_csv
-    scenario = load_scenario(args.scenario)
+    check_outputs(args, ("scenario",), ("csv", "plot"))
+    scenario = _load(args.scenario)
     trace = simulate(scenario)
     result = report(scenario, trace)
     if args.csv:
@@ -64,16 +112,43 @@ def _run(args) -> int:
     if args.plot:
         from .plots import plot_trace
         plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
-    print(json.dumps(result, indent=2) if args.json else summary_text(result))
+    hot = None
+    if args.ambients is not None:
+        from .hot_day import hot_day
+        hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients) + 273.15)
+        result["hot_day"] = hot.to_dict()
+    if args.json:
+        from .report import check_finite
+        check_finite(result)
+        print(json.dumps(result, indent=2, allow_nan=False))
+    else:
+        print(summary_text(result))
+        if hot is not None:
+            print("  hot day (start temperature moved with the air):\n" + hot.summary_text(scenario.units))
     return 0
+
+
+def _ambients(text: str):
+    """--ambients START:STOP:N in degC (negative allowed)."""
+    import numpy as np
+    parts = text.split(":")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+        if len(parts) != 3 or not 1 <= count <= 200 or not -60 <= start <= stop <= 150:
+            raise ValueError
+    except (ValueError, IndexError):
+        raise ScenarioError("--ambients", text, "START:STOP:N in degC, -60 <= START <= STOP <= 150, 1 <= N <= 200") from None
+    return np.linspace(start, stop, count)
 
 
 def _grid(text: str, option: str):
     import numpy as np
     parts = text.split(":")
     try:
+        if len(text) > 60 or len(parts) != 3:
+            raise ValueError
         start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
-        if len(parts) != 3 or count < 1 or start < 0 or stop < start:
+        if not (np.isfinite(start) and np.isfinite(stop)) or count < 1 or start < 0 or stop < start:
             raise ValueError
     except (ValueError, IndexError):
         raise ScenarioError(option, text, "START:STOP:N with 0 <= START <= STOP and N >= 1") from None
@@ -81,24 +156,26 @@ def _grid(text: str, option: str):
 
 
 def _sweep(args) -> int:
-    from .design_sweep import sweep
-    scenario = load_scenario(args.scenario)
+    from .design_sweep import check_grid, sweep
+    check_outputs(args, ("scenario",), ("plot",))
+    scenario = _load(args.scenario)
     volumes = _grid(args.oil_volumes, "--oil-volumes")
-    if volumes[0] <= 0:
-        raise ScenarioError("--oil-volumes", args.oil_volumes, "oil volumes above 0 L")
-    result = sweep(scenario, volumes, _grid(args.coolers, "--coolers"))
+    coolers = _grid(args.coolers, "--coolers")
+    check_grid(volumes, coolers, ("--oil-volumes", args.oil_volumes), ("--coolers", args.coolers))
+    result = sweep(scenario, volumes, coolers)
     if args.plot:
         from .plots import plot_design_chart
         plot_design_chart(scenario, result).savefig(args.plot, dpi=120, bbox_inches="tight")
     if args.json:
         print(json.dumps(result.to_dict(), indent=2))
     else:
-        print(result.summary_text())
+        print(result.summary_text(scenario.units))
     return 0
 
 
 def _fit(args) -> int:
-    from .calibrate import fit_command
+    from .fit_text import fit_command
+    check_outputs(args, ("scenario", "log"), ("write", "plot"))
     return fit_command(args)
 
 
@@ -108,7 +185,8 @@ def _watch(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget",
+    command = Path(sys.argv[0]).name
+    parser = argparse.ArgumentParser(prog=command if command == "thermo-budget" else "python -m thermo_budget",
                                      description="Oil temperature budget of an uncooled hydraulic engine brake.")
     sub = parser.add_subparsers(dest="command", required=True)
     run = sub.add_parser("run", help="simulate a scenario's planned session and answer the planning questions")
@@ -116,6 +194,9 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--json", action="store_true", help="print the full result as JSON (SI, degC)")
     run.add_argument("--csv", metavar="TRACE.csv", help="write the temperature trace")
     run.add_argument("--plot", metavar="TRACE.png", help="plot the temperatures against time")
+    run.add_argument("--ambients", nargs="?", const="default", metavar="START:STOP:N",
+                     help="also the pull count and cooler needed across ambient temperatures (degC); "
+                          "without a value 0:45 degC in steps of 5 K, or the scenario's ambient +/- 15 K")
     run.set_defaults(handler=_run)
     sw = sub.add_parser("sweep", help="pulls before the limit over a grid of oil volumes and cooler sizes")
     sw.add_argument("scenario")
@@ -132,6 +213,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--write", metavar="CALIBRATED.toml")
     fit.add_argument("--plot", metavar="FIT.png")
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
+    fit.add_argument("--strict", action="store_true",
+                     help="refuse a log that looks implausible (another unit, or far from the start temperature)")
     fit.set_defaults(handler=_fit)
     watch = sub.add_parser("watch", help="follow a logger's file live: the state of every node and when the next pull may start")
     watch.add_argument("scenario")
@@ -150,11 +233,41 @@ def main(argv=None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exit_:
         return int(exit_.code or 0)
+    return run_guarded(args.handler, args)
+
+
+def run_guarded(handler, args) -> int:
+    """Run one subcommand and turn its end into an exit code: 2 with one line for bad input, 1 with
+    one line for a full disk, 1 and nothing more when the reader of stdout has gone away."""
     try:
-        return args.handler(args)
+        code = handler(args)
+        sys.stdout.flush()
+        return code
     except ScenarioError as error:
         print(f"error: {error}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        _stdout_to_devnull()
+        return 1
     except OSError as error:
-        print(f"error: {error.filename or ''}: {error.strerror}", file=sys.stderr)
+        where = f" {shown(error.filename)}" if error.filename else ""
+        if error.errno in (errno.ENOSPC, errno.EDQUOT):
+            _stdout_to_devnull()
+            print(f"error: no space left on the device to write{where or ' the output'}", file=sys.stderr)
+            return 1
+        print(f"error:{where} {error.strerror or error}", file=sys.stderr)
         return 2
+
+
+def _stdout_to_devnull():
+    """Point stdout at /dev/null, so that Python's own flush at exit does not fail a second time."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+
+
+def console_main() -> None:
+    """The `thermo-budget` command that `pip install .` puts on the path."""
+    sys.exit(main())

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import state_estimate as se
-from .calibrate import _log_pieces, _reference_steps
+from .log_model import _log_pieces, _reference_steps
 from .errors import ScenarioError
 from .live_forecast import Forecast, forecast
 from .log_follower import LogFollower
@@ -318,12 +318,21 @@ def record_text(record: Record, system: str) -> str:
 
 def watch_command(args) -> int:
     """`python -m thermo_budget watch SCENARIO LOG.csv [--sensor] [--once] [--json] [--interval]`."""
+    from .scenario import load_scenario
+    if not args.interval > 0:
+        raise ScenarioError("--interval", args.interval, "a poll interval above 0 s")
+    scenario = load_scenario(args.scenario)
+    watch = LiveWatch(scenario, args.log, sensor=args.sensor)
+    try:
+        return _follow(watch, scenario, args)
+    except KeyboardInterrupt:       # Ctrl-C ends a watch; it is not an error
+        return 0
+
+
+def _follow(watch: LiveWatch, scenario, args) -> int:
     import json
     import sys
     import time
-    from .scenario import load_scenario
-    scenario = load_scenario(args.scenario)
-    watch = LiveWatch(scenario, args.log, sensor=args.sensor)
 
     def say(messages):
         for message in messages:
@@ -336,7 +345,9 @@ def watch_command(args) -> int:
             print(json.dumps(record.to_dict()) if args.json else record_text(record, scenario.units), flush=True)
         if args.once:
             if record is None:
-                raise ScenarioError("log", str(args.log), "a log with at least one oil reading")
+                from pathlib import Path
+                expected = "a log with at least one oil reading" if Path(args.log).exists() else "an existing CSV file"
+                raise ScenarioError("log", str(args.log), expected)
             if watch.follower.poll().pending_bytes:
                 say(["the last line has no line end yet; it was left out"])
             return 0

@@ -1,15 +1,31 @@
 """The answers for one scenario, as the dict that `run --json` prints."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
+from .errors import ScenarioError
 from .network import HARDWARE, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
-from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
+from .headroom import headroom_at
+from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
+from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
+from .units import to_display, unit_label
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
+# Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
+# 2 cSt. Past the lower of the two the model's temperatures are not shown as answers.
+CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + 273.15
+D341_MIN_CST = 2.0
+BEYOND_RANGE_KEYS = ("peak_C", "end_C", "end_wall_C", "end_hardware_C", "peak_return_C")
+
+
+def model_range_max_K(scenario: Scenario) -> float:
+    """The highest bulk oil temperature at which the model's oil data hold, K."""
+    return min(CRAGOE_MAX_K, scenario.oil.temperature_at_viscosity_K(D341_MIN_CST))
 
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
@@ -41,7 +57,8 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     rig = build_rig(scenario)
     limit, reason = limit_K(scenario)
-    crossing = float(first_crossing_s(trace, limit)[0])
+    return_limit = scenario.return_line_max_temperature_K
+    crossing = float(first_crossing_s(trace, limit, return_limit)[0])
     energy_in = float(trace.energy_in_J[0])
     lost, stored = float(trace.energy_lost_J[0]), float(trace.energy_stored_J[0])
     capacities = heat_capacities_J_K(rig, np.full((1, 3), scenario.start_K))[0]
@@ -61,7 +78,9 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "end_hardware_C": _celsius(trace.T_K[-1, 0, HARDWARE]),
         "peak_return_C": _celsius(trace.return_K[:, 0].max()),
         "pulls_planned": int(trace.pull_end_s.shape[0]),
-        "pulls_under_limit": int(pulls_completed_under(trace, limit)[0]),
+        "return_line_limit_C": None if return_limit is None else _celsius(return_limit),
+        "pulls_under_limit": int(pulls_completed_under(trace, limit, return_limit)[0]),
+        "session_stopped_by": limit_crossed_first(trace, limit, return_limit)[0],
         "time_to_limit_s": None if np.isnan(crossing) else round(crossing, 2),
         "session_duration_s": round(float(trace.time_s[-1, 0]), 2),
         "energy_in_J": energy_in,
@@ -72,9 +91,95 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
         "peak_pull_power_W": pump["peak_pull_power_W"],
         "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
+        "oil_ageing_equivalent_h": round(ageing_equivalent_h(trace.time_s[:, 0], trace.T_K[:, 0, OIL]), 4),
+        "oil_ageing_reference_C": AGEING_REFERENCE_C,
+        "oil_ageing_rule": AGEING_RULE,
+        **_headroom_answers(scenario, limit, float(peak_oil_K(trace)[0])),
+        "flash_point_C": _celsius(scenario.flash_point_K),
+        "flash_point_given": scenario.flash_point_given,
         "oil": {"viscosity_40C_cSt": round(scenario.oil.nu40_cSt, 3), "viscosity_100C_cSt": round(scenario.oil.nu100_cSt, 3),
                 "viscosity_index": round(scenario.oil.viscosity_index, 1)},
+        "beyond_model_range": False,
     }
+
+
+def _headroom_answers(scenario: Scenario, limit: float, peak: float) -> dict:
+    at_limit = headroom_at(scenario, limit)
+    at_peak = headroom_at(scenario, max(peak, scenario.start_K))
+    return {"oil_level_at_limit_m": round(at_limit.oil_level_m, 5), "tank_height_m": round(at_limit.tank_height_m, 5),
+            "headroom_at_limit_m": round(at_limit.headroom_m, 5),
+            "headroom_at_limit_L": round(at_limit.headroom_m3 * 1000.0, 4),
+            "headroom_at_peak_L": round(at_peak.headroom_m3 * 1000.0, 4)}
+
+
+def runs_stopped_by(scenario: Scenario, runs: int | None) -> str | None:
+    """Which limit ends the repeated cycle's count of `runs` pulls: "bulk" or "return_line" (None
+    where no limit is reached). Without a return-line limit, always the bulk one."""
+    if runs is None:
+        return None
+    if scenario.return_line_max_temperature_K is None:
+        return "bulk"
+    from .session import PLAN_RESOLUTION
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    cycles = -(-(runs + 1) // per_cycle)
+    trace = integrate(build_rig(scenario), list(scenario.cycle) * cycles, scenario.start_K, resolution=PLAN_RESOLUTION)
+    limit, _ = limit_K(scenario)
+    return limit_crossed_first(trace, limit, scenario.return_line_max_temperature_K)[0]
+
+
+def cautions(scenario: Scenario, result: dict) -> list[str]:
+    """Plain-words warnings where the predicted oil is hotter than a rig should see."""
+    found = []
+    peak, peak_return, flash = result["peak_C"], result["peak_return_C"], result["flash_point_C"]
+    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
+    if peak_return >= flash or peak >= flash:
+        found.append(f"The oil passes its flash point: the return line peaks at {peak_return:.1f} degC against a "
+                     f"flash point of {flash:.1f} degC ({where}). Oil mist can ignite. Do not run this session.")
+    elif peak > 100.0:
+        found.append(f"The bulk oil peaks at {peak:.1f} degC, above 100 degC: past what mineral hydraulic oil, "
+                     "its seals and hoses are usually rated for, water in it boils and it ages fast. Check the "
+                     "inputs; if they are right, do not run this session without a cooler or more oil.")
+    elif peak_return >= flash - 30.0:
+        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, less than 30 K below the flash point "
+                     f"({flash:.1f} degC, {where}).")
+    if result["headroom_at_peak_L"] <= 0.0:
+        found.append("The hot oil overfills the tank at the predicted peak.")
+    return found
+
+
+def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> None:
+    """Where the bulk oil passes the range of the oil data, the session's temperatures become None
+    and a caution (first of the cautions, in place of those that quote the peak) says why, in place
+    of numbers that would look real."""
+    ceiling = model_range_max_K(scenario)
+    if float(peak_oil_K(trace)[0]) <= ceiling and np.all(np.isfinite(trace.T_K)):
+        return
+    def temp(T_K):
+        return f"{to_display(T_K, 'temperature', scenario.units):.0f} {unit_label('temperature', scenario.units)}"
+    shown, limit = temp(ceiling), limit_K(scenario)[0]
+    result.update({key: None for key in BEYOND_RANGE_KEYS}, beyond_model_range=True)
+    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
+    hottest = max(float(peak_oil_K(trace)[0]), float(np.nanmax(trace.return_K[:, 0])))
+    flash = (f" and past its flash point ({temp(scenario.flash_point_K)}, {where}): oil mist can ignite"
+             if hottest >= scenario.flash_point_K else "")
+    caution = (f"In the planned session the bulk oil would pass {shown}, beyond the range where the model's "
+               f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures "
+               f"are not given. It is far past the fluid limit ({temp(limit)}){flash} long before that: do not "
+               f"run this session.")
+    others = [c for c in result.get("cautions", []) if "peaks at" not in c and "flash point" not in c]
+    result["cautions"] = [caution] + others
+
+
+def check_finite(result, path: str = "") -> None:
+    """Every number in a result (nested dicts and lists) is finite, or ScenarioError names it."""
+    items = result.items() if isinstance(result, dict) else enumerate(result) if isinstance(result, list) else ()
+    for key, value in items:
+        where = f"{path}.{key}" if path and isinstance(key, str) else f"{path}[{key}]" if path else str(key)
+        if isinstance(value, float) and not math.isfinite(value):
+            raise ScenarioError("scenario", f"{where} = {value}",
+                                "inputs for which every answer is finite (one of the values above gave a "
+                                f"non-finite {where}; check its units)")
+        check_finite(value, where)
 
 
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:
@@ -84,6 +189,17 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
+    result["runs_stopped_by"] = runs_stopped_by(scenario, result["runs_before_limit"])
+    if result["min_oil_volume_L"] is not None:
+        smallest = headroom_at(scenario, limit_K(scenario)[0], result["min_oil_volume_L"] / 1000.0)
+        result["min_oil_volume_headroom_L"] = round(smallest.headroom_m3 * 1000.0, 4)
+    else:
+        result["min_oil_volume_headroom_L"] = None
+    result["cautions"] = cautions(scenario, result)
+    from .bands import band_report
+    result.update(band_report(scenario, result))
+    _caution_beyond_range(scenario, trace, result)
+    check_finite(result)
     return result
 
 

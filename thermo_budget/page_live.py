@@ -128,7 +128,7 @@ def show_record(record, system: str):
                 f"{ready_text(record).capitalize()}</div>", unsafe_allow_html=True)
     left = record.forecast.pulls_left
     columns = st.columns(2 + len(NODE_NAMES))
-    columns[0].metric("Pulls left at the planned cadence", "all day" if left is None else str(left))
+    columns[0].metric("Pulls left", "all day" if left is None else str(left), help="at the planned cadence, from now")
     columns[1].metric("Oil, measured", "no reading" if record.oil_K is None else temperature(record.oil_K),
                       help="pulling" if record.in_pull else "waiting")
     for column, name, T, sd in zip(columns[2:], NODE_NAMES, record.estimate_K, record.estimate_sd_K):

@@ -71,6 +71,12 @@ class Estimate:
         return float(self.state[len(NODE_NAMES)])
 
     @property
+    def established_disturbance_W(self) -> float:
+        """The unmodelled heat flow into the oil less one standard deviation, at least 0: a flow the
+        log has shown, not one within its noise."""
+        return max(self.disturbance_W - float(np.sqrt(max(self.cov[-1, -1], 0.0))), 0.0)
+
+    @property
     def sd_K(self) -> np.ndarray:
         return np.sqrt(np.maximum(np.diag(self.cov), 0.0))[:len(NODE_NAMES)]
 

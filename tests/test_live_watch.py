@@ -50,8 +50,9 @@ def follow(watch, path, lines, rows, every=6, partial_at=None):
 def truth_forecast(scenario, day, i, next_index, since_pull_end_s):
     rig = build_rig(scenario)
     limit, _ = limit_K(scenario)
+    confidence = scenario.uncertainty.confidence if scenario.uncertainty.spreads else None
     return forecast(scenario, rig, limit, day.state_K[i], float(day.time_s[i]), next_index, False,
-                    since_pull_end_s=since_pull_end_s)
+                    since_pull_end_s=since_pull_end_s, confidence=confidence)
 
 
 def rows_until(day, t_s):
@@ -205,7 +206,9 @@ def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_stat
         "session.start_temperature": f"{estimate['oil']} degC", "ambient": "17.5 degC"})
     answers = report(scenario)
     assert record["wait_s"] == answers["schedule"][0]["extra_wait_s"] == 0.0
-    assert abs(record["pulls_left"] - answers["runs_before_limit"]) <= 1
+    # the watch gives its answers at the scenario's confidence (0.9 here), as run's plan does
+    assert answers["confidence"] == 0.9
+    assert abs(record["pulls_left"] - answers["plan_at_confidence"]["runs_before_limit"]) <= 1
     assert record["in_pull"] is False and record["alarm"] is None
 
 

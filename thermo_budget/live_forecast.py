@@ -25,6 +25,7 @@ from .scenario import Scenario
 from .session import Resolution, Step
 from .solver import integrate
 from .state_estimate import transition_matrix
+from .uncertainty import factor_values, sample_rig, standard_normals
 
 LIVE_MAX_PULLS = 200          # pulls_left counts this far; beyond, the cadence is taken as all-day
 PULL_HORIZON_S = 600.0        # a running pull is followed this far past its planned end for seconds_to_limit
@@ -34,6 +35,7 @@ OFF = Step(kind="wait", duration_s=1.0, engine="off")
 # An unmodelled heat flow is taken to act over at most this much of the wait before the next pull
 # (engineering judgement: a missing mass gives back the heat it holds within minutes, not all day).
 DISTURBANCE_HORIZON_S = 600.0
+CONFIDENCE_SAMPLES = 32       # rigs drawn from the scenario's [uncertainty] for the answers at its confidence
 
 
 @dataclass(frozen=True)
@@ -126,15 +128,60 @@ def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, coo
     return None if np.isnan(extra) else extra
 
 
+def sampled_rigs(scenario: Scenario, rig: Rig, n: int = CONFIDENCE_SAMPLES) -> Rig | None:
+    """n rigs (one design each) drawn from the scenario's uncertainty model about `rig`, the same
+    scrambled Sobol points as the planning band; None when the band is off."""
+    model = scenario.uncertainty
+    if not model.spreads:
+        return None
+    return sample_rig(rig, factor_values(model, standard_normals(model, n)))
+
+
+def ready_extra_at_confidence_s(scenario: Scenario, rigs: Rig, n: int, X_K, pull: Step, cool: Step,
+                                limit_K: float, confidence: float) -> float | None:
+    """The shortest wait after which `pull` ends under the limit in at least a fraction `confidence`
+    of the n sampled rigs, all from the estimated state X_K: the planning search, each candidate run
+    for every sample in one batch."""
+    X = np.asarray(X_K, dtype=float)[None, :]
+
+    def passes(extras):
+        c = extras.size
+        index = np.tile(np.arange(n), c)
+        trace = integrate(take_designs(rigs, index), [cool, pull], np.repeat(X, c * n, axis=0), n_designs=c * n,
+                          durations_s=[np.repeat(extras, n), pull.duration_s], resolution=CADENCE_RESOLUTION)
+        under = (trace.T_K[:, :, OIL].max(axis=0) <= limit_K - SEARCH_MARGIN_K).reshape(c, n)
+        return under.mean(axis=1) >= confidence - 1e-9
+
+    longest = 8.0 * time_constant_s(scenario)
+    extra = batched_threshold(passes, 1.0, longest if np.isfinite(longest) else 1e6, floor=0.0)
+    return None if np.isnan(extra) else extra
+
+
+def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: float, X_K, next_index: int,
+                             rest_of_wait: list[Step], confidence: float, max_pulls: int = LIVE_MAX_PULLS):
+    """The pull count that at least a fraction `confidence` of the sampled rigs reach (the lower
+    quantile of their counts); None when that many go beyond max_pulls."""
+    steps = rest_of_wait + cadence_steps(scenario, next_index, max_pulls)
+    trace = integrate(rigs, steps, np.repeat(np.asarray(X_K, dtype=float)[None, :], n, axis=0), n_designs=n,
+                      resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
+    counts = np.sort(pulls_completed_under(trace, limit_K).astype(float))
+    counts[counts >= max_pulls] = np.inf
+    value = counts[max(int(np.floor((1.0 - confidence) * n + 1e-9)) - 1, 0)] if confidence < 1 else counts[0]
+    return None if not np.isfinite(value) else int(value)
+
+
 def forecast(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, now_s: float, next_index: int,
              in_pull: bool, pull_elapsed_s: float = 0.0, since_pull_end_s: float = 0.0,
-             disturbance_W: float = 0.0) -> Forecast:
+             disturbance_W: float = 0.0, confidence: float | None = None) -> Forecast:
     """The forecast from the estimated state X_K (n,) K at log time now_s.
 
     next_index : the cadence's index of the next pull to start (pulls already started in the log).
     in_pull : a pull runs now, started pull_elapsed_s ago (it is pull next_index - 1). Otherwise
     the last pull ended since_pull_end_s ago (or the log started then).
     disturbance_W : the estimate's unmodelled heat flow into the oil (see the module's docstring).
+    confidence : None for the scenario's model as written; else the ready time and the pulls left
+    hold in that fraction of rigs drawn from the scenario's [uncertainty] (the later ready time and
+    the smaller count of the two answers are given).
     """
     X = np.asarray(X_K, dtype=float)
     t = now_s
@@ -161,6 +208,14 @@ def forecast(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, now_
     planned_rest = max(sum(w.duration_s for w in waits) - since_pull_end_s, 0.0)
     rest_of_wait = [cool.with_duration(planned_rest)] if planned_rest > 0 else []
     left, cadence = pulls_left(scenario, rig, limit_K, X, next_index, rest_of_wait)
+    rigs = None if confidence is None else sampled_rigs(scenario, rig)
+    if rigs is not None:
+        sure = ready_extra_at_confidence_s(scenario, rigs, CONFIDENCE_SAMPLES, X, pull, cool, limit_K, confidence)
+        extra = None if extra is None or sure is None else max(extra, sure)
+        ready = None if extra is None else t + extra
+        sure_left = pulls_left_at_confidence(scenario, rigs, CONFIDENCE_SAMPLES, limit_K, X, next_index,
+                                             rest_of_wait, confidence)
+        left = sure_left if left is None else (left if sure_left is None else min(left, sure_left))
     if ready is not None:
         steps = ([cool.with_duration(extra)] if extra > 0 else []) + cadence_steps(scenario, next_index, 3)
         shown = _run(rig, steps, X, t, CADENCE_RESOLUTION)

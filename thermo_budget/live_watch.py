@@ -66,6 +66,8 @@ class LiveWatch:
         self.scenario, self.sensor, self.path = scenario, sensor, path
         self.base_rig = build_rig(scenario)
         self.limit_K, _ = limit_K(scenario)
+        # The ready time and the pulls left at the scenario's confidence, where its band is on.
+        self.confidence = scenario.uncertainty.confidence if scenario.uncertainty.spreads else None
         self.follower = LogFollower(path)
         self.messages: list[str] = []
         self._said: set = set()
@@ -237,7 +239,7 @@ class LiveWatch:
         result = forecast(self.scenario, self.rig, self.limit_K, X, now, self.pulls_started, self.in_pull,
                           pull_elapsed_s=now - self.pull_start_s,
                           since_pull_end_s=now - (self.pull_end_s if self.pulls_started else float(log.time_s[0])),
-                          disturbance_W=self.estimate.established_disturbance_W)
+                          disturbance_W=self.estimate.established_disturbance_W, confidence=self.confidence)
         latest = float(log.oil_K[-1])
         return Record(time_s=now, oil_K=latest if np.isfinite(latest) else None, estimate_K=X.copy(),
                       estimate_sd_K=self.estimate.sd_K, in_pull=self.in_pull, forecast=result,

@@ -35,6 +35,7 @@ OFF = Step(kind="wait", duration_s=1.0, engine="off")
 # An unmodelled heat flow is taken to act over at most this much of the wait before the next pull
 # (engineering judgement: a missing mass gives back the heat it holds within minutes, not all day).
 DISTURBANCE_HORIZON_S = 600.0
+SHOWN_PULLS = 3               # pulls of the forecast path drawn after the ready time
 CONFIDENCE_SAMPLES = 32       # rigs drawn from the scenario's [uncertainty] for the answers at its confidence
 
 
@@ -217,7 +218,7 @@ def forecast(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, now_
                                              rest_of_wait, confidence)
         left = sure_left if left is None else (left if sure_left is None else min(left, sure_left))
     if ready is not None:
-        steps = ([cool.with_duration(extra)] if extra > 0 else []) + cadence_steps(scenario, next_index, 3)
+        steps = ([cool.with_duration(extra)] if extra > 0 else []) + cadence_steps(scenario, next_index, SHOWN_PULLS)
         shown = _run(rig, steps, X, t, CADENCE_RESOLUTION)
     else:
         shown = cadence.designs([0])

@@ -86,9 +86,6 @@ class Estimate:
         explains the log as well as the noise allows)."""
         return max(1.0, float(np.mean(self.recent_nis))) if self.recent_nis else 1.0
 
-    def as_celsius(self) -> dict:
-        return {name: round(float(T) - 273.15, 3) for name, T in zip(NODE_NAMES, self.mean_K)}
-
 
 def initial_estimate(time_s: float, oil_K: float, sd_K: float = INITIAL_SD_K) -> Estimate:
     """Every node at the first oil reading; the oil known to the sensor's noise, the others to sd_K."""

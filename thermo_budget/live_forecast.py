@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .network import OIL, Rig
+from .bands import _order_statistic
 from .outcome import first_crossing_s, pulls_completed_under
 from .planning import SEARCH_MARGIN_K, _extra_wait_s, batched_threshold, take_designs, time_constant_s
 from .scenario import Scenario
@@ -104,25 +105,34 @@ def pulls_left(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, ne
 
 
 def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, cool: Step, limit_K: float,
-                  disturbance_W: float = 0.0) -> float | None:
+                  disturbance_W: float = 0.0, rigs: Rig | None = None, n: int = 1,
+                  confidence: float = 1.0) -> float | None:
     """Wait (s) in the `cool` engine state before `pull` so that it ends under the limit, from state
-    X_K (n,). With no added heat flow this is the planning search itself; with one, the same
-    batched search with the oil's response to it added to each candidate's peak."""
+    X_K (k,). With no added heat flow and no samples this is the planning search itself. Otherwise
+    the same batched search, each candidate run for each of the n sampled `rigs` (or `rig` alone),
+    passing when a fraction `confidence` of them end under the limit with the oil's linear response
+    to `disturbance_W` (from `rig`) added to their peaks."""
     X = np.asarray(X_K, dtype=float)[None, :]
-    if disturbance_W <= 0.0:
+    if disturbance_W <= 0.0 and rigs is None:
         return _extra_wait_s(scenario, rig, X, pull, cool, limit_K)
-    n = X.shape[1]
+    rigs, k = (rig, 1) if rigs is None else (rigs, n)
+    nodes = X.shape[1]
     pulled = transition_matrix(rig, X[0], X[0], pull)
 
+    def rise_K(extra: float) -> float:
+        """The oil's response at the pull's end to the heat flow over the wait (its last
+        DISTURBANCE_HORIZON_S at most) and the pull."""
+        waited = transition_matrix(rig, X[0], X[0], cool.with_duration(min(extra, DISTURBANCE_HORIZON_S)))
+        return float((pulled[:nodes, :nodes] @ waited[:nodes, nodes] + pulled[:nodes, nodes])[OIL]) * disturbance_W
+
     def passes(extras):
-        trace = integrate(take_designs(rig, np.zeros(extras.size, int)), [cool, pull], np.repeat(X, extras.size, axis=0),
-                          n_designs=extras.size, durations_s=[extras, pull.duration_s], resolution=CADENCE_RESOLUTION)
-        rise = np.empty(extras.size)
-        for i, extra in enumerate(extras):
-            waited = transition_matrix(rig, X[0], X[0], cool.with_duration(min(float(extra), DISTURBANCE_HORIZON_S)))
-            rise[i] = (pulled[:n, :n] @ waited[:n, n] + pulled[:n, n])[OIL] * disturbance_W
-        peak = trace.T_K[:, :, OIL].max(axis=0) + rise
-        return peak <= limit_K - SEARCH_MARGIN_K
+        c = extras.size
+        trace = integrate(take_designs(rigs, np.tile(np.arange(k), c)), [cool, pull], np.repeat(X, c * k, axis=0),
+                          n_designs=c * k, durations_s=[np.repeat(extras, k), pull.duration_s],
+                          resolution=CADENCE_RESOLUTION)
+        rise = np.array([rise_K(float(e)) for e in extras]) if disturbance_W > 0 else np.zeros(c)
+        peak = trace.T_K[:, :, OIL].max(axis=0).reshape(c, k) + rise[:, None]
+        return (peak <= limit_K - SEARCH_MARGIN_K).mean(axis=1) >= confidence - 1e-9
 
     longest = 8.0 * time_constant_s(scenario)
     extra = batched_threshold(passes, 1.0, longest if np.isfinite(longest) else 1e6, floor=0.0)
@@ -138,26 +148,6 @@ def sampled_rigs(scenario: Scenario, rig: Rig, n: int = CONFIDENCE_SAMPLES) -> R
     return sample_rig(rig, factor_values(model, standard_normals(model, n)))
 
 
-def ready_extra_at_confidence_s(scenario: Scenario, rigs: Rig, n: int, X_K, pull: Step, cool: Step,
-                                limit_K: float, confidence: float) -> float | None:
-    """The shortest wait after which `pull` ends under the limit in at least a fraction `confidence`
-    of the n sampled rigs, all from the estimated state X_K: the planning search, each candidate run
-    for every sample in one batch."""
-    X = np.asarray(X_K, dtype=float)[None, :]
-
-    def passes(extras):
-        c = extras.size
-        index = np.tile(np.arange(n), c)
-        trace = integrate(take_designs(rigs, index), [cool, pull], np.repeat(X, c * n, axis=0), n_designs=c * n,
-                          durations_s=[np.repeat(extras, n), pull.duration_s], resolution=CADENCE_RESOLUTION)
-        under = (trace.T_K[:, :, OIL].max(axis=0) <= limit_K - SEARCH_MARGIN_K).reshape(c, n)
-        return under.mean(axis=1) >= confidence - 1e-9
-
-    longest = 8.0 * time_constant_s(scenario)
-    extra = batched_threshold(passes, 1.0, longest if np.isfinite(longest) else 1e6, floor=0.0)
-    return None if np.isnan(extra) else extra
-
-
 def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: float, X_K, next_index: int,
                              rest_of_wait: list[Step], confidence: float, max_pulls: int = LIVE_MAX_PULLS):
     """The pull count that at least a fraction `confidence` of the sampled rigs reach (the lower
@@ -165,9 +155,9 @@ def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: flo
     steps = rest_of_wait + cadence_steps(scenario, next_index, max_pulls)
     trace = integrate(rigs, steps, np.repeat(np.asarray(X_K, dtype=float)[None, :], n, axis=0), n_designs=n,
                       resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
-    counts = np.sort(pulls_completed_under(trace, limit_K).astype(float))
+    counts = pulls_completed_under(trace, limit_K).astype(float)
     counts[counts >= max_pulls] = np.inf
-    value = counts[max(int(np.floor((1.0 - confidence) * n + 1e-9)) - 1, 0)] if confidence < 1 else counts[0]
+    value = _order_statistic(counts, 1.0 - confidence)      # as the planning band reads its quantiles
     return None if not np.isfinite(value) else int(value)
 
 
@@ -211,7 +201,7 @@ def forecast(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, now_
     left, cadence = pulls_left(scenario, rig, limit_K, X, next_index, rest_of_wait)
     rigs = None if confidence is None else sampled_rigs(scenario, rig)
     if rigs is not None:
-        sure = ready_extra_at_confidence_s(scenario, rigs, CONFIDENCE_SAMPLES, X, pull, cool, limit_K, confidence)
+        sure = ready_extra_s(scenario, rig, X, pull, cool, limit_K, disturbance_W, rigs, CONFIDENCE_SAMPLES, confidence)
         extra = None if extra is None or sure is None else max(extra, sure)
         ready = None if extra is None else t + extra
         sure_left = pulls_left_at_confidence(scenario, rigs, CONFIDENCE_SAMPLES, limit_K, X, next_index,

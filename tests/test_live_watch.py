@@ -224,3 +224,17 @@ def test_watch_once_text_and_bad_inputs(tmp_path, capsys):
     assert main(["watch", str(SCENARIO_DIR / "default.toml"), str(bad), "--once"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error: ") and "time_s" in err and "Traceback" not in err
+
+
+def test_a_return_line_sensor_is_read_with_the_return_rise(tmp_path):
+    """The trace CSV of `run` read by its return_C column: the estimate of the bulk oil comes out
+    at the bulk, not at the hotter return line."""
+    from thermo_budget.report import simulate, trace_csv
+    scenario = hot_start_scenario(**{"session.repeat": 2})
+    trace = simulate(scenario)
+    path = tmp_path / "trace.csv"
+    path.write_text(trace_csv(trace))
+    watch = LiveWatch(scenario, path, sensor="return")
+    record = watch.update()
+    assert abs(record.estimate_K[OIL] - trace.T_K[-1, 0, OIL]) < 0.3
+    assert record.oil_K == pytest.approx(trace.return_K[-1, 0], abs=1e-3)

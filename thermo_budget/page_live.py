@@ -12,7 +12,6 @@ import os
 import sys
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 import streamlit as st
 
@@ -143,4 +142,4 @@ def show_record(record, system: str):
     st.line_chart(frame.interpolate(limit_area="inside") if len(frame) > 1 else frame,
                   x_label="log time (min)", y_label=f"oil ({unit})")
     st.caption(f"Log time {record.time_s / 60:.1f} min. The forecast runs the planned pulls from the estimated "
-               f"state, the next one at its ready time. " + ("" if np.all(np.isfinite(record.estimate_K)) else ""))
+               "state, the next one at its ready time.")

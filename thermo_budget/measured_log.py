@@ -31,6 +31,7 @@ from .units import convert
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
 MAX_CELL_CHARS = 1_000
+MAX_POWER_W = 1e6          # the plausible range of a pull's power (scenario_table.KEYS)
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
@@ -172,10 +173,10 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
     pull = np.array(values["pull"]) if "pull" in columns else None
     line_numbers = [n for n, _ in times]
     if power_W is not None:
-        bad = np.nonzero(power_W < 0)[0]
+        bad = np.nonzero((power_W < 0) | (power_W > MAX_POWER_W))[0]
         if bad.size:
             raise ScenarioError(f"{source} line {line_numbers[bad[0]]}, column {columns['power'][0]}",
-                                float(power_W[bad[0]]), "an absorbed power of zero or more, W")
+                                float(power_W[bad[0]]), f"an absorbed power from 0 to {MAX_POWER_W:g} W")
     if pull is not None:
         bad = np.nonzero(np.isfinite(pull) & (pull != 0) & (pull != 1))[0]
         if bad.size:

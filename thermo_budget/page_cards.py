@@ -68,7 +68,7 @@ def pulls_card(answers: dict, system: str) -> Card:
         unit = f"{unit} ({band})"
     plan = answers.get("plan_at_confidence")
     planned_count = plan.get("runs_before_limit") if isinstance(plan, dict) else plan
-    if isinstance(planned_count, int) and runs is not None:
+    if isinstance(planned_count, int) and runs is not None and bands:
         details.append(f"Plan {planned_count} pulls at {_confidence_text(answers)} confidence.")
     under = f"Planned: {answers['pulls_under_limit']} of {answers['pulls_planned']} pulls stay under"
     session_band = _band_text(bands.get("pulls_under_limit"))

@@ -135,8 +135,10 @@ def test_impossible_inputs_are_refused_with_a_message(page):
     assert metrics(page) == before
     number_input(page, "Oil in the tank").set_value(18.0).run()
     assert not page.error
-    number_input(page, "Hottest the oil may get").set_value(10.0).run()  # below the 20 degC room
+    number_input(page, "Hottest the oil may get").set_value(20.0).run()  # at the 20 degC room, not above it
     assert any("fluid.max_temperature" in e.value and "ambient" in e.value for e in page.error)
+    number_input(page, "Hottest the oil may get").set_value(10.0).run()  # outside the plausible range
+    assert any("fluid.max_temperature" in e.value and "10 degC" in e.value for e in page.error)
     assert metrics(page) == before
 
 

@@ -14,6 +14,7 @@ import numpy as np
 
 from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, periodic_state, _round_up,
                        take_designs)
+from .network import NODE_NAMES
 from .outcome import limiting_peak_K, pulls_completed_under
 from .scenario import Scenario, build_rig
 from .session import PLAN_RESOLUTION
@@ -75,7 +76,7 @@ def hot_day(scenario: Scenario, ambients_K=None, max_pulls: int | None = None) -
     per_cycle = sum(step.is_pull for step in scenario.cycle)
     max_pulls = max(4 * pulls_planned, 40) if max_pulls is None else max_pulls
     limit, return_limit = limits_K(scenario)
-    starts = np.repeat((scenario.start_K + ambients - scenario.ambient_K)[:, None], 3, axis=1)
+    starts = np.repeat((scenario.start_K + ambients - scenario.ambient_K)[:, None], len(NODE_NAMES), axis=1)
     possible = (ambients < limit) & (starts[:, 0] < limit)   # a room at the limit leaves no pull
 
     rig = build_rig(scenario).with_changes(ambient_K=ambients)

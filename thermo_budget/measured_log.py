@@ -105,8 +105,12 @@ def log_file_text(path) -> str:
         return data.decode("latin-1")
 
 
-def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLog:
-    """Parse and validate the CSV text of a log for a sensor ("bulk" or "return")."""
+def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heating: bool = True) -> MeasuredLog:
+    """Parse and validate the CSV text of a log for a sensor ("bulk" or "return").
+
+    require_heating : False for a log still being written (the live forecast): one reading is
+    enough and no heating is required yet; every other check still holds.
+    """
     if sensor not in ("bulk", "return"):
         raise ScenarioError("sensor", sensor, 'one of "bulk", "return"')
     size = len(text.encode("utf-8"))
@@ -204,7 +208,8 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
                       pull=series["pull"], temperature_column=columns["temperature"][0], n_rows=len(times),
                       n_skipped_cells=skipped, n_merged_rows=merged, rows_reordered=reordered,
                       largest_gap_s=largest_gap, notes=tuple(notes))
-    _check_usable(log, source)
+    if require_heating:
+        _check_usable(log, source)
     if gaps.size >= 2 and largest_gap > max(10.0 * float(np.median(gaps)), MIN_REPORTED_GAP_S):
         at = float(time_s[np.argmax(gaps)])
         extra = (" The heat input over it is the power_W or pull of the row after it."

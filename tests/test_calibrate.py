@@ -18,7 +18,7 @@ from thermo_budget.calibrate import FIT_RESOLUTION, fit_log, log_model, predict_
 from thermo_budget.cli import main
 from thermo_budget.errors import ScenarioError
 from thermo_budget.measured_log import read_log
-from thermo_budget.network import OIL, Inputs, node_equations
+from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
 from thermo_budget.report import simulate, trace_csv
 from thermo_budget.scenario import build_rig, load_scenario
 from thermo_budget.session import Resolution, Step, pump_flow_m3_s
@@ -182,12 +182,14 @@ EXTRA_TO_AIR_W_K = 0.5
 
 
 def four_node_log(scenario, blocks, interval_s):
-    """A log from a 4-node model: our three nodes (conductances from thermo_budget.network) plus a
-    steel block coupled to the oil that our model lacks, integrated with solve_ivp (Radau, tight
-    tolerances). blocks: list of steps. Returns (times, bulk K, power W, pull flag)."""
+    """A log from a model with one node more than ours: our nodes (conductances from
+    thermo_budget.network) plus a steel block coupled to the oil that our model lacks, integrated
+    with solve_ivp (Radau, tight tolerances). blocks: list of steps. Returns (times, bulk K, power W,
+    pull flag)."""
     rig = build_rig(scenario, convection_multiplier=0.85, capacity_multiplier=1.0)
     T_air = rig.ambient_K
-    state = np.full(4, scenario.start_K)
+    k = N_NODES
+    state = np.full(k + 1, scenario.start_K)
     times, temps, powers, pulls = [0.0], [state[0]], [0.0], [0.0]
     t0 = 0.0
     for step in blocks:
@@ -196,11 +198,11 @@ def four_node_log(scenario, blocks, interval_s):
         inputs = Inputs(power_W=np.array([power]), volume_flow_m3_s=np.array([flow]))
 
         def rhs(_, T):
-            C, L, b, _, _ = node_equations(rig, T[None, :3], inputs)
-            dT = (b[0] - L[0] @ T[:3]) / C[0]
-            exchange = EXTRA_TO_OIL_W_K * (T[3] - T[0])
+            C, L, b, _, _ = node_equations(rig, T[None, :k], inputs)
+            dT = (b[0] - L[0] @ T[:k]) / C[0]
+            exchange = EXTRA_TO_OIL_W_K * (T[k] - T[0])
             dT[0] += exchange / C[0, 0]
-            dT4 = (-exchange + EXTRA_TO_AIR_W_K * (T_air - T[3])) / EXTRA_MASS_J_K
+            dT4 = (-exchange + EXTRA_TO_AIR_W_K * (T_air - T[k])) / EXTRA_MASS_J_K
             return np.append(dT, dT4)
 
         t_eval = np.arange(t0 + interval_s, t0 + step.duration_s + 1e-6, interval_s)

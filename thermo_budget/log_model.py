@@ -14,7 +14,7 @@ import numpy as np
 from .errors import ScenarioError
 from .fit_text import format_temperature
 from .measured_log import MeasuredLog
-from .network import OIL
+from .network import N_NODES, OIL
 from .scenario import Scenario, build_rig
 from .session import Resolution, Step
 from .solver import integrate
@@ -53,7 +53,7 @@ class LogModel:
         offset = np.broadcast_to(np.asarray(start_offset_K, dtype=float), convection.shape)
         n = convection.size
         rig = self.rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity)
-        T0 = np.repeat((self.start_K + offset)[:, None], 3, axis=1)
+        T0 = np.repeat((self.start_K + offset)[:, None], N_NODES, axis=1)
         trace = integrate(rig, list(self.pieces), T0, n_designs=n, resolution=FIT_RESOLUTION)
         series = trace.T_K[:, :, OIL] if self.sensor == "bulk" else trace.return_K
         return series[self.point_index].T

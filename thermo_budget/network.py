@@ -1,10 +1,11 @@
-"""The lumped thermal network of a rig: three nodes (reservoir oil, reservoir wall, loop hardware)
-and ambient air as the boundary.
+"""The lumped thermal network of a rig: four nodes and ambient air as the boundary.
 
     C_i(T) dT_i/dt = sum_j G_ij(T, flow) (T_j - T_i) + G_i,amb (T_amb - T_i) + Q_i
 
+Nodes (NODE_NAMES): the oil (the reservoir's and the loop's), the reservoir wall, the loop's metal
+bodies (pump, valve, manifold and fittings, wetted inside) and the hoses (rubber and braid).
 Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
-a temperature state has shape (N, 3) in K with columns OIL, WALL, HARDWARE.
+a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE.
 """
 from __future__ import annotations
 
@@ -17,14 +18,16 @@ from .correlations import (Nu_combined_Churchill, Nu_flat_plate_forced_Incropera
                            Nu_horizontal_cylinder_Churchill_Chu, Nu_horizontal_plate_hot_down_McAdams,
                            Nu_horizontal_plate_hot_up_McAdams, Nu_tube_Hausen_Gnielinski,
                            Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
-                           h_radiation_grey, rayleigh)
+                           fin_efficiency_straight, h_radiation_grey, jet_centreline_velocity_Pope, rayleigh)
+from .materials import HOSE_WALL
 from .oil import Oil
 
-OIL, WALL, HARDWARE = 0, 1, 2
-NODE_NAMES = ("oil", "wall", "hardware")
+OIL, WALL, HARDWARE, HOSE = 0, 1, 2, 3
+NODE_NAMES = ("oil", "wall", "hardware", "hose")
+N_NODES = len(NODE_NAMES)
 
-# Rubber hose wall (common practice, no source; recalled from memory: 0.2-0.3 W/(m K)).
-HOSE_WALL_CONDUCTIVITY_W_mK = 0.25
+# Rubber hose wall (recalled from memory: 0.2-0.3 W/(m K); see materials.HOSE_WALL).
+HOSE_WALL_CONDUCTIVITY_W_mK = HOSE_WALL["conductivity_W_mK"]
 
 
 @dataclass(frozen=True)
@@ -39,15 +42,15 @@ class Rig:
     top_length_m: np.ndarray          # A/P of the top face
     bottom_area_m2: np.ndarray        # 0 when the tank stands on the floor (adiabatic bottom)
     plate_length_m: np.ndarray        # length along a forced air stream
-    wetted_area_m2: np.ndarray
+    wetted_area_m2: np.ndarray        # wetted sides + bottom (inside)
     fill_height_m: np.ndarray
     tank_cross_section_m2: np.ndarray
     wall_thickness_m: float
     wall_conductivity_W_mK: float
     wall_capacity_J_K: np.ndarray
     wall_emissivity: float
-    # loop hardware: pump, valve, fittings and hoses
-    hardware_capacity_J_K: float
+    # loop hardware: metal bodies (pump, valve, manifold, fittings) and hoses
+    hardware_capacity_J_K: float      # the metal bodies
     hose_length_m: float
     hose_outer_diameter_m: float
     hose_inner_diameter_m: float
@@ -70,6 +73,20 @@ class Rig:
     # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
     cooler_W_K: np.ndarray = 0.0
     cooler_fan: str = "with_flow"
+    # The inside of the rig (build_rig fills these; the defaults describe a rig without them).
+    loop_oil_mass_kg: float = 0.0            # oil in the hoses, pump and valve (in the OIL node)
+    hose_capacity_J_K: float = 1.0           # hose rubber and braid
+    internal_area_m2: float = 0.0            # wetted inside of the metal bodies (pump chamber + passages)
+    pump_wetted_area_m2: float = 0.0         # the part of it in the pump's working chamber
+    gear_pitch_diameter_m: float = 0.04      # the pump's gears (taken as an external gear pump)
+    passage_diameter_m: float = 0.02         # their passages' bore
+    passage_length_m: float = 0.1            # length of one passage through a body
+    wetted_side_area_m2: np.ndarray = 0.0    # wetted part of the tank's sides (inside = outside)
+    wetted_bottom_area_m2: np.ndarray = 0.0  # the tank's bottom, inside (wetted even on the floor)
+    dry_side_area_m2: np.ndarray = 0.0       # the sides above the oil line
+    dry_fin_length_m: np.ndarray = 0.0       # dry side height + the lid's A/P: the fin fed from the oil line
+    dry_capacity_weight: np.ndarray = 1.0    # share of the dry shell's capacity in the wall node
+    jet_throw_m: np.ndarray = 0.3            # distance the return jet crosses to the far wall
 
     def with_changes(self, **changes) -> "Rig":
         return replace(self, **changes)
@@ -116,38 +133,47 @@ def _rows(*values, like=None) -> np.ndarray:
     return out
 
 
+def oil_node_mass_kg(rig: Rig):
+    """Oil in the OIL node, kg: the reservoir's and the loop's (hoses, pump and valve). The loop oil
+    turns over in seconds while the pump runs, so it is at the bulk temperature whenever heat goes in."""
+    return rig.oil_mass_kg + rig.loop_oil_mass_kg
+
+
 def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndarray:
-    """Node heat capacities (N, 3), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK, if
-    the caller has it already)."""
+    """Node heat capacities (N, N_NODES), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK,
+    if the caller has it already)."""
     cp = rig.oil.specific_heat(T_K[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
-    C = np.empty((T_K.shape[0], 3))
-    C[:, OIL] = rig.oil_mass_kg * cp
+    C = np.empty((T_K.shape[0], N_NODES))
+    C[:, OIL] = oil_node_mass_kg(rig) * cp
     C[:, WALL] = rig.wall_capacity_J_K
     C[:, HARDWARE] = rig.hardware_capacity_J_K
+    C[:, HOSE] = rig.hose_capacity_J_K
     return _capacity_scale(rig) * C
 
 
 def _capacity_scale(rig: Rig):
-    """The capacity multiplier, shaped to scale (N, 3) node arrays (it may be one per design)."""
+    """The capacity multiplier, shaped to scale (N, k) node arrays (it may be one per design)."""
     m = rig.capacity_multiplier
     return np.asarray(m, dtype=float)[:, None] if np.ndim(m) else m
 
 
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
-    """Sensible enthalpy of each node (N, 3), J, relative to 0 degC; its change is the heat stored."""
-    oil = rig.oil_mass_kg * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
+    """Sensible enthalpy of each node (N, N_NODES), J, relative to 0 degC; its change is the heat stored."""
+    oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
     wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
     hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    return _capacity_scale(rig) * _columns(oil, wall, hardware)
+    hose = rig.hose_capacity_J_K * (T_K[:, HOSE] - 273.15)
+    return _capacity_scale(rig) * _columns(oil, wall, hardware, hose, n=T_K.shape[0])
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
     H = H_J / _capacity_scale(rig)
-    oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / rig.oil_mass_kg)
+    oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
     wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
     hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
-    return _columns(oil, wall, hardware)
+    hose = H[:, HOSE] / rig.hose_capacity_J_K + 273.15
+    return _columns(oil, wall, hardware, hose, n=H.shape[0])
 
 
 def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None,
@@ -189,22 +215,62 @@ def _with_forced_air(h_natural_W_m2K, air, air_speed_m_s, plate_length_m):
     return Nu_combined_Churchill(Nu_F * k / plate_length_m, h_natural_W_m2K)
 
 
-def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
-    """Oil-side coefficient on the wetted reservoir wall, W/(m^2 K).
+def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
+    """Oil velocity along the tank's wetted wall while the pump runs, m/s.
 
-    Still oil: natural convection, Churchill-Chu on a vertical wall of the fill height, oil properties
-    at the film temperature, beta the oil's expansion coefficient. Circulating oil: combined
-    (Churchill 1977) with forced flow along the wall at the through-flow velocity Q / A_cross, a
-    deliberately low estimate of the stirring by the return jet. The same coefficient is used on
-    the wetted bottom.
+    The return line discharges below the oil line as a round jet of the hose's bore; its centreline
+    velocity where it reaches the far wall (jet_throw_m away) is taken as the velocity of the
+    recirculation it drives along the walls (free round jet, Pope 2000, see
+    correlations.jet_centreline_velocity_Pope). This is an order-of-magnitude estimate: the jet is
+    confined, it may hit the wall obliquely or the free surface first, and at hydraulic oils'
+    viscosities it is often transitional. Never below the through-flow velocity Q / A_cross (the
+    former, deliberately low estimate), 0 with no flow.
+    """
+    d = rig.hose_inner_diameter_m
+    u0 = volume_flow_m3_s / (0.25 * np.pi * d**2)
+    jet = jet_centreline_velocity_Pope(u0, d, rig.jet_throw_m)
+    return np.maximum(jet, volume_flow_m3_s / rig.tank_cross_section_m2)
+
+
+def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+    """(sides, bottom) oil-side coefficients on the tank's wetted wall, W/(m^2 K), each times the
+    oil-side multiplier; oil properties at the film temperature, beta the oil's expansion.
+
+    Sides, still oil: Churchill-Chu on a vertical wall of the fill height. Bottom, still oil: the
+    inner face of the bottom is a plate facing up into the oil; under warmer oil it is a cooled plate
+    facing up, a stable layer, with the hot-face-down correlation 0.27 Ra^(1/4) (McAdams; Incropera
+    eq. 9.32, "lower surface of a hot plate or upper surface of a cold plate"), L = A/P of the
+    footprint; under cooler oil 0.54 Ra^(1/4) / 0.15 Ra^(1/3) (eqs. 9.30-9.31). Stirred (pump
+    running): each combined by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, with forced flow along the
+    wall (flat plate, Incropera eqs. 7.30/7.38) at stirring_velocity_m_s, over the fill height on
+    the sides and the footprint's length on the bottom.
     """
     oil = rig.oil
     nu, k, _, _, pr = oil.transport(0.5 * (T_oil_K + T_wall_K))
-    Ra = rayleigh(oil.expansion_per_K, T_oil_K - T_wall_K, rig.fill_height_m, nu, pr)
-    Nu_N = Nu_vertical_plate_Churchill_Chu(Ra, pr)
-    velocity = volume_flow_m3_s / rig.tank_cross_section_m2
-    Nu_F = Nu_flat_plate_forced_Incropera(velocity * rig.fill_height_m / nu, pr)
-    return rig.oil_side_multiplier * Nu_combined_Churchill(Nu_F, Nu_N) * k / rig.fill_height_m
+    dT = T_wall_K - T_oil_K
+    beta = oil.expansion_per_K
+    H, Lb = rig.fill_height_m, rig.top_length_m
+    Nu_side = Nu_vertical_plate_Churchill_Chu(rayleigh(beta, dT, H, nu, pr), pr)
+    Nu_bottom, _ = _Nu_top_and_bottom(rayleigh(beta, dT, Lb, nu, pr), dT)
+    velocity = stirring_velocity_m_s(rig, volume_flow_m3_s)
+    if np.any(velocity > 0):
+        Nu_side = Nu_combined_Churchill(Nu_flat_plate_forced_Incropera(velocity * H / nu, pr), Nu_side)
+        plate = rig.plate_length_m
+        Nu_F = Nu_flat_plate_forced_Incropera(velocity * plate / nu, pr) * Lb / plate   # on the A/P length
+        Nu_bottom = Nu_combined_Churchill(Nu_F, Nu_bottom)
+    m = rig.oil_side_multiplier
+    return m * Nu_side * k / H, m * Nu_bottom * k / Lb
+
+
+def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+    """Oil-side coefficient on the wetted sides of the reservoir wall, W/(m^2 K) (see
+    _oil_side_coefficients; the bottom has its own, h_oil_bottom_W_m2K)."""
+    return _oil_side_coefficients(rig, T_oil_K, T_wall_K, volume_flow_m3_s)[0]
+
+
+def h_oil_bottom_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+    """Oil-side coefficient on the wetted bottom of the reservoir, W/(m^2 K) (see _oil_side_coefficients)."""
+    return _oil_side_coefficients(rig, T_oil_K, T_wall_K, volume_flow_m3_s)[1]
 
 
 def _series(area_m2, h_W_m2K, resistance_m2K_W):
@@ -212,28 +278,55 @@ def _series(area_m2, h_W_m2K, resistance_m2K_W):
     return area_m2 * h_W_m2K / (1.0 + h_W_m2K * resistance_m2K_W)
 
 
-def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K):
-    """Conductances to the air, W/K: (reservoir wall, loop hardware), each convection (times the
-    multiplier) plus linearised radiation.
+def hose_mid_diameter_m(rig: Rig):
+    """Diameter of the hose wall's mid-surface, where the hose node sits, m."""
+    return 0.5 * (rig.hose_inner_diameter_m + rig.hose_outer_diameter_m)
 
-    Wall: the tank's sides (vertical plates, Churchill-Chu), top and bottom (McAdams), each in
-    series with half the wall thickness. Hardware: hoses as horizontal cylinders (Churchill-Chu),
-    pump, valve and fittings as vertical plates of the equivalent cube's side.
-    Evaluated together to share work: one air-property lookup for both film temperatures, one
-    vertical-plate evaluation for the tank sides and the pump body, one Rayleigh number for the top
+
+def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
+    """Conductance to the air of the shell above the oil line (dry sides and lid), W/K, per K of the
+    wetted wall's temperature above ambient.
+
+    The dry shell is a fin fed by conduction from the oil line: eta h A, with eta = tanh(mL)/(mL)
+    (correlations.fin_efficiency_straight), m = sqrt(h / (k t)) from the wall's own conductivity and
+    thickness, L = dry side height + the lid's A/P (the lid is fed from its edges), and h the
+    area-weighted outside coefficient (convection and radiation, each in series with half the wall).
+    The inside face is taken as adiabatic (the head space's exchange with the oil surface is left out).
+    Steel of 2 mm: 1/m ~ 0.1 m, eta ~ 0.5 on a 0.2 m fin; polyethylene: 1/m ~ 1 cm, eta ~ 0.05.
+    """
+    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    side = _series(rig.dry_side_area_m2, h_side_W_m2K, half_wall)
+    top = _series(rig.top_area_m2, h_top_W_m2K, half_wall)
+    h_mean = (side + top) / (rig.dry_side_area_m2 + rig.top_area_m2)
+    m = np.sqrt(h_mean / (rig.wall_conductivity_W_mK * rig.wall_thickness_m))
+    return fin_efficiency_straight(m, rig.dry_fin_length_m) * (side + top)
+
+
+def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
+    """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses), each convection (times
+    the multiplier) plus linearised radiation. T_hose_K defaults to T_hardware_K.
+
+    Wall: the wetted sides (vertical plates, Churchill-Chu) and the bottom (McAdams), each in series
+    with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K). Bodies: vertical
+    plates of body_length_m over body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series
+    with the outer half of the hose wall.
+    Evaluated together to share work: one air-property lookup for the three film temperatures, one
+    vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
     and the bottom (same face, same temperature).
     """
     T_a, m, speed = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s
-    T_s = _rows(T_wall_K, T_hardware_K, like=np.atleast_1d(T_wall_K))
-    k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # row 0 at the wall's film, row 1 the hardware's
+    T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
+    T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
+    k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # rows: the wall's, the bodies' and the hoses' films
     dT = T_s - T_a
-    h_rad_wall = h_radiation_grey(rig.wall_emissivity, T_s[0], T_a)
-    h_rad_hw = h_radiation_grey(rig.hardware_emissivity, T_s[1], T_a)
+    h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
+                                   like=T_s[0]), T_s, T_a)
 
     vertical_length = _rows(rig.side_height_m, rig.body_length_m, like=T_s[0])
     forced_length = _rows(rig.plate_length_m, rig.body_length_m, like=T_s[0])
-    Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta, dT, vertical_length, nu, pr), pr)
-    h_side, h_body = _with_forced_air(Nu_vertical * k / vertical_length, (k, nu, pr), speed, forced_length)
+    Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta[:2], dT[:2], vertical_length, nu[:2], pr[:2]), pr[:2])
+    h_side, h_body = _with_forced_air(Nu_vertical * k[:2] / vertical_length, (k[:2], nu[:2], pr[:2]), speed,
+                                      forced_length)
 
     air_w = (k[0], nu[0], pr[0])
     Nu_top, Nu_bottom = _Nu_top_and_bottom(rayleigh(beta[0], dT[0], rig.top_length_m, nu[0], pr[0]), dT[0])
@@ -241,16 +334,19 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K):
     h_bottom = _with_forced_air(Nu_bottom * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
 
     D = rig.hose_outer_diameter_m
-    Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[1], dT[1], D, nu[1], pr[1]), pr[1])
-    h_hose = _with_forced_air(Nu_hose * k[1] / D, (k[1], nu[1], pr[1]), speed, D)
+    Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[2], dT[2], D, nu[2], pr[2]), pr[2])
+    h_hose = _with_forced_air(Nu_hose * k[2] / D, (k[2], nu[2], pr[2]), speed, D)
 
     half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    wall = (_series(rig.side_area_m2, m * h_side + h_rad_wall, half_wall)
-            + _series(rig.top_area_m2, m * h_top + h_rad_wall, half_wall)
-            + _series(rig.bottom_area_m2, m * h_bottom + h_rad_wall, half_wall))
+    h_side, h_top, h_bottom = m * h_side + h_rad[0], m * h_top + h_rad[0], m * h_bottom + h_rad[0]
+    wall = (_series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.bottom_area_m2, h_bottom, half_wall)
+            + dry_shell_W_K(rig, h_side, h_top))
+    hardware = rig.body_area_m2 * (m * h_body + h_rad[1])
     hose_area = np.pi * D * rig.hose_length_m
-    hardware = hose_area * (m * h_hose + h_rad_hw) + rig.body_area_m2 * (m * h_body + h_rad_hw)
-    return wall, hardware
+    outer_half = cylinder_wall_conductance_W_K(hose_mid_diameter_m(rig), D, rig.hose_length_m,
+                                               HOSE_WALL_CONDUCTIVITY_W_mK)
+    hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / outer_half)
+    return wall, hardware, hose
 
 
 def wall_to_ambient_W_K(rig: Rig, T_wall_K):
@@ -259,51 +355,87 @@ def wall_to_ambient_W_K(rig: Rig, T_wall_K):
 
 
 def hardware_to_ambient_W_K(rig: Rig, T_hardware_K):
-    """Conductance loop hardware -> air, W/K (see ambient_conductances_W_K)."""
+    """Conductance metal bodies -> air, W/K (see ambient_conductances_W_K)."""
     return ambient_conductances_W_K(rig, T_hardware_K, T_hardware_K)[1]
 
 
+def hose_to_ambient_W_K(rig: Rig, T_hose_K):
+    """Conductance hoses -> air, W/K (see ambient_conductances_W_K)."""
+    return ambient_conductances_W_K(rig, T_hose_K, T_hose_K)[2]
+
+
 def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
-    """Conductance oil -> wall node, W/K: oil-side coefficient over the wetted area in series with
-    half the wall thickness."""
-    h_oil = h_oil_side_W_m2K(rig, T_oil_K, T_wall_K, volume_flow_m3_s)
-    return _series(rig.wetted_area_m2, h_oil, 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK)
+    """Conductance oil -> wall node, W/K: the oil-side coefficients over the wetted sides and the
+    bottom, each in series with half the wall thickness."""
+    h_side, h_bottom = _oil_side_coefficients(rig, T_oil_K, T_wall_K, volume_flow_m3_s)
+    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    return _series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.wetted_bottom_area_m2, h_bottom, half_wall)
 
 
-def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
-    """Conductance loop oil -> hardware, W/K.
+def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
+    """Conductances loop oil -> (metal bodies, hoses), W/K; the bodies' is not yet multiplied by
+    hardware_coupling_multiplier.
 
-    Flowing: the hose is a heat exchanger with one side (the hardware) at uniform temperature, so
-    G = eps m_dot c_p with eps = 1 - exp(-NTU), NTU = UA / (m_dot c_p) (Incropera eq. 8.45b); UA is
-    the tube-side coefficient (Hausen / Gnielinski) over the bore in series with the hose wall.
-    Still (engine off): conduction along the oil column of half the hose length, nearly nothing.
+    Flowing: each is a heat exchanger with one side (the solid) at a uniform temperature, so
+    G = eps m_dot c_p with eps = 1 - exp(-NTU), NTU = UA / (m_dot c_p) (Incropera eq. 8.45b).
+    - Bodies: UA = h_pump A_pump + h_passages A_passages, where A_pump (pump_wetted_area_m2) is the
+      pump's working chamber and the rest of internal_area_m2 the passages through the bodies.
+      Passages of bore passage_diameter_m, each passage_length_m long: the tube correlation
+      (Hausen laminar entry, Gnielinski turbulent) at the passage velocity Q / (pi D^2 / 4).
+      Pump chamber: the oil moves over the gears at their pitch-line speed u = pi d_p n, with
+      n = Q / (V_d eta_v); forced flow along a flat plate of length d_p / 2 (Incropera eqs.
+      7.30/7.38). The metal's own resistance is part of the body node (cast iron and steel: Biot
+      number h t / k ~ 0.1-0.3). The valve's throttling jet and the gear mesh stir more than either
+      estimate says, so this is a low estimate (hardware_coupling_multiplier carries the
+      uncertainty).
+    - Hoses: the tube correlation over the bore in series with the inner half of the rubber wall
+      (the hose node sits at the wall's mid-surface).
+    Still (engine off): the bodies and the hoses touch the tank's oil only through the oil standing
+    in the hoses: conduction along that column, half the hose length, nearly nothing each.
     """
     D_i, L = rig.hose_inner_diameter_m, rig.hose_length_m
     nu, k_oil, _, _, pr = rig.oil.transport(T_oil_K) if oil_props is None else oil_props
     still = k_oil * (0.25 * np.pi * D_i**2) / (0.5 * L)
     flowing = np.asarray(volume_flow_m3_s) > 0
     if not flowing.any():
-        return still
-    velocity = volume_flow_m3_s / (0.25 * np.pi * D_i**2)
-    Nu = Nu_tube_Hausen_Gnielinski(velocity * D_i / nu, pr, D_i, L)
-    h_i = Nu * k_oil / D_i
-    UA = 1.0 / (1.0 / (h_i * np.pi * D_i * L) + 1.0 / cylinder_wall_conductance_W_K(
-        D_i, rig.hose_outer_diameter_m, L, HOSE_WALL_CONDUCTIVITY_W_mK))
+        return still, still
+    D = _rows(D_i, rig.passage_diameter_m, like=np.atleast_1d(T_oil_K))
+    length = _rows(L, rig.passage_length_m, like=D[0])
+    velocity = volume_flow_m3_s / (0.25 * np.pi * D**2)
+    h = Nu_tube_Hausen_Gnielinski(velocity * D / nu, pr, D, length) * k_oil / D
+    inner_half = cylinder_wall_conductance_W_K(D_i, hose_mid_diameter_m(rig), L, HOSE_WALL_CONDUCTIVITY_W_mK)
+    UA_hose = 1.0 / (1.0 / (h[0] * np.pi * D_i * L) + 1.0 / inner_half)
+    d_p = rig.gear_pitch_diameter_m
+    pitch_speed = np.pi * d_p * volume_flow_m3_s / (rig.displacement_m3 * rig.volumetric_efficiency)
+    h_pump = Nu_flat_plate_forced_Incropera(pitch_speed * 0.5 * d_p / nu, pr) * k_oil / (0.5 * d_p)
+    UA_bodies = h_pump * rig.pump_wetted_area_m2 + h[1] * (rig.internal_area_m2 - rig.pump_wetted_area_m2)
     capacity_rate = np.maximum(mass_flow_kg_s * cp_J_kgK, 1e-30)
-    G = capacity_rate * -np.expm1(-UA / capacity_rate)
-    return np.where(flowing, G, still)
+    G = capacity_rate * -np.expm1(-_rows(UA_bodies, UA_hose, like=D[0]) / capacity_rate)
+    return np.where(flowing, G[0], still), np.where(flowing, G[1], still)
+
+
+def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
+    """Conductance loop oil -> metal bodies, W/K, times hardware_coupling_multiplier (see
+    loop_conductances_W_K)."""
+    bodies = loop_conductances_W_K(rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props)[0]
+    return rig.hardware_coupling_multiplier * bodies
+
+
+def oil_to_hose_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
+    """Conductance loop oil -> hoses, W/K (see loop_conductances_W_K)."""
+    return loop_conductances_W_K(rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props)[1]
 
 
 def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     """The linear system frozen at state T_K: C dT/dt = -L T + b.
 
-    Returns (C (N,3) J/K, L (N,3,3) W/K, b (N,3) W, g_amb (N,3) W/K, loss_offset_W (N,)).
+    Returns (C (N,k) J/K, L (N,k,k) W/K, b (N,k) W, g_amb (N,k) W/K, loss_offset_W (N,)), k = N_NODES.
     g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
     that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
     lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
     """
     n = T_K.shape[0]
-    T_oil, T_wall, T_hw = T_K[:, OIL], T_K[:, WALL], T_K[:, HARDWARE]
+    T_oil, T_wall = T_K[:, OIL], T_K[:, WALL]
     T_a = rig.ambient_K
     Q = per_design(inputs.volume_flow_m3_s, n)
     P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
@@ -314,22 +446,26 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
-    G_oh = rig.hardware_coupling_multiplier * oil_to_hardware_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
-    G_wa, G_ha = ambient_conductances_W_K(rig, T_wall, T_hw)
+    G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
+    G_ob = rig.hardware_coupling_multiplier * G_ob
+    G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE])
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
-    L = np.zeros((n, 3, 3))
-    L[:, OIL, OIL] = G_ow + G_oh + G_cool
+    L = np.zeros((n, N_NODES, N_NODES))
+    L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool
     L[:, WALL, WALL] = G_ow + G_wa
-    L[:, HARDWARE, HARDWARE] = G_oh + G_ha
+    L[:, HARDWARE, HARDWARE] = G_ob + G_ba
+    L[:, HOSE, HOSE] = G_oh + G_ha
     L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
-    L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_oh
-    g_amb = _columns(G_cool, G_wa, G_ha, n=n)
-    # The loop hardware sees the mean loop oil temperature, bulk + half the return-line rise;
+    L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_ob
+    L[:, OIL, HOSE] = L[:, HOSE, OIL] = -G_oh
+    g_amb = _columns(G_cool, G_wa, G_ba, G_ha, n=n)
+    # The bodies and the hoses see the mean loop oil temperature, bulk + half the return-line rise;
     # the cooler sees the return line, bulk + the full rise.
     b = g_amb * ambient_column(T_a)
-    b[:, OIL] += P - G_cool * return_rise - 0.5 * G_oh * return_rise
-    b[:, HARDWARE] += 0.5 * G_oh * return_rise
+    b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh) * return_rise
+    b[:, HARDWARE] += 0.5 * G_ob * return_rise
+    b[:, HOSE] += 0.5 * G_oh * return_rise
     return heat_capacities_J_K(rig, T_K, cp), L, b, g_amb, G_cool * return_rise
 
 
@@ -360,10 +496,9 @@ def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
 def cooling_time_constant_s(rig: Rig, T_K: float) -> float:
     """Whole-rig cooling time constant with every node at T_K, engine off, no cooler: the total heat
     capacity over the total conductance to the air, s (inf where nothing is lost). Design 0."""
-    T = np.full((1, 3), float(T_K))
+    T = np.full((1, N_NODES), float(T_K))
     C = float(np.sum(heat_capacities_J_K(rig, T)[0]))
-    wall, hardware = ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE])
-    G = float(np.atleast_1d(wall)[0] + np.atleast_1d(hardware)[0])
+    G = float(sum(np.atleast_1d(g)[0] for g in ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE], T[:, HOSE])))
     return C / G if G > 0 else float("inf")
 
 
@@ -371,6 +506,5 @@ def passive_rejection_W(rig: Rig, T_K: float):
     """Steady heat loss to ambient with the whole rig at T_K, engine off, no cooler, W."""
     T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))
     dT = T_wall - rig.ambient_K
-    wall, hardware = ambient_conductances_W_K(rig, T_wall, T_wall)
-    return (wall + hardware) * dT
+    return sum(ambient_conductances_W_K(rig, T_wall, T_wall, T_wall)) * dT
 

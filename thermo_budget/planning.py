@@ -6,7 +6,7 @@ from dataclasses import fields
 
 import numpy as np
 
-from .network import OIL, Rig, cooling_time_constant_s
+from .network import N_NODES, OIL, Rig, cooling_time_constant_s
 from .outcome import peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
@@ -70,27 +70,27 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     """The cycle's periodic steady state, by Newton iteration on the one-cycle map (finite-difference
     Jacobian, all designs and perturbations in one batch).
 
-    Returns (state at cycle start (N,3) K, peak oil over the periodic cycle (N,) K, converged (N,)).
+    Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K.
     """
-    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, 3)), dtype=float)
+    k = N_NODES
+    copies = k + 1                      # the state itself and one perturbation per node
+    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
     delta = 0.01
-    index4 = np.repeat(np.arange(n), 4)
-    rig4 = take_designs(rig, index4)
-    wait4 = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), 4)
-    eye = np.eye(3)
+    rig_copies = take_designs(rig, np.repeat(np.arange(n), copies))
+    wait_copies = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), copies)
+    eye = np.eye(k)
     for iteration in range(NEWTON_ITERATIONS):
-        X4 = np.repeat(X, 4, axis=0)
-        X4[1::4] += delta * eye[0]
-        X4[2::4] += delta * eye[1]
-        X4[3::4] += delta * eye[2]
-        F4, peak4 = _cycle_end(scenario, rig4, X4, wait4)
-        F, peak = F4[0::4], peak4[0::4]   # the cycle from X itself, and its peak
+        Xc = np.repeat(X, copies, axis=0)
+        for i in range(k):
+            Xc[i + 1::copies] += delta * eye[i]
+        Fc, peak_c = _cycle_end(scenario, rig_copies, Xc, wait_copies)
+        F, peak = Fc[0::copies], peak_c[0::copies]   # the cycle from X itself, and its peak
         residual = F - X
         converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
         if converged.all() or iteration == NEWTON_ITERATIONS - 1:
             break
-        J = np.stack([(F4[i + 1::4] - F) / delta for i in range(3)], axis=-1)
+        J = np.stack([(Fc[i + 1::copies] - F) / delta for i in range(k)], axis=-1)
         step = np.linalg.solve(J - eye + 1e-12 * eye, -residual[..., None])[..., 0]
         X = np.clip(X + step, 150.0, 1500.0)
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
@@ -130,7 +130,7 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
     runs = np.full(n, np.nan)
     active = np.flatnonzero(~sustainable)
-    X = np.array(np.broadcast_to(scenario.start_K, (n, 3)), dtype=float)
+    X = np.array(np.broadcast_to(scenario.start_K, (n, N_NODES)), dtype=float)
     done_pulls = 0
     while active.size and done_pulls < max_pulls:
         if done_pulls == 0:
@@ -267,7 +267,7 @@ def _pull_and_wait_blocks(scenario: Scenario):
 
 
 def _run_steps(rig, steps, X):
-    return integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
+    return integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, N_NODES).shape[0], resolution=PLAN_RESOLUTION)
 
 
 def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
@@ -309,7 +309,7 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
         return as_planned
     limit, _ = limit_K(scenario)
     rig = build_rig(scenario)
-    X = np.full((1, 3), scenario.start_K)
+    X = np.full((1, N_NODES), scenario.start_K)
     t = 0.0
     rows = []
     off = Step(kind="wait", duration_s=1.0, engine="off")

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .network import HARDWARE, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
+from .network import HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
@@ -44,7 +44,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
     crossing = float(first_crossing_s(trace, limit)[0])
     energy_in = float(trace.energy_in_J[0])
     lost, stored = float(trace.energy_lost_J[0]), float(trace.energy_stored_J[0])
-    capacities = heat_capacities_J_K(rig, np.full((1, 3), scenario.start_K))[0]
+    capacities = heat_capacities_J_K(rig, np.full((1, N_NODES), scenario.start_K))[0]
     pump = pump_operating_point(scenario)
     return {
         "name": scenario.name,
@@ -59,6 +59,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "end_C": _celsius(trace.T_K[-1, 0, OIL]),
         "end_wall_C": _celsius(trace.T_K[-1, 0, WALL]),
         "end_hardware_C": _celsius(trace.T_K[-1, 0, HARDWARE]),
+        "end_hose_C": _celsius(trace.T_K[-1, 0, HOSE]),
         "peak_return_C": _celsius(trace.return_K[:, 0].max()),
         "pulls_planned": int(trace.pull_end_s.shape[0]),
         "pulls_under_limit": int(pulls_completed_under(trace, limit)[0]),
@@ -88,14 +89,15 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
 
 
 def trace_rows(trace: Trace, design: int = 0):
-    """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W.
-    power_W is the mean absorbed power over the interval that ends at the row."""
+    """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W, hose_C.
+    power_W is the mean absorbed power over the interval that ends at the row; hose_C comes last so
+    that readers of the older six columns keep working."""
     T = trace.T_K[:, design, :] - 273.15
     return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
-                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design]])
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], T[:, HOSE]])
 
 
-TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W")
+TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C")
 
 
 def trace_csv(trace: Trace) -> str:

@@ -15,7 +15,8 @@ import tomli_w
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
-from .rig_build import build_rig, limit_K  # noqa: F401  (build_rig re-exported: the scenario's network)
+from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
+                        limit_K)  # (build_rig re-exported: the scenario's network)
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
                              with_path)
@@ -60,6 +61,8 @@ class Hardware:
     hose_inner_diameter_m: float
     emissivity: float
     body_area_m2: float
+    internal_area_m2: float       # wetted inside of the metal bodies
+    passage_length_m: float       # one passage through a body (the side of the bodies' cube)
 
 
 @dataclass(frozen=True)
@@ -186,12 +189,16 @@ def _parse(raw: dict) -> Scenario:
     hose_id = h.quantity("hose_inner_diameter", "length", "mm", DEFAULT_HOSE_BORE_FRACTION * hose_od * 1000.0, above=0.0)
     if hose_id >= hose_od:
         raise ScenarioError("hardware.hose_inner_diameter", h.raw.get("hose_inner_diameter"), "less than hose_outer_diameter")
-    side = (mass / MATERIALS[hw_material]["density_kg_m3"]) ** (1.0 / 3.0)
+    metal_density = MATERIALS[hw_material]["density_kg_m3"]
     hardware = Hardware(mass_kg=mass, material=hw_material,
                         hose_length_m=h.quantity("hose_length", "length", "m", minimum=0.0),
                         hose_outer_diameter_m=hose_od, hose_inner_diameter_m=hose_id,
                         emissivity=h.number("emissivity", minimum=0.0, maximum=1.0),
-                        body_area_m2=h.quantity("body_area", "area", "m^2", 6.0 * side * side, minimum=0.0))
+                        body_area_m2=h.quantity("body_area", "area", "m^2", default_body_area_m2(mass, metal_density),
+                                                minimum=0.0),
+                        internal_area_m2=h.quantity("internal_area", "area", "m^2", default_internal_area_m2(
+                            mass, metal_density, displacement, hose_id), above=0.0),
+                        passage_length_m=body_cube_side_m(mass, metal_density))
     if hardware.hose_length_m == 0.0:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
     h.finish()

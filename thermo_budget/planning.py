@@ -67,8 +67,11 @@ def _has_loss_path(rig: Rig) -> np.ndarray:
 
 
 def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
-    """The cycle's periodic steady state, by Newton iteration on the one-cycle map (finite-difference
-    Jacobian, all designs and perturbations in one batch).
+    """The cycle's periodic steady state, by a quasi-Newton iteration on the one-cycle map: a
+    finite-difference Jacobian once (all designs and perturbations in one batch), then Broyden's
+    update (Dennis and Schnabel, Numerical Methods for Unconstrained Optimization and Nonlinear
+    Equations, 1983, ch. 8), each iteration running the cycle once for the designs not yet converged.
+    The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it.
 
     Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K.
@@ -77,22 +80,31 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     copies = k + 1                      # the state itself and one perturbation per node
     X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
     delta = 0.01
-    rig_copies = take_designs(rig, np.repeat(np.arange(n), copies))
-    wait_copies = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), copies)
+    waits = None if wait_s is None else np.broadcast_to(np.asarray(wait_s, dtype=float), (n,))
     eye = np.eye(k)
-    for iteration in range(NEWTON_ITERATIONS):
-        Xc = np.repeat(X, copies, axis=0)
-        for i in range(k):
-            Xc[i + 1::copies] += delta * eye[i]
-        Fc, peak_c = _cycle_end(scenario, rig_copies, Xc, wait_copies)
-        F, peak = Fc[0::copies], peak_c[0::copies]   # the cycle from X itself, and its peak
-        residual = F - X
-        converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
-        if converged.all() or iteration == NEWTON_ITERATIONS - 1:
+    Xc = np.repeat(X, copies, axis=0)
+    for i in range(k):
+        Xc[i + 1::copies] += delta * eye[i]
+    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(np.arange(n), copies)), Xc,
+                            None if waits is None else np.repeat(waits, copies))
+    F, peak = Fc[0::copies], peak_c[0::copies]   # the cycle from X itself, and its peak
+    residual = F - X
+    B = np.stack([(Fc[i + 1::copies] - F) / delta for i in range(k)], axis=-1) - eye   # d residual / dX
+    converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
+    for _ in range(NEWTON_ITERATIONS - 1):
+        active = np.flatnonzero(~converged & np.all(np.isfinite(residual), axis=1))
+        if not active.size:
             break
-        J = np.stack([(Fc[i + 1::copies] - F) / delta for i in range(k)], axis=-1)
-        step = np.linalg.solve(J - eye + 1e-12 * eye, -residual[..., None])[..., 0]
-        X = np.clip(X + step, 150.0, 1500.0)
+        step = np.linalg.solve(B[active] + 1e-12 * eye, -residual[active][..., None])[..., 0]
+        X_new = np.clip(X[active] + step, 150.0, 1500.0)
+        F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new,
+                                     None if waits is None else waits[active])
+        r_new = F_new - X_new
+        dx, dr = X_new - X[active], r_new - residual[active]
+        Bdx = (B[active] @ dx[..., None])[..., 0]
+        B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
+        X[active], residual[active], peak[active] = X_new, r_new, peak_new
+        converged[active] = np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
     return X, peak, ok
 

@@ -127,6 +127,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--write", metavar="CALIBRATED.toml")
     fit.add_argument("--plot", metavar="FIT.png")
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
+    fit.add_argument("--fit-hardware-coupling", action="store_true",
+                     help="also fit the oil-to-pump/valve-body coupling (warns where the log cannot tell it)")
     fit.set_defaults(handler=_fit)
     return parser
 

@@ -129,6 +129,7 @@ def build_rig(s: "Scenario", oil_volume_m3=None, cooler_W_K=None, convection_mul
         ambient_K=s.ambient_K, air_speed_m_s=s.air_speed_m_s,
         convection_multiplier=s.convection_multiplier if convection_multiplier is None else convection_multiplier,
         capacity_multiplier=s.capacity_multiplier if capacity_multiplier is None else capacity_multiplier,
+        hardware_coupling_multiplier=s.hardware_coupling_multiplier,
         cooler_W_K=np.asarray(s.cooler_W_K if cooler_W_K is None else cooler_W_K, dtype=float),
         cooler_fan=s.cooler_fan,
         loop_oil_mass_kg=(hose_bore_m3 + body_oil_m3) * s.oil.density_15C_kg_m3,

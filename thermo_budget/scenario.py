@@ -88,6 +88,7 @@ class Scenario:
     repeat: int
     cycle: tuple
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
+    hardware_coupling_multiplier: float = 1.0  # scales the oil -> metal bodies conductance (a log fit sets it)
 
     @property
     def steps(self) -> list[Step]:
@@ -206,6 +207,7 @@ def _parse(raw: dict) -> Scenario:
     losses = _Table(top.get("losses", None), "losses", required=False)
     convection_multiplier = losses.number("convection_multiplier", 1.0, minimum=0.0, maximum=10.0)
     capacity_multiplier = losses.number("capacity_multiplier", 1.0, above=0.0, maximum=10.0)
+    coupling_multiplier = losses.number("hardware_coupling_multiplier", 1.0, above=0.0, maximum=100.0)
     air_speed = losses.quantity("air_speed", "speed", "m/s", 0.0, minimum=0.0)
     losses.finish()
 
@@ -232,7 +234,8 @@ def _parse(raw: dict) -> Scenario:
                         displacement_m3=displacement, volumetric_efficiency=eta_v, hardware=hardware,
                         convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
                         air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
-                        start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready)
+                        start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
+                        hardware_coupling_multiplier=coupling_multiplier)
     _check_consistency(scenario)
     return scenario
 

@@ -23,6 +23,13 @@ if TYPE_CHECKING:
 HOSE_WALL_CONDUCTIVITY_W_mK = HOSE_WALL["conductivity_W_mK"]
 
 
+def _like(rows, like):
+    """Precomputed (k, N) rows, broadcast to the N of `like` when the rig holds one design and the
+    state many."""
+    n = np.shape(like)[-1]
+    return rows if rows.shape[-1] == n else np.broadcast_to(rows[:, :1], (rows.shape[0], n))
+
+
 def _rows(*values, like=None) -> np.ndarray:
     """Floats or (N,) arrays as the rows of one (k, N) array; N from `like` or the first array."""
     reference = next(v for v in values if np.ndim(v)) if like is None else like
@@ -89,6 +96,35 @@ def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
     return np.maximum(jet, volume_flow_m3_s / rig.tank_cross_section_m2)
 
 
+def constant_parts(rig: Rig) -> dict:
+    """Geometry-only parts of the conductances, to work out once per rig (Rig.constants): stacked
+    lengths, the wall's and the hose wall's conduction, areas."""
+    like = np.atleast_1d(rig.fill_height_m)
+    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    mid = 0.5 * (rig.hose_inner_diameter_m + rig.hose_outer_diameter_m)
+    L = rig.hose_length_m
+    return {
+        "half_wall_m2K_W": half_wall,
+        # oil side: (sides, bottom) natural-convection lengths and forced-flow lengths
+        "bottom_ra_per_side_ra": (rig.top_length_m / rig.fill_height_m) ** 3,
+        "oil_forced_lengths_m": _rows(rig.fill_height_m, rig.plate_length_m, like=like),
+        "oil_lengths_m": _rows(rig.fill_height_m, rig.top_length_m, like=like),
+        # air side: rows (wall, bodies) of the vertical and forced lengths; (wall, bodies, hose) emissivities
+        "vertical_lengths_m": _rows(rig.side_height_m, rig.body_length_m, like=like),
+        "forced_lengths_m": _rows(rig.plate_length_m, rig.body_length_m, like=like),
+        "emissivities": _rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity, like=like),
+        "dry_area_m2": rig.dry_side_area_m2 + rig.top_area_m2,
+        "wall_kt_W_K": rig.wall_conductivity_W_mK * rig.wall_thickness_m,
+        # hoses: the hose wall's halves, inside and outside of the node at mid-wall
+        "hose_area_m2": np.pi * rig.hose_outer_diameter_m * L,
+        "hose_inner_half_W_K": cylinder_wall_conductance_W_K(rig.hose_inner_diameter_m, mid, L, HOSE_WALL_CONDUCTIVITY_W_mK),
+        "hose_outer_half_W_K": cylinder_wall_conductance_W_K(mid, rig.hose_outer_diameter_m, L, HOSE_WALL_CONDUCTIVITY_W_mK),
+        # loop: rows (hose bore, passages) of the tube diameters and lengths
+        "tube_diameters_m": _rows(rig.hose_inner_diameter_m, rig.passage_diameter_m, like=like),
+        "tube_lengths_m": _rows(L, rig.passage_length_m, like=like),
+    }
+
+
 def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     """(sides, bottom) oil-side coefficients on the tank's wetted wall, W/(m^2 K), each times the
     oil-side multiplier; oil properties at the film temperature, beta the oil's expansion.
@@ -102,21 +138,22 @@ def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     wall (flat plate, Incropera eqs. 7.30/7.38) at stirring_velocity_m_s, over the fill height on
     the sides and the footprint's length on the bottom.
     """
-    oil = rig.oil
+    oil, parts = rig.oil, rig.constants
     nu, k, _, _, pr = oil.transport(0.5 * (T_oil_K + T_wall_K))
     dT = T_wall_K - T_oil_K
-    beta = oil.expansion_per_K
-    H, Lb = rig.fill_height_m, rig.top_length_m
-    Nu_side = Nu_vertical_plate_Churchill_Chu(rayleigh(beta, dT, H, nu, pr), pr)
-    Nu_bottom, _ = _Nu_top_and_bottom(rayleigh(beta, dT, Lb, nu, pr), dT)
+    Ra_side = rayleigh(oil.expansion_per_K, dT, rig.fill_height_m, nu, pr)
+    Ra_bottom = Ra_side * parts["bottom_ra_per_side_ra"]
+    Nu = np.empty((2, np.shape(Ra_side)[0]))
+    Nu[0] = Nu_vertical_plate_Churchill_Chu(Ra_side, pr)
+    Nu[1] = np.where(dT >= 0, Nu_horizontal_plate_hot_up_McAdams(Ra_bottom), Nu_horizontal_plate_hot_down_McAdams(Ra_bottom))
+    lengths = parts["oil_lengths_m"]
     velocity = stirring_velocity_m_s(rig, volume_flow_m3_s)
     if np.any(velocity > 0):
-        Nu_side = Nu_combined_Churchill(Nu_flat_plate_forced_Incropera(velocity * H / nu, pr), Nu_side)
-        plate = rig.plate_length_m
-        Nu_F = Nu_flat_plate_forced_Incropera(velocity * plate / nu, pr) * Lb / plate   # on the A/P length
-        Nu_bottom = Nu_combined_Churchill(Nu_F, Nu_bottom)
-    m = rig.oil_side_multiplier
-    return m * Nu_side * k / H, m * Nu_bottom * k / Lb
+        forced = parts["oil_forced_lengths_m"]   # along the sides: the fill height; the bottom: its length
+        Nu_F = Nu_flat_plate_forced_Incropera(velocity * forced / nu, pr) * lengths / forced   # on the natural lengths
+        Nu = Nu_combined_Churchill(Nu_F, Nu)
+    h = rig.oil_side_multiplier * Nu * k / lengths
+    return h[0], h[1]
 
 
 def h_oil_side_W_m2K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
@@ -151,12 +188,11 @@ def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
     The inside face is taken as adiabatic (the head space's exchange with the oil surface is left out).
     Steel of 2 mm: 1/m ~ 0.1 m, eta ~ 0.5 on a 0.2 m fin; polyethylene: 1/m ~ 1 cm, eta ~ 0.05.
     """
-    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    side = _series(rig.dry_side_area_m2, h_side_W_m2K, half_wall)
-    top = _series(rig.top_area_m2, h_top_W_m2K, half_wall)
-    h_mean = (side + top) / (rig.dry_side_area_m2 + rig.top_area_m2)
-    m = np.sqrt(h_mean / (rig.wall_conductivity_W_mK * rig.wall_thickness_m))
-    return fin_efficiency_straight(m, rig.dry_fin_length_m) * (side + top)
+    parts = rig.constants
+    half_wall = parts["half_wall_m2K_W"]
+    shed = _series(rig.dry_side_area_m2, h_side_W_m2K, half_wall) + _series(rig.top_area_m2, h_top_W_m2K, half_wall)
+    m = np.sqrt(shed / (parts["dry_area_m2"] * parts["wall_kt_W_K"]))
+    return fin_efficiency_straight(m, rig.dry_fin_length_m) * shed
 
 
 def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
@@ -171,16 +207,15 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
     and the bottom (same face, same temperature).
     """
-    T_a, m, speed = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s
+    T_a, m, speed, parts = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s, rig.constants
     T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
     T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
     k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # rows: the wall's, the bodies' and the hoses' films
     dT = T_s - T_a
-    h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
-                                   like=T_s[0]), T_s, T_a)
+    h_rad = h_radiation_grey(_like(parts["emissivities"], T_s), T_s, T_a)
 
-    vertical_length = _rows(rig.side_height_m, rig.body_length_m, like=T_s[0])
-    forced_length = _rows(rig.plate_length_m, rig.body_length_m, like=T_s[0])
+    vertical_length = _like(parts["vertical_lengths_m"], T_s[:2])
+    forced_length = _like(parts["forced_lengths_m"], T_s[:2])
     Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta[:2], dT[:2], vertical_length, nu[:2], pr[:2]), pr[:2])
     h_side, h_body = _with_forced_air(Nu_vertical * k[:2] / vertical_length, (k[:2], nu[:2], pr[:2]), speed,
                                       forced_length)
@@ -194,15 +229,13 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[2], dT[2], D, nu[2], pr[2]), pr[2])
     h_hose = _with_forced_air(Nu_hose * k[2] / D, (k[2], nu[2], pr[2]), speed, D)
 
-    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    half_wall = parts["half_wall_m2K_W"]
     h_side, h_top, h_bottom = m * h_side + h_rad[0], m * h_top + h_rad[0], m * h_bottom + h_rad[0]
     wall = (_series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.bottom_area_m2, h_bottom, half_wall)
             + dry_shell_W_K(rig, h_side, h_top))
     hardware = rig.body_area_m2 * (m * h_body + h_rad[1])
-    hose_area = np.pi * D * rig.hose_length_m
-    outer_half = cylinder_wall_conductance_W_K(hose_mid_diameter_m(rig), D, rig.hose_length_m,
-                                               HOSE_WALL_CONDUCTIVITY_W_mK)
-    hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / outer_half)
+    hose_area = parts["hose_area_m2"]
+    hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / parts["hose_outer_half_W_K"])
     return wall, hardware, hose
 
 
@@ -256,12 +289,12 @@ def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, c
     flowing = np.asarray(volume_flow_m3_s) > 0
     if not flowing.any():
         return still, still
-    D = _rows(D_i, rig.passage_diameter_m, like=np.atleast_1d(T_oil_K))
-    length = _rows(L, rig.passage_length_m, like=D[0])
+    parts = rig.constants
+    D = _like(parts["tube_diameters_m"], np.atleast_1d(T_oil_K))
+    length = _like(parts["tube_lengths_m"], D[0])
     velocity = volume_flow_m3_s / (0.25 * np.pi * D**2)
     h = Nu_tube_Hausen_Gnielinski(velocity * D / nu, pr, D, length) * k_oil / D
-    inner_half = cylinder_wall_conductance_W_K(D_i, hose_mid_diameter_m(rig), L, HOSE_WALL_CONDUCTIVITY_W_mK)
-    UA_hose = 1.0 / (1.0 / (h[0] * np.pi * D_i * L) + 1.0 / inner_half)
+    UA_hose = 1.0 / (1.0 / (h[0] * np.pi * D_i * L) + 1.0 / parts["hose_inner_half_W_K"])
     d_p = rig.gear_pitch_diameter_m
     pitch_speed = np.pi * d_p * volume_flow_m3_s / (rig.displacement_m3 * rig.volumetric_efficiency)
     h_pump = Nu_flat_plate_forced_Incropera(pitch_speed * 0.5 * d_p / nu, pr) * k_oil / (0.5 * d_p)

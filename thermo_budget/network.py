@@ -10,10 +10,12 @@ a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 
-from .conductances import (HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K, dry_shell_W_K, h_air_W_m2K,
+from .conductances import (HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K, constant_parts, dry_shell_W_K,
+                           h_air_W_m2K,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
@@ -93,6 +95,12 @@ class Rig:
 
     def with_changes(self, **changes) -> "Rig":
         return replace(self, **changes)
+
+    @cached_property
+    def constants(self) -> dict:
+        """The parts of the conductances that depend on the geometry only, worked out once per rig
+        (conductances.constant_parts); a changed rig is a new object and works them out again."""
+        return constant_parts(self)
 
 
 @dataclass(frozen=True)

@@ -15,6 +15,9 @@ from .solver import integrate
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
 NEWTON_ITERATIONS = 12
+# From this many runs of the cycle in one batch, Broyden updates replace the later Jacobians
+# (periodic_state); below it a batch's cost is mostly per call.
+BROYDEN_FROM_DESIGNS = 500
 GRID_POINTS = 24           # candidates per round of a batched search
 GRID_ROUNDS = 3
 # Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
@@ -67,11 +70,13 @@ def _has_loss_path(rig: Rig) -> np.ndarray:
 
 
 def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
-    """The cycle's periodic steady state, by a quasi-Newton iteration on the one-cycle map: a
-    finite-difference Jacobian once (all designs and perturbations in one batch), then Broyden's
-    update (Dennis and Schnabel, Numerical Methods for Unconstrained Optimization and Nonlinear
-    Equations, 1983, ch. 8), each iteration running the cycle once for the designs not yet converged.
-    The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it.
+    """The cycle's periodic steady state, by Newton iteration on the one-cycle map, for the designs
+    not yet converged. The Jacobian is by finite differences (all designs and perturbations in one
+    batch); on a large batch (BROYDEN_FROM_DESIGNS or more runs of the cycle) only the first one, and
+    then Broyden's update (Dennis and Schnabel, Numerical Methods for Unconstrained Optimization and
+    Nonlinear Equations, 1983, ch. 8), which runs the cycle once per design instead of k + 1 times.
+    The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it; on
+    a small batch the cost is per call, not per design, so full Newton steps are cheaper there.
 
     Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K.
@@ -79,34 +84,54 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     k = N_NODES
     copies = k + 1                      # the state itself and one perturbation per node
     X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
-    delta = 0.01
     waits = None if wait_s is None else np.broadcast_to(np.asarray(wait_s, dtype=float), (n,))
     eye = np.eye(k)
-    Xc = np.repeat(X, copies, axis=0)
-    for i in range(k):
-        Xc[i + 1::copies] += delta * eye[i]
-    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(np.arange(n), copies)), Xc,
-                            None if waits is None else np.repeat(waits, copies))
-    F, peak = Fc[0::copies], peak_c[0::copies]   # the cycle from X itself, and its peak
-    residual = F - X
-    B = np.stack([(Fc[i + 1::copies] - F) / delta for i in range(k)], axis=-1) - eye   # d residual / dX
-    converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
-    for _ in range(NEWTON_ITERATIONS - 1):
-        active = np.flatnonzero(~converged & np.all(np.isfinite(residual), axis=1))
-        if not active.size:
-            break
-        step = np.linalg.solve(B[active] + 1e-12 * eye, -residual[active][..., None])[..., 0]
-        X_new = np.clip(X[active] + step, 150.0, 1500.0)
-        F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new,
-                                     None if waits is None else waits[active])
-        r_new = F_new - X_new
-        dx, dr = X_new - X[active], r_new - residual[active]
-        Bdx = (B[active] @ dx[..., None])[..., 0]
-        B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
+    broyden = n * copies >= BROYDEN_FROM_DESIGNS
+    residual = np.full((n, k), np.inf)
+    peak = np.full(n, np.nan)
+    B = np.empty((n, k, k))             # d residual / d X
+    converged = np.zeros(n, bool)
+    for iteration in range(NEWTON_ITERATIONS):
+        active = np.flatnonzero(~converged)
+        if iteration > 0:
+            active = active[np.all(np.isfinite(residual[active]), axis=1)]
+            if not active.size:
+                break
+            step = np.linalg.solve(B[active] + 1e-12 * eye, -residual[active][..., None])[..., 0]
+            X_new = np.clip(X[active] + step, 150.0, 1500.0)
+        else:
+            X_new = X[active]
+        waits_active = None if waits is None else waits[active]
+        if iteration == 0 or not broyden:
+            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, waits_active)
+        else:
+            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, waits_active)
+            r_new = F_new - X_new
+            dx, dr = X_new - X[active], r_new - residual[active]
+            Bdx = (B[active] @ dx[..., None])[..., 0]
+            B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(
+                np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
         X[active], residual[active], peak[active] = X_new, r_new, peak_new
         converged[active] = np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K
+        if converged.all():
+            break
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
     return X, peak, ok
+
+
+def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
+    """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), and the residual's
+    Jacobian by forward differences (m,k,k), for the designs in index, in one batch."""
+    k = X.shape[1]
+    copies = k + 1
+    Xc = np.repeat(X, copies, axis=0)
+    for i in range(k):
+        Xc[i + 1::copies, i] += delta_K
+    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
+                            None if waits is None else np.repeat(waits, copies))
+    F = Fc[0::copies]
+    J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
+    return F - X, peak_c[0::copies], J
 
 
 def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0):

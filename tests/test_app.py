@@ -2,6 +2,8 @@
 without changing answers, refuses bad uploads and impossible inputs while keeping the last answers."""
 from __future__ import annotations
 
+import html
+import re
 from pathlib import Path
 
 import pytest
@@ -16,8 +18,32 @@ def page():
     return AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
 
 
+_CARD = re.compile(r'<div class="tb-card[^"]*" data-key="(\w+)"[^>]*>(.*?)</div></div>(?=<div class="tb-card|</div></div>$)', re.S)
+_PART = re.compile(r'<div class="tb-(label|value|unit|detail)">(.*?)</div>', re.S)
+
+
+def cards(at) -> dict:
+    """The headline cards as drawn: {key: {"label", "value", "unit", "details": [...]}}."""
+    source = next(m.value for m in at.markdown if "tb-grid" in m.value)
+    found = {}
+    for key, body in _CARD.findall(source.strip()):
+        card = {"label": "", "value": "", "unit": "", "details": []}
+        for part, text in _PART.findall(body + "</div>"):
+            if part == "detail":
+                card["details"].append(html.unescape(text))
+            else:
+                card[part] = html.unescape(text)
+        found[key] = card
+    return found
+
+
 def metrics(at) -> dict:
-    return {m.label: m.value for m in at.metric}
+    """Each headline card's label -> its value and unit, as a reader sees them."""
+    return {c["label"]: (c["value"] + " " + c["unit"]).strip() for c in cards(at).values()}
+
+
+def headline(at) -> str:
+    return cards(at)["pulls"]["value"]
 
 
 def number_input(at, label_start: str):
@@ -28,25 +54,27 @@ def test_default_scenario_runs_without_exception(page):
     assert not page.exception
     assert not page.error
     shown = metrics(page)
-    for label in ("Pulls before the limit", "Time to the limit", "Wait needed between pulls", "Cooler", "Smallest tank"):
+    for label in ("Pulls before the limit", "Hottest oil, planned session", "Time to the limit", "Wait between pulls",
+                  "Cooler for the plan", "Smallest tank", "Oil ageing today", "Head room at the limit"):
         assert label in shown
-    assert shown["Pulls before the limit"].isdigit()
-    assert any("The limit is" in m.value for m in page.markdown)
+    assert headline(page).isdigit()
+    assert any("The bulk limit is" in m.value for m in page.markdown)
     assert any("Safety" in e.label for e in page.expander)
 
 
 def test_both_charts_are_drawn_and_the_design_chart_follows_an_input(page):
     charts = page.get("image")
-    assert len(charts) == 2   # the temperature chart and the design chart (drawn last, into its place)
+    # the temperature chart, the hot-day chart, the band's ranking chart and the design chart (drawn last)
+    assert len(charts) == 4
     number_input(page, "Oil in the tank").set_value(12.0).run()
-    assert not page.exception and len(page.get("image")) == 2
+    assert not page.exception and len(page.get("image")) == 4
 
 
 def test_changing_oil_volume_changes_headline_pull_count(page):
-    before = int(metrics(page)["Pulls before the limit"])
+    before = int(headline(page))
     number_input(page, "Oil in the tank").set_value(12.0).run()
     assert not page.exception and not page.error
-    after = int(metrics(page)["Pulls before the limit"])
+    after = int(headline(page))
     assert after < before  # less oil never means more pulls (invariant of the model)
 
 
@@ -60,7 +88,7 @@ def test_unit_switch_changes_units_not_answers(page):
     assert oil.label.endswith("(gal)")
     assert oil.value == pytest.approx(18.0 / 3.785411784, rel=1e-6)  # 1 US gal = 3.785411784 L exactly (NIST SP 811)
     assert us["Pulls before the limit"] == si["Pulls before the limit"]
-    assert us["Smallest tank"].endswith("gal") and si["Smallest tank"].endswith("L")
+    assert us["Smallest tank"].endswith("gal of oil") and si["Smallest tank"].endswith("L of oil")
     assert number_input(page, "Hottest the oil may get").value == pytest.approx(176.0)  # 80 degC = 176 degF
     page.radio(key="system").set_value("SI").run()
     assert metrics(page) == si
@@ -122,7 +150,7 @@ def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
     again = report(load_scenario(read_toml_text(text)))
-    assert str(again["runs_before_limit"]) == metrics(page)["Pulls before the limit"]
+    assert str(again["runs_before_limit"]) == headline(page)
 
 
 def test_cooler_toggle_adds_a_cooler_input(page):
@@ -149,12 +177,146 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.report import simulate, trace_csv
-    before = metrics(page)["Pulls before the limit"]
+    before = headline(page)
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
     assert not page.exception and not page.error
-    shown = metrics(page)
+    shown = {m.label: m.value for m in page.metric}
     assert shown["Heat loss scale"] == "1.00" and shown["Heat capacity scale"] == "1.00"  # self-consistency
+    assert any("heat loss scale" in c.value and " to " in c.value and "{" not in c.value for c in page.caption)
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
-    assert metrics(page)["Pulls before the limit"] == before
+    assert headline(page) == before
+
+
+# ------------------------------------------------------------------ every figure is the package's own
+
+# Exact conversion factors (NIST SP 811, Appendix B): 1 gal = 3.785411784 L; degF = 1.8 degC + 32;
+# 1 hp = 745.69987158227 W; 1 psi = 6894.757293168 Pa; 1 BTU_IT/hr/degF = 1055.05585262 / 3600 * 1.8 W/K.
+SI_TO_US = {"C": lambda c: 1.8 * c + 32.0, "L": lambda v: v / 3.785411784, "W/K": lambda g: g / (1055.05585262 / 3600.0 * 1.8),
+            "L/min": lambda q: q / 3.785411784, "bar": lambda p: p * 1e5 / 6894.757293168, "mm": lambda x: x / 25.4,
+            "kW": lambda p: p * 1000.0 / 745.69987158227}
+
+
+def _figure(text: str) -> float:
+    return float(re.search(r"-?[\d,]+(?:\.\d+)?", text).group(0).replace(",", ""))
+
+
+def _close(shown: str, expected: float, rel: float = 2e-6):
+    """A shown figure equals the expected one to the last digit it shows."""
+    match = re.search(r"-?[\d,]+(?:\.(\d+))?", shown)
+    half_digit = 0.5 * 10.0 ** -len(match.group(1) or "")
+    assert abs(_figure(shown) - expected) <= half_digit + rel * abs(expected), (shown, expected)
+
+
+def _in(system: str, unit: str, value: float) -> float:
+    return value if system == "SI" else SI_TO_US[unit](value)
+
+
+@pytest.mark.parametrize("scenario_file", ["default.toml", "us_20hp_small_tank.toml"])
+def test_every_shown_figure_is_the_report_figure(scenario_file):
+    from thermo_budget import load_scenario
+    from thermo_budget.hot_day import hot_day
+    from thermo_budget.report import report
+    path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
+    assert not at.exception and not at.error
+    answers = report(load_scenario(path))
+    for system in ("SI", "US"):
+        if at.session_state["system"] != system:
+            at.radio(key="system").set_value(system).run()
+        shown = cards(at)
+        runs = answers["runs_before_limit"]
+        assert shown["pulls"]["value"] == str(runs)
+        assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
+                   for line in shown["pulls"]["details"])
+        _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
+        _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
+        if answers["min_oil_volume_L"] is not None:
+            _close(shown["tank"]["value"], _in(system, "L", answers["min_oil_volume_L"]))
+        if answers["cooler_needed"] and answers["cooler_required_W_per_K"]:
+            _close(shown["cooler"]["value"], _in(system, "W/K", answers["cooler_required_W_per_K"]))
+        _close(shown["ageing"]["value"], answers["oil_ageing_equivalent_h"])
+        _close(shown["headroom"]["value"], _in(system, "L", answers["headroom_at_limit_L"]))
+        # under "More figures": the pump's flow and pressure (the flow once read 756 L/min for 45.4)
+        figures = next(m.value for m in at.markdown if "Pump at the hardest pull" in m.value)
+        pump_line = figures.splitlines()[0]
+        flow_text, pressure_text = pump_line.split(": ")[1].split(" at ")[:2]
+        _close(flow_text, _in(system, "L/min", answers["pump"]["flow_L_min"]))
+        _close(pressure_text, _in(system, "bar", answers["pump"]["pressure_bar"]))
+        # the hot day: each hotter ambient's pull count, as hot_day() gives it
+        hot = hot_day(load_scenario(path))
+        lines = next(m.value for m in at.markdown if m.value.startswith("Hotter than today")).splitlines()[1:]
+        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + 273.15 + 1e-9][:len(lines)]
+        for line, i in zip(lines, hotter):
+            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
+            assert f"{int(hot.pulls[i])} pulls" in line
+        # the schedule: each pull's bulk and return-line peak
+        schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
+        cells = [re.findall(r"<td>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", schedule)[1:]]
+        assert len(cells) == len(answers["schedule"])
+        for row, expected in zip(cells, answers["schedule"]):
+            _close(row[3], _in(system, "C", expected["peak_C"]))
+            _close(row[4], _in(system, "C", expected["peak_return_C"]))
+
+
+def test_return_line_stop_is_said_in_the_headline():
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "us_20hp_small_tank.toml"
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
+    details = " ".join(cards(at)["pulls"]["details"])
+    assert "return line's limit" in details and "185.0 °F" in details
+    assert "(limit 185.0 °F)" in cards(at)["hottest"]["details"][0]
+
+
+def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
+    from thermo_budget.page_cards import pulls_card
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.report import report
+    answers = report(load_scenario(DEFAULT_SCENARIO))
+    plain = pulls_card({key: value for key, value in answers.items()
+                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
+    assert "likely" not in plain.unit
+    runs = answers["runs_before_limit"]                     # the card shows the point answer
+    answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
+                          "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}}
+    card = pulls_card(answers, "SI")
+    assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
+    assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
+    assert any("(likely 9–10)" in line for line in card.details)
+
+
+def test_name_edit_follows_into_the_titles_and_the_file(page):
+    next(box for box in page.text_input if box.label == "Rig name").input("Stand 2, bigger tank").run()
+    assert not page.exception and not page.error
+    assert page.subheader[0].value.startswith("Stand 2, bigger tank")
+    assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
+    from thermo_budget.plots import plot_trace
+    from thermo_budget import load_scenario
+    from thermo_budget.report import simulate
+    scenario = load_scenario(page.session_state["draft"])
+    assert plot_trace(scenario, simulate(scenario)).axes[0].get_title(loc="left") == "Stand 2, bigger tank"
+
+
+def test_failed_upload_error_is_cleared_by_a_later_action(page):
+    page.file_uploader(key="upload").set_value(("broken.toml", b"[reservoir\noil_volume = ", "application/toml")).run()
+    assert any("broken.toml" in e.value for e in page.error)
+    number_input(page, "Oil in the tank").set_value(16.0).run()
+    assert not page.exception and not any("broken.toml" in e.value for e in page.error)
+
+
+def test_speeds_say_their_unit(page):
+    assert number_input(page, "Engine speed in a pull").label.endswith("(rpm)")
+    assert number_input(page, "Idle speed").label.endswith("(rpm)")
+
+
+def test_a_return_line_limit_typed_on_the_page_stops_the_count(page):
+    before = int(headline(page))
+    number_input(page, "Return-line limit").set_value(50.0).run()
+    assert not page.exception and not page.error
+    assert int(headline(page)) < before
+    assert any("return line's limit" in d for d in cards(page)["pulls"]["details"])
+    number_input(page, "Return-line limit").set_value(200.0).run()   # far above the return line: no effect
+    assert int(headline(page)) == before

@@ -1,6 +1,12 @@
 """The page in a real browser: Debian's chromium driven by playwright, against `streamlit run app.py`.
 
+One server and one browser for the module. The headline must read whole at every width people use
+(400 px phone to 1920 px desktop), in both unit systems, on the default rig and on a US 20 hp rig:
+no headline element overflows its box and none ends in an ellipsis.
+
 Skipped (with the reason) only where /usr/bin/chromium is missing. Never downloads a browser.
+Screenshots go to a temporary folder, or to $THERMO_BUDGET_SCREENSHOTS (e.g. `docs`) to refresh the
+ones under docs/.
 """
 from __future__ import annotations
 
@@ -22,8 +28,24 @@ CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-back
                   "--disable-component-update", "--disable-sync", "--no-first-run"]
 START_TIMEOUT_S = 90
 ANSWER_TIMEOUT_MS = 120_000
+WIDTHS = (400, 1024, 1366, 1920)
+HEIGHT = 1000
+US_RIG = REPO / "scenarios" / "us_20hp_small_tank.toml"
 
 pytestmark = pytest.mark.skipif(not Path(CHROMIUM).exists(), reason=f"{CHROMIUM} is not installed")
+
+# Every headline element: each card, and its label, value, unit and detail lines.
+CHECK_HEADLINE = """() => {
+  const bad = [];
+  const cards = [...document.querySelectorAll('.tb-card')];
+  for (const el of [...cards, ...document.querySelectorAll('.tb-card > div')]) {
+    const text = el.innerText.trim();
+    if (el.scrollWidth > el.clientWidth || text.endsWith('…') || text.endsWith('...'))
+      bad.push({text: text.slice(0, 60), scroll: el.scrollWidth, client: el.clientWidth});
+  }
+  const page = document.documentElement;
+  return {cards: cards.length, bad: bad, pageOverflow: page.scrollWidth - page.clientWidth};
+}"""
 
 
 def _free_port() -> int:
@@ -46,54 +68,131 @@ def _wait_healthy(url: str, process: subprocess.Popen):
     raise TimeoutError(f"streamlit did not answer {url}/_stcore/health within {START_TIMEOUT_S} s")
 
 
-def _headline(page) -> str:
-    return page.locator('[data-testid="stMetricValue"]').first.inner_text()
-
-
-def test_page_in_browser_reacts_to_oil_volume(tmp_path):
-    from playwright.sync_api import sync_playwright
+@pytest.fixture(scope="module")
+def server(tmp_path_factory):
     port = _free_port()
     url = f"http://127.0.0.1:{port}"
-    log = open(tmp_path / "streamlit.log", "w")
-    server = subprocess.Popen(
+    log = open(tmp_path_factory.mktemp("server") / "streamlit.log", "w")
+    process = subprocess.Popen(
         [sys.executable, "-m", "streamlit", "run", str(REPO / "app.py"), "--server.headless", "true",
          "--server.address", "127.0.0.1", "--server.port", str(port), "--browser.gatherUsageStats", "false"],
         cwd=REPO, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
     try:
-        _wait_healthy(url, server)
-        with sync_playwright() as p:
-            browser = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_FLAGS)
-            page = browser.new_page(viewport={"width": 1500, "height": 1250})
-            page.goto(url)
-            page.get_by_text("Pulls before the limit").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
-            page.wait_for_function(
-                "() => [...document.querySelectorAll('[data-testid=stMetricValue]')].length >= 5",
-                timeout=ANSWER_TIMEOUT_MS)
-            before = _headline(page)
-            assert before.strip().isdigit(), before
-            page.locator('[data-testid="stImage"] img').nth(1).wait_for(timeout=ANSWER_TIMEOUT_MS)
-            page.screenshot(path=str(tmp_path / "page_default.png"), full_page=False)
-
-            oil = page.get_by_role("spinbutton", name="Oil in the tank (L)")
-            oil.fill("12")
-            oil.press("Enter")
-            page.wait_for_function(
-                "(before) => { const v = document.querySelector('[data-testid=stMetricValue]');"
-                " return v && v.innerText.trim() !== before.trim(); }",
-                arg=before, timeout=ANSWER_TIMEOUT_MS)
-            after = _headline(page)
-            assert after.strip().isdigit() and int(after) < int(before)  # less oil, fewer pulls
-            page.wait_for_timeout(1500)
-            page.screenshot(path=str(tmp_path / "page_less_oil.png"), full_page=False)
-            browser.close()
-        shot = os.environ.get("THERMO_BUDGET_SCREENSHOT")
-        if shot:  # e.g. THERMO_BUDGET_SCREENSHOT=docs/screenshot.png to refresh the README picture
-            shutil.copy(tmp_path / "page_default.png", REPO / shot)
+        _wait_healthy(url, process)
+        yield url
     finally:
-        os.killpg(server.pid, signal.SIGTERM)
+        os.killpg(process.pid, signal.SIGTERM)
         try:
-            server.wait(timeout=10)
+            process.wait(timeout=10)
         except subprocess.TimeoutExpired:
-            os.killpg(server.pid, signal.SIGKILL)
-            server.wait(timeout=10)
+            os.killpg(process.pid, signal.SIGKILL)
+            process.wait(timeout=10)
         log.close()
+
+
+@pytest.fixture(scope="module")
+def browser():
+    from playwright.sync_api import sync_playwright
+    with sync_playwright() as p:
+        chromium = p.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_FLAGS)
+        yield chromium
+        chromium.close()
+
+
+@pytest.fixture(scope="module")
+def shots(tmp_path_factory):
+    folder = os.environ.get("THERMO_BUDGET_SCREENSHOTS")
+    return (REPO / folder) if folder else tmp_path_factory.mktemp("shots")
+
+
+def _headline(page) -> str:
+    return page.locator('.tb-card[data-key="pulls"] .tb-value').first.inner_text()
+
+
+def _settled(page, expected_pulls: str, unit_text: str):
+    """Wait until the headline shows the expected count in the expected units, and the run is over."""
+    page.wait_for_function(
+        "([pulls, unit]) => { const v = document.querySelector('.tb-card[data-key=pulls] .tb-value');"
+        " const h = document.querySelector('.tb-card[data-key=hottest] .tb-unit');"
+        " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
+        arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
+    page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)
+    page.wait_for_function("() => !document.querySelector('[data-testid=stStatusWidget] svg')",
+                           timeout=ANSWER_TIMEOUT_MS)
+    page.wait_for_timeout(300)
+
+
+def _open(browser, url: str, width: int):
+    page = browser.new_page(viewport={"width": width, "height": HEIGHT})
+    page.goto(url)
+    page.locator(".tb-card").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
+    return page
+
+
+def _choose_units(page, system: str):
+    label = {"SI": "Metric", "US": "US customary"}[system]
+    page.locator('[data-testid="stSidebar"]').get_by_text(label, exact=True).click()
+
+
+def _expected_pulls(path) -> str:
+    from thermo_budget import load_scenario
+    from thermo_budget.report import report
+    return str(report(load_scenario(path))["runs_before_limit"])
+
+
+@pytest.mark.parametrize("rig", ["default", "us_20hp"])
+def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browser, shots, rig):
+    """Set up the rig once (wide, where the sidebar is open), then read the headline at each width."""
+    path = REPO / "scenarios" / ("default.toml" if rig == "default" else US_RIG.name)
+    pulls = _expected_pulls(path)
+    page = _open(browser, server, 1366)
+    if rig != "default":
+        page.locator('[data-testid="stSidebar"] input[type=file]').first.set_input_files(str(path))
+    failures = []
+    systems = ("SI", "US") if rig == "default" else ("US", "SI")   # the rig's own units first
+    for system in systems:
+        if system != systems[0]:
+            _choose_units(page, system)
+        _settled(page, pulls, "°C" if system == "SI" else "°F")
+        for width in WIDTHS:
+            page.set_viewport_size({"width": width, "height": HEIGHT})
+            page.wait_for_timeout(400)
+            found = page.evaluate(CHECK_HEADLINE)
+            assert found["cards"] == 8
+            if found["bad"] or found["pageOverflow"] > 0:
+                failures.append((system, width, found))
+            if (rig, system) in (("default", "SI"), ("us_20hp", "US")):
+                page.screenshot(path=str(shots / f"page_{rig}_{system}_{width}.png"))
+        page.set_viewport_size({"width": 1366, "height": HEIGHT})
+    page.close()
+    assert not failures, failures
+
+
+def test_phone_width_schedule_and_page_do_not_overflow(server, browser):
+    page = _open(browser, server, 400)
+    _settled(page, _expected_pulls(REPO / "scenarios" / "default.toml"), "°C")
+    found = page.evaluate("""() => {
+      const table = document.querySelector('.tb-schedule');
+      return {table: table.scrollWidth - table.clientWidth,
+              page: document.documentElement.scrollWidth - document.documentElement.clientWidth};
+    }""")
+    page.close()
+    assert found == {"table": 0, "page": 0}
+
+
+def test_page_in_browser_reacts_to_oil_volume(server, browser, shots):
+    page = _open(browser, server, 1366)
+    _settled(page, _expected_pulls(REPO / "scenarios" / "default.toml"), "°C")
+    before = _headline(page)
+    assert before.strip().isdigit(), before
+    oil = page.get_by_role("spinbutton", name="Oil in the tank (L)")
+    oil.fill("12")
+    oil.press("Enter")
+    page.wait_for_function(
+        "(before) => { const v = document.querySelector('.tb-card[data-key=pulls] .tb-value');"
+        " return v && v.innerText.trim() !== before.trim(); }", arg=before, timeout=ANSWER_TIMEOUT_MS)
+    after = _headline(page)
+    assert after.strip().isdigit() and int(after) < int(before)  # less oil, fewer pulls
+    page.close()
+    if os.environ.get("THERMO_BUDGET_SCREENSHOTS"):   # the README's picture: the default rig at 1366 px
+        shutil.copy(shots / "page_default_SI_1366.png", REPO / "docs" / "screenshot.png")

@@ -29,7 +29,7 @@ def test_trace_plot_has_three_temperatures_limit_and_pull_shading(default, trace
     ax = fig.axes[0]
     assert "(°C)" in ax.get_ylabel() and "(min)" in ax.get_xlabel()
     labels = [line.get_label() for line in ax.get_lines()]
-    assert {"oil in the tank (bulk)", "oil returning to the tank", "tank wall"} <= set(labels)
+    assert {"bulk oil (tank)", "return line", "tank wall"} <= set(labels)
     limit = [line for line in ax.get_lines() if line.get_linestyle() == ":"][0]
     assert limit.get_ydata()[0] == pytest.approx(80.0)
     assert len(ax.patches) == trace.pull_start_s.shape[0]  # one shaded span per pull
@@ -40,7 +40,7 @@ def test_trace_plot_in_us_units(default, trace):
     assert "(°F)" in ax.get_ylabel()
     limit = [line for line in ax.get_lines() if line.get_linestyle() == ":"][0]
     assert limit.get_ydata()[0] == pytest.approx(176.0)  # 80 degC = 176 degF
-    bulk = [line for line in ax.get_lines() if line.get_label() == "oil in the tank (bulk)"][0]
+    bulk = [line for line in ax.get_lines() if line.get_label() == "bulk oil (tank)"][0]
     assert bulk.get_ydata()[0] == pytest.approx(68.0)  # starts at 20 degC = 68 degF
 
 
@@ -61,9 +61,11 @@ def test_design_chart_marks_rig_and_draws_planned_contour(default):
     assert "(L)" in ax.get_xlabel() and "W/K" in ax.get_ylabel()
     marker = [line for line in ax.get_lines() if line.get_label() == "your rig now"][0]
     assert marker.get_xdata()[0] == pytest.approx(18.0) and marker.get_ydata()[0] == 0.0
-    texts = [t.get_text() for t in ax.texts]
-    assert any("planned session: 10 pulls" in t for t in texts)
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "your plan: 10 pulls" in legend
+    assert "ETD" in ax.get_ylabel() and any("entering temperature difference" in t.get_text() for t in fig.texts)
     assert "pulls before" in fig.axes[1].get_ylabel()  # the colour bar
+    assert fig.axes[1].get_yticklabels()[-1].get_text() == "all day"
 
 
 def test_design_chart_in_us_units(default):
@@ -85,17 +87,23 @@ def test_design_chart_from_real_sweep(default):
     from thermo_budget.design_sweep import sweep
     result = sweep(default, [6.0, 12.0, 18.0, 30.0], [0.0, 2.0, 5.0])
     fig = plot_design_chart(default, result)
-    assert any("planned session" in t.get_text() for t in fig.axes[0].texts) or \
+    assert any("your plan" in t.get_text() for t in fig.axes[0].get_legend().get_texts()) or \
         np.all(np.nan_to_num(result.runs_before_limit, nan=1e9) >= result.pulls_planned)
 
 
-@pytest.mark.parametrize("planned,highest", [(12, 43.0), (10, 20.0), (10, 9.0), (1, 1.0), (40, 55.0), (3, 2000.0)])
-def test_run_levels_cover_every_count(planned, highest):
-    from thermo_budget.plots import _run_levels
-    levels = _run_levels(planned, highest)
+@pytest.mark.parametrize("planned,cap", [(12, 48), (10, 40), (1, 40), (40, 160), (3, 40), (26, 104)])
+def test_run_levels_are_built_around_the_plan(planned, cap):
+    from thermo_budget.plots import _band_colours, _run_levels
+    levels = _run_levels(planned, cap)
     assert levels[0] == 0 and all(a < b for a, b in zip(levels, levels[1:]))
-    assert planned in levels
-    assert levels[-1] > max(highest, planned)   # the top band holds the highest count and the unlimited ones
+    assert planned in levels and cap in levels
+    assert levels[-1] > cap                     # the "all day" band above the cap
+    below = [lv for lv in levels[:-1] if lv < planned]
+    assert len(below) >= min(planned, 3)        # the plan's own neighbourhood gets bands of its own
+    colours = _band_colours(levels, planned)
+    assert len(colours) == len(levels) - 1
+    warm, cool = colours[:len(below)], colours[len(below):]
+    assert all(c[0] > c[2] for c in warm) and all(c[2] > c[0] for c in cool)   # red below the plan, blue from it
 
 
 def test_band_edges_are_inked_to_read_on_their_band():

@@ -159,3 +159,18 @@ def test_first_crossing_interpolates_between_points(us_trace, us_scenario):
     assert times[i - 1] <= t <= times[i]
     frac = (limit - oil[i - 1]) / (oil[i] - oil[i - 1])
     assert t == pytest.approx(times[i - 1] + frac * (times[i] - times[i - 1]))
+
+
+def test_an_absurd_peak_gets_a_caution_and_a_sane_one_none(default_report):
+    assert default_report["cautions"] == [] and default_report["flash_point_given"] is False
+    raw = base_raw()
+    set_path(raw, "reservoir.oil_volume", "4 L")
+    raw["session"]["steps"][0]["power"] = "60 kW"       # 60 kW pulls into 4 L of oil
+    answers = thermo_budget.report(load_scenario(raw))
+    assert answers["peak_C"] > 180.0                    # past the assumed 180 degC flash point
+    assert any("flash point" in text and "assumed" in text for text in answers["cautions"])
+    set_path(raw, "fluid.flash_point", "240 degC")       # a stated flash point above the peak
+    stated = thermo_budget.report(load_scenario(raw))
+    assert stated["flash_point_C"] == 240.0 and stated["flash_point_given"]
+    if stated["peak_return_C"] < 240.0:
+        assert any("above 100 degC" in text for text in stated["cautions"])

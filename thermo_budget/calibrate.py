@@ -22,6 +22,7 @@ from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
 from .measured_log import MeasuredLog, read_log
 from .network import cooling_time_constant_s
 from .scenario import Scenario
+from .uncertainty import with_fit_posterior
 
 # re-exported: the log's model and the fit's text live beside this module
 __all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "calibrated_toml", "fit_command", "fit_log",
@@ -196,7 +197,7 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     notes = list(log.notes) + list(model.notes)
     if offset is not None:
         notes.append("the start offset describes that day's start only; it is not written to the calibrated scenario")
-    return FitResult(
+    result = FitResult(
         sensor=sensor, units=scenario.units, convection_multiplier=convection, capacity_multiplier=capacity,
         start_offset_K=offset, ci95=ci95, correlation=correlation, rms_K=rms,
         max_abs_residual_K=float(np.max(np.abs(residual))),
@@ -207,6 +208,8 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         time_constant_s=tau, converged=bool(solution.success), warnings=warnings, notes=notes,
         time_s=log.time_s[used], measured_K=measured, fitted_K=fitted, uncalibrated_K=uncalibrated,
         calibrated_scenario=calibrated, hardware_coupling_multiplier=coupling)
+    result.calibrated_scenario = with_fit_posterior(calibrated, result)   # the band's posterior (uncertainty.py)
+    return result
 
 
 def _intervals(theta, J, residual, names):

@@ -29,14 +29,19 @@ def summary_text(result: dict) -> str:
              f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
              f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
              f"end {_temp(result['end_C'], u)}",
-             f"  return line peak {_temp(result['peak_return_C'], u)}",
+             f"  return line peak {_temp(result['peak_return_C'], u)}"
+             + (f" (limit {_temp(result['return_line_limit_C'], u)})" if result.get("return_line_limit_C") is not None else ""),
              "  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
                                       else f"{result['time_to_limit_s'] / 60:.1f} min"),
              f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
              f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
              f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
              f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
-             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in"]
+             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in",
+             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at 60 degC "
+             "(rate doubling per 10 K; common practice, a relative figure)",
+             f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
+             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3)})"]
     if "runs_before_limit" in result:
         runs = result["runs_before_limit"]
         lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
@@ -50,6 +55,11 @@ def summary_text(result: dict) -> str:
                                                       else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
                   "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
+        if result.get("runs_stopped_by") == "return_line":
+            lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
+        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
+        from .band_text import summary_lines
+        lines += summary_lines(result)
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)
 
@@ -64,8 +74,31 @@ def _run(args) -> int:
     if args.plot:
         from .plots import plot_trace
         plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
-    print(json.dumps(result, indent=2) if args.json else summary_text(result))
+    hot = None
+    if args.ambients is not None:
+        from .hot_day import hot_day
+        hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients) + 273.15)
+        result["hot_day"] = hot.to_dict()
+    if args.json:
+        print(json.dumps(result, indent=2))
+    else:
+        print(summary_text(result))
+        if hot is not None:
+            print("  hot day (start temperature moved with the air):\n" + hot.summary_text(scenario.units))
     return 0
+
+
+def _ambients(text: str):
+    """--ambients START:STOP:N in degC (negative allowed)."""
+    import numpy as np
+    parts = text.split(":")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+        if len(parts) != 3 or not 1 <= count <= 200 or stop < start or start < -60 or stop > 150:
+            raise ValueError
+    except (ValueError, IndexError):
+        raise ScenarioError("--ambients", text, "START:STOP:N in degC, -60 <= START <= STOP <= 150, 1 <= N <= 200") from None
+    return np.linspace(start, stop, count)
 
 
 def _grid(text: str, option: str):
@@ -111,6 +144,9 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--json", action="store_true", help="print the full result as JSON (SI, degC)")
     run.add_argument("--csv", metavar="TRACE.csv", help="write the temperature trace")
     run.add_argument("--plot", metavar="TRACE.png", help="plot the temperatures against time")
+    run.add_argument("--ambients", nargs="?", const="default", metavar="START:STOP:N",
+                     help="also the pull count and cooler needed across ambient temperatures (degC); "
+                          "without a value 0:45 degC in steps of 5 K, or the scenario's ambient +/- 15 K")
     run.set_defaults(handler=_run)
     sw = sub.add_parser("sweep", help="pulls before the limit over a grid of oil volumes and cooler sizes")
     sw.add_argument("scenario")

@@ -98,7 +98,8 @@ def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
 
 def constant_parts(rig: Rig) -> dict:
     """Geometry-only parts of the conductances, to work out once per rig (Rig.constants): stacked
-    lengths, the wall's and the hose wall's conduction, areas."""
+    lengths, the wall's and the hose wall's conduction, areas. (Emissivities and multipliers may be
+    sampled per design by the uncertainty band, so they stay out of it.)"""
     like = np.atleast_1d(rig.fill_height_m)
     half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
     mid = 0.5 * (rig.hose_inner_diameter_m + rig.hose_outer_diameter_m)
@@ -109,10 +110,9 @@ def constant_parts(rig: Rig) -> dict:
         "bottom_ra_per_side_ra": (rig.top_length_m / rig.fill_height_m) ** 3,
         "oil_forced_lengths_m": _rows(rig.fill_height_m, rig.plate_length_m, like=like),
         "oil_lengths_m": _rows(rig.fill_height_m, rig.top_length_m, like=like),
-        # air side: rows (wall, bodies) of the vertical and forced lengths; (wall, bodies, hose) emissivities
+        # air side: rows (wall, bodies) of the vertical and forced lengths
         "vertical_lengths_m": _rows(rig.side_height_m, rig.body_length_m, like=like),
         "forced_lengths_m": _rows(rig.plate_length_m, rig.body_length_m, like=like),
-        "emissivities": _rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity, like=like),
         "dry_area_m2": rig.dry_side_area_m2 + rig.top_area_m2,
         "wall_kt_W_K": rig.wall_conductivity_W_mK * rig.wall_thickness_m,
         # hoses: the hose wall's halves, inside and outside of the node at mid-wall
@@ -212,7 +212,8 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
     k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # rows: the wall's, the bodies' and the hoses' films
     dT = T_s - T_a
-    h_rad = h_radiation_grey(_like(parts["emissivities"], T_s), T_s, T_a)
+    h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
+                                   like=T_s[0]), T_s, T_a)
 
     vertical_length = _like(parts["vertical_lengths_m"], T_s[:2])
     forced_length = _like(parts["forced_lengths_m"], T_s[:2])

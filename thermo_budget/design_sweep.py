@@ -6,6 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .outcome import peak_oil_K
 from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
 from .scenario import Scenario, build_rig, limit_K
 
@@ -67,6 +68,6 @@ def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = M
     runs = runs_before_limit(scenario, rig, n, sustainable, max_pulls, session=session)
     shape = V.shape
     return SweepResult(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs.reshape(shape),
-                       sustainable=sustainable.reshape(shape), peak_C=(peak - 273.15).reshape(shape),
+                       sustainable=sustainable.reshape(shape), peak_C=(peak_oil_K(session) - 273.15).reshape(shape),
                        pulls_under_limit=under.reshape(shape), pulls_planned=len([s for s in scenario.steps if s.is_pull]),
                        limit_C=limit - 273.15, max_pulls=max_pulls)

@@ -10,7 +10,7 @@ import numpy as np
 
 from .network import passive_rejection_W
 from .planning import minimum_oil_volume_L, required_cooler_W_K
-from .plots import plot_design_chart, plot_trace
+from .plots import plot_design_chart, plot_hot_day, plot_trace
 from .report import simulate
 from .scenario import Scenario, build_rig, limit_K, load_scenario, read_toml_text
 
@@ -80,7 +80,19 @@ def design_chart_png(toml_text: str, system: str, answers: dict | None = None, r
     return png_bytes(plot_design_chart(scenario, result, system))
 
 
+def trace_chart_figure(toml_text: str, system: str, trace=None):
+    """The temperature chart of the planned session as a Figure (trace: simulate() of it, if known)."""
+    scenario = load_scenario(read_toml_text(toml_text))
+    return plot_trace(scenario, simulate(scenario) if trace is None else trace, system)
+
+
 def trace_chart_png(toml_text: str, system: str, trace=None) -> bytes:
     """The temperature chart of the planned session (trace: simulate() of it, if already known)."""
+    return png_bytes(trace_chart_figure(toml_text, system, trace))
+
+
+def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:
+    """The hot-day chart (hot: hot_day.hot_day() of the scenario, if already known)."""
+    from .hot_day import hot_day
     scenario = load_scenario(read_toml_text(toml_text))
-    return png_bytes(plot_trace(scenario, simulate(scenario) if trace is None else trace, system))
+    return png_bytes(plot_hot_day(scenario, hot_day(scenario) if hot is None else hot, system))

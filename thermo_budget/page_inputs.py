@@ -1,203 +1,29 @@
-"""The page's side of the units edge: widget values in the chosen unit system ("SI" or "US") to and
-from the scenario's raw dict, and answers formatted for display.
+"""The page's inputs that change the scenario file's shape: tank shape, oil grade and thinning, the
+optional cooler, and the planned session (the pulls, their engine curve and the waits), edited in
+the chosen unit system ("SI" or "US").
 
 Pure functions, no Streamlit, so they can be tested on their own. A raw dict is never changed in
 place; every `with_...` function returns a new one. Values written back into the raw dict are
 strings with their unit ("4.75 gal", "176 degF"), so a saved scenario says what the user typed.
+
+The field table lives in page_fields.py and the display formatting in page_format.py; both are
+re-exported here so that `page_inputs` stays the one name the page imports.
 """
 from __future__ import annotations
 
 import copy
 import math
-import re
 from dataclasses import dataclass
 
-import numpy as np
-
-from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
+from .page_fields import (FIELDS, PLAIN_STEPS, STEPS, Field, si_or_none, field_value, get_path,  # noqa: F401
+                          step_of, with_field)
+from .page_format import (QUANTITIES, SYSTEM_NAMES, SYSTEMS, decimals, from_shown, note_in,  # noqa: F401
+                          quantity_text, shown, shown_celsius, shown_duration, to_shown,
+                          trace_csv_shown, unit_symbol)
 from .scenario import with_path
 from .session import shaft_power_W
-from .units import SI_UNIT, UNIT_LABEL, convert, parse_quantity
-
-SYSTEMS = ("SI", "US")
-SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
-
-# Display quantities: name -> (kind of thermo_budget.units.SI_UNIT, display unit per system,
-# decimals shown per system).
-QUANTITIES = {
-    "oil_volume": ("volume", {"SI": "L", "US": "gal"}, {"SI": 1, "US": 2}),
-    "dimension": ("length", {"SI": "m", "US": "in"}, {"SI": 3, "US": 1}),
-    "thickness": ("length", {"SI": "mm", "US": "in"}, {"SI": 1, "US": 3}),
-    "hose_length": ("length", {"SI": "m", "US": "ft"}, {"SI": 2, "US": 1}),
-    "hose_diameter": ("length", {"SI": "mm", "US": "in"}, {"SI": 1, "US": 2}),
-    "temperature": ("temperature", {"SI": "degC", "US": "degF"}, {"SI": 1, "US": 1}),
-    "density": ("density", {"SI": "kg/m^3", "US": "lb/ft^3"}, {"SI": 0, "US": 1}),
-    "viscosity": ("kinematic_viscosity", {"SI": "cSt", "US": "cSt"}, {"SI": 1, "US": 1}),
-    "displacement": ("volume", {"SI": "cm^3", "US": "in^3"}, {"SI": 1, "US": 3}),
-    "mass": ("mass", {"SI": "kg", "US": "lb"}, {"SI": 1, "US": 1}),
-    "air_speed": ("speed", {"SI": "m/s", "US": "ft/s"}, {"SI": 1, "US": 1}),
-    "conductance": ("conductance", {"SI": "W/K", "US": "BTU/hr/delta_degF"}, {"SI": 1, "US": 1}),
-    "power": ("power", {"SI": "kW", "US": "hp"}, {"SI": 2, "US": 1}),
-    "idle_power": ("power", {"SI": "W", "US": "hp"}, {"SI": 0, "US": 3}),
-    "torque": ("torque", {"SI": "N*m", "US": "lbf*ft"}, {"SI": 1, "US": 1}),
-    "pull_time": ("time", {"SI": "s", "US": "s"}, {"SI": 1, "US": 1}),
-    "wait_time": ("time", {"SI": "min", "US": "min"}, {"SI": 2, "US": 2}),
-}
-
-def to_shown(value_si, quantity: str, system: str):
-    """An SI value (K, m^3, W, ...; float or array) in the display unit of `quantity` in `system`."""
-    kind, unit, _ = QUANTITIES[quantity]
-    return convert(value_si, SI_UNIT[kind], unit[system])
-
-
-def from_shown(value, quantity: str, system: str):
-    """A value in the display unit of `quantity` in `system` (float or array), back in SI."""
-    kind, unit, _ = QUANTITIES[quantity]
-    return convert(value, unit[system], SI_UNIT[kind])
-
-
-def unit_symbol(quantity: str, system: str) -> str:
-    return UNIT_LABEL[QUANTITIES[quantity][1][system]]
-
-
-def decimals(quantity: str, system: str) -> int:
-    return QUANTITIES[quantity][2][system]
-
-
-def quantity_text(value: float, quantity: str, system: str) -> str:
-    """A display value as the unit string the scenario file takes, e.g. "4.75 gal"."""
-    return f"{value:.6g} {QUANTITIES[quantity][1][system]}"
-
-
-def shown(value_si: float | None, quantity: str, system: str, digits: int | None = None) -> str:
-    """An SI value formatted for the page with its unit symbol, e.g. "176.0 °F"."""
-    if value_si is None:
-        return "n/a"
-    digits = decimals(quantity, system) if digits is None else digits
-    return f"{to_shown(value_si, quantity, system):,.{digits}f} {unit_symbol(quantity, system)}"
-
-
-def shown_celsius(value_C: float | None, system: str) -> str:
-    """A report temperature (degC) formatted in the page's system."""
-    return "n/a" if value_C is None else shown(value_C + 273.15, "temperature", system)
-
-
-def shown_duration(seconds: float | None) -> str:
-    """A duration as "45 s", "3 min 20 s" or "2 h 05 min"."""
-    if seconds is None:
-        return "n/a"
-    seconds = float(seconds)
-    if seconds < 90:
-        return f"{seconds:.0f} s"
-    if seconds < 3600:
-        minutes, rest = divmod(round(seconds), 60)
-        return f"{minutes} min {rest:02d} s"
-    hours, rest = divmod(round(seconds / 60), 60)
-    return f"{hours} h {rest:02d} min"
-
-
-# ---------------------------------------------------------------- raw dict access
-
-def get_path(raw: dict, path: str, default=None):
-    """raw["a"]["b"] for path "a.b", or default where a table or the key is missing."""
-    table = raw
-    for part in path.split("."):
-        if not isinstance(table, dict) or part not in table:
-            return default
-        table = table[part]
-    return table
-
-
-@dataclass(frozen=True)
-class Field:
-    """One input that maps to one key of the scenario file.
-
-    quantity : a QUANTITIES name, or None for a plain number (emissivity, efficiency, counts).
-    bare_unit : the unit scenario.py gives a bare number at this key.
-    """
-    path: str
-    label: str
-    help: str
-    quantity: str | None = None
-    bare_unit: str = ""
-    minimum: float | None = 0.0
-    maximum: float | None = None
-    integer: bool = False
-
-    def label_in(self, system: str) -> str:
-        return f"{self.label} ({unit_symbol(self.quantity, system)})" if self.quantity else self.label
-
-
-FIELDS = {f.path: f for f in [
-    Field("ambient", "Room temperature", "Air temperature around the rig during the session.",
-          "temperature", "degC", minimum=None),
-    Field("reservoir.oil_volume", "Oil in the tank", "Oil volume, as filled at room temperature (15 °C reference).",
-          "oil_volume", "L"),
-    Field("reservoir.length", "Tank length", "Outside length of the box tank.", "dimension", "m"),
-    Field("reservoir.width", "Tank width", "Outside width of the box tank.", "dimension", "m"),
-    Field("reservoir.diameter", "Tank diameter", "Outside diameter of the round tank or drum.", "dimension", "m"),
-    Field("reservoir.height", "Tank height", "Outside height of the tank.", "dimension", "m"),
-    Field("reservoir.wall_thickness", "Wall thickness", "Sheet or wall thickness of the tank.", "thickness", "mm"),
-    Field("reservoir.emissivity", "Tank surface emissivity",
-          "How well the outside radiates heat: about 0.9 painted or plastic, 0.1 bare shiny metal.",
-          maximum=1.0),
-    Field("fluid.viscosity_40C", "Viscosity at 40 °C", "From the oil's data sheet.", "viscosity", "cSt"),
-    Field("fluid.viscosity_100C", "Viscosity at 100 °C", "From the oil's data sheet.", "viscosity", "cSt"),
-    Field("fluid.viscosity_index", "Viscosity index",
-          "From the data sheet; higher means the oil thins less as it heats (about 95-105 for plain mineral oil).",
-          minimum=-100.0, maximum=400.0),
-    Field("fluid.density_15C", "Oil density at 15 °C", "From the data sheet; mineral oils are near 870 kg/m³.",
-          "density", "kg/m^3"),
-    Field("fluid.max_temperature", "Hottest the oil may get",
-          "Your limit for the bulk oil: seals, hoses and the oil's own rating decide it.", "temperature", "degC",
-          minimum=None),
-    Field("fluid.min_viscosity", "Thinnest oil the pump accepts",
-          "The pump maker's minimum working viscosity; the oil thins as it heats.", "viscosity", "cSt"),
-    Field("pump.displacement", "Pump displacement", "Volume the pump moves per shaft revolution.",
-          "displacement", "cm^3"),
-    Field("pump.volumetric_efficiency", "Pump volumetric efficiency",
-          "Delivered flow over displacement x speed; 0.85-0.95 for a gear pump in good order.", maximum=1.0),
-    Field("hardware.mass", "Metal in the loop", "Pump, valve block and fittings that warm with the oil.",
-          "mass", "kg"),
-    Field("hardware.hose_length", "Hose length", "Total length of hose the oil flows through.",
-          "hose_length", "m"),
-    Field("hardware.hose_outer_diameter", "Hose outside diameter", "Measured over the hose cover.",
-          "hose_diameter", "mm"),
-    Field("hardware.emissivity", "Hardware surface emissivity",
-          "About 0.9-0.95 for rubber hose and painted or rusty iron.", maximum=1.0),
-    Field("losses.air_speed", "Air speed across the rig", "0 for still air; a shop fan gives 1-3 m/s.",
-          "air_speed", "m/s"),
-    Field("cooler.specific_dissipation", "Cooler size",
-          "Heat the cooler removes per degree between the oil going in and the air.", "conductance", "W/K"),
-    Field("session.start_temperature", "Oil temperature at the start", "Usually room temperature for a cold rig.",
-          "temperature", "degC", minimum=None),
-    Field("session.repeat", "Pulls planned", "How many times the pull and its wait are repeated.",
-          minimum=1, maximum=10000, integer=True),
-]}
-
-
-def field_value(raw: dict, field: Field, system: str):
-    """The value at a field's key, in the display unit of `system`; None where missing or unreadable."""
-    value = get_path(raw, field.path)
-    if value is None:
-        return None
-    if field.quantity is None:
-        return value if isinstance(value, (int, float)) and not isinstance(value, bool) else None
-    try:
-        si = parse_quantity(value, field.path, QUANTITIES[field.quantity][0], field.bare_unit)
-    except ScenarioError:
-        return None
-    return to_shown(si, field.quantity, system)
-
-
-def with_field(raw: dict, field: Field, value, system: str) -> dict:
-    """raw with a field set from a display value (a unit string for quantities, a number otherwise)."""
-    if field.quantity is None:
-        return with_path(raw, field.path, int(value) if field.integer else float(value))
-    return with_path(raw, field.path, quantity_text(float(value), field.quantity, system))
-
 
 # ---------------------------------------------------------------- inputs that change the file's shape
 
@@ -219,14 +45,14 @@ def with_shape(raw: dict, shape: str) -> dict:
         return raw
     new = with_path(raw, "reservoir.shape", shape)
     if shape == "cylinder":
-        L = _si(get_path(raw, "reservoir.length"), "length", "m")
-        W = _si(get_path(raw, "reservoir.width"), "length", "m")
+        L = si_or_none(get_path(raw, "reservoir.length"), "length", "m")
+        W = si_or_none(get_path(raw, "reservoir.width"), "length", "m")
         diameter = math.sqrt(4.0 * L * W / math.pi) if L and W else 0.3
         new = with_path(new, "reservoir.diameter", f"{diameter:.4g} m")
         for key in ("reservoir.length", "reservoir.width"):
             new = with_path(new, key, None)
     else:
-        D = _si(get_path(raw, "reservoir.diameter"), "length", "m")
+        D = si_or_none(get_path(raw, "reservoir.diameter"), "length", "m")
         side = math.sqrt(math.pi / 4.0) * D if D else 0.3
         new = with_path(new, "reservoir.length", f"{side:.4g} m")
         new = with_path(new, "reservoir.width", f"{side:.4g} m")
@@ -307,13 +133,6 @@ def _steps(raw):
     return [s for s in steps if isinstance(s, dict)] if isinstance(steps, list) else []
 
 
-def _si(value, kind, bare):
-    try:
-        return parse_quantity(value, "", kind, bare)
-    except ScenarioError:
-        return None
-
-
 def session_view(raw: dict) -> SessionView:
     steps = _steps(raw)
     pulls = [s for s in steps if s.get("kind") == "pull"]
@@ -322,17 +141,17 @@ def session_view(raw: dict) -> SessionView:
     torque = "curve_torque" in pull
     curve_rpm = tuple(pull.get("curve_rpm", ()) or ())
     curve_raw = pull.get("curve_torque" if torque else "curve_power", ()) or ()
-    curve_values = tuple(_si(v, "torque" if torque else "power", "N*m" if torque else "W") for v in curve_raw)
+    curve_values = tuple(si_or_none(v, "torque" if torque else "power", "N*m" if torque else "W") for v in curve_raw)
     idle = next((w for w in waits if w.get("engine") == "idle"), {})
-    wait_s = sum(_si(w.get("duration"), "time", "s") or 0.0 for w in waits)
+    wait_s = sum(si_or_none(w.get("duration"), "time", "s") or 0.0 for w in waits)
     return SessionView(
         pulls_per_cycle=len(pulls), waits_per_cycle=len(waits),
-        pull_s=_si(pull.get("duration"), "time", "s"),
-        power_W=_si(pull.get("power"), "power", "W") if "power" in pull else None,
+        pull_s=si_or_none(pull.get("duration"), "time", "s"),
+        power_W=si_or_none(pull.get("power"), "power", "W") if "power" in pull else None,
         rpm=pull.get("rpm"), curve_rpm=curve_rpm, curve_values=curve_values, curve_is_torque=torque,
         rpm_start=pull.get("rpm_start"), rpm_end=pull.get("rpm_end"), wait_s=wait_s,
         engine=waits[0].get("engine", "off") if waits else "off",
-        idle_power_W=_si(idle.get("power", 0.0), "power", "W") or 0.0,
+        idle_power_W=si_or_none(idle.get("power", 0.0), "power", "W") or 0.0,
         idle_rpm=float(idle.get("rpm", DEFAULT_IDLE_RPM)))
 
 
@@ -411,7 +230,7 @@ def with_wait(raw: dict, system: str, wait_min: float | None = None, engine: str
             scale = total_s / view.wait_s
             for step in steps:
                 if step.get("kind") == "wait":
-                    own = _si(step.get("duration"), "time", "s") or 0.0
+                    own = si_or_none(step.get("duration"), "time", "s") or 0.0
                     step["duration"] = f"{own * scale:.6g} s"
     for step in steps:
         if step.get("kind") != "wait":
@@ -429,55 +248,6 @@ def with_wait(raw: dict, system: str, wait_min: float | None = None, engine: str
             step.pop("power", None)
             step.pop("rpm", None)
     return _with_steps(raw, steps)
-
-
-# ---------------------------------------------------------------- outputs the page offers
-
-def trace_csv_shown(trace, system: str) -> str:
-    """The trace (design 0) as CSV in the page's units: time in s, temperatures and power in the
-    display units of `system`; the column names carry the units."""
-    from .report import trace_rows
-    rows = trace_rows(trace)
-    t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
-    p_unit = QUANTITIES["power"][1][system]
-    header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
-    columns = [rows[:, 0], *(to_shown(rows[:, i] + 273.15, "temperature", system) for i in range(1, 5)),
-               to_shown(rows[:, 5], "power", system)]
-    lines = [",".join(header)]
-    lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
-    return "\n".join(lines) + "\n"
-
-
-# Step of the +/- buttons of each input, by display quantity and system.
-STEPS = {"oil_volume": {"SI": 1.0, "US": 0.25}, "dimension": {"SI": 0.01, "US": 0.5},
-         "thickness": {"SI": 0.5, "US": 0.01}, "hose_length": {"SI": 0.5, "US": 1.0},
-         "hose_diameter": {"SI": 1.0, "US": 0.05}, "temperature": {"SI": 1.0, "US": 2.0},
-         "density": {"SI": 5.0, "US": 0.5}, "viscosity": {"SI": 0.5, "US": 0.5},
-         "displacement": {"SI": 1.0, "US": 0.05}, "mass": {"SI": 0.5, "US": 1.0},
-         "air_speed": {"SI": 0.5, "US": 1.0}, "conductance": {"SI": 1.0, "US": 2.0},
-         "power": {"SI": 0.5, "US": 1.0}, "idle_power": {"SI": 10.0, "US": 0.01},
-         "torque": {"SI": 1.0, "US": 1.0}, "pull_time": {"SI": 1.0, "US": 1.0}, "wait_time": {"SI": 0.5, "US": 0.5}}
-PLAIN_STEPS = {"reservoir.emissivity": 0.05, "hardware.emissivity": 0.05, "pump.volumetric_efficiency": 0.01,
-               "fluid.viscosity_index": 1.0, "session.repeat": 1}
-
-
-def step_of(field: Field, system: str):
-    return STEPS[field.quantity][system] if field.quantity else PLAIN_STEPS.get(field.path, 0.01)
-
-
-_NUMBER_UNIT = re.compile(r"(-?\d+(?:\.\d+)?) (degC|W/K|L)\b")
-
-
-def note_in(note: str, system: str) -> str:
-    """A report note with its "80.0 degC", "12 W/K" and "40 L" figures restated in `system`."""
-    def restate(match):
-        value, unit = float(match.group(1)), match.group(2)
-        if unit == "degC":
-            return shown(value + 273.15, "temperature", system)
-        if unit == "W/K":
-            return shown(value, "conductance", system)
-        return shown(value / 1000.0, "oil_volume", system)
-    return _NUMBER_UNIT.sub(restate, note)
 
 
 def constant_from_curve(view: SessionView):

@@ -7,7 +7,7 @@ from dataclasses import fields
 import numpy as np
 
 from .network import N_NODES, OIL, Rig, cooling_time_constant_s
-from .outcome import peak_oil_K, pulls_completed_under
+from .outcome import limiting_peak_K, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
@@ -23,6 +23,11 @@ GRID_ROUNDS = 3
 # Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
 # resolutions (which agree with a tight reference to about 0.03 K) still finishes under it.
 SEARCH_MARGIN_K = 0.05
+
+
+def limits_K(scenario: Scenario) -> tuple[float, float | None]:
+    """(the bulk oil's limit, the return line's limit or None), K: what every search holds to."""
+    return limit_K(scenario)[0], scenario.return_line_max_temperature_K
 
 
 def take_designs(rig: Rig, index) -> Rig:
@@ -50,22 +55,25 @@ def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
 
 def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):
     """Integrate the planned session for n designs (or take `trace`, a session_trace already
-    computed). Returns (peak oil K (N,), pulls under limit (N,))."""
+    computed). Returns (peak K (N,), pulls under the limits (N,)). The peak is the bulk oil's,
+    or where a return-line limit is set, outcome.limiting_peak_K: at or under the bulk limit
+    exactly when neither oil passes its limit."""
     trace = session_trace(scenario, rig, n, wait_s) if trace is None else trace
-    limit, _ = limit_K(scenario)
-    return peak_oil_K(trace), pulls_completed_under(trace, limit)
+    limits = limits_K(scenario)
+    return limiting_peak_K(trace, *limits), pulls_completed_under(trace, *limits)
 
 
 def _cycle_end(scenario, rig, X, wait_s=None):
     durations = None if wait_s is None else _wait_durations(list(scenario.cycle), 1, wait_s)
     trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=durations,
                       resolution=PLAN_RESOLUTION)
-    return trace.final_K, peak_oil_K(trace)
+    return trace.final_K, limiting_peak_K(trace, *limits_K(scenario))
 
 
 def _has_loss_path(rig: Rig) -> np.ndarray:
     cooler = np.asarray(rig.cooler_W_K) > 0
-    passive = (rig.convection_multiplier > 0) or (rig.wall_emissivity > 0) or (rig.hardware_emissivity > 0)
+    passive = ((np.asarray(rig.convection_multiplier) > 0) | (np.asarray(rig.wall_emissivity) > 0)
+               | (np.asarray(rig.hardware_emissivity) > 0))
     return np.asarray(cooler | passive)
 
 
@@ -79,7 +87,8 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     a small batch the cost is per call, not per design, so full Newton steps are cheaper there.
 
     Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
-    The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K.
+    The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
+    (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set).
     """
     k = N_NODES
     copies = k + 1                      # the state itself and one perturbation per node
@@ -163,7 +172,8 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     then the cycles that remain up to max_pulls, integrated only until every design still counted
     has crossed the limit.
     """
-    limit, _ = limit_K(scenario)
+    limit, return_limit = limits_K(scenario)
+    stop_K = limit if return_limit is None else min(limit, return_limit)  # over it, a limit is passed
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
     runs = np.full(n, np.nan)
     active = np.flatnonzero(~sustainable)
@@ -178,8 +188,8 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
         else:
             cycles = -(-(max_pulls - done_pulls) // pulls_per_cycle)
             trace = integrate(take_designs(rig, active), list(scenario.cycle) * cycles, X[active],
-                              n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=limit)
-        under = pulls_completed_under(trace, limit)
+                              n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=stop_K)
+        under = pulls_completed_under(trace, limit, return_limit)
         crossed = under < cycles * pulls_per_cycle
         runs[active[crossed]] = done_pulls + under[crossed]
         X[active] = trace.final_K
@@ -313,8 +323,9 @@ def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
     temperature is set. None otherwise. Same rows as the block-by-block search would give."""
     if scenario.ready_temperature_K is not None:
         return None
-    limit, _ = limit_K(scenario)
+    limit, return_limit = limits_K(scenario)
     oil = session.T_K[:, 0, OIL]
+    line = session.return_K[:, 0]
     rows, planned_wait = [], 0.0
     for index, step in enumerate(scenario.steps):
         if not step.is_pull:
@@ -323,10 +334,12 @@ def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
         points = np.flatnonzero(session.step_index == index)
         start = points[0] - 1
         peak = float(oil[start:points[-1] + 1].max())
-        if peak > limit - SEARCH_MARGIN_K:
+        peak_return = float(line[start:points[-1] + 1].max())
+        if peak > limit - SEARCH_MARGIN_K or (return_limit is not None and peak_return > return_limit - SEARCH_MARGIN_K):
             return None
         rows.append({"index": len(rows) + 1, "start_s": round(float(session.time_s[start, 0]), 2),
                      "start_C": round(float(oil[start]) - 273.15, 3), "peak_C": round(peak - 273.15, 3),
+                     "peak_return_C": round(peak_return - 273.15, 3),
                      "wait_before_s": round(planned_wait, 2), "planned_wait_s": round(planned_wait, 2),
                      "extra_wait_s": 0.0})
         planned_wait = 0.0
@@ -369,7 +382,9 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
         start_C = float(X[0, OIL]) - 273.15
         trace = _run_steps(rig, [pull], X)
         peak_C = float(peak_oil_K(trace)[0]) - 273.15
+        peak_return_C = float(trace.return_K[:, 0].max()) - 273.15
         rows.append({"index": index, "start_s": round(t, 2), "start_C": round(start_C, 3), "peak_C": round(peak_C, 3),
+                     "peak_return_C": round(peak_return_C, 3),
                      "wait_before_s": round(planned_wait + extra, 2), "planned_wait_s": round(planned_wait, 2),
                      "extra_wait_s": round(extra, 2)})
         X, t = trace.final_K, t + pull.duration_s
@@ -385,7 +400,7 @@ def _extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) -
         n = extras.size
         trace = integrate(take_designs(rig, np.zeros(n, int)), [cool_step, pull], np.repeat(X, n, axis=0),
                           n_designs=n, durations_s=[extras, pull.duration_s], resolution=PLAN_RESOLUTION)
-        pulled = peak_oil_K(trace) <= limit - SEARCH_MARGIN_K
+        pulled = limiting_peak_K(trace, limit, scenario.return_line_max_temperature_K) <= limit - SEARCH_MARGIN_K
         if ready is not None:
             after_wait = trace.T_K[trace.step_index == 0][-1][:, OIL]
             pulled &= after_wait <= ready + 1e-9
@@ -406,6 +421,10 @@ def planning_answers(scenario: Scenario) -> dict:
     session = session_trace(scenario, rig, 1)
     sustainable, steady_peak = sustainability(scenario, rig, 1)
     sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
+    if sustainable and scenario.return_line_max_temperature_K is not None:
+        # the periodic peak above is in the limits' terms; the bulk oil's own peak over that cycle:
+        X, _, _ = periodic_state(scenario, rig, 1)
+        steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
     runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
     if sustainable:
         notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
@@ -414,7 +433,7 @@ def planning_answers(scenario: Scenario) -> dict:
         notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
     # the planned session without a cooler: the session already run, where the scenario has none
     uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
-    cooler_needed = bool(peak_oil_K(uncooled)[0] > limit)
+    cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
     cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
     if not cooler_needed:
         notes.append("No cooler is needed for the planned session.")

@@ -7,17 +7,22 @@ import matplotlib
 matplotlib.use("Agg")
 
 import numpy as np  # noqa: E402
-from matplotlib.colors import BoundaryNorm  # noqa: E402
+from matplotlib import patheffects  # noqa: E402
+from matplotlib.colors import BoundaryNorm, ListedColormap  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
+from matplotlib.lines import Line2D  # noqa: E402
 
 from .network import OIL, WALL  # noqa: E402
-from .page_inputs import to_shown, unit_symbol  # noqa: E402
+from .page_format import to_shown, unit_symbol  # noqa: E402
 from .scenario import limit_K  # noqa: E402
 
 OIL_COLOUR, RETURN_COLOUR, WALL_COLOUR, LIMIT_COLOUR = "#b5461f", "#e39b2d", "#4a6c8c", "#8b0000"
 PULL_SHADE = "#f2d7c9"
 # Fixed margins (fractions of the figure): a layout engine would cost a second draw of every label.
-_MARGINS = {"left": 0.09, "right": 0.98, "bottom": 0.12, "top": 0.92}
+_MARGINS = {"left": 0.14, "right": 0.98, "bottom": 0.15, "top": 0.91}
+# Text sizes that stay readable when a chart is shown 360 px wide on a phone (about 9 px high).
+_PAGE_FONTS = {"font.size": 13, "axes.titlesize": 13, "axes.labelsize": 13, "xtick.labelsize": 12.5,
+               "ytick.labelsize": 12.5, "legend.fontsize": 11.5}
 
 
 def _temperatures(T_K, system):
@@ -26,46 +31,71 @@ def _temperatures(T_K, system):
 
 def plot_trace(scenario, trace, system: str | None = None) -> Figure:
     """Bulk oil, return-line and tank wall temperature against time (min) for design 0, with the
-    fluid limit as a line and each pull shaded."""
+    fluid limit (and the return line's, where given) as lines and each pull shaded."""
     system = system or scenario.units
+    with matplotlib.rc_context(_PAGE_FONTS):
+        return _draw_trace(scenario, trace, system)
+
+
+def _draw_trace(scenario, trace, system: str) -> Figure:
     t_min = trace.time_s[:, 0] / 60.0
     limit, reason = limit_K(scenario)
     symbol = unit_symbol("temperature", system)
-    fig = Figure(figsize=(8.0, 4.2))
+    fig = Figure(figsize=(5.6, 4.2))
     fig.subplots_adjust(**_MARGINS)
     ax = fig.add_subplot()
     for start, end in zip(trace.pull_start_s[:, 0], trace.pull_end_s[:, 0]):
         ax.axvspan(start / 60.0, end / 60.0, color=PULL_SHADE, lw=0, zorder=0)
     ax.plot(t_min, _temperatures(trace.return_K[:, 0], system), color=RETURN_COLOUR, lw=1.2,
-            label="oil returning to the tank")
-    ax.plot(t_min, _temperatures(trace.T_K[:, 0, OIL], system), color=OIL_COLOUR, lw=2.2, label="oil in the tank (bulk)")
+            label="return line")
+    ax.plot(t_min, _temperatures(trace.T_K[:, 0, OIL], system), color=OIL_COLOUR, lw=2.2, label="bulk oil (tank)")
     ax.plot(t_min, _temperatures(trace.T_K[:, 0, WALL], system), color=WALL_COLOUR, lw=1.2, ls="--",
             label="tank wall")
     limit_shown = to_shown(limit, "temperature", system)
     why = "hottest allowed" if reason == "max_temperature" else "pump's thinnest oil"
     ax.axhline(limit_shown, color=LIMIT_COLOUR, lw=1.5, ls=":")
-    low, high = ax.get_ylim()   # headroom above the limit line for its label
-    ax.set_ylim(low, max(high, limit_shown + 0.08 * (max(high, limit_shown) - low)))
-    ax.annotate(f"limit {limit_shown:.0f} {symbol} ({why})", (t_min[-1], limit_shown), xytext=(0, 4),
-                textcoords="offset points", ha="right", va="bottom", color=LIMIT_COLOUR, fontsize=9)
+    tops = [limit_shown]
+    if scenario.return_line_max_temperature_K is not None:
+        line_limit = to_shown(scenario.return_line_max_temperature_K, "temperature", system)
+        ax.axhline(line_limit, color=RETURN_COLOUR, lw=1.5, ls=":")
+        ax.annotate(f"return-line limit {line_limit:.0f} {symbol}", (0.0, line_limit), xytext=(2, 3),
+                    textcoords="offset points", ha="left", va="bottom", color="#a0600a", fontsize="small")
+        tops.append(line_limit)
+    low, high = ax.get_ylim()   # headroom above the limit lines for their labels
+    ax.set_ylim(low, max(high, max(tops) + 0.1 * (max(high, max(tops)) - low)))
+    ax.annotate(f"limit {limit_shown:.0f} {symbol} ({why})", (t_min[-1], limit_shown), xytext=(0, 3),
+                textcoords="offset points", ha="right", va="bottom", color=LIMIT_COLOUR, fontsize="small")
     ax.fill_between([], [], color=PULL_SHADE, label="pulls")  # legend entry for the shading
     ax.set_xlim(0.0, t_min[-1])
-    ax.set_xlabel("time since the first pull started (min)")
+    ax.set_xlabel("time since the first pull (min)")
     ax.set_ylabel(f"temperature ({symbol})")
-    ax.set_title(scenario.name or "planned session", fontsize=11, loc="left", y=1.0)
+    ax.set_title(scenario.name or "planned session", loc="left", y=1.0, fontsize="medium")
     ax.grid(alpha=0.3)
-    ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+    ax.legend(loc="lower right", fontsize="small", framealpha=0.9)
     return fig
 
 
-def _run_levels(planned: int, highest: float) -> list:
-    """Colour bands for pulls before the limit: a 1-2-5 ladder up to the highest finite count, with
-    the planned session's count as one of the edges, closed by the next ladder value above both
-    (so the top band holds every count above its lower edge, and the unlimited ones)."""
-    ladder = [m * 10**e for e in range(0, 7) for m in (1, 2, 5)]
-    top = max(highest, planned)
-    levels = sorted({v for v in ladder if v <= top} | {planned})
-    return [0] + levels + [next(v for v in ladder if v > top)]
+def _run_levels(planned: int, cap: int) -> list:
+    """Edges of the colour bands for pulls before the limit, built around the planned pulls P:
+    0, P/4, P/2, 3P/4, P, 1.5P, 2P, 3P and the cap (the most pulls the sweep counts); one band
+    more, above the cap, holds the designs that go on all day or past the cap."""
+    P = max(int(planned), 1)
+    edges = {0, P, cap}
+    edges |= {int(round(f * P)) for f in (0.25, 0.5, 0.75, 1.5, 2.0, 3.0)}
+    edges = sorted(e for e in edges if 0 <= e <= cap)
+    return edges + [cap + max(1, cap // 4)]
+
+
+def _band_colours(levels: list, planned: int):
+    """One colour per band: warm (red to yellow) below the plan, cool (pale to deep blue) from the
+    plan up, and the deepest blue for "all day"."""
+    below = [lv for lv in levels[:-1] if lv < planned]
+    above = [lv for lv in levels[:-1] if lv >= planned]
+    warm = matplotlib.colormaps["YlOrRd_r"]
+    cool = matplotlib.colormaps["GnBu"]
+    colours = [warm(0.15 + 0.6 * i / max(len(below) - 1, 1)) for i in range(len(below))]
+    colours += [cool(0.3 + 0.65 * i / max(len(above) - 1, 1)) for i in range(len(above))]
+    return colours
 
 
 def _ink_on(rgba) -> str:
@@ -77,8 +107,9 @@ def _ink_on(rgba) -> str:
 
 def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figure:
     """Pulls before the limit over oil volume (x) and cooler size (y), repeating the planned cycle
-    from a cold start. The line where it equals the planned session's pull count is drawn bold;
-    designs that can go on all day are hatched; the current rig is marked."""
+    from a cold start. The colour bands are built around the planned pulls (warm below the plan,
+    cool from it up, the deepest for "all day"); the planned pull count is a bold outlined line; designs
+    that can go on all day are hatched; the current rig is marked."""
     system = system or scenario.units
     r = sweep_result
     volumes = to_shown(np.asarray(r.oil_volumes_L) / 1000.0, "oil_volume", system)
@@ -86,39 +117,88 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     runs = np.asarray(r.runs_before_limit, dtype=float)
     unlimited = np.isnan(runs)           # sustainable, or more pulls than the sweep counted
     all_day = np.asarray(r.sustainable, dtype=bool)
-    finite = runs[~unlimited]
-    highest = float(finite.max()) if finite.size else float(r.pulls_planned)
-    levels = _run_levels(int(r.pulls_planned), highest)
-    ceiling = levels[-1]
-    filled = np.where(unlimited, ceiling, runs)  # unlimited counts above every band
+    planned = int(r.pulls_planned)
+    cap = int(getattr(r, "max_pulls", max(4 * planned, 40)))
+    levels = _run_levels(planned, cap)
+    filled = np.where(unlimited, 0.5 * (levels[-2] + levels[-1]), np.minimum(runs, cap))
 
-    fig = Figure(figsize=(8.0, 5.2))
-    fig.subplots_adjust(**_MARGINS)
-    ax = fig.add_subplot()
-    X, Y = np.meshgrid(volumes, coolers, indexing="ij")
-    cmap = matplotlib.colormaps["YlGnBu"]
-    norm = BoundaryNorm(levels, cmap.N)
-    bands = ax.contourf(X, Y, filled, levels=levels, cmap=cmap, norm=norm)
-    if all_day.any():
-        ax.contourf(X, Y, all_day.astype(float), levels=[0.5, 1.5], colors="none", hatches=["//"])
-    edges = [lv for lv in levels[1:-1] if lv != r.pulls_planned]
-    lines = ax.contour(X, Y, filled, levels=edges, colors=[_ink_on(cmap(norm(lv))) for lv in edges],
-                       linewidths=0.4, alpha=0.6)
-    ax.clabel(lines, fmt="%d", fontsize=7)
-    if finite.size and (filled.min() < r.pulls_planned < filled.max()):
-        planned = ax.contour(X, Y, filled, levels=[r.pulls_planned], colors=LIMIT_COLOUR, linewidths=2.5)
-        ax.clabel(planned, fmt=f"planned session: {r.pulls_planned} pulls", fontsize=9)
-    rig_volume = to_shown(scenario.reservoir.oil_volume_m3, "oil_volume", system)
-    rig_cooler = to_shown(scenario.cooler_W_K, "conductance", system)
-    ax.plot([rig_volume], [rig_cooler], marker="*", ms=16, color="#d62728", mec="white", mew=1.2, ls="none",
-            label="your rig now", clip_on=False, zorder=5)
-    bar = fig.colorbar(bands, ax=ax, ticks=levels[:-1])
-    bar.set_label(f"pulls before the oil reaches the limit (top band: {levels[-2]} or more)")
-    v_unit, k_unit = unit_symbol("oil_volume", system), unit_symbol("conductance", system)
-    ax.set_xlabel(f"oil in the tank ({v_unit}); tank scaled to keep its shape")
-    ax.set_ylabel(f"cooler size ({k_unit} of ETD)")
-    limit_shown = to_shown(r.limit_C + 273.15, "temperature", system)
-    ax.set_title(f"Pulls before {limit_shown:.0f} {unit_symbol('temperature', system)}, repeating the planned "
-                 f"cycle. Hatched: can go on all day", fontsize=10, loc="left", y=1.0)
-    ax.legend(loc="upper right", fontsize=9, framealpha=0.9)
+    with matplotlib.rc_context(_PAGE_FONTS):
+        fig = Figure(figsize=(5.6, 5.0))
+        fig.subplots_adjust(left=0.15, right=0.82, bottom=0.2, top=0.92)
+        ax = fig.add_subplot()
+        X, Y = np.meshgrid(volumes, coolers, indexing="ij")
+        colours = _band_colours(levels, planned)
+        cmap = ListedColormap(colours)
+        norm = BoundaryNorm(levels, cmap.N)
+        bands = ax.contourf(X, Y, filled, levels=levels, cmap=cmap, norm=norm)
+        if all_day.any():
+            ax.contourf(X, Y, all_day.astype(float), levels=[0.5, 1.5], colors="none", hatches=["//"])
+        edges = [lv for lv in levels[1:-1] if lv != planned and filled.min() < lv < filled.max()]
+        if edges:
+            lines = ax.contour(X, Y, filled, levels=edges, colors="#333333", linewidths=0.5, alpha=0.7)
+            texts = ax.clabel(lines, fmt="%d", fontsize="small", inline_spacing=2)
+            for text, level in zip(texts, edges * len(texts)):
+                band = max(i for i, lv in enumerate(levels[:-1]) if lv <= float(text.get_text()))
+                text.set_color(_ink_on(colours[band]))
+                text.set_path_effects([])
+        handles = []
+        if filled.min() < planned < filled.max():
+            line = ax.contour(X, Y, filled, levels=[planned], colors="white", linewidths=2.4)
+            line.set_path_effects([patheffects.withStroke(linewidth=4.5, foreground="black")])
+            handles.append(Line2D([], [], color="white", lw=2.4, path_effects=[
+                patheffects.withStroke(linewidth=4.5, foreground="black")], label=f"your plan: {planned} pulls"))
+        rig_volume = to_shown(scenario.reservoir.oil_volume_m3, "oil_volume", system)
+        rig_cooler = to_shown(scenario.cooler_W_K, "conductance", system)
+        star = ax.plot([rig_volume], [rig_cooler], marker="*", ms=16, color="#d62728", mec="white", mew=1.2,
+                       ls="none", label="your rig now", clip_on=False, zorder=5)
+        handles.append(star[0])
+        bar = fig.colorbar(bands, ax=ax, ticks=levels[:-1], fraction=0.06, pad=0.03)
+        bar.ax.set_yticks(levels[:-1] + [0.5 * (levels[-2] + levels[-1])])
+        bar.ax.set_yticklabels([str(lv) for lv in levels[:-1]] + ["all day"])
+        bar.set_label("pulls before the limit")
+        v_unit, k_unit = unit_symbol("oil_volume", system), unit_symbol("conductance", system)
+        ax.set_xlabel(f"oil in the tank ({v_unit}), tank scaled to fit")
+        ax.set_ylabel(f"cooler size ({k_unit} of ETD)")
+        limit_shown = to_shown(r.limit_C + 273.15, "temperature", system)
+        ax.set_title(f"Pulls before {limit_shown:.0f} {unit_symbol('temperature', system)}, repeating your cycle",
+                     loc="left", y=1.0, fontsize="medium")
+        fig.text(0.01, 0.01, "ETD: entering temperature difference (oil into the cooler minus air).\n"
+                 f"Top band: all day or over {cap} pulls; hatched: can go on all day.", fontsize="x-small",
+                 va="bottom")
+        ax.legend(handles=handles, loc="upper right", fontsize="small", framealpha=0.9)
+    return fig
+
+
+def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
+    """Pulls before the limit (bars) and the cooler the planned session needs (line, right axis)
+    against the ambient temperature; `hot` is hot_day.hot_day()'s result."""
+    system = system or scenario.units
+    ambient = _temperatures(hot.ambients_K, system)
+    capped = np.where(hot.all_day | np.isnan(hot.pulls), hot.max_pulls, hot.pulls)
+    width = 0.7 * (float(np.min(np.diff(ambient))) if ambient.size > 1 else 5.0)
+    with matplotlib.rc_context(_PAGE_FONTS):
+        fig = Figure(figsize=(5.6, 3.8))
+        fig.subplots_adjust(left=0.14, right=0.84, bottom=0.18, top=0.89)
+        ax = fig.add_subplot()
+        colours = ["#1f6f8b" if a else ("#9ecae1" if np.isnan(p) else "#e39b2d")
+                   for a, p in zip(hot.all_day, hot.pulls)]
+        ax.bar(ambient, capped, width=width, color=colours)
+        for x, y, a, p in zip(ambient, capped, hot.all_day, hot.pulls):
+            label = "all day" if a else (f">{hot.max_pulls}" if np.isnan(p) else f"{int(p)}")
+            ax.annotate(label, (x, y), xytext=(0, 2), textcoords="offset points", ha="center", va="bottom",
+                        fontsize="x-small" if a else "small", rotation=90 if a else 0)
+        ax.axvline(_temperatures(scenario.ambient_K, system), color="#555555", lw=1, ls=":")
+        ax.set_ylim(0, float(np.max(capped)) * 1.3 + 1.0)
+        ax.set_xlabel(f"air temperature ({unit_symbol('temperature', system)})")
+        ax.set_ylabel("pulls before the limit")
+        cooler = to_shown(np.where(np.isnan(hot.cooler_W_per_K), np.nan, hot.cooler_W_per_K), "conductance", system)
+        if np.nanmax(np.append(cooler, 0.0)) > 0 or np.isnan(cooler).any():
+            right = ax.twinx()
+            right.plot(ambient, cooler, color=LIMIT_COLOUR, marker="o", ms=4, lw=1.5)
+            right.set_ylim(0, max(float(np.nanmax(cooler)) if np.isfinite(cooler).any() else 0.0, 1.0) * 1.15)
+            right.set_ylabel(f"cooler needed ({unit_symbol('conductance', system)})", color=LIMIT_COLOUR)
+            title = "Pulls (bars) and the cooler the plan needs (line)"
+        else:
+            title = "Pulls before the limit; the plan needs no cooler at any of these"
+        ax.set_title(title, loc="left", y=1.0, fontsize="medium")
     return fig

@@ -4,7 +4,9 @@ from __future__ import annotations
 import numpy as np
 
 from .network import HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
-from .outcome import first_crossing_s, peak_oil_K, pulls_completed_under
+from .headroom import headroom_at
+from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
+from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
@@ -41,7 +43,8 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     rig = build_rig(scenario)
     limit, reason = limit_K(scenario)
-    crossing = float(first_crossing_s(trace, limit)[0])
+    return_limit = scenario.return_line_max_temperature_K
+    crossing = float(first_crossing_s(trace, limit, return_limit)[0])
     energy_in = float(trace.energy_in_J[0])
     lost, stored = float(trace.energy_lost_J[0]), float(trace.energy_stored_J[0])
     capacities = heat_capacities_J_K(rig, np.full((1, N_NODES), scenario.start_K))[0]
@@ -62,7 +65,9 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "end_hose_C": _celsius(trace.T_K[-1, 0, HOSE]),
         "peak_return_C": _celsius(trace.return_K[:, 0].max()),
         "pulls_planned": int(trace.pull_end_s.shape[0]),
-        "pulls_under_limit": int(pulls_completed_under(trace, limit)[0]),
+        "return_line_limit_C": None if return_limit is None else _celsius(return_limit),
+        "pulls_under_limit": int(pulls_completed_under(trace, limit, return_limit)[0]),
+        "session_stopped_by": limit_crossed_first(trace, limit, return_limit)[0],
         "time_to_limit_s": None if np.isnan(crossing) else round(crossing, 2),
         "session_duration_s": round(float(trace.time_s[-1, 0]), 2),
         "energy_in_J": energy_in,
@@ -73,9 +78,59 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
         "peak_pull_power_W": pump["peak_pull_power_W"],
         "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
+        "oil_ageing_equivalent_h": round(ageing_equivalent_h(trace.time_s[:, 0], trace.T_K[:, 0, OIL]), 4),
+        "oil_ageing_reference_C": AGEING_REFERENCE_C,
+        "oil_ageing_rule": AGEING_RULE,
+        **_headroom_answers(scenario, limit, float(peak_oil_K(trace)[0])),
+        "flash_point_C": _celsius(scenario.flash_point_K),
+        "flash_point_given": scenario.flash_point_given,
         "oil": {"viscosity_40C_cSt": round(scenario.oil.nu40_cSt, 3), "viscosity_100C_cSt": round(scenario.oil.nu100_cSt, 3),
                 "viscosity_index": round(scenario.oil.viscosity_index, 1)},
     }
+
+
+def _headroom_answers(scenario: Scenario, limit: float, peak: float) -> dict:
+    at_limit = headroom_at(scenario, limit)
+    at_peak = headroom_at(scenario, max(peak, scenario.start_K))
+    return {"oil_level_at_limit_m": round(at_limit.oil_level_m, 5), "tank_height_m": round(at_limit.tank_height_m, 5),
+            "headroom_at_limit_m": round(at_limit.headroom_m, 5),
+            "headroom_at_limit_L": round(at_limit.headroom_m3 * 1000.0, 4),
+            "headroom_at_peak_L": round(at_peak.headroom_m3 * 1000.0, 4)}
+
+
+def runs_stopped_by(scenario: Scenario, runs: int | None) -> str | None:
+    """Which limit ends the repeated cycle's count of `runs` pulls: "bulk" or "return_line" (None
+    where no limit is reached). Without a return-line limit, always the bulk one."""
+    if runs is None:
+        return None
+    if scenario.return_line_max_temperature_K is None:
+        return "bulk"
+    from .session import PLAN_RESOLUTION
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    cycles = -(-(runs + 1) // per_cycle)
+    trace = integrate(build_rig(scenario), list(scenario.cycle) * cycles, scenario.start_K, resolution=PLAN_RESOLUTION)
+    limit, _ = limit_K(scenario)
+    return limit_crossed_first(trace, limit, scenario.return_line_max_temperature_K)[0]
+
+
+def cautions(scenario: Scenario, result: dict) -> list[str]:
+    """Plain-words warnings where the predicted oil is hotter than a rig should see."""
+    found = []
+    peak, peak_return, flash = result["peak_C"], result["peak_return_C"], result["flash_point_C"]
+    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
+    if peak_return >= flash or peak >= flash:
+        found.append(f"The oil passes its flash point: the return line peaks at {peak_return:.1f} degC against a "
+                     f"flash point of {flash:.1f} degC ({where}). Oil mist can ignite. Do not run this session.")
+    elif peak > 100.0:
+        found.append(f"The bulk oil peaks at {peak:.1f} degC, above 100 degC: past what mineral hydraulic oil, "
+                     "its seals and hoses are usually rated for, water in it boils and it ages fast. Check the "
+                     "inputs; if they are right, do not run this session without a cooler or more oil.")
+    elif peak_return >= flash - 30.0:
+        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, less than 30 K below the flash point "
+                     f"({flash:.1f} degC, {where}).")
+    if result["headroom_at_peak_L"] <= 0.0:
+        found.append("The hot oil overfills the tank at the predicted peak.")
+    return found
 
 
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:
@@ -85,6 +140,15 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
+    result["runs_stopped_by"] = runs_stopped_by(scenario, result["runs_before_limit"])
+    if result["min_oil_volume_L"] is not None:
+        smallest = headroom_at(scenario, limit_K(scenario)[0], result["min_oil_volume_L"] / 1000.0)
+        result["min_oil_volume_headroom_L"] = round(smallest.headroom_m3 * 1000.0, 4)
+    else:
+        result["min_oil_volume_headroom_L"] = None
+    result["cautions"] = cautions(scenario, result)
+    from .bands import band_report
+    result.update(band_report(scenario, result))
     return result
 
 

@@ -20,6 +20,7 @@ from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, defau
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
                              with_path)
+from .uncertainty import UncertaintyModel, read_uncertainty
 from .units import parse_quantity
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
@@ -27,6 +28,10 @@ DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
+# Flash point assumed when fluid.flash_point is not given. From memory, not from a cited source:
+# data sheets of mineral hydraulic oils of ISO VG 22-68 give about 190-240 degC (ASTM D92, open cup);
+# 180 degC is taken below that range on purpose, to be conservative.
+DEFAULT_FLASH_POINT_C = 180.0
 
 @dataclass(frozen=True)
 class Reservoir:
@@ -89,6 +94,10 @@ class Scenario:
     cycle: tuple
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
     hardware_coupling_multiplier: float = 1.0  # scales the oil -> metal bodies conductance (a log fit sets it)
+    return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
+    flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
+    flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
+    uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
 
     @property
     def steps(self) -> list[Step]:
@@ -173,6 +182,7 @@ def _parse(raw: dict) -> Scenario:
     if not 600.0 <= oil.density_15C_kg_m3 <= 1100.0:
         raise ScenarioError("fluid.density_15C", f.raw["density_15C"], "a liquid density between 600 and 1100 kg/m^3")
     max_T = f.quantity("max_temperature", "temperature", "degC", above=0.0)
+    flash_point = f.quantity("flash_point", "temperature", "degC", None, above=0.0)
     min_nu = f.quantity("min_viscosity", "kinematic_viscosity", "cSt", above=0.0) * 1e6
     if min_nu < 2.0:
         raise ScenarioError("fluid.min_viscosity", f.raw["min_viscosity"], "at least 2 cSt (the range of ASTM D341's simple form)")
@@ -200,6 +210,7 @@ def _parse(raw: dict) -> Scenario:
                         internal_area_m2=h.quantity("internal_area", "area", "m^2", default_internal_area_m2(
                             mass, metal_density, displacement, hose_id), above=0.0),
                         passage_length_m=body_cube_side_m(mass, metal_density))
+    return_line_max = h.quantity("return_line_max_temperature", "temperature", "degC", None, above=0.0)
     if hardware.hose_length_m == 0.0:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
     h.finish()
@@ -227,6 +238,7 @@ def _parse(raw: dict) -> Scenario:
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
+    uncertainty = read_uncertainty(top.get("uncertainty", None))
     top.finish()
 
     scenario = Scenario(raw=copy.deepcopy(raw), units=units, name=str(name), ambient_K=ambient,
@@ -235,7 +247,11 @@ def _parse(raw: dict) -> Scenario:
                         convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
                         air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
-                        hardware_coupling_multiplier=coupling_multiplier)
+                        hardware_coupling_multiplier=coupling_multiplier,
+                        return_line_max_temperature_K=return_line_max,
+                        flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
+                        flash_point_given=flash_point is not None,
+                        uncertainty=uncertainty)
     _check_consistency(scenario)
     return scenario
 
@@ -318,6 +334,12 @@ def _check_consistency(s: Scenario):
         raise ScenarioError("reservoir.oil_volume", s.raw["reservoir"]["oil_volume"],
                             f"at most the tank's {s.reservoir.inner_volume_m3 * 1000:.2f} L once expanded at the "
                             f"maximum temperature (needs {hot_volume * 1000:.2f} L)")
+    if s.return_line_max_temperature_K is not None and s.return_line_max_temperature_K <= s.start_K:
+        raise ScenarioError("hardware.return_line_max_temperature", s.raw["hardware"]["return_line_max_temperature"],
+                            "a return-line limit above the start temperature")
+    if s.flash_point_given and s.flash_point_K <= s.max_temperature_K:
+        raise ScenarioError("fluid.flash_point", s.raw["fluid"]["flash_point"],
+                            "a flash point above the fluid's max_temperature")
     if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit:
         raise ScenarioError("session.ready_temperature", s.raw["session"]["ready_temperature"],
                             "a temperature between ambient and the fluid limit")

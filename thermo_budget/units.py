@@ -36,6 +36,7 @@ SI_UNIT = {
     "per_kelvin": "1/K",
     "specific_heat": "J/(kg*K)",
     "thermal_conductivity": "W/(m*K)",
+    "temperature_difference": "K",
 }
 
 

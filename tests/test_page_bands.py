@@ -1,0 +1,33 @@
+"""The page's band (issue 11): the envelope on the temperature chart, the ranking chart, and the
+band's line under the headline."""
+import numpy as np
+
+from thermo_budget import load_scenario, report
+from thermo_budget.band_text import plan_phrase, pulls_phrase
+from thermo_budget.page_bands import envelope_png, ranking_png
+from thermo_budget.report import simulate
+
+from conftest import SCENARIO_DIR
+
+
+def test_envelope_and_ranking_charts_are_pngs():
+    scenario = load_scenario(SCENARIO_DIR / "default.toml")
+    r = report(scenario)
+    text = scenario.to_toml()
+    with_band = envelope_png(text, "SI", simulate(scenario), r["band_envelope"])
+    without = envelope_png(text, "SI", simulate(scenario), None)
+    assert with_band[:8] == b"\x89PNG\r\n\x1a\n" and with_band != without
+    png = ranking_png.__wrapped__(tuple((row["what"], row["share"]) for row in r["band_ranking"])) \
+        if hasattr(ranking_png, "__wrapped__") else ranking_png(tuple((row["what"], row["share"]) for row in r["band_ranking"]))
+    assert png[:4] == b"\x89PNG"
+
+
+def test_the_band_in_words():
+    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    band = r["bands"]["runs_before_limit"]
+    assert pulls_phrase(r) == f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}-{band['p90']})"
+    assert plan_phrase(r) == (f"plan {r['plan_at_confidence']['runs_before_limit']} pulls to stay under 80.0 °C "
+                              f"with 90 % confidence")
+    off = report(load_scenario(SCENARIO_DIR / "default.toml").changed(uncertainty={"enabled": False}))
+    assert pulls_phrase(off) == f"{off['runs_before_limit']} pulls before the limit"
+    assert np.isfinite(r["confidence"])

@@ -1,0 +1,118 @@
+"""The page's display formatting: SI values shown in the chosen unit system ("SI" or "US"), with
+their unit symbols, durations, restated report notes and the trace CSV in the page's units.
+
+Pure functions, no Streamlit. The page converts units here and computes nothing else.
+"""
+from __future__ import annotations
+
+import re
+
+import numpy as np
+
+from .units import SI_UNIT, UNIT_LABEL, convert
+
+SYSTEMS = ("SI", "US")
+SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
+
+# Display quantities: name -> (kind of thermo_budget.units.SI_UNIT, display unit per system,
+# decimals shown per system).
+QUANTITIES = {
+    "oil_volume": ("volume", {"SI": "L", "US": "gal"}, {"SI": 1, "US": 2}),
+    "dimension": ("length", {"SI": "m", "US": "in"}, {"SI": 3, "US": 1}),
+    "thickness": ("length", {"SI": "mm", "US": "in"}, {"SI": 1, "US": 3}),
+    "hose_length": ("length", {"SI": "m", "US": "ft"}, {"SI": 2, "US": 1}),
+    "hose_diameter": ("length", {"SI": "mm", "US": "in"}, {"SI": 1, "US": 2}),
+    "temperature": ("temperature", {"SI": "degC", "US": "degF"}, {"SI": 1, "US": 1}),
+    "density": ("density", {"SI": "kg/m^3", "US": "lb/ft^3"}, {"SI": 0, "US": 1}),
+    "viscosity": ("kinematic_viscosity", {"SI": "cSt", "US": "cSt"}, {"SI": 1, "US": 1}),
+    "displacement": ("volume", {"SI": "cm^3", "US": "in^3"}, {"SI": 1, "US": 3}),
+    "mass": ("mass", {"SI": "kg", "US": "lb"}, {"SI": 1, "US": 1}),
+    "air_speed": ("speed", {"SI": "m/s", "US": "ft/s"}, {"SI": 1, "US": 1}),
+    "conductance": ("conductance", {"SI": "W/K", "US": "BTU/hr/delta_degF"}, {"SI": 1, "US": 1}),
+    "power": ("power", {"SI": "kW", "US": "hp"}, {"SI": 2, "US": 1}),
+    "idle_power": ("power", {"SI": "W", "US": "hp"}, {"SI": 0, "US": 3}),
+    "torque": ("torque", {"SI": "N*m", "US": "lbf*ft"}, {"SI": 1, "US": 1}),
+    "pull_time": ("time", {"SI": "s", "US": "s"}, {"SI": 1, "US": 1}),
+    "wait_time": ("time", {"SI": "min", "US": "min"}, {"SI": 2, "US": 2}),
+}
+
+def to_shown(value_si, quantity: str, system: str):
+    """An SI value (K, m^3, W, ...; float or array) in the display unit of `quantity` in `system`."""
+    kind, unit, _ = QUANTITIES[quantity]
+    return convert(value_si, SI_UNIT[kind], unit[system])
+
+
+def from_shown(value, quantity: str, system: str):
+    """A value in the display unit of `quantity` in `system` (float or array), back in SI."""
+    kind, unit, _ = QUANTITIES[quantity]
+    return convert(value, unit[system], SI_UNIT[kind])
+
+
+def unit_symbol(quantity: str, system: str) -> str:
+    return UNIT_LABEL[QUANTITIES[quantity][1][system]]
+
+
+def decimals(quantity: str, system: str) -> int:
+    return QUANTITIES[quantity][2][system]
+
+
+def quantity_text(value: float, quantity: str, system: str) -> str:
+    """A display value as the unit string the scenario file takes, e.g. "4.75 gal"."""
+    return f"{value:.6g} {QUANTITIES[quantity][1][system]}"
+
+
+def shown(value_si: float | None, quantity: str, system: str, digits: int | None = None) -> str:
+    """An SI value formatted for the page with its unit symbol, e.g. "176.0 °F"."""
+    if value_si is None:
+        return "n/a"
+    digits = decimals(quantity, system) if digits is None else digits
+    return f"{to_shown(value_si, quantity, system):,.{digits}f} {unit_symbol(quantity, system)}"
+
+
+def shown_celsius(value_C: float | None, system: str) -> str:
+    """A report temperature (degC) formatted in the page's system."""
+    return "n/a" if value_C is None else shown(value_C + 273.15, "temperature", system)
+
+
+def shown_duration(seconds: float | None) -> str:
+    """A duration as "45 s", "3 min 20 s" or "2 h 05 min"."""
+    if seconds is None:
+        return "n/a"
+    seconds = float(seconds)
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 3600:
+        minutes, rest = divmod(round(seconds), 60)
+        return f"{minutes} min {rest:02d} s"
+    hours, rest = divmod(round(seconds / 60), 60)
+    return f"{hours} h {rest:02d} min"
+
+
+def trace_csv_shown(trace, system: str) -> str:
+    """The trace (design 0) as CSV in the page's units: time in s, temperatures and power in the
+    display units of `system`; the column names carry the units."""
+    from .report import trace_rows
+    rows = trace_rows(trace)
+    t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
+    p_unit = QUANTITIES["power"][1][system]
+    header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
+    columns = [rows[:, 0], *(to_shown(rows[:, i] + 273.15, "temperature", system) for i in range(1, 5)),
+               to_shown(rows[:, 5], "power", system)]
+    lines = [",".join(header)]
+    lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
+    return "\n".join(lines) + "\n"
+
+
+_NUMBER_UNIT = re.compile(r"(-?\d+(?:\.\d+)?) (degC|W/K|L)\b")
+
+
+def note_in(note: str, system: str) -> str:
+    """A report note with its "80.0 degC", "12 W/K" and "40 L" figures restated in `system`."""
+    def restate(match):
+        value, unit = float(match.group(1)), match.group(2)
+        if unit == "degC":
+            return shown(value + 273.15, "temperature", system)
+        if unit == "W/K":
+            return shown(value, "conductance", system)
+        return shown(value / 1000.0, "oil_volume", system)
+    return _NUMBER_UNIT.sub(restate, note)

@@ -26,8 +26,8 @@ page_bands.section(page)
 page_sections.safety(page)
 slots = page_sections.charts(page)
 page_sections.schedule(page)
-page_sections.hot_day(page)
+page_sections.hot_day(page, slots)        # worked out after the design chart, into this place
 page_sections.files(page, slots)
 page_sections.more_figures(page)
 page_log.section(page)
-page_sections.design_chart(page, slots)   # the slowest part, last, into its place beside the first chart
+page_sections.design_chart(page, slots)   # the slowest part, last, into its place; then the hot day

@@ -60,3 +60,13 @@ def test_air_properties_are_vectorised_and_clipped():
     # outside the table the properties are held at the table's end values, not extrapolated
     k_hot, *_ = air_properties(2000.0)
     assert float(k_hot) == pytest.approx(air_table()["k_W_mK"][-1])
+
+
+def test_the_shipped_table_is_what_coolprop_gives_today():
+    # CoolProp stays the source: the table is regenerated here and compared with the shipped file
+    from thermo_budget.make_air_table import coolprop_table
+    rows = coolprop_table()
+    table = air_table()
+    np.testing.assert_array_equal(rows[:, 0], table["T_K"])
+    for i, name in enumerate(("k_W_mK", "nu_m2_s", "Pr"), start=1):
+        np.testing.assert_allclose(table[name], rows[:, i], rtol=1e-9)   # CoolProp, directly

@@ -135,8 +135,10 @@ def test_impossible_inputs_are_refused_with_a_message(page):
     assert metrics(page) == before
     number_input(page, "Oil in the tank").set_value(18.0).run()
     assert not page.error
-    number_input(page, "Hottest the oil may get").set_value(10.0).run()  # below the 20 degC room
+    number_input(page, "Hottest the oil may get").set_value(20.0).run()  # at the 20 degC room, not above it
     assert any("fluid.max_temperature" in e.value and "ambient" in e.value for e in page.error)
+    number_input(page, "Hottest the oil may get").set_value(10.0).run()  # outside the plausible range
+    assert any("fluid.max_temperature" in e.value and "10 degC" in e.value for e in page.error)
     assert metrics(page) == before
 
 
@@ -230,7 +232,7 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         runs = answers["runs_before_limit"]
         assert shown["pulls"]["value"] == str(runs)
         assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
-                   for line in shown["pulls"]["details"])
+                   for line in shown["pulls"]["details"])   # after the plan at the confidence, where there is one
         _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
         if answers["min_oil_volume_L"] is not None:
@@ -281,7 +283,7 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     runs = answers["runs_before_limit"]                     # the card shows the point answer
     answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}}
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}, "uncertainty": {"samples": 128}}
     card = pulls_card(answers, "SI")
     assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
     assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
@@ -289,9 +291,13 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
 
 
 def test_name_edit_follows_into_the_titles_and_the_file(page):
+    assert not any("rename it" in c.value for c in page.caption)
+    number_input(page, "Oil in the tank").set_value(12.0).run()
+    assert any("rename it" in c.value for c in page.caption)   # the name was given to the 18 L rig
     next(box for box in page.text_input if box.label == "Rig name").input("Stand 2, bigger tank").run()
     assert not page.exception and not page.error
     assert page.subheader[0].value.startswith("Stand 2, bigger tank")
+    assert not any("rename it" in c.value for c in page.caption)
     assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
     from thermo_budget.plots import plot_trace
     from thermo_budget import load_scenario
@@ -320,3 +326,22 @@ def test_a_return_line_limit_typed_on_the_page_stops_the_count(page):
     assert any("return line's limit" in d for d in cards(page)["pulls"]["details"])
     number_input(page, "Return-line limit").set_value(200.0).run()   # far above the return line: no effect
     assert int(headline(page)) == before
+
+
+def test_a_log_with_a_giant_cell_is_refused_and_the_uploader_stays(page):
+    # a cell over the csv module's 131,072-character limit used to raise on every rerun and hide
+    # the uploader until a reload
+    giant = ("time_s,oil_C\n" + "\n".join(f"{i * 10},{20 + i}" for i in range(20)) + "\n210,"
+             + "9" * 140_000 + "\n").encode()
+    page.file_uploader(key="log_upload").set_value(("giant.csv", giant, "text/csv")).run()
+    assert not page.exception
+    assert any("The log was not used" in e.value and "characters" in e.value for e in page.error)
+    page.run()
+    assert not page.exception
+    assert page.file_uploader(key="log_upload") is not None
+
+
+def test_a_binary_scenario_upload_is_refused(page):
+    page.file_uploader(key="upload").set_value(("binary.toml", bytes(range(256)) * 8, "application/toml")).run()
+    assert not page.exception
+    assert any("binary.toml" in e.value for e in page.error)

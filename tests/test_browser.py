@@ -117,8 +117,17 @@ def _settled(page, expected_pulls: str, unit_text: str):
         " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
         arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
     page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)
-    page.wait_for_function("() => !document.querySelector('[data-testid=stStatusWidget] svg')",
-                           timeout=ANSWER_TIMEOUT_MS)
+    page.get_by_text("Hotter than today").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
+    _idle(page)
+
+
+def _idle(page):
+    """Wait until the page's script run is over (no "Running" status, no spinner)."""
+    page.wait_for_timeout(300)
+    page.wait_for_function(
+        "() => { const s = document.querySelector('[data-testid=stStatusWidget]');"
+        " return (!s || !/Running|Stop/.test(s.innerText)) && !document.querySelector('[data-testid=stSpinner]'); }",
+        timeout=ANSWER_TIMEOUT_MS)
     page.wait_for_timeout(300)
 
 
@@ -134,19 +143,39 @@ def _choose_units(page, system: str):
     page.locator('[data-testid="stSidebar"]').get_by_text(label, exact=True).click()
 
 
+def _screenshot(page, path: Path):
+    """A viewport screenshot, kept small: 128 colours (the page has few), PNG."""
+    from PIL import Image
+    page.screenshot(path=str(path))
+    Image.open(path).convert("RGB").quantize(colors=128).save(path, optimize=True)
+
+
 def _expected_pulls(path) -> str:
     from thermo_budget import load_scenario
     from thermo_budget.report import report
     return str(report(load_scenario(path))["runs_before_limit"])
 
 
-@pytest.mark.parametrize("rig", ["default", "us_20hp"])
-def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browser, shots, rig):
+def _long_values_rig(folder: Path) -> Path:
+    """An invented rig whose answers are long phrases: 40 kW pulls into 4 L, in US units (no wait
+    is enough, no cooler is enough, a caution above the cards)."""
+    from conftest import base_raw, write_toml
+    raw = base_raw()
+    raw["units"], raw["name"] = "US", "Long values: 40 kW pulls into 4 L"
+    raw["reservoir"]["oil_volume"] = "4 L"
+    raw["session"]["steps"][0]["power"] = "40 kW"
+    return write_toml(folder, raw, "long_values.toml")
+
+
+@pytest.mark.parametrize("rig", ["default", "us_20hp", "long_values"])
+def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browser, shots, rig, tmp_path):
     """Set up the rig once (wide, where the sidebar is open), then read the headline at each width."""
-    path = REPO / "scenarios" / ("default.toml" if rig == "default" else US_RIG.name)
+    path = {"default": REPO / "scenarios" / "default.toml", "us_20hp": US_RIG,
+            "long_values": _long_values_rig(tmp_path) if rig == "long_values" else None}[rig]
     pulls = _expected_pulls(path)
     page = _open(browser, server, 1366)
     if rig != "default":
+        _settled(page, _expected_pulls(REPO / "scenarios" / "default.toml"), "°C")
         page.locator('[data-testid="stSidebar"] input[type=file]').first.set_input_files(str(path))
     failures = []
     systems = ("SI", "US") if rig == "default" else ("US", "SI")   # the rig's own units first
@@ -162,7 +191,7 @@ def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browse
             if found["bad"] or found["pageOverflow"] > 0:
                 failures.append((system, width, found))
             if (rig, system) in (("default", "SI"), ("us_20hp", "US")):
-                page.screenshot(path=str(shots / f"page_{rig}_{system}_{width}.png"))
+                _screenshot(page, shots / f"page_{rig}_{system}_{width}.png")
         page.set_viewport_size({"width": 1366, "height": HEIGHT})
     page.close()
     assert not failures, failures

@@ -103,3 +103,109 @@ def test_usage_errors_exit_2(capsys):
     assert main(["run"]) == 2
     assert main(["fly", DEFAULT]) == 2
     capsys.readouterr()
+
+
+# ---------------------------------------------------------------- edges (issue 13)
+
+import os  # noqa: E402
+
+
+def run_process(*args, stdout=subprocess.PIPE, shell_pipe=None, timeout=120):
+    if shell_pipe:
+        command = " ".join([sys.executable, "-m", "thermo_budget", *args]) + " | " + shell_pipe
+        return subprocess.run(["bash", "-o", "pipefail", "-c", command], cwd=REPO, capture_output=True, text=True,
+                              timeout=timeout)
+    return subprocess.run([sys.executable, "-m", "thermo_budget", *args], cwd=REPO, stdout=stdout,
+                          stderr=subprocess.PIPE, text=True, timeout=timeout)
+
+
+def test_a_closed_pipe_ends_quietly():
+    done = run_process("run", DEFAULT, "--json", shell_pipe="head -c 10")
+    assert "Broken pipe" not in done.stderr and "Traceback" not in done.stderr
+    assert done.stderr.strip() == ""
+
+
+@pytest.mark.skipif(not os.path.exists("/dev/full"), reason="needs /dev/full")
+def test_a_full_disk_exits_1_with_one_line():
+    with open("/dev/full", "w") as full:
+        done = run_process("run", DEFAULT, "--json", stdout=full)
+    assert done.returncode == 1
+    assert len(done.stderr.strip().splitlines()) == 1 and "no space left" in done.stderr
+
+
+def test_outputs_never_overwrite_the_input(tmp_path, capsys):
+    scenario = write_toml(tmp_path, base_raw())
+    before = scenario.read_bytes()
+    for option in ("--csv", "--plot"):
+        assert main(["run", str(scenario), option, str(scenario)]) == 2
+    log = tmp_path / "log.csv"
+    log.write_bytes((SCENARIO_DIR / "demo_log.csv").read_bytes())
+    assert main(["fit", str(scenario), str(log), "--write", str(log)]) == 2
+    assert main(["fit", str(scenario), str(log), "--plot", str(tmp_path / "." / "log.csv")]) == 2
+    assert scenario.read_bytes() == before
+    _, err = capsys.readouterr()
+    assert all("overwrite" in line for line in err.strip().splitlines())
+
+
+def test_plot_into_a_missing_folder_is_refused_before_any_file_is_written(tmp_path, capsys):
+    csv_path = tmp_path / "trace.csv"
+    code = main(["run", DEFAULT, "--csv", str(csv_path), "--plot", str(tmp_path / "missing" / "trace.png")])
+    _, err = capsys.readouterr()
+    assert code == 2 and "--plot" in err and not csv_path.exists()
+
+
+def test_an_oversized_sweep_is_refused_with_the_estimate(capsys):
+    code = main(["sweep", DEFAULT, "--oil-volumes", "5:40:1000", "--coolers", "0:100:1000"])
+    _, err = capsys.readouterr()
+    assert code == 2 and "1000000 designs" in err and "MB" in err and len(err.strip().splitlines()) == 1
+
+
+@pytest.mark.parametrize("grid", ["5:40:nan", "nan:40:5", "5:1e400:5", "0:40:5", "5:40:0", "5:4:5", "1:2", "5:40:5:1"])
+def test_bad_sweep_grids_exit_2(grid, capsys):
+    assert main(["sweep", DEFAULT, "--oil-volumes", grid, "--coolers", "0:10:2"]) == 2
+    capsys.readouterr()
+
+
+def test_sweep_text_in_the_scenarios_units_with_a_real_minimum_only(capsys):
+    code = main(["sweep", str(SCENARIO_DIR / "us_units_fan.toml"), "--oil-volumes", "8:60:6", "--coolers", "0:60:4"])
+    out, err = capsys.readouterr()
+    assert code == 0, err
+    assert "gal" in out and "°F" in out and "BTU/hr/°F" in out
+    assert " L" not in out and "W/K" not in out and "°C" not in out
+    code = main(["sweep", DEFAULT, "--oil-volumes", "5:40:8", "--coolers", "0:100:45"])
+    out, _ = capsys.readouterr()
+    # the old text said "smallest oil volume that finishes: 5.0 L" once per cooler: the grid's edge
+    assert out.count("5.0 L (a smaller volume") == 0
+    assert len(out.splitlines()) < 45
+
+
+def test_a_log_name_cannot_inject_a_table_into_the_calibrated_file(tmp_path, capsys):
+    import tomllib
+    log = tmp_path / "day\n[evil]\nx = 1\n.csv"
+    log.write_bytes((SCENARIO_DIR / "demo_log.csv").read_bytes())
+    out = tmp_path / "calibrated.toml"
+    assert main(["fit", DEFAULT, str(log), "--write", str(out)]) == 0
+    capsys.readouterr()
+    document = tomllib.loads(out.read_text(encoding="utf-8"))
+    assert "evil" not in document and document["losses"]["convection_multiplier"] > 0
+
+
+def test_help_names_the_command():
+    done = run_process("--help")
+    assert done.returncode == 0 and "run" in done.stdout and "sweep" in done.stdout and "fit" in done.stdout
+
+
+def test_run_ambients_gives_the_hot_day_and_refuses_a_bad_range(capsys):
+    assert main(["run", DEFAULT, "--json", "--ambients", "20:40:3"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    hot = result["hot_day"]
+    assert hot["ambient_C"] == [20.0, 30.0, 40.0]
+    assert hot["pulls_before_limit"][0] == result["runs_before_limit"]       # today's air: the report's count
+    assert hot["pulls_before_limit"] == sorted(hot["pulls_before_limit"], reverse=True)   # hotter: never more
+    assert "oil_ageing_equivalent_h" in result
+    assert main(["run", DEFAULT, "--ambients"]) == 0
+    out = capsys.readouterr().out
+    assert "on a 35 °C day: " in out and "pulls" in out
+    assert main(["run", DEFAULT, "--ambients", "40:20:3"]) == 2
+    err = capsys.readouterr().err
+    assert "--ambients" in err and "40:20:3" in err and "Traceback" not in err

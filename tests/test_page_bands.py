@@ -31,3 +31,20 @@ def test_the_band_in_words():
     off = report(load_scenario(SCENARIO_DIR / "default.toml").changed(uncertainty={"enabled": False}))
     assert pulls_phrase(off) == f"{off['runs_before_limit']} pulls before the limit"
     assert np.isfinite(r["confidence"])
+
+
+def test_the_page_shows_the_band_before_and_after_a_log_fit():
+    """Upload the demo log and use the calibrated model: the page quotes both bands, and the one
+    after the fit (carrying the fit's posterior) is the narrower."""
+    import re
+    from pathlib import Path
+    from streamlit.testing.v1 import AppTest
+    repo = Path(__file__).resolve().parent.parent
+    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
+    log = (repo / "scenarios" / "demo_log.csv").read_bytes()
+    at.file_uploader(key="log_upload").set_value(("demo_log.csv", log, "text/csv")).run()
+    at.toggle(key="use_calibrated").set_value(True).run()
+    assert not at.exception
+    line = next(m.value for m in at.markdown if "Before the log" in m.value)
+    (b10, b90), (a10, a90) = [tuple(map(int, pair)) for pair in re.findall(r"likely (\d+)-(\d+)", line)]
+    assert a90 - a10 < b90 - b10

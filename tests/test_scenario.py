@@ -168,3 +168,123 @@ def test_temperature_below_absolute_zero_says_so(key):
         load_scenario(raw)
     assert key in str(info.value)
     assert "absolute zero" in str(info.value)
+
+
+# ---------------------------------------------------------------- edges (issue 13)
+
+from thermo_budget.scenario import MAX_SESSION_STEPS  # noqa: E402
+from thermo_budget.scenario_table import KEYS, MAX_NESTING, key_spec  # noqa: E402
+
+
+def _refusal(raw) -> str:
+    with pytest.raises(ScenarioError) as info:
+        load_scenario(raw)
+    message = str(info.value)
+    assert "\n" not in message
+    return message
+
+
+def test_bare_numbers_in_a_us_file_mean_the_us_bare_unit():
+    # The rule: in a file with units = "US", a bare number means the key's US bare unit (README).
+    raw = base_raw()
+    raw["units"] = "US"
+    for path, value in (("ambient", 68), ("session.start_temperature", 68), ("fluid.max_temperature", 176),
+                        ("reservoir.oil_volume", 4), ("pump.displacement", 1), ("hardware.mass", 20),
+                        ("hardware.hose_outer_diameter", 1.1), ("hardware.hose_length", 8),
+                        ("reservoir.length", 14), ("reservoir.width", 10), ("reservoir.height", 12),
+                        ("reservoir.wall_thickness", 0.08)):
+        set_path(raw, path, value)
+    raw["session"]["steps"][0].update(power=12, duration=12)
+    s = load_scenario(raw)
+    assert s.ambient_K == pytest.approx(293.15)                         # 68 degF
+    assert s.max_temperature_K == pytest.approx(353.15)                 # 176 degF
+    assert s.reservoir.oil_volume_m3 == pytest.approx(4 * GALLON_M3)    # 4 gal, not 4 L
+    assert s.displacement_m3 == pytest.approx(INCH3_M3)
+    assert s.hardware.mass_kg == pytest.approx(20 * 0.45359237)
+    assert s.hardware.hose_outer_diameter_m == pytest.approx(1.1 * 0.0254)
+    assert s.hardware.hose_length_m == pytest.approx(8 * 0.3048)
+    assert s.reservoir.wall_thickness_m == pytest.approx(0.08 * 0.0254)
+    assert s.cycle[0].power_W == pytest.approx(12 * HP_W, rel=1e-6)
+    assert s.cycle[0].duration_s == pytest.approx(12.0)                 # seconds in both systems
+    # the defaults a key takes when left out are not reinterpreted: the hose bore is 0.66 x outside
+    assert s.hardware.hose_inner_diameter_m == pytest.approx(0.66 * 1.1 * 0.0254)
+
+
+def test_a_us_file_is_told_its_limits_in_degF():
+    raw = set_path(base_raw(), "units", "US")
+    set_path(raw, "ambient", "68 degF")
+    set_path(raw, "session.start_temperature", "200 degF")
+    message = _refusal(raw)
+    assert "session.start_temperature" in message and "degF" in message and "degC" not in message
+
+
+def test_every_key_of_the_range_table_is_read_by_the_scenario():
+    # a stale row would silently check nothing
+    assert key_spec("session.steps[3].power") is KEYS["session.steps[].power"]
+    assert key_spec("session.steps[0].curve_rpm[2]") is KEYS["session.steps[].curve_rpm"]
+    for path, spec in KEYS.items():
+        assert spec.low <= spec.high, path
+
+
+@pytest.mark.parametrize("path, value, quoted", [
+    ("reservoir.oil_volume", "10 m^3", "2000 L"),
+    ("session.steps", [{"kind": "pull", "duration": "12 s", "power": "10 MW", "rpm": 3000}], "1e+06 W"),
+    ("reservoir.height", "1e300 m", "5 m"),
+    ("hardware.hose_outer_diameter", 1e277, "100 mm"),
+    ("pump.displacement", "1e-300 cm^3", "0.5 to"),
+    ("hardware.mass", "1e-300 kg", "0.1 to"),
+    ("losses.air_speed", "1e300 m/s", "30 m/s"),
+])
+def test_implausible_magnitudes_are_refused_with_the_range_quoted(path, value, quoted):
+    message = _refusal(set_path(base_raw(), path, value))
+    assert path.split(".")[-1] in message and quoted in message and "plausible range" in message
+
+
+def test_ambient_meant_as_degF_is_reported_at_the_ambient():
+    # 75 (meant as degF) in an SI file is 75 degC: the ambient's own range says so first, before the
+    # fluid limits that are compared with it
+    message = _refusal(set_path(base_raw(), "ambient", 75))
+    assert message.startswith("ambient:") and "-40 to 60 degC" in message
+
+
+@pytest.mark.parametrize("change, expected", [
+    (lambda raw: raw["reservoir"].__setitem__("oil_volum", raw["reservoir"].pop("oil_volume")), 'did you mean "oil_volum"'),
+    (lambda raw: raw.__setitem__("pumps", raw.pop("pump")), '"pumps": a misspelling'),
+    (lambda raw: raw["reservoir"].__setitem__("hieght", "0.3 m"), 'did you mean "height"'),
+    (lambda raw: raw["reservoir"].__setitem__("shape", "boxx"), 'did you mean "box"'),
+])
+def test_a_typo_gets_a_did_you_mean(change, expected):
+    raw = base_raw()
+    change(raw)
+    assert expected in _refusal(raw)
+
+
+def test_repeat_times_steps_is_capped_with_the_cap_quoted():
+    raw = set_path(base_raw(), "session.repeat", MAX_SESSION_STEPS // 2 + 1)
+    message = _refusal(raw)
+    assert "session.repeat" in message and str(MAX_SESSION_STEPS) in message
+
+
+def test_deep_nesting_is_refused_before_the_toml_reader_recurses(tmp_path):
+    path = tmp_path / "deep.toml"
+    path.write_text("x = " + "[" * 500 + "]" * 500 + "\n", encoding="utf-8")
+    message = str(pytest.raises(ScenarioError, load_scenario, path).value)
+    assert f"at most {MAX_NESTING} deep" in message
+
+
+@pytest.mark.parametrize("data", [bytes(range(256)) * 4, b"\xff\xfe" + "ambient = 1".encode("utf-16-le"),
+                                  b"ambient = \"20 degC\"\n\x00\x01"])
+def test_binary_or_non_utf8_file_is_our_error(tmp_path, data):
+    path = tmp_path / "binary.toml"
+    path.write_bytes(data)
+    message = str(pytest.raises(ScenarioError, load_scenario, path).value)
+    assert "binary.toml" in message and "\n" not in message
+
+
+def test_a_long_bad_value_is_quoted_in_at_most_about_60_characters():
+    message = _refusal(set_path(base_raw(), "reservoir.shape", "x" * 1_000_000 + "\n[evil]"))
+    assert len(message) < 300 and "1000007 characters" in message
+
+
+def test_name_is_bounded_text():
+    assert "name" in _refusal(set_path(base_raw(), "name", "n" * 5000))

@@ -1,28 +1,29 @@
-"""Air at atmospheric pressure: properties from CoolProp, tabulated once and interpolated.
+"""Air at atmospheric pressure: properties tabulated from CoolProp and interpolated.
 
-CoolProp is slow (tens of microseconds a call), so it is called only when this module builds its
-table; the ODE right-hand side and the sweeps use np.interp on the table.
+The table (`data/air_1atm.csv`, 220-600 K every 2 K) is written from CoolProp by
+`python -m thermo_budget.make_air_table` and shipped with the package, so a run never loads
+CoolProp (seconds of start-up); tests/test_air.py regenerates it and checks it against CoolProp.
+The ODE right-hand side and the sweeps use np.interp on the table.
 """
 from __future__ import annotations
 
 from functools import lru_cache
+from pathlib import Path
 
 import numpy as np
-from CoolProp.CoolProp import PropsSI
 
 P_ATM_Pa = 101325.0
 TABLE_STEP_K = 2.0
 TABLE_T_K = np.arange(220.0, 602.0, TABLE_STEP_K)
+TABLE_PATH = Path(__file__).resolve().parent / "data" / "air_1atm.csv"
+TABLE_COLUMNS = ("T_K", "k_W_mK", "nu_m2_s", "Pr")
 
 
 @lru_cache(maxsize=1)
 def air_table() -> dict[str, np.ndarray]:
     """Conductivity (W/m K), kinematic viscosity (m^2/s) and Prandtl number of air at 1 atm."""
-    k = np.array([PropsSI("L", "T", T, "P", P_ATM_Pa, "Air") for T in TABLE_T_K])
-    mu = np.array([PropsSI("V", "T", T, "P", P_ATM_Pa, "Air") for T in TABLE_T_K])
-    rho = np.array([PropsSI("D", "T", T, "P", P_ATM_Pa, "Air") for T in TABLE_T_K])
-    pr = np.array([PropsSI("Prandtl", "T", T, "P", P_ATM_Pa, "Air") for T in TABLE_T_K])
-    return {"T_K": TABLE_T_K, "k_W_mK": k, "nu_m2_s": mu / rho, "Pr": pr}
+    rows = np.loadtxt(TABLE_PATH, delimiter=",", comments="#", skiprows=2)
+    return {name: rows[:, i] for i, name in enumerate(TABLE_COLUMNS)}
 
 
 def air_properties(T_film_K):

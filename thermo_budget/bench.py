@@ -6,13 +6,19 @@
 2. report() for the default scenario, as a multiple of one plain simulation of the session.
 3. The floor: the same planned-session sweep with coefficients frozen at the start state and one
    closed-form step (matrix exponential of the augmented affine system) per step.
-4. The page's work after one input change (a new oil volume on the default scenario): the answers,
+0. Start-up: whole processes of `--help`, `run --json` on the default scenario and the 2,500-design
+   sweep (median of three runs each); `--startup` prints only these.
+4. report() with the uncertainty band, and the band's share of it (default scenario, and the same
+   rig asked for 30 pulls, where every sizing answer is non-trivial).
+5. The page's work after one input change (a new oil volume on the default scenario): the answers,
    the temperature chart and the design chart, as the page computes them, without Streamlit; with
    --page, also whole reruns of app.py in Streamlit's AppTest (no browser).
 """
 from __future__ import annotations
 
 import argparse
+import subprocess
+import sys
 import time
 
 import numpy as np
@@ -102,6 +108,19 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
     return answered - start, traced - answered, swept - traced, time.perf_counter() - swept
 
 
+def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
+    """(report() with the band, of it the band alone) s, best of `repeats` each."""
+    from .bands import band_report
+    from .planning import planning_answers
+    from .report import session_report, simulate
+    trace = simulate(scenario)
+    point = session_report(scenario, trace)
+    point.update(planning_answers(scenario))
+    t_report, _ = _best_of(repeats, lambda: report(scenario, trace))
+    t_band, _ = _best_of(repeats, lambda: band_report(scenario, point))
+    return t_report, t_band
+
+
 def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[float] | None:
     """Seconds per rerun of app.py (Streamlit AppTest, no browser) after the oil volume changes to
     each value in turn; None where app.py is not beside the package."""
@@ -120,11 +139,43 @@ def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[floa
     return times
 
 
+STARTUP_COMMANDS = {
+    "--help": ["--help"],
+    "run --json": ["run", str(DEFAULT_SCENARIO), "--json"],
+    "sweep, 2,500 designs": ["sweep", str(DEFAULT_SCENARIO), "--oil-volumes", "5:40:50", "--coolers", "0:100:50"],
+}
+STARTUP_TARGETS_S = {"--help": 0.5, "run --json": 1.0, "sweep, 2,500 designs": 2.5}
+
+
+def startup_s(repeats: int = 3) -> dict[str, float]:
+    """Median wall time (s) of each STARTUP_COMMANDS as a whole process (`python -m thermo_budget ...`)."""
+    times = {}
+    for name, args in STARTUP_COMMANDS.items():
+        runs = []
+        for _ in range(repeats):
+            start = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "thermo_budget", *args], stdout=subprocess.DEVNULL, check=True)
+            runs.append(time.perf_counter() - start)
+        times[name] = float(np.median(runs))
+    return times
+
+
+def startup_line(times: dict[str, float]) -> str:
+    python_alone = float(np.median([_best_of(1, lambda: subprocess.run([sys.executable, "-c", "pass"]))[0]
+                                    for _ in range(3)]))
+    parts = [f"{name} {t:.2f} s (target < {STARTUP_TARGETS_S[name]:g})" for name, t in times.items()]
+    return "start-up, whole process, median of 3: " + "; ".join(parts) + f"; python alone {python_alone:.2f} s"
+
+
 def main(argv=None):
     parser = argparse.ArgumentParser(prog="python -m thermo_budget.bench")
     parser.add_argument("--quick", action="store_true", help="a smaller solve_ivp subset")
     parser.add_argument("--page", action="store_true", help="also time whole reruns of app.py (Streamlit AppTest)")
+    parser.add_argument("--startup", action="store_true", help="only the start-up times of whole processes")
     args = parser.parse_args(argv)
+    print(startup_line(startup_s()), flush=True)
+    if args.startup:
+        return
     scenario = load_scenario(DEFAULT_SCENARIO)
     volumes = np.linspace(5.0, 40.0, 50)
     coolers = np.linspace(0.0, 100.0, 50)
@@ -148,6 +199,9 @@ def main(argv=None):
     report(scenario)
     t_report, _ = _best_of(3, lambda: report(scenario))
 
+    band_figures = [(name, *band_share_s(s)) for name, s in
+                    (("default", scenario), ("default asked for 30 pulls", scenario.changed(**{"session.repeat": 30})))]
+
     page_redraw_s(scenario, 17.0)   # warm up matplotlib
     redraws = [page_redraw_s(scenario, volume) for volume in (16.5, 17.5, 18.5, 19.5, 20.5)]
     best_redraw = min(redraws, key=sum)
@@ -165,6 +219,11 @@ def main(argv=None):
           f"{t_session / t_floor_eigh:.2f}")
     print(f"report() with every sizing answer: {t_report:.3f} s = {t_report / t_one:.1f} plain simulations "
           f"of {t_one * 1000:.1f} ms (targets <= 40 and well under 0.5 s)")
+    from .bands import N_SAMPLES, N_SIZING_SAMPLES
+    for name, t_with, t_band in band_figures:
+        print(f"report() with the band ({N_SAMPLES} samples, {N_SIZING_SAMPLES} for the sizing answers), {name}: "
+              f"{t_with:.3f} s, of it the band {t_band:.3f} s ({100 * t_band / t_with:.0f} %, "
+              f"{t_band / t_one:.1f} plain simulations) (target <= 1 s)")
     print(f"page after one input change (5 new oil volumes): median {median_total:.3f} s; best {sum(best_redraw):.3f} s ="
           f" answers {best_redraw[0]:.3f} + temperature chart {best_redraw[1]:.3f} + design chart's sweep"
           f" {best_redraw[2]:.3f} + its drawing {best_redraw[3]:.3f}"

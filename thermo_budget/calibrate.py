@@ -18,10 +18,11 @@ from scipy import stats
 from scipy.optimize import least_squares
 
 from .fit_text import calibrated_toml, fit_command, format_difference, format_temperature, summary_text
+from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
 from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
 from .measured_log import MeasuredLog, read_log
 from .network import cooling_time_constant_s
-from .scenario import Scenario
+from .scenario import Scenario, limit_K
 from .uncertainty import with_fit_posterior
 
 # re-exported: the log's model and the fit's text live beside this module
@@ -116,15 +117,22 @@ class FitResult:
 
 
 def fit_log(scenario: Scenario, log_text: str, sensor: str = "bulk", fit_start_offset: bool = False,
-            source: str = "log", fit_hardware_coupling: bool = False) -> FitResult:
+            source: str = "log", strict: bool = False, fit_hardware_coupling: bool = False) -> FitResult:
     """Fit the convection and capacity multipliers (and optionally the hardware coupling and a start
-    offset) to a log's CSV text."""
+    offset) to a log's CSV text. strict : refuse a log that looks implausible (log_checks) instead of
+    warning."""
     log = read_log(log_text, sensor, source)
-    return fit_measured_log(scenario, log, sensor, fit_start_offset, fit_hardware_coupling)
+    return fit_measured_log(scenario, log, sensor, fit_start_offset, strict, source, fit_hardware_coupling)
 
 
 def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
-                     fit_start_offset: bool = False, fit_hardware_coupling: bool = False) -> FitResult:
+                     fit_start_offset: bool = False, strict: bool = False, source: str = "log",
+                     fit_hardware_coupling: bool = False) -> FitResult:
+    """The fit of a read log; a long one is thinned first (log_checks.thin_for_fit)."""
+    plausibility = plausibility_warnings(log, scenario.start_K, limit_K(scenario)[0], scenario.units)
+    if strict:
+        refuse_implausible(plausibility, source)
+    log = thin_for_fit(log)
     model = log_model(scenario, log, sensor)
     used = np.isfinite(log.oil_K)
     measured = log.oil_K[used]
@@ -190,7 +198,7 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         changes["losses.hardware_coupling_multiplier"] = float(f"{coupling:.4g}")
     calibrated = scenario.changed(**changes)
     in_wait = np.array([piece < 0 or not model.pieces[piece].is_pull for piece in model.point_piece[used]])
-    warnings = _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
+    warnings = plausibility + _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
                          names, solution, tau, fit_start_offset)
     if fit_hardware_coupling:
         warnings += _coupling_warnings(names, ci95, relative_half_width, correlations)
@@ -228,8 +236,9 @@ def _intervals(theta, J, residual, names):
     for i, name in enumerate(names):
         low, high = theta[i] - t * se[i], theta[i] + t * se[i]
         if name.endswith("multiplier"):
-            ci95[name] = [float(np.exp(low)), float(np.exp(high))]
-            half_width[name] = float(np.expm1(t * se[i]))
+            # an interval past e^50 is none at all (it overflowed to Infinity in the JSON)
+            ci95[name] = [float(np.exp(low)), float(np.exp(high))] if t * se[i] < 50.0 else None
+            half_width[name] = float(np.expm1(t * se[i])) if t * se[i] < 50.0 else np.inf
         else:
             ci95[name] = [float(low), float(high)]
             half_width[name] = 0.0
@@ -284,7 +293,8 @@ def _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, corr
         warnings.append("the log cannot tell the parameters apart at all (singular Jacobian); no intervals")
     for name in names[:2]:
         if half_width.get(name, 0.0) > POOR_RELATIVE_HALF_WIDTH and correlation is not None:
-            warnings.append(f"{name} is poorly determined (95 % interval about +-{100 * half_width[name]:.0f} %)")
+            width = f"about +-{100 * half_width[name]:.0f} %" if np.isfinite(half_width[name]) else "without bound"
+            warnings.append(f"{name} is poorly determined (95 % interval {width})")
     for i, name in enumerate(names):
         if np.isclose(theta[i], lower[i], atol=1e-6) or np.isclose(theta[i], upper[i], atol=1e-6):
             warnings.append(f"{name} ended at the edge of its allowed range; the model does not match this log")

@@ -1,24 +1,31 @@
-"""Command line: `python -m thermo_budget run|sweep|fit ...`. Exit 0 on success, 2 on bad input."""
+"""Command line: `thermo-budget run|sweep|fit ...` (or `python -m thermo_budget ...`).
+
+Exit 0 on success, 2 on bad input (one line naming the key, the value and what was expected), 1 on
+a full disk; a closed pipe (`... | head`) ends it quietly. Every subcommand runs inside one wrapper,
+`run_guarded`, that turns these into exit codes; a new subcommand only adds its parser and handler.
+The heavy modules are imported inside the handlers, so that `--help` answers at once.
+"""
 from __future__ import annotations
 
 import argparse
+import errno
 import json
+import os
 import sys
 from pathlib import Path
 
-from .errors import ScenarioError
-from .scenario import load_scenario
-from .units import to_display, unit_label
+from .errors import ScenarioError, shown
 
 
 def _fmt(value_si, kind, system, digits=1):
+    from .units import to_display, unit_label
     if value_si is None:
         return "n/a"
     return f"{to_display(value_si, kind, system):.{digits}f} {unit_label(kind, system)}"
 
 
 def _temp(celsius, system):
-    return "n/a" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
+    return "beyond the model's range" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
 
 
 def summary_text(result: dict) -> str:
@@ -57,16 +64,47 @@ def summary_text(result: dict) -> str:
                                                else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
         if result.get("runs_stopped_by") == "return_line":
             lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
-        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
         from .band_text import summary_lines
         lines += summary_lines(result)
+        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
         lines += [f"  note: {note}" for note in result.get("notes", [])]
     return "\n".join(lines)
 
 
+def check_outputs(args, inputs: tuple, outputs: tuple) -> None:
+    """Before any work: every output path (the options named in `outputs`) must be in an existing
+    folder, not a folder itself, not one of the input files (`inputs`, option names) and not
+    another output. Raises ScenarioError naming the option."""
+    seen = {}
+    for name in inputs:
+        path = Path(getattr(args, name))
+        if path.exists():
+            seen[path.resolve()] = name
+    for option in outputs:
+        value = getattr(args, option, None)
+        if not value:
+            continue
+        path = Path(value)
+        flag = "--" + option.replace("_", "-")
+        if not path.parent.is_dir():
+            raise ScenarioError(flag, value, f"a file in an existing folder ({path.parent} does not exist)")
+        if path.is_dir():
+            raise ScenarioError(flag, value, "a file name, not a folder")
+        resolved = path.resolve()
+        if resolved in seen:
+            raise ScenarioError(flag, value, f"a new file name, not the {seen[resolved]} file it would overwrite")
+        seen[resolved] = flag
+
+
+def _load(path):
+    from .scenario import load_scenario
+    return load_scenario(path)
+
+
 def _run(args) -> int:
     from .report import report, simulate, trace_csv
-    scenario = load_scenario(args.scenario)
+    check_outputs(args, ("scenario",), ("csv", "plot"))
+    scenario = _load(args.scenario)
     trace = simulate(scenario)
     result = report(scenario, trace)
     if args.csv:
@@ -80,7 +118,9 @@ def _run(args) -> int:
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients) + 273.15)
         result["hot_day"] = hot.to_dict()
     if args.json:
-        print(json.dumps(result, indent=2))
+        from .report import check_finite
+        check_finite(result)
+        print(json.dumps(result, indent=2, allow_nan=False))
     else:
         print(summary_text(result))
         if hot is not None:
@@ -94,7 +134,7 @@ def _ambients(text: str):
     parts = text.split(":")
     try:
         start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
-        if len(parts) != 3 or not 1 <= count <= 200 or stop < start or start < -60 or stop > 150:
+        if len(parts) != 3 or not 1 <= count <= 200 or not -60 <= start <= stop <= 150:
             raise ValueError
     except (ValueError, IndexError):
         raise ScenarioError("--ambients", text, "START:STOP:N in degC, -60 <= START <= STOP <= 150, 1 <= N <= 200") from None
@@ -105,8 +145,10 @@ def _grid(text: str, option: str):
     import numpy as np
     parts = text.split(":")
     try:
+        if len(text) > 60 or len(parts) != 3:
+            raise ValueError
         start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
-        if len(parts) != 3 or count < 1 or start < 0 or stop < start:
+        if not (np.isfinite(start) and np.isfinite(stop)) or count < 1 or start < 0 or stop < start:
             raise ValueError
     except (ValueError, IndexError):
         raise ScenarioError(option, text, "START:STOP:N with 0 <= START <= STOP and N >= 1") from None
@@ -114,29 +156,32 @@ def _grid(text: str, option: str):
 
 
 def _sweep(args) -> int:
-    from .design_sweep import sweep
-    scenario = load_scenario(args.scenario)
+    from .design_sweep import check_grid, sweep
+    check_outputs(args, ("scenario",), ("plot",))
+    scenario = _load(args.scenario)
     volumes = _grid(args.oil_volumes, "--oil-volumes")
-    if volumes[0] <= 0:
-        raise ScenarioError("--oil-volumes", args.oil_volumes, "oil volumes above 0 L")
-    result = sweep(scenario, volumes, _grid(args.coolers, "--coolers"))
+    coolers = _grid(args.coolers, "--coolers")
+    check_grid(volumes, coolers, ("--oil-volumes", args.oil_volumes), ("--coolers", args.coolers))
+    result = sweep(scenario, volumes, coolers)
     if args.plot:
         from .plots import plot_design_chart
         plot_design_chart(scenario, result).savefig(args.plot, dpi=120, bbox_inches="tight")
     if args.json:
         print(json.dumps(result.to_dict(), indent=2))
     else:
-        print(result.summary_text())
+        print(result.summary_text(scenario.units))
     return 0
 
 
 def _fit(args) -> int:
     from .fit_text import fit_command
+    check_outputs(args, ("scenario", "log"), ("write", "plot"))
     return fit_command(args)
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget",
+    command = Path(sys.argv[0]).name
+    parser = argparse.ArgumentParser(prog=command if command == "thermo-budget" else "python -m thermo_budget",
                                      description="Oil temperature budget of an uncooled hydraulic engine brake.")
     sub = parser.add_subparsers(dest="command", required=True)
     run = sub.add_parser("run", help="simulate a scenario's planned session and answer the planning questions")
@@ -163,6 +208,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--write", metavar="CALIBRATED.toml")
     fit.add_argument("--plot", metavar="FIT.png")
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
+    fit.add_argument("--strict", action="store_true",
+                     help="refuse a log that looks implausible (another unit, or far from the start temperature)")
     fit.add_argument("--fit-hardware-coupling", action="store_true",
                      help="also fit the oil-to-pump/valve-body coupling (warns where the log cannot tell it)")
     fit.set_defaults(handler=_fit)
@@ -175,11 +222,41 @@ def main(argv=None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exit_:
         return int(exit_.code or 0)
+    return run_guarded(args.handler, args)
+
+
+def run_guarded(handler, args) -> int:
+    """Run one subcommand and turn its end into an exit code: 2 with one line for bad input, 1 with
+    one line for a full disk, 1 and nothing more when the reader of stdout has gone away."""
     try:
-        return args.handler(args)
+        code = handler(args)
+        sys.stdout.flush()
+        return code
     except ScenarioError as error:
         print(f"error: {error}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        _stdout_to_devnull()
+        return 1
     except OSError as error:
-        print(f"error: {error.filename or ''}: {error.strerror}", file=sys.stderr)
+        where = f" {shown(error.filename)}" if error.filename else ""
+        if error.errno in (errno.ENOSPC, errno.EDQUOT):
+            _stdout_to_devnull()
+            print(f"error: no space left on the device to write{where or ' the output'}", file=sys.stderr)
+            return 1
+        print(f"error:{where} {error.strerror or error}", file=sys.stderr)
         return 2
+
+
+def _stdout_to_devnull():
+    """Point stdout at /dev/null, so that Python's own flush at exit does not fail a second time."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+
+
+def console_main() -> None:
+    """The `thermo-budget` command that `pip install .` puts on the path."""
+    sys.exit(main())

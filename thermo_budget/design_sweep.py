@@ -6,9 +6,18 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .errors import ScenarioError
 from .outcome import peak_oil_K
 from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import KEYS, Scenario, build_rig, limit_K
+from .session import PLAN_RESOLUTION
+from .units import convert, to_display, unit_label
+
+# Memory of a sweep, measured with the default scenario (30 recorded points per design: about
+# 7.4 kB a design at 2,500 and 10,000 designs): a fixed part and a part per recorded point.
+SWEEP_BYTES_PER_DESIGN = 2_000
+SWEEP_BYTES_PER_POINT = 200
+MAX_SWEEP_BYTES = 256 * 2**20
 
 
 @dataclass
@@ -40,23 +49,77 @@ class SweepResult:
                 "pulls_planned": self.pulls_planned, "limit_C": round(self.limit_C, 3), "max_pulls": self.max_pulls,
                 "notes": ["runs_before_limit is null where the cadence is sustainable (it can go on all day)"]}
 
-    def summary_text(self) -> str:
+    def summary_text(self, system: str = "SI") -> str:
+        """The grid's answers in the units of `system`. The smallest oil volume that finishes is
+        given for a cooler only where it is a real minimum inside the grid (a smaller volume of
+        the grid fails); coolers for which every or no volume finishes are grouped on one line."""
+        def volume(L):
+            return f"{to_display(L / 1000.0, 'volume', system):.1f} {unit_label('volume', system)}"
+
+        def cooler(W_K):
+            return f"{to_display(W_K, 'conductance', system):.1f} {unit_label('conductance', system)}"
+
+        limit = f"{to_display(self.limit_C + 273.15, 'temperature', system):.1f} {unit_label('temperature', system)}"
         enough = self.pulls_under_limit >= self.pulls_planned
         lines = [f"{self.oil_volumes_L.size} oil volumes x {self.coolers_W_per_K.size} coolers; "
-                 f"limit {self.limit_C:.1f} degC; planned session {self.pulls_planned} pulls",
+                 f"limit {limit}; planned session {self.pulls_planned} pulls",
                  f"designs that finish the planned session: {int(enough.sum())} of {enough.size}",
-                 f"designs that can go on all day: {int(self.sustainable.sum())}"]
-        for j, cooler in enumerate(self.coolers_W_per_K):
+                 f"designs that can go on all day: {int(self.sustainable.sum())}",
+                 "smallest oil volume that finishes the planned session:"]
+        groups = []   # (first cooler, last cooler, text)
+        for j, W_K in enumerate(self.coolers_W_per_K):
             ok = np.flatnonzero(enough[:, j])
-            smallest = f"{self.oil_volumes_L[ok[0]]:.1f} L" if ok.size else "none in range"
-            lines.append(f"  cooler {cooler:8.1f} W/K: smallest oil volume that finishes: {smallest}")
+            if not ok.size:
+                text = f"none of the grid's volumes (up to {volume(self.oil_volumes_L[-1])}) finishes"
+            elif ok[0] == 0:
+                text = (f"every volume of the grid finishes; its smallest, {volume(self.oil_volumes_L[0])}, "
+                        "is the grid's edge, not a minimum")
+            else:
+                text = f"{volume(self.oil_volumes_L[ok[0]])} (a smaller volume of the grid does not finish)"
+            if groups and groups[-1][2] == text and (not ok.size or ok[0] == 0):
+                groups[-1] = (groups[-1][0], W_K, text)
+            else:
+                groups.append((W_K, W_K, text))
+        for first, last, text in groups:
+            which = f"cooler {cooler(first)}" if first == last else f"coolers {cooler(first)} to {cooler(last)}"
+            lines.append(f"  {which}: {text}")
         return "\n".join(lines)
 
 
+def estimated_sweep_bytes(scenario: Scenario, n_designs: int) -> int:
+    """Memory a sweep of n designs needs, from the measured cost per design and per recorded point."""
+    points = sum(PLAN_RESOLUTION.substeps(step, step.duration_s) for step in scenario.steps) + 1
+    return int(n_designs * (SWEEP_BYTES_PER_DESIGN + SWEEP_BYTES_PER_POINT * points))
+
+
+def check_grid(oil_volumes_L, coolers_W_per_K, volume_source=("oil_volumes_L", None),
+               cooler_source=("coolers_W_per_K", None)) -> None:
+    """Refuse grid values outside the plausible ranges of reservoir.oil_volume and
+    cooler.specific_dissipation (KEYS); sources are (name, value as given) for the message."""
+    for values, (name, given), key, unit in ((oil_volumes_L, volume_source, "reservoir.oil_volume", "L"),
+                                            (coolers_W_per_K, cooler_source, "cooler.specific_dissipation", "W/K")):
+        spec = KEYS[key]
+        low, high = (convert(v, spec.si_unit, unit) for v in (spec.low, spec.high))
+        values = np.asarray(values, dtype=float)
+        if values.size == 0 or not np.all(np.isfinite(values)) or values.min() < low or values.max() > high:
+            shown = given if given is not None else values.tolist()
+            raise ScenarioError(name, shown, f"values from {low:g} to {high:g} {unit}" + (" (above 0)" if low > 0 else ""))
+
+
 def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = MAX_PULLS) -> SweepResult:
-    """Evaluate every (oil volume, cooler) pair of the grid in one batch (tank scaled geometrically)."""
+    """Evaluate every (oil volume, cooler) pair of the grid in one batch (tank scaled geometrically).
+    A grid whose estimated memory passes MAX_SWEEP_BYTES is refused with the estimate quoted."""
     volumes = np.asarray(oil_volumes_L, dtype=float)
     coolers = np.asarray(coolers_W_per_K, dtype=float)
+    check_grid(volumes, coolers)
+    n_designs = volumes.size * coolers.size
+    need = estimated_sweep_bytes(scenario, n_designs)
+    if need > MAX_SWEEP_BYTES:
+        per_design = need / n_designs
+        raise ScenarioError("sweep", f"{volumes.size} x {coolers.size} = {n_designs} designs",
+                            f"a grid of at most {int(MAX_SWEEP_BYTES // per_design)} designs for this session "
+                            f"(estimated {per_design / 1024:.1f} kB each; this grid needs about {need / 2**20:.0f} MB, "
+                            f"the limit is {MAX_SWEEP_BYTES / 2**20:.0f} MB)")
     V, K = np.meshgrid(volumes, coolers, indexing="ij")
     rig = build_rig(scenario, oil_volume_m3=V.ravel() / 1000.0, cooler_W_K=K.ravel())
     n = V.size

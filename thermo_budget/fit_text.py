@@ -60,30 +60,45 @@ def calibrated_toml(result: FitResult, log_name: str) -> str:
         pair = result.ci95.get(name)
         return "n/a" if pair is None else f"{pair[0]:.3g} to {pair[1]:.3g}"
 
-    header = [f"# Calibrated by `thermo_budget fit` from {Path(log_name).name} ({result.sensor} sensor, "
+    header = [f"Calibrated by `thermo_budget fit` from {toml_string(Path(log_name).name)} ({result.sensor} sensor, "
               f"{result.n_points} points, RMS residual {result.rms_K:.2f} K).",
-              f"# convection_multiplier 95 %: {fmt('convection_multiplier')}; "
+              f"convection_multiplier 95 %: {fmt('convection_multiplier')}; "
               f"capacity_multiplier 95 %: {fmt('capacity_multiplier')}."]
     if result.hardware_coupling_multiplier is not None:
-        header.append(f"# hardware_coupling_multiplier 95 %: {fmt('hardware_coupling_multiplier')}.")
-    header += [f"# warning: {w}" for w in result.warnings]
-    return "\n".join(header) + "\n" + result.calibrated_scenario.to_toml()
+        header.append(f"hardware_coupling_multiplier 95 %: {fmt('hardware_coupling_multiplier')}.")
+    header += [f"warning: {w}" for w in result.warnings]
+    return "".join(toml_comment(line) for line in header) + result.calibrated_scenario.to_toml()
+
+
+def toml_string(text: str) -> str:
+    """text as a TOML basic string, escaped by tomli_w: no newline or quote in it can end the string."""
+    import tomli_w
+    return tomli_w.dumps({"x": str(text)})[len("x = "):].rstrip("\n")
+
+
+def toml_comment(text: str) -> str:
+    """One TOML comment line; control characters in text are escaped, so it cannot start a table."""
+    return "# " + "".join(c if c.isprintable() else repr(c)[1:-1] for c in text) + "\n"
 
 
 def fit_command(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
     from .calibrate import fit_log
     from .measured_log import log_file_text
+    from .report import check_finite
     from .scenario import load_scenario
     scenario = load_scenario(args.scenario)
     text = log_file_text(args.log)
     result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
-                     source=str(args.log), fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
+                     source=str(args.log), strict=bool(getattr(args, "strict", False)),
+                     fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
     if args.write:
         Path(args.write).write_text(calibrated_toml(result, args.log), encoding="utf-8")
     if args.plot:
         from .fit_plot import plot_fit
         figure = plot_fit(result)
         figure.savefig(args.plot, dpi=120, bbox_inches="tight")
-    print(json.dumps(result.to_dict(include_series=False), indent=2) if args.json else summary_text(result))
+    answers = result.to_dict(include_series=False)
+    check_finite(answers)
+    print(json.dumps(answers, indent=2, allow_nan=False) if args.json else summary_text(result))
     return 0

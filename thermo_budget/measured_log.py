@@ -29,6 +29,8 @@ from .errors import ScenarioError
 from .units import convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
+MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
+MAX_CELL_CHARS = 1_000
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
@@ -112,9 +114,20 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
                 if line.strip() and not line.lstrip().startswith("#")]
     if not numbered:
         raise ScenarioError(source, "no header", "a CSV header line such as time_s,oil_C")
+    if len(numbered) > MAX_LOG_ROWS + 1:
+        raise ScenarioError(source, f"{len(numbered) - 1} rows", f"a log of at most {MAX_LOG_ROWS} rows "
+                            "(log less often, or cut the log to the session)")
     header_line, header = numbered[0]
     delimiter = _delimiter(header)
-    rows = list(csv.reader(io.StringIO("\n".join(line for _, line in numbered)), delimiter=delimiter))
+    try:
+        rows = list(csv.reader(io.StringIO("\n".join(line for _, line in numbered)), delimiter=delimiter))
+    except csv.Error as error:
+        raise ScenarioError(source, "a CSV it cannot read", f"a CSV with cells of at most {MAX_CELL_CHARS} "
+                            f"characters and balanced quotes ({error})") from None
+    too_long = next((i for i, row in enumerate(rows) if any(len(cell) > MAX_CELL_CHARS for cell in row)), None)
+    if too_long is not None:
+        raise ScenarioError(f"{source} line {numbered[too_long][0]}", "a cell of "
+                            f"{max(len(c) for c in rows[too_long])} characters", f"cells of at most {MAX_CELL_CHARS} characters")
     names = [name.strip() for name in rows[0]]
     columns = _columns(names, sensor, source)
     notes = []

@@ -8,8 +8,6 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
-from chemicals.viscosity import VI_Hs, VI_Ls, VI_nus
-from scipy.optimize import brentq
 
 from .errors import ScenarioError
 
@@ -68,6 +66,7 @@ def d2270_L_H(nu100_cSt: float) -> tuple[float, float]:
     if nu100_cSt < 2.0:
         raise ScenarioError("fluid.viscosity_100C", nu100_cSt, "at least 2 cSt (ASTM D2270 range)")
     if nu100_cSt <= 70.0:
+        from chemicals.viscosity import VI_Hs, VI_Ls, VI_nus   # imported here: only a fluid given by VI needs it
         return float(np.interp(nu100_cSt, VI_nus, VI_Ls)), float(np.interp(nu100_cSt, VI_nus, VI_Hs))
     Y = nu100_cSt
     return 0.8353 * Y**2 + 14.67 * Y - 216.0, 0.1684 * Y**2 + 11.85 * Y - 97.0
@@ -90,7 +89,23 @@ def nu100_from_viscosity_index_cSt(nu40_cSt: float, viscosity_index: float) -> f
     if gap(low) * gap(high) > 0:
         raise ScenarioError("fluid.viscosity_index", viscosity_index,
                             f"a viscosity index reachable with nu40 = {nu40_cSt:g} cSt and nu100 >= 2 cSt")
-    return float(brentq(gap, low, high, xtol=1e-10))
+    return _bisect(gap, low, high, xtol=1e-10)
+
+
+def _bisect(f, low: float, high: float, xtol: float) -> float:
+    """A root of f in [low, high], where f changes sign, by bisection to xtol (f is cheap here and
+    bisection cannot fail; scipy's brentq would cost its import at every start)."""
+    f_low = f(low)
+    while high - low > xtol:
+        middle = 0.5 * (low + high)
+        f_middle = f(middle)
+        if f_middle == 0.0:
+            return middle
+        if (f_middle > 0) == (f_low > 0):
+            low, f_low = middle, f_middle
+        else:
+            high = middle
+    return 0.5 * (low + high)
 
 
 def cragoe_specific_heat_J_kgK(T_K, specific_gravity_60F: float):

@@ -33,7 +33,7 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
 
 
 @st.cache_data(max_entries=32, show_spinner=False)
-def ranking_png(rows: tuple) -> bytes:
+def ranking_png(rows: tuple, of_what: str = "the pull count") -> bytes:
     """A small horizontal bar chart: each uncertain input's share of the spread in the pull count."""
     figure = Figure(figsize=(4.6, 0.42 * len(rows) + 0.7))
     figure.subplots_adjust(left=0.42, right=0.97, bottom=0.2 if len(rows) > 3 else 0.3, top=0.97)
@@ -44,7 +44,7 @@ def ranking_png(rows: tuple) -> bytes:
     for y, share in enumerate(shares):
         ax.annotate(f"{share:.0f} %", (share, y), xytext=(3, 0), textcoords="offset points", va="center", fontsize=8)
     ax.set_xlim(0, max(shares) * 1.25 + 1)
-    ax.set_xlabel("share of the spread in the pull count (%)", fontsize=8)
+    ax.set_xlabel(f"share of the spread in {of_what} (%)", fontsize=8)
     ax.tick_params(labelsize=8)
     ax.grid(axis="x", alpha=0.3)
     return png_bytes(figure)
@@ -68,7 +68,7 @@ def _likely(band, quantity, system, scale=1.0) -> str:
 
 def _table(answers: dict, system: str) -> list[dict]:
     bands, plan = answers["bands"], answers["plan_at_confidence"]
-    c = f"plan at {100 * answers['confidence']:.0f} %"
+    c = f"plan ({100 * answers['confidence']:.0f} %)"
 
     def row(what, key, quantity, scale=1.0):
         def one(v):
@@ -81,17 +81,17 @@ def _table(answers: dict, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model's figure": one(answers[key]) if answers[key] is not None else "n/a",
-                "likely (P10 to P90)": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
+        return {"answer": what, "model": one(answers[key]) if answers[key] is not None else "n/a",
+                "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
                                          f"{bands[key]['p10']} to {bands[key]['p90'] or 'no limit'}")),
                 c: one(plan[key]) if key in plan else ""}
     rows = [row("pulls before the limit", "runs_before_limit", "count"),
-            row("pulls of the planned session under the limit", "pulls_under_limit", "count"),
-            row("peak of the planned session", "peak_C", "temperature"),
+            row("of the planned pulls, under the limit", "pulls_under_limit", "count"),
+            row("peak of the planned pulls", "peak_C", "temperature"),
             row("wait needed between pulls", "min_wait_s", "duration"),
-            row("cooler for the planned session", "cooler_required_W_per_K", "conductance"),
+            row("cooler for the planned pulls", "cooler_required_W_per_K", "conductance"),
             row("smallest oil volume", "min_oil_volume_L", "oil_volume", 1e-3)]
     return rows
 
@@ -106,20 +106,22 @@ def section(page: PagePlan):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
     plan = plan_phrase(answers)
-    st.markdown(f"#### {pulls_phrase(answers)}" + (f"  ·  {plan}" if plan else ""))
-    with st.expander("How sure is this? The likely range of every answer, and what to measure first",
+    st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") +
+                (f" {answers['band_advice']}" if answers["band_advice"] else ""))
+    with st.expander("The likely range of every answer, the plan at your confidence, and what moves them",
                      expanded=False):
         left, right = st.columns([3, 2])
         left.dataframe(pd.DataFrame(_table(answers, system)), hide_index=True, width="stretch")
-        left.caption(f"Likely: 8 in 10 of the rigs the uncertainty model allows fall in the range "
+        left.caption(f"Likely: from P10 to P90, i.e. 8 in 10 of the rigs the uncertainty model allows fall in the range "
                      f"({answers['uncertainty']['samples']} quasi-random samples). The plan keeps the session "
                      f"under the limit in {100 * answers['confidence']:.0f} % of them. The model's own figure "
                      f"is the one above the range.")
         ranking = answers["band_ranking"]
         if ranking:
-            right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking)), width="stretch")
-            right.caption(answers["band_advice"] + f" (The linear fit behind these shares explains "
-                                                   f"{100 * ranking[0]['r2']:.0f} % of the spread.)")
+            right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking), ranking[0]["of"]),
+                        width="stretch")
+            right.caption(f"Each input's share of the spread in {ranking[0]['of']} (the linear fit behind the "
+                          f"shares explains {100 * ranking[0]['r2']:.0f} % of it).")
         if page.calibrated:
             before = state.answers_for(st.session_state.good_toml)
             st.markdown(f"**Before the log:** {pulls_phrase(before)}.  **After it:** {pulls_phrase(answers)}.")

@@ -43,7 +43,7 @@ def _band_text(band) -> str | None:
     if not isinstance(band, dict) or band.get("p10") is None or band.get("p90") is None:
         return None
     low, high = band["p10"], band["p90"]
-    return f"likely {low}" if low == high else f"likely {low}–{high}"
+    return None if low == high else f"likely {low}–{high}"   # a band of one value says nothing more
 
 
 def _confidence_text(answers: dict) -> str:
@@ -60,6 +60,8 @@ def pulls_card(answers: dict, system: str) -> Card:
     else:
         value, unit = f"{runs}", "pull" if runs == 1 else "pulls"
     bands = answers.get("bands") or {}
+    if not (answers.get("uncertainty") or {}).get("samples", 1):
+        bands = {}   # the band is off: it only repeats the model's figure
     details = []
     band = _band_text(bands.get("runs_before_limit"))
     if band and runs is not None:
@@ -141,8 +143,10 @@ def tank_card(answers: dict, oil_volume_m3: float, system: str) -> Card:
 def ageing_card(answers: dict, system: str) -> Card:
     hours = answers["oil_ageing_equivalent_h"]
     reference = shown_celsius(answers.get("oil_ageing_reference_C", 60.0), system)
-    return Card("ageing", "Oil ageing today", f"{hours:.2f}", f"h as at {reference}",
-                ("Oxidation doubling per 10 K: a rule of thumb for comparing days.",),
+    details = ["Oxidation doubling per 10 K: a rule of thumb for comparing days."]
+    if answers["peak_C"] > 100.0:
+        details.append("Past 100 °C the rule understates the ageing.")
+    return Card("ageing", "Oil ageing today", f"{hours:.2f}", f"h as at {reference}", tuple(details),
                 help="Equivalent hours at 60 °C that age the oil as much as this session does, by the rule that "
                      "the oxidation rate doubles per 10 K. Common practice, no single source; a relative figure, "
                      "not a life prediction; roughly valid from 50 to 100 °C.")

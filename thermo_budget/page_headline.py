@@ -12,12 +12,14 @@ import streamlit as st
 
 from . import page_inputs as pi
 from .page_cards import Card, headline_cards
+from . import page_state as state
 from .page_state import PagePlan
 
 CARD_CSS = """
 <style>
 .tb-cards { container-type: inline-size; }
-.tb-grid { display: grid; gap: 0.6rem; grid-template-columns: repeat(auto-fill, minmax(min(100%, 10.5rem), 1fr)); }
+.tb-grid { display: grid; gap: 0.6rem;
+           grid-template-columns: repeat(auto-fill, minmax(max(min(100%, 10.5rem), calc(20% - 0.6rem)), 1fr)); }
 @container (min-width: 34rem) { .tb-main { grid-column: span 2; } }
 .tb-card { min-width: 0; border: 1px solid rgba(49, 51, 63, 0.2); border-radius: 0.5rem; padding: 0.55rem 0.7rem;
            overflow-wrap: anywhere; word-break: normal; }
@@ -49,6 +51,9 @@ def section(page: PagePlan):
     answers, system, planned = page.answers, page.system, page.scenario
     name = planned.name or "This rig"
     st.subheader(name + ("  ·  calibrated from your log" if page.calibrated else ""))
+    if state.name_is_stale():
+        st.caption("✏️ The rig has changed since it was given this name: rename it under \"Rig name\" in the "
+                   "sidebar, so the titles and the saved file say what it is now.")
     for caution in answers.get("cautions", []):
         st.error("⚠️ " + pi.note_in(caution, system))
     view = pi.session_view(planned.raw)

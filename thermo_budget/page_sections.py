@@ -3,7 +3,7 @@ files and the further figures (Streamlit only; every figure comes from the packa
 from __future__ import annotations
 
 import html
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import streamlit as st
 
@@ -15,9 +15,11 @@ from .units import to_display, unit_label
 
 @dataclass
 class Slots:
-    """Places kept on the page for what is drawn last (the design chart and its download)."""
+    """Places kept on the page for what is drawn last: the design chart and its download, and
+    sections that ask to be drawn after it (`later`, functions of no argument, in order)."""
     design_chart: object
     design_download: object
+    later: list = field(default_factory=list)
 
 
 def title():
@@ -146,12 +148,20 @@ def more_figures(page: PagePlan):
         st.markdown("\n".join("- " + line for line in more_figures_lines(page)))
 
 
-def hot_day(page: PagePlan):
-    """Pulls and cooler across the day's possible air temperatures (one batched run, cached)."""
+def hot_day(page: PagePlan, slots: Slots):
+    """Pulls and cooler across the day's possible air temperatures (one batched run, cached). Its
+    place is kept here; it is worked out and drawn after the design chart."""
+    place = st.container()
+    slots.later.append(lambda: _draw_hot_day(page, place))
+
+
+def _draw_hot_day(page: PagePlan, place):
     from .hot_day import AROUND_K, DEFAULT_RANGE_C
-    hot = state.hot_day_for(page.toml_text)
+    with place, st.spinner("Working out a hotter day…"):
+        hot = state.hot_day_for(page.toml_text)
+        image = state.hot_day_png(page.toml_text, page.system)
     system = page.system
-    left, right = st.columns(2)
+    left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")
     low, high = DEFAULT_RANGE_C
     within = low <= page.scenario.ambient_K - 273.15 <= high
@@ -170,14 +180,17 @@ def hot_day(page: PagePlan):
         sentences.append(f"on a {pi.shown(ambient, 'temperature', system, 0)} day: {count}, {need}")
     if sentences:
         left.markdown("Hotter than today:\n" + "\n".join(f"- {s}" for s in sentences[:4]))
-    right.image(state.hot_day_png(page.toml_text, system), width="stretch")
+    right.image(image, width="stretch")
 
 
 def design_chart(page: PagePlan, slots: Slots):
     """The slowest part of the page (a sweep over 100 rigs), drawn into its place once everything
-    else is up; until then the page keeps showing the previous chart."""
+    else is up; until then the page keeps showing the previous chart. Then the sections that asked
+    to come after it."""
     with slots.design_chart:
         image = state.design_chart(page.toml_text, page.system)
         st.image(image, width="stretch")
     slots.design_download.download_button("Design chart (.png)", image, file_name="design_chart.png",
                                           mime="image/png")
+    for draw in slots.later:
+        draw()

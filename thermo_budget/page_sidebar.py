@@ -231,8 +231,12 @@ def name():
     st.sidebar.text_input("Rig name", value=str(pi.get_path(state.draft(), "name", "") or ""), key=widget_key,
                           max_chars=120, help="Shown above the answers, on the charts and in the saved scenario. "
                           "Rename the rig when you change it.",
-                          on_change=state.from_widget, args=(lambda raw, v: pi.with_path(raw, "name", v.strip()),
-                                                             widget_key))
+                          on_change=_rename, args=(widget_key,))
+
+
+def _rename(widget_key: str):
+    state.set_draft(pi.with_path(state.draft(), "name", st.session_state[widget_key].strip()))
+    state.remember_name()
 
 
 def rig_inputs(current: Scenario):

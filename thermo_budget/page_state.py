@@ -81,7 +81,7 @@ def hot_day_png(toml_text: str, system: str) -> bytes:
     return page_charts.hot_day_chart_png(toml_text, system, hot_day_for(toml_text))
 
 
-@st.cache_resource(max_entries=8, show_spinner=False)
+@st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
 def fit_for(toml_text: str, log_text: str, sensor: str):
     return fit_log(scenario_of(toml_text), log_text, sensor)
 
@@ -98,6 +98,22 @@ def start():
         ss.gen = 0                        # bumps on upload so that every input starts afresh
         ss.system = default.units
         ss.upload_seen, ss.upload_error = None, None
+        remember_name()
+
+
+def _without_name(raw: dict) -> dict:
+    return {k: v for k, v in raw.items() if k not in ("name", "units")}
+
+
+def remember_name():
+    """Note the rig the current name was given to (on load, upload and a rename)."""
+    st.session_state.named_rig = _without_name(st.session_state.draft)
+
+
+def name_is_stale() -> bool:
+    """True once the rig has been changed since its name was given."""
+    ss = st.session_state
+    return ss.get("named_rig") is not None and _without_name(ss.draft) != ss.named_rig
 
 
 def system() -> str:
@@ -145,6 +161,7 @@ def take_upload(uploaded):
             ss.upload_error = f"{uploaded.name} was not opened. {error}"
         else:
             ss.draft, ss.good_toml, ss.upload_error = loaded.raw, loaded.to_toml(), None
+            remember_name()
             ss.gen += 1
             ss.system = loaded.units
     elif uploaded is None:

@@ -1,8 +1,11 @@
 """The answers for one scenario, as the dict that `run --json` prints."""
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
+from .errors import ScenarioError
 from .network import HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
@@ -10,8 +13,19 @@ from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_co
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
+from .units import to_display, unit_label
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
+# Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
+# 2 cSt. Past the lower of the two the model's temperatures are not shown as answers.
+CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + 273.15
+D341_MIN_CST = 2.0
+BEYOND_RANGE_KEYS = ("peak_C", "end_C", "end_wall_C", "end_hardware_C", "peak_return_C")
+
+
+def model_range_max_K(scenario: Scenario) -> float:
+    """The highest bulk oil temperature at which the model's oil data hold, K."""
+    return min(CRAGOE_MAX_K, scenario.oil.temperature_at_viscosity_K(D341_MIN_CST))
 
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
@@ -86,6 +100,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "flash_point_given": scenario.flash_point_given,
         "oil": {"viscosity_40C_cSt": round(scenario.oil.nu40_cSt, 3), "viscosity_100C_cSt": round(scenario.oil.nu100_cSt, 3),
                 "viscosity_index": round(scenario.oil.viscosity_index, 1)},
+        "beyond_model_range": False,
     }
 
 
@@ -133,6 +148,41 @@ def cautions(scenario: Scenario, result: dict) -> list[str]:
     return found
 
 
+def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> None:
+    """Where the bulk oil passes the range of the oil data, the session's temperatures become None
+    and a caution (first of the cautions, in place of those that quote the peak) says why, in place
+    of numbers that would look real."""
+    ceiling = model_range_max_K(scenario)
+    if float(peak_oil_K(trace)[0]) <= ceiling and np.all(np.isfinite(trace.T_K)):
+        return
+    def temp(T_K):
+        return f"{to_display(T_K, 'temperature', scenario.units):.0f} {unit_label('temperature', scenario.units)}"
+    shown, limit = temp(ceiling), limit_K(scenario)[0]
+    result.update({key: None for key in BEYOND_RANGE_KEYS}, beyond_model_range=True)
+    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
+    hottest = max(float(peak_oil_K(trace)[0]), float(np.nanmax(trace.return_K[:, 0])))
+    flash = (f" and past its flash point ({temp(scenario.flash_point_K)}, {where}): oil mist can ignite"
+             if hottest >= scenario.flash_point_K else "")
+    caution = (f"In the planned session the bulk oil would pass {shown}, beyond the range where the model's "
+               f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures "
+               f"are not given. It is far past the fluid limit ({temp(limit)}){flash} long before that: do not "
+               f"run this session.")
+    others = [c for c in result.get("cautions", []) if "peaks at" not in c and "flash point" not in c]
+    result["cautions"] = [caution] + others
+
+
+def check_finite(result, path: str = "") -> None:
+    """Every number in a result (nested dicts and lists) is finite, or ScenarioError names it."""
+    items = result.items() if isinstance(result, dict) else enumerate(result) if isinstance(result, list) else ()
+    for key, value in items:
+        where = f"{path}.{key}" if path and isinstance(key, str) else f"{path}[{key}]" if path else str(key)
+        if isinstance(value, float) and not math.isfinite(value):
+            raise ScenarioError("scenario", f"{where} = {value}",
+                                "inputs for which every answer is finite (one of the values above gave a "
+                                f"non-finite {where}; check its units)")
+        check_finite(value, where)
+
+
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     """Everything `run --json` prints: the session's thermal answers and the planning answers.
     trace : optional simulate(scenario) already computed."""
@@ -149,6 +199,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     result["cautions"] = cautions(scenario, result)
     from .bands import band_report
     result.update(band_report(scenario, result))
+    _caution_beyond_range(scenario, trace, result)
+    check_finite(result)
     return result
 
 

@@ -18,16 +18,20 @@ from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_visco
 from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
                         limit_K)  # (build_rig re-exported: the scenario's network)
 from .session import EngineCurve, Step, shaft_power_W
-from .scenario_table import (_MISSING, MAX_FILE_BYTES, _Table, read_toml_text,  # noqa: F401
-                             with_path)
+from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
+                             read_toml_bytes, read_toml_text, with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
-from .units import parse_quantity
+from .units import convert
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
 DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
+# Steps in a planned session (repeat x steps of the cycle). The work of report() grows with it, most
+# with the pulls past the limit, whose ready-to-pull waits are searched one by one: measured on a
+# busy 2-core machine, 10 s for 100 pulls (200 steps) past the limit, 130 s for 2,000 steps.
+MAX_SESSION_STEPS = 120
 # Flash point assumed when fluid.flash_point is not given. From memory, not from a cited source:
 # data sheets of mineral hydraulic oils of ISO VG 22-68 give about 190-240 degC (ASTM D92, open cup);
 # 180 degC is taken below that range on purpose, to be conservative.
@@ -129,21 +133,26 @@ def load_scenario(path_or_dict) -> Scenario:
             raise ScenarioError("scenario", str(path), "an existing TOML file")
         if path.stat().st_size > MAX_FILE_BYTES:
             raise ScenarioError("scenario", f"{path.stat().st_size} bytes", f"a file of at most {MAX_FILE_BYTES} bytes")
-        raw = read_toml_text(path.read_text(encoding="utf-8"), str(path))
+        try:
+            data = path.read_bytes()
+        except OSError as error:
+            raise ScenarioError("scenario", str(path), f"a readable file ({error.strerror})") from None
+        raw = read_toml_bytes(data, str(path))
     return _parse(raw)
 
 
 def _parse(raw: dict) -> Scenario:
     top = _Table(raw, "")
     units = top.choice("units", ("SI", "US"), "SI")
+    top.system = units
     name = top.get("name", "")
     description = top.get("description", "")
     for key, text in (("name", name), ("description", description)):
-        if not isinstance(text, str):
-            raise ScenarioError(key, text, "a text string")
+        if not isinstance(text, str) or len(text) > MAX_TEXT_CHARS:
+            raise ScenarioError(key, text, f"a text string of at most {MAX_TEXT_CHARS} characters")
     ambient = top.quantity("ambient", "temperature", "degC", above=0.0)
 
-    r = _Table(top.get("reservoir", _MISSING), "reservoir")
+    r = top.table("reservoir")
     shape = r.choice("shape", ("box", "cylinder"))
     length = r.quantity("length", "length", "m", above=0.0) if shape == "box" else None
     width = r.quantity("width", "length", "m", above=0.0) if shape == "box" else None
@@ -158,9 +167,11 @@ def _parse(raw: dict) -> Scenario:
         bottom=r.choice("bottom", ("open", "floor")))
     r.finish()
 
-    f = _Table(top.get("fluid", _MISSING), "fluid")
+    f = top.table("fluid")
     nu40 = f.quantity("viscosity_40C", "kinematic_viscosity", "cSt", default=None, above=0.0)
     grade = f.get("iso_vg", None)
+    if grade is not None:
+        f.plain_number("fluid.iso_vg", grade)
     if (nu40 is None) == (grade is None):
         raise ScenarioError("fluid.iso_vg", grade, "either iso_vg or viscosity_40C, not both and not neither")
     nu40_cSt = iso_vg_nu40_cSt(grade) if grade is not None else nu40 * 1e6
@@ -179,21 +190,17 @@ def _parse(raw: dict) -> Scenario:
               expansion_per_K=f.quantity("expansion", "per_kelvin", "1/K", DEFAULT_EXPANSION_PER_K, minimum=0.0),
               specific_heat_J_kgK=f.quantity("specific_heat", "specific_heat", "J/(kg*K)", None, above=0.0),
               conductivity_W_mK=f.quantity("conductivity", "thermal_conductivity", "W/(m*K)", None, above=0.0))
-    if not 600.0 <= oil.density_15C_kg_m3 <= 1100.0:
-        raise ScenarioError("fluid.density_15C", f.raw["density_15C"], "a liquid density between 600 and 1100 kg/m^3")
     max_T = f.quantity("max_temperature", "temperature", "degC", above=0.0)
     flash_point = f.quantity("flash_point", "temperature", "degC", None, above=0.0)
-    min_nu = f.quantity("min_viscosity", "kinematic_viscosity", "cSt", above=0.0) * 1e6
-    if min_nu < 2.0:
-        raise ScenarioError("fluid.min_viscosity", f.raw["min_viscosity"], "at least 2 cSt (the range of ASTM D341's simple form)")
+    min_nu = f.quantity("min_viscosity", "kinematic_viscosity", "cSt", above=0.0) * 1e6  # >= 2 cSt: ASTM D341's range
     f.finish()
 
-    p = _Table(top.get("pump", _MISSING), "pump")
+    p = top.table("pump")
     displacement = p.quantity("displacement", "volume", "cm^3", above=0.0)
     eta_v = p.number("volumetric_efficiency", above=0.0, maximum=1.0)
     p.finish()
 
-    h = _Table(top.get("hardware", _MISSING), "hardware")
+    h = top.table("hardware")
     mass = h.quantity("mass", "mass", "kg", above=0.0)
     hw_material = h.choice("material", tuple(MATERIALS))
     hose_od = h.quantity("hose_outer_diameter", "length", "mm", above=0.0)
@@ -215,26 +222,29 @@ def _parse(raw: dict) -> Scenario:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
     h.finish()
 
-    losses = _Table(top.get("losses", None), "losses", required=False)
+    losses = top.table("losses", required=False)
     convection_multiplier = losses.number("convection_multiplier", 1.0, minimum=0.0, maximum=10.0)
     capacity_multiplier = losses.number("capacity_multiplier", 1.0, above=0.0, maximum=10.0)
     coupling_multiplier = losses.number("hardware_coupling_multiplier", 1.0, above=0.0, maximum=100.0)
     air_speed = losses.quantity("air_speed", "speed", "m/s", 0.0, minimum=0.0)
     losses.finish()
 
-    c = _Table(top.get("cooler", None), "cooler", required=False)
+    c = top.table("cooler", required=False)
     cooler_W_K = c.quantity("specific_dissipation", "conductance", "W/K", 0.0, minimum=0.0)
     cooler_fan = c.choice("fan", ("with_flow", "always"), "with_flow")
     c.finish()
 
-    s = _Table(top.get("session", _MISSING), "session")
+    s = top.table("session")
     start = s.quantity("start_temperature", "temperature", "degC", above=0.0)
-    repeat = s.number("repeat", minimum=1, maximum=10000, integer=True)
+    repeat = s.number("repeat", integer=True)
     ready = s.quantity("ready_temperature", "temperature", "degC", None, above=0.0)
     raw_steps = s.get("steps")
     if not isinstance(raw_steps, list) or not raw_steps:
         raise ScenarioError("session.steps", raw_steps, "a list of [[session.steps]] tables")
-    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement) for i, step in enumerate(raw_steps))
+    if repeat * len(raw_steps) > MAX_SESSION_STEPS:
+        raise ScenarioError("session.repeat", repeat, f"at most {MAX_SESSION_STEPS} steps in the planned session "
+                            f"(repeat x {len(raw_steps)} steps of the cycle = {repeat * len(raw_steps)})")
+    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units) for i, step in enumerate(raw_steps))
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
@@ -256,8 +266,8 @@ def _parse(raw: dict) -> Scenario:
     return scenario
 
 
-def _parse_step(raw, path: str, displacement_m3: float) -> Step:
-    t = _Table(raw, path)
+def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> Step:
+    t = _Table(raw, path, system=system)
     kind = t.choice("kind", ("pull", "wait"))
     duration = t.quantity("duration", "time", "s", above=0.0)
     if kind == "pull":
@@ -296,50 +306,61 @@ def _parse_step(raw, path: str, displacement_m3: float) -> Step:
     return step
 
 
+MAX_CURVE_POINTS = 100
+
+
 def _number_list(t: _Table, name: str, minimum=None) -> list:
     values = t.get(name)
     if not isinstance(values, list) or len(values) < 2:
         raise ScenarioError(t.key(name), values, "a list of at least two numbers")
-    for i, v in enumerate(values):
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or (minimum is not None and v < minimum):
-            raise ScenarioError(f"{t.key(name)}[{i}]", v, "a non-negative number")
-    return [float(v) for v in values]
+    if len(values) > MAX_CURVE_POINTS:
+        raise ScenarioError(t.key(name), f"{len(values)} entries", f"a list of at most {MAX_CURVE_POINTS} numbers")
+    return [float(t.plain_number(f"{t.key(name)}[{i}]", v, minimum=minimum)) for i, v in enumerate(values)]
 
 
 def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> list:
     values = t.get(name)
     if not isinstance(values, list) or len(values) != length:
         raise ScenarioError(t.key(name), values, f"a list of {length} values, one per curve_rpm entry")
-    parsed = [parse_quantity(v, f"{t.key(name)}[{i}]", kind, unit) for i, v in enumerate(values)]
-    for i, v in enumerate(parsed):
-        if v < 0:
-            raise ScenarioError(f"{t.key(name)}[{i}]", values[i], "a value of zero or more")
-    return parsed
+    return [t.convert(f"{t.key(name)}[{i}]", v, kind, unit, minimum=0.0) for i, v in enumerate(values)]
+
+
+def _temperature_text(T_K: float, system: str) -> str:
+    """A temperature in the file's bare unit, e.g. '176.0 degF'."""
+    unit = "degF" if system == "US" else "degC"
+    return f"{convert(T_K, 'K', unit):.1f} {unit}"
 
 
 def _check_consistency(s: Scenario):
-    """Checks across keys: the limit above ambient and start, the oil fitting the tank when hot."""
+    """Checks across keys, each after the keys it compares have been checked alone (the ambient
+    first): the limit above ambient and start, the oil fitting the tank when hot. Temperatures are
+    quoted in the file's units."""
+    def temp(T_K):
+        return _temperature_text(T_K, s.units)
     limit = limit_K(s)[0]
     if s.max_temperature_K <= s.ambient_K:
         raise ScenarioError("fluid.max_temperature", s.raw["fluid"]["max_temperature"],
-                            "a limit above the ambient temperature")
+                            f"a limit above the ambient temperature ({temp(s.ambient_K)})")
     if limit <= s.ambient_K:
         raise ScenarioError("fluid.min_viscosity", s.raw["fluid"]["min_viscosity"],
-                            "a viscosity reached only above the ambient temperature (the fluid limit is below ambient)")
+                            f"a viscosity reached only above the ambient temperature ({temp(s.ambient_K)}); "
+                            f"this oil reaches it at {temp(limit)}")
     if s.start_K >= limit:
         raise ScenarioError("session.start_temperature", s.raw["session"]["start_temperature"],
-                            f"a start below the fluid limit ({limit - 273.15:.1f} degC)")
+                            f"a start below the fluid limit ({temp(limit)})")
     hot_volume = s.reservoir.oil_volume_m3 * (1.0 + s.oil.expansion_per_K * (s.max_temperature_K - 288.15))
     if hot_volume > s.reservoir.inner_volume_m3:
+        unit = "gal" if s.units == "US" else "L"
+        tank, needs = (convert(v, "m^3", unit) for v in (s.reservoir.inner_volume_m3, hot_volume))
         raise ScenarioError("reservoir.oil_volume", s.raw["reservoir"]["oil_volume"],
-                            f"at most the tank's {s.reservoir.inner_volume_m3 * 1000:.2f} L once expanded at the "
-                            f"maximum temperature (needs {hot_volume * 1000:.2f} L)")
+                            f"at most the tank's {tank:.2f} {unit} once expanded at the "
+                            f"maximum temperature (needs {needs:.2f} {unit})")
     if s.return_line_max_temperature_K is not None and s.return_line_max_temperature_K <= s.start_K:
         raise ScenarioError("hardware.return_line_max_temperature", s.raw["hardware"]["return_line_max_temperature"],
-                            "a return-line limit above the start temperature")
+                            f"a return-line limit above the start temperature ({temp(s.start_K)})")
     if s.flash_point_given and s.flash_point_K <= s.max_temperature_K:
         raise ScenarioError("fluid.flash_point", s.raw["fluid"]["flash_point"],
-                            "a flash point above the fluid's max_temperature")
+                            f"a flash point above the fluid's max_temperature ({temp(s.max_temperature_K)})")
     if s.ready_temperature_K is not None and not s.ambient_K < s.ready_temperature_K < limit:
         raise ScenarioError("session.ready_temperature", s.raw["session"]["ready_temperature"],
-                            "a temperature between ambient and the fluid limit")
+                            f"a temperature between ambient ({temp(s.ambient_K)}) and the fluid limit ({temp(limit)})")

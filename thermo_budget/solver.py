@@ -15,6 +15,11 @@ from .network import (N_NODES, OIL, Inputs, Rig, ambient_column, node_enthalpy_J
                       temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
+# A design whose oil passes this temperature is held there and no longer integrated: it is far past
+# any fluid limit the scenario accepts (at most 200 degC) and past the range where the oil and air
+# data hold (Cragoe's correlations to 400 degF; the air table to 600 K film temperature).
+GIVE_UP_ABOVE_K = 573.15
+
 
 def _phi1_phi2(x):
     """phi1(x) = (e^x - 1)/x and phi2(x) = (e^x - 1 - x)/x^2, accurate near 0 (x <= 0 here)."""
@@ -35,7 +40,7 @@ def propagate_linear(C, L, b, T0, h):
     root = np.sqrt(C)
     inv_root = 1.0 / root
     S = -L * inv_root[:, :, None] * inv_root[:, None, :]
-    lam, V = np.linalg.eigh(S)
+    lam, V, failed = _guarded_eigh(S)
     Vt = np.swapaxes(V, 1, 2)
     z0 = (Vt @ (T0 * root)[..., None])[..., 0]
     w = (Vt @ (b * inv_root)[..., None])[..., 0]
@@ -46,7 +51,32 @@ def propagate_linear(C, L, b, T0, h):
     z_int = hh * z0 + hh * hh * phi2 * rate
     T1 = (V @ z1[..., None])[..., 0] * inv_root
     T_int = (V @ z_int[..., None])[..., 0] * inv_root
+    failed |= ~(np.all(np.isfinite(T1), axis=-1) & np.all(np.isfinite(T_int), axis=-1))
+    if failed.any():   # a design whose system is not finite keeps its state (the caller stops it)
+        T1 = np.where(failed[:, None], T0, T1)
+        T_int = np.where(failed[:, None], T0 * np.reshape(h, (-1, 1)), T_int)
     return T1, T_int
+
+
+def _guarded_eigh(S):
+    """Batched eigen-decomposition of symmetric matrices S (N,n,n) that never raises: a design with
+    a non-finite matrix, or one whose decomposition does not converge, gets a neutral one (no
+    change) and is flagged. Returns (eigenvalues, eigenvectors, failed (N,) bool)."""
+    failed = ~np.all(np.isfinite(S), axis=(-2, -1))
+    eye = np.eye(S.shape[-1])
+    if failed.any():
+        S = np.where(failed[:, None, None], 0.0 * eye, S)
+    try:
+        lam, V = np.linalg.eigh(S)
+        return lam, V, failed
+    except np.linalg.LinAlgError:
+        lam, V = np.zeros(S.shape[:-1]), np.broadcast_to(eye, S.shape).copy()
+        for i in range(S.shape[0]):
+            try:
+                lam[i], V[i] = np.linalg.eigh(S[i])
+            except np.linalg.LinAlgError:
+                failed[i] = True
+        return lam, V, failed
 
 
 def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
@@ -99,8 +129,13 @@ class Trace:
 
 
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
-              resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None) -> Trace:
+              resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None,
+              give_up_above_K: float = GIVE_UP_ABOVE_K) -> Trace:
     """Integrate the steps in order from the state T0_K ((N,k) or (k,) K, k = N_NODES; a scalar fills every node).
+
+    give_up_above_K : a design whose bulk oil passes this (or whose state stops being finite) is
+    held at its last finite state from then on and gains no more heat; its peak stays above the
+    limit, so every reader counts it as over. The time axis runs on for all designs.
 
     durations_s : optional list, one (N,) array or float per step, overriding step.duration_s (used
     by sweeps whose designs differ in their waits).
@@ -115,6 +150,8 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     energy_lost = np.zeros(n_designs)
     pull_start, pull_end = [], []
     been_above = np.zeros(n_designs, bool)
+    held = np.zeros(n_designs, bool)
+    T_first = T.copy()
     power_scale = np.array(per_design(rig.power_multiplier, n_designs))
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
@@ -129,8 +166,19 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
             flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
             inputs = Inputs(power_W=power_scale * power, volume_flow_m3_s=np.full(n_designs, float(flow)))
             constant_inputs = step.curve is None and k > 0
-            T, q_in, q_lost, corrector = advance_substep(rig, T, inputs, h, rig.ambient_K,
-                                                         corrector if constant_inputs else None)
+            # a held design is evaluated at its start state (its result is discarded), so that no
+            # correlation is asked about a state far outside its range
+            T_eval = np.where(held[:, None], T_first, T) if held.any() else T
+            with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+                T_new, q_in, q_lost, corrector = advance_substep(rig, T_eval, inputs, h, rig.ambient_K,
+                                                                 corrector if constant_inputs and not held.any() else None)
+            if held.any() or not np.all(np.isfinite(T_new)):
+                bad = held | ~np.all(np.isfinite(T_new), axis=1)
+                T_new = np.where(bad[:, None], T, T_new)
+                q_in, q_lost = np.where(bad, 0.0, q_in), np.where(bad, 0.0, q_lost)
+                held |= bad
+            T = T_new
+            held |= T[:, OIL] > give_up_above_K
             energy_in += q_in
             energy_lost += q_lost
             t = t + h

@@ -6,7 +6,7 @@ the cached calls are in page_state, the inputs in page_sidebar, the unit edge in
 """
 import streamlit as st
 
-from thermo_budget import page_bands, page_headline, page_log, page_sections, page_sidebar, page_state
+from thermo_budget import page_bands, page_headline, page_live, page_log, page_sections, page_sidebar, page_state
 
 st.set_page_config(page_title="Brake oil heat budget", page_icon="🛢️", layout="wide")
 page_state.start()
@@ -21,6 +21,7 @@ page_sidebar.rig_inputs(current)
 # The answers for the scenario the inputs describe, then the sections drawn from them.
 page = page_state.plan(current, draft_error, drawn_from)
 page_sections.errors(page)
+page_live.section(page)                   # only when a log folder was named at start-up
 page_headline.section(page)
 page_bands.section(page)
 page_sections.safety(page)

@@ -113,7 +113,7 @@ def _settled(page, expected_pulls: str, unit_text: str):
     """Wait until the headline shows the expected count in the expected units, and the run is over."""
     page.wait_for_function(
         "([pulls, unit]) => { const v = document.querySelector('.tb-card[data-key=pulls] .tb-value');"
-        " const h = document.querySelector('.tb-card[data-key=hottest] .tb-unit');"
+        " const h = document.querySelector('.tb-card[data-key=hottest]');"
         " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
         arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
     page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)

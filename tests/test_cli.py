@@ -209,3 +209,18 @@ def test_run_ambients_gives_the_hot_day_and_refuses_a_bad_range(capsys):
     assert main(["run", DEFAULT, "--ambients", "40:20:3"]) == 2
     err = capsys.readouterr().err
     assert "--ambients" in err and "40:20:3" in err and "Traceback" not in err
+
+
+def test_a_plain_run_loads_neither_scipy_nor_pint_nor_coolprop(tmp_path):
+    # start-up (issue 13): these cost seconds; the run of a scenario without the band needs none
+    raw = {**base_raw(), "uncertainty": {"enabled": False}}
+    path = write_toml(tmp_path, raw)
+    code = ("import sys, io, contextlib; from thermo_budget.cli import main\n"
+            f"with contextlib.redirect_stdout(io.StringIO()): assert main(['run', {str(path)!r}, '--json']) == 0\n"
+            "print(sorted({m.split('.')[0] for m in sys.modules} & {'scipy', 'pint', 'CoolProp', 'matplotlib'}))")
+    done = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "[]"
+    help_only = subprocess.run([sys.executable, "-c", "import sys; from thermo_budget.cli import main; main(['--help'])\n"
+                                "print('numpy' in sys.modules)"], cwd=REPO, capture_output=True, text=True, timeout=60)
+    assert help_only.stdout.strip().endswith("False")

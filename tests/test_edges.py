@@ -93,6 +93,7 @@ def random_rig(rng) -> dict:
     """A plausible rig: tank 2-200 L, pulls of 1-40 kW for 5-60 s, waits of 0-20 min, ambient
     -10 to 45 degC, a steel, aluminium or plastic tank (invented ranges of the trade)."""
     raw = base_raw()
+    raw["uncertainty"] = {"enabled": False}     # the band's sampled rigs are tested in tests/test_bands.py
     volume_L = float(rng.uniform(2.0, 200.0))
     side = (volume_L / 1000.0 / 0.7) ** (1.0 / 3.0)          # a cube-ish box, 70 % full
     material = str(rng.choice(["steel", "aluminium", "polyethylene"]))

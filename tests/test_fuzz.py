@@ -34,9 +34,11 @@ WORKDIR = Path(tempfile.mkdtemp(prefix="thermo_budget_fuzz_"))
 
 
 def fuzz_base() -> dict:
-    """A short session (2 cycles), so that a valid example costs a fraction of a second."""
+    """A short session (2 cycles) without the uncertainty band (its dozens of sampled rigs are
+    tested in tests/test_bands.py), so that a valid example costs a fraction of a second."""
     raw = base_raw()
     raw["session"]["repeat"] = 2
+    raw["uncertainty"] = {"enabled": False}
     return raw
 
 
@@ -131,7 +133,11 @@ def assert_finite_json(text: str):
     walk(json.loads(text, parse_constant=_no_constant))
 
 
-def assert_result_or_our_error(code, out, err):
+OUTCOMES = {"scenario": {0: 0, 2: 0}, "log": {0: 0, 2: 0}}   # exit codes seen, for the record
+
+
+def assert_result_or_our_error(code, out, err, kind="scenario"):
+    OUTCOMES[kind][code] = OUTCOMES[kind].get(code, 0) + 1
     if code == 0:
         assert_finite_json(out)
         assert err == ""
@@ -211,4 +217,8 @@ def mutated_log_text(draw) -> str:
 def test_fuzz_log_reader_and_fit(text, sensor):
     path = WORKDIR / "log.csv"
     path.write_bytes(text.encode("utf-8", "surrogatepass"))
-    assert_result_or_our_error(*run_cli(["fit", str(SCENARIO_PATH), str(path), "--json", "--sensor", sensor]))
+    assert_result_or_our_error(*run_cli(["fit", str(SCENARIO_PATH), str(path), "--json", "--sensor", sensor]), kind="log")
+
+
+def test_fuzz_outcomes_are_printed():
+    print(f"fuzz exit codes (count by code): {OUTCOMES}")

@@ -17,6 +17,7 @@ import numpy as np
 from scipy import stats
 from scipy.optimize import least_squares
 
+from .errors import ScenarioError
 from .fit_text import calibrated_toml, fit_command, format_difference, format_temperature, summary_text
 from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
 from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
@@ -171,6 +172,9 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     lower = [bounds[name][0] for name in names]
     upper = [bounds[name][1] for name in names]
     x0 = np.clip([start[name] for name in names], lower, upper)
+    if not np.all(np.isfinite(residuals(np.asarray(x0, dtype=float)))):
+        raise ScenarioError(source, "a log the model cannot follow", "a log whose heat input keeps the model's "
+                            "temperatures finite (check the power_W column and its unit, W)")
     solution = least_squares(residuals, x0, jac=jacobian, bounds=(lower, upper), method="trf",
                              xtol=1e-10, ftol=1e-12, gtol=1e-10, max_nfev=60)
     theta = solution.x

@@ -1,4 +1,4 @@
-"""Command line: `thermo-budget run|sweep|fit ...` (or `python -m thermo_budget ...`).
+"""Command line: `thermo-budget run|sweep|fit|watch ...` (or `python -m thermo_budget ...`).
 
 Exit 0 on success, 2 on bad input (one line naming the key, the value and what was expected), 1 on
 a full disk; a closed pipe (`... | head`) ends it quietly. Every subcommand runs inside one wrapper,
@@ -179,6 +179,11 @@ def _fit(args) -> int:
     return fit_command(args)
 
 
+def _watch(args) -> int:
+    from .live_watch import watch_command
+    return watch_command(args)
+
+
 def build_parser() -> argparse.ArgumentParser:
     command = Path(sys.argv[0]).name
     parser = argparse.ArgumentParser(prog=command if command == "thermo-budget" else "python -m thermo_budget",
@@ -213,6 +218,14 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--fit-hardware-coupling", action="store_true",
                      help="also fit the oil-to-pump/valve-body coupling (warns where the log cannot tell it)")
     fit.set_defaults(handler=_fit)
+    watch = sub.add_parser("watch", help="follow a logger's file live: the state of every node and when the next pull may start")
+    watch.add_argument("scenario")
+    watch.add_argument("log", metavar="LOG.csv")
+    watch.add_argument("--sensor", choices=("bulk", "return"), default="bulk", help="where the log's thermocouple sits")
+    watch.add_argument("--once", action="store_true", help="read the file as it stands, print one forecast, exit")
+    watch.add_argument("--json", action="store_true", help="one JSON object per line, one per update")
+    watch.add_argument("--interval", type=float, default=2.0, metavar="SECONDS", help="how often to poll the file")
+    watch.set_defaults(handler=_watch)
     return parser
 
 

@@ -31,6 +31,7 @@ from .units import convert
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
 MAX_CELL_CHARS = 1_000
+MAX_POWER_W = 1e6          # the plausible range of a pull's power (scenario_table.KEYS)
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
@@ -103,8 +104,12 @@ def log_file_text(path) -> str:
         return data.decode("latin-1")
 
 
-def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLog:
-    """Parse and validate the CSV text of a log for a sensor ("bulk" or "return")."""
+def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heating: bool = True) -> MeasuredLog:
+    """Parse and validate the CSV text of a log for a sensor ("bulk" or "return").
+
+    require_heating : False for a log still being written (the live forecast): one reading is
+    enough and no heating is required yet; every other check still holds.
+    """
     if sensor not in ("bulk", "return"):
         raise ScenarioError("sensor", sensor, 'one of "bulk", "return"')
     size = len(text.encode("utf-8"))
@@ -168,10 +173,10 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
     pull = np.array(values["pull"]) if "pull" in columns else None
     line_numbers = [n for n, _ in times]
     if power_W is not None:
-        bad = np.nonzero(power_W < 0)[0]
+        bad = np.nonzero((power_W < 0) | (power_W > MAX_POWER_W))[0]
         if bad.size:
             raise ScenarioError(f"{source} line {line_numbers[bad[0]]}, column {columns['power'][0]}",
-                                float(power_W[bad[0]]), "an absorbed power of zero or more, W")
+                                float(power_W[bad[0]]), f"an absorbed power from 0 to {MAX_POWER_W:g} W")
     if pull is not None:
         bad = np.nonzero(np.isfinite(pull) & (pull != 0) & (pull != 1))[0]
         if bad.size:
@@ -202,7 +207,8 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log") -> MeasuredLo
                       pull=series["pull"], temperature_column=columns["temperature"][0], n_rows=len(times),
                       n_skipped_cells=skipped, n_merged_rows=merged, rows_reordered=reordered,
                       largest_gap_s=largest_gap, notes=tuple(notes))
-    _check_usable(log, source)
+    if require_heating:
+        _check_usable(log, source)
     if gaps.size >= 2 and largest_gap > max(10.0 * float(np.median(gaps)), MIN_REPORTED_GAP_S):
         at = float(time_s[np.argmax(gaps)])
         extra = (" The heat input over it is the power_W or pull of the row after it."

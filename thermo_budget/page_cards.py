@@ -68,7 +68,7 @@ def pulls_card(answers: dict, system: str) -> Card:
         unit = f"{unit} ({band})"
     plan = answers.get("plan_at_confidence")
     planned_count = plan.get("runs_before_limit") if isinstance(plan, dict) else plan
-    if isinstance(planned_count, int) and runs is not None:
+    if isinstance(planned_count, int) and runs is not None and bands:
         details.append(f"Plan {planned_count} pulls at {_confidence_text(answers)} confidence.")
     under = f"Planned: {answers['pulls_under_limit']} of {answers['pulls_planned']} pulls stay under"
     session_band = _band_text(bands.get("pulls_under_limit"))
@@ -85,6 +85,11 @@ def pulls_card(answers: dict, system: str) -> Card:
 
 
 def hottest_card(answers: dict, system: str) -> Card:
+    if answers["peak_C"] is None:   # past the range of the model's oil data: no figure that looks real
+        return Card("hottest", "Hottest oil, planned session", "Beyond the model", "",
+                    ("Far past the limit: see the caution above.",
+                     f"Bulk limit: {shown_celsius(answers['limit_C'], system)}."),
+                    help="The bulk oil would pass the range where the model's oil data hold, so no peak is given.")
     value, unit = _temperature(answers["peak_C"], system)
     details = [f"Return line: {shown_celsius(answers['peak_return_C'], system)}"
                + (f" (limit {shown_celsius(answers['return_line_limit_C'], system)})."
@@ -144,7 +149,7 @@ def ageing_card(answers: dict, system: str) -> Card:
     hours = answers["oil_ageing_equivalent_h"]
     reference = shown_celsius(answers.get("oil_ageing_reference_C", 60.0), system)
     details = ["Oxidation doubling per 10 K: a rule of thumb for comparing days."]
-    if answers["peak_C"] > 100.0:
+    if answers["peak_C"] is None or answers["peak_C"] > 100.0:
         details.append("Past 100 °C the rule understates the ageing.")
     return Card("ageing", "Oil ageing today", f"{hours:.2f}", f"h as at {reference}", tuple(details),
                 help="Equivalent hours at 60 °C that age the oil as much as this session does, by the rule that "

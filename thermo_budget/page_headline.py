@@ -72,7 +72,7 @@ def section(page: PagePlan):
     if answers.get("return_line_limit_C") is not None:
         reason += (f" The return line may reach {pi.shown_celsius(answers['return_line_limit_C'], system)} "
                    "(its hoses and seals).")
-    else:
+    elif answers["peak_return_C"] is not None:
         reason += (" No return-line limit is set: check the hoses' and seals' rating against the return-line "
                    f"figure, {pi.shown_celsius(answers['peak_return_C'], system)}.")
     st.markdown(reason)

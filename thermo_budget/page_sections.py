@@ -127,7 +127,8 @@ def more_figures_lines(page: PagePlan) -> list[str]:
         f"Pump at the hardest pull: {flow:,.1f} {unit_label('flow', system)} at {pressure:,.0f} "
         f"{unit_label('pressure', system)}, {pump['rpm']:,.0f} rpm, absorbing {pi.shown(answers['peak_pull_power_W'], 'power', system)}",
         f"Hottest bulk oil: {pi.shown_celsius(answers['peak_C'], system)}; hottest return-line oil: "
-        f"{pi.shown_celsius(answers['peak_return_C'], system)}",
+        f"{pi.shown_celsius(answers['peak_return_C'], system)}"
+        + (" (past the range of the model's oil data)" if answers.get("beyond_model_range") else ""),
         f"Heat the rig sheds on its own with the oil at the limit: "
         f"{pi.shown(answers['passive_rejection_at_limit_W'], 'power', system)}",
         f"Oil level at the limit: {pi.shown(answers['oil_level_at_limit_m'], 'thickness', system)} in a "

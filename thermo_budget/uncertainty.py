@@ -16,8 +16,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
-from scipy.stats import qmc
 
 from .errors import ScenarioError
 from .scenario_table import _Table
@@ -211,8 +209,9 @@ def standard_normals(model: UncertaintyModel, n: int, seed: int = SOBOL_SEED) ->
     """(n, k) standard normal points for the k active factors: scrambled Sobol points (n a power of
     two) through the normal quantile function."""
     k = len(model.active)
+    from scipy.stats import norm, qmc   # here, not at the top: a second of start-up for every command
     points = qmc.Sobol(d=k, scramble=True, seed=seed).random_base2(int(np.log2(n)))
-    return stats.norm.ppf(np.clip(points, 1e-12, 1.0 - 1e-12))
+    return norm.ppf(np.clip(points, 1e-12, 1.0 - 1e-12))
 
 
 def factor_values(model: UncertaintyModel, z: np.ndarray) -> dict:
@@ -269,6 +268,7 @@ def posterior_from_fit(result) -> dict | None:
     names = {key: name for key, name in FITTED_MULTIPLIERS.items() if name in result.ci95}
     if not names or any(result.ci95[name] is None for name in names.values()):
         return None
+    from scipy import stats
     t = float(stats.t.ppf(0.975, result.n_points - result.n_parameters))
     rho = min(max(result.residual_lag1_autocorrelation, 0.0), 0.95)
     inflation = np.sqrt((1.0 + rho) / (1.0 - rho))

@@ -1,0 +1,222 @@
+"""The forecast from an estimated present state: when the next planned pull may start, how many
+pulls still fit at the planned cadence, and whether a running pull will cross the limit.
+
+Each answer is one integration (or one batched search) of the planned steps from the estimated
+state, with the planning answers' own search (`planning._extra_wait_s`, the same margin below the
+limit), so a forecast agrees with `run` started from the same state.
+
+An unmodelled heat flow into the oil that the estimate has found (W, state_estimate) is carried
+into the next pull's ready time when it adds heat: its effect is the oil's linear response to it
+over the wait (its last DISTURBANCE_HORIZON_S at most) and the pull. A flow that takes heat out is left out (the safe side). It is not
+carried into pulls_left: a missing thermal mass gives back only the heat it holds, not a steady
+flow all day.
+"""
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass
+
+import numpy as np
+
+from .network import OIL, Rig
+from .bands import _order_statistic
+from .outcome import first_crossing_s, pulls_completed_under
+from .planning import SEARCH_MARGIN_K, _extra_wait_s, batched_threshold, take_designs, time_constant_s
+from .scenario import Scenario
+from .session import Resolution, Step
+from .solver import integrate
+from .state_estimate import transition_matrix
+from .uncertainty import factor_values, sample_rig, standard_normals
+
+LIVE_MAX_PULLS = 200          # pulls_left counts this far; beyond, the cadence is taken as all-day
+PULL_HORIZON_S = 600.0        # a running pull is followed this far past its planned end for seconds_to_limit
+PULL_RESOLUTION = Resolution(pull_substeps=4, curve_substeps=12, max_substep_s=5.0, max_substeps=400)
+CADENCE_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=8, max_substep_s=120.0, max_substeps=6)
+OFF = Step(kind="wait", duration_s=1.0, engine="off")
+# An unmodelled heat flow is taken to act over at most this much of the wait before the next pull
+# (engineering judgement: a missing mass gives back the heat it holds within minutes, not all day).
+DISTURBANCE_HORIZON_S = 600.0
+SHOWN_PULLS = 3               # pulls of the forecast path drawn after the ready time
+CONFIDENCE_SAMPLES = 32       # rigs drawn from the scenario's [uncertainty] for the answers at its confidence
+
+
+@dataclass(frozen=True)
+class Forecast:
+    """What the present state means for the plan. Times are log times (s), temperatures K.
+
+    next_pull_ready_s : when the next planned pull may start and still end under the limit (None
+        when no wait is long enough). pulls_left : pulls that still start and end under the limit
+        at the planned cadence (None: more than LIVE_MAX_PULLS, the cadence can go on).
+    pull_ends_over_limit, seconds_to_limit : for a running pull (False and None otherwise);
+        seconds_to_limit counts to the moment the oil would reach the limit if the pull went on
+        at its power (None if not within PULL_HORIZON_S past its planned end).
+    path_time_s, path_oil_K : the forecast oil temperature: the rest of a running pull, the wait
+        until ready, the next pull and the cadence after it.
+    """
+    next_pull_ready_s: float | None
+    wait_s: float | None
+    pulls_left: int | None
+    pull_ends_over_limit: bool
+    seconds_to_limit: float | None
+    next_pull_index: int
+    path_time_s: np.ndarray
+    path_oil_K: np.ndarray
+
+
+def planned_pull(scenario: Scenario, index: int) -> tuple[Step, list[Step]]:
+    """The index-th pull of the cadence (0 = the session's first) and the waits planned before it.
+    Past the planned session the cycle goes on repeating."""
+    waits, count = [], -1
+    for step in itertools.cycle(scenario.cycle):
+        if step.is_pull:
+            count += 1
+            if count == index:
+                return step, waits
+            waits = []
+        else:
+            waits.append(step)
+    raise ValueError("the cycle has no pull")
+
+
+def cadence_steps(scenario: Scenario, first_index: int, n_pulls: int) -> list[Step]:
+    """The planned pulls first_index .. first_index + n_pulls - 1 with the waits between them (the
+    waits before the first are left out)."""
+    steps = [planned_pull(scenario, first_index)[0]]
+    for index in range(first_index + 1, first_index + n_pulls):
+        pull, waits = planned_pull(scenario, index)
+        steps += waits + [pull]
+    return steps
+
+
+def _run(rig: Rig, steps: list[Step], X_K: np.ndarray, t0: float, resolution: Resolution, stop_above_K=None):
+    return integrate(rig, steps, X_K[None, :], start_time_s=t0, resolution=resolution, stop_above_K=stop_above_K)
+
+
+def pulls_left(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, next_index: int,
+               rest_of_wait: list[Step], max_pulls: int = LIVE_MAX_PULLS):
+    """Pulls that still fit under the limit at the planned cadence from state X_K: the rest of the
+    present wait, then the planned pulls and waits from pull `next_index` on. Returns
+    (count or None beyond max_pulls, the trace up to the first crossing)."""
+    steps = rest_of_wait + cadence_steps(scenario, next_index, max_pulls)
+    trace = _run(rig, steps, X_K, 0.0, CADENCE_RESOLUTION, stop_above_K=limit_K)
+    n_rest = sum(step.is_pull for step in rest_of_wait)
+    done = int(pulls_completed_under(trace, limit_K)[0]) - n_rest
+    return (None if done >= max_pulls else done), trace
+
+
+def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, cool: Step, limit_K: float,
+                  disturbance_W: float = 0.0, rigs: Rig | None = None, n: int = 1,
+                  confidence: float = 1.0) -> float | None:
+    """Wait (s) in the `cool` engine state before `pull` so that it ends under the limit, from state
+    X_K (k,). With no added heat flow and no samples this is the planning search itself. Otherwise
+    the same batched search, each candidate run for each of the n sampled `rigs` (or `rig` alone),
+    passing when a fraction `confidence` of them end under the limit with the oil's linear response
+    to `disturbance_W` (from `rig`) added to their peaks."""
+    X = np.asarray(X_K, dtype=float)[None, :]
+    if disturbance_W <= 0.0 and rigs is None:
+        return _extra_wait_s(scenario, rig, X, pull, cool, limit_K)
+    rigs, k = (rig, 1) if rigs is None else (rigs, n)
+    nodes = X.shape[1]
+    pulled = transition_matrix(rig, X[0], X[0], pull)
+
+    def rise_K(extra: float) -> float:
+        """The oil's response at the pull's end to the heat flow over the wait (its last
+        DISTURBANCE_HORIZON_S at most) and the pull."""
+        waited = transition_matrix(rig, X[0], X[0], cool.with_duration(min(extra, DISTURBANCE_HORIZON_S)))
+        return float((pulled[:nodes, :nodes] @ waited[:nodes, nodes] + pulled[:nodes, nodes])[OIL]) * disturbance_W
+
+    def passes(extras):
+        c = extras.size
+        trace = integrate(take_designs(rigs, np.tile(np.arange(k), c)), [cool, pull], np.repeat(X, c * k, axis=0),
+                          n_designs=c * k, durations_s=[np.repeat(extras, k), pull.duration_s],
+                          resolution=CADENCE_RESOLUTION)
+        rise = np.array([rise_K(float(e)) for e in extras]) if disturbance_W > 0 else np.zeros(c)
+        peak = trace.T_K[:, :, OIL].max(axis=0).reshape(c, k) + rise[:, None]
+        return (peak <= limit_K - SEARCH_MARGIN_K).mean(axis=1) >= confidence - 1e-9
+
+    longest = 8.0 * time_constant_s(scenario)
+    extra = batched_threshold(passes, 1.0, longest if np.isfinite(longest) else 1e6, floor=0.0)
+    return None if np.isnan(extra) else extra
+
+
+def sampled_rigs(scenario: Scenario, rig: Rig, n: int = CONFIDENCE_SAMPLES) -> Rig | None:
+    """n rigs (one design each) drawn from the scenario's uncertainty model about `rig`, the same
+    scrambled Sobol points as the planning band; None when the band is off."""
+    model = scenario.uncertainty
+    if not model.spreads:
+        return None
+    return sample_rig(rig, factor_values(model, standard_normals(model, n)))
+
+
+def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: float, X_K, next_index: int,
+                             rest_of_wait: list[Step], confidence: float, max_pulls: int = LIVE_MAX_PULLS):
+    """The pull count that at least a fraction `confidence` of the sampled rigs reach (the lower
+    quantile of their counts); None when that many go beyond max_pulls."""
+    steps = rest_of_wait + cadence_steps(scenario, next_index, max_pulls)
+    trace = integrate(rigs, steps, np.repeat(np.asarray(X_K, dtype=float)[None, :], n, axis=0), n_designs=n,
+                      resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
+    counts = pulls_completed_under(trace, limit_K).astype(float)
+    counts[counts >= max_pulls] = np.inf
+    value = _order_statistic(counts, 1.0 - confidence)      # as the planning band reads its quantiles
+    return None if not np.isfinite(value) else int(value)
+
+
+def forecast(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, now_s: float, next_index: int,
+             in_pull: bool, pull_elapsed_s: float = 0.0, since_pull_end_s: float = 0.0,
+             disturbance_W: float = 0.0, confidence: float | None = None) -> Forecast:
+    """The forecast from the estimated state X_K (n,) K at log time now_s.
+
+    next_index : the cadence's index of the next pull to start (pulls already started in the log).
+    in_pull : a pull runs now, started pull_elapsed_s ago (it is pull next_index - 1). Otherwise
+    the last pull ended since_pull_end_s ago (or the log started then).
+    disturbance_W : the estimate's unmodelled heat flow into the oil (see the module's docstring).
+    confidence : None for the scenario's model as written; else the ready time and the pulls left
+    hold in that fraction of rigs drawn from the scenario's [uncertainty] (the later ready time and
+    the smaller count of the two answers are given).
+    """
+    X = np.asarray(X_K, dtype=float)
+    t = now_s
+    ends_over, to_limit = False, None
+    path_t, path_T = [np.array([now_s])], [np.array([X[OIL]])]
+    if in_pull:
+        current, _ = planned_pull(scenario, max(next_index - 1, 0))
+        remaining = max(current.duration_s - pull_elapsed_s, 0.0)
+        ahead = _run(rig, [current.with_duration(remaining + PULL_HORIZON_S)], X, now_s, PULL_RESOLUTION)
+        crossing = float(first_crossing_s(ahead, limit_K)[0])
+        if np.isfinite(crossing):
+            to_limit = round(crossing - now_s, 1)
+            ends_over = crossing - now_s <= remaining
+        if remaining > 0:
+            rest = _run(rig, [current.with_duration(remaining)], X, now_s, PULL_RESOLUTION)
+            path_t.append(rest.time_s[1:, 0])
+            path_T.append(rest.T_K[1:, 0, OIL])
+            X, t = rest.final_K[0], now_s + remaining
+        since_pull_end_s = 0.0
+    pull, waits = planned_pull(scenario, next_index)
+    cool = waits[-1] if waits else OFF
+    extra = ready_extra_s(scenario, rig, X, pull, cool, limit_K, disturbance_W)
+    ready = None if extra is None else t + extra
+    planned_rest = max(sum(w.duration_s for w in waits) - since_pull_end_s, 0.0)
+    rest_of_wait = [cool.with_duration(planned_rest)] if planned_rest > 0 else []
+    left, cadence = pulls_left(scenario, rig, limit_K, X, next_index, rest_of_wait)
+    rigs = None if confidence is None else sampled_rigs(scenario, rig)
+    if rigs is not None:
+        sure = ready_extra_s(scenario, rig, X, pull, cool, limit_K, disturbance_W, rigs, CONFIDENCE_SAMPLES, confidence)
+        extra = None if extra is None or sure is None else max(extra, sure)
+        ready = None if extra is None else t + extra
+        sure_left = pulls_left_at_confidence(scenario, rigs, CONFIDENCE_SAMPLES, limit_K, X, next_index,
+                                             rest_of_wait, confidence)
+        left = sure_left if left is None else (left if sure_left is None else min(left, sure_left))
+    if ready is not None:
+        steps = ([cool.with_duration(extra)] if extra > 0 else []) + cadence_steps(scenario, next_index, SHOWN_PULLS)
+        shown = _run(rig, steps, X, t, CADENCE_RESOLUTION)
+    else:
+        shown = cadence.designs([0])
+        shown.time_s = shown.time_s + t
+    path_t.append(shown.time_s[1:, 0])
+    path_T.append(shown.T_K[1:, 0, OIL])
+    return Forecast(next_pull_ready_s=None if ready is None else round(ready, 1),
+                    wait_s=None if ready is None else round(max(ready - now_s, 0.0), 1),
+                    pulls_left=left, pull_ends_over_limit=bool(ends_over), seconds_to_limit=to_limit,
+                    next_pull_index=next_index, path_time_s=np.concatenate(path_t),
+                    path_oil_K=np.concatenate(path_T))

@@ -280,12 +280,13 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     plain = pulls_card({key: value for key, value in answers.items()
                         if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
     assert "likely" not in plain.unit
-    answers |= {"bands": {"runs_before_limit": {"p10": 22, "p50": 26, "p90": 31},
+    runs = answers["runs_before_limit"]                     # the card shows the point answer
+    answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
                           "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": 22}, "uncertainty": {"samples": 128}}
+                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}, "uncertainty": {"samples": 128}}
     card = pulls_card(answers, "SI")
-    assert card.value == "26" and card.unit == "pulls (likely 22–31)"
-    assert "Plan 22 pulls at 90 % confidence." in card.details
+    assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
+    assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
     assert any("(likely 9–10)" in line for line in card.details)
 
 

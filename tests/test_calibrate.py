@@ -18,7 +18,7 @@ from thermo_budget.calibrate import FIT_RESOLUTION, fit_log, log_model, predict_
 from thermo_budget.cli import main
 from thermo_budget.errors import ScenarioError
 from thermo_budget.measured_log import read_log
-from thermo_budget.network import OIL, Inputs, node_equations
+from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
 from thermo_budget.report import simulate, trace_csv
 from thermo_budget.scenario import build_rig, load_scenario
 from thermo_budget.session import Resolution, Step, pump_flow_m3_s
@@ -182,12 +182,14 @@ EXTRA_TO_AIR_W_K = 0.5
 
 
 def four_node_log(scenario, blocks, interval_s):
-    """A log from a 4-node model: our three nodes (conductances from thermo_budget.network) plus a
-    steel block coupled to the oil that our model lacks, integrated with solve_ivp (Radau, tight
-    tolerances). blocks: list of steps. Returns (times, bulk K, power W, pull flag)."""
+    """A log from a model with one node more than ours: our nodes (conductances from
+    thermo_budget.network) plus a steel block coupled to the oil that our model lacks, integrated
+    with solve_ivp (Radau, tight tolerances). blocks: list of steps. Returns (times, bulk K, power W,
+    pull flag)."""
     rig = build_rig(scenario, convection_multiplier=0.85, capacity_multiplier=1.0)
     T_air = rig.ambient_K
-    state = np.full(4, scenario.start_K)
+    k = N_NODES
+    state = np.full(k + 1, scenario.start_K)
     times, temps, powers, pulls = [0.0], [state[0]], [0.0], [0.0]
     t0 = 0.0
     for step in blocks:
@@ -196,11 +198,11 @@ def four_node_log(scenario, blocks, interval_s):
         inputs = Inputs(power_W=np.array([power]), volume_flow_m3_s=np.array([flow]))
 
         def rhs(_, T):
-            C, L, b, _, _ = node_equations(rig, T[None, :3], inputs)
-            dT = (b[0] - L[0] @ T[:3]) / C[0]
-            exchange = EXTRA_TO_OIL_W_K * (T[3] - T[0])
+            C, L, b, _, _ = node_equations(rig, T[None, :k], inputs)
+            dT = (b[0] - L[0] @ T[:k]) / C[0]
+            exchange = EXTRA_TO_OIL_W_K * (T[k] - T[0])
             dT[0] += exchange / C[0, 0]
-            dT4 = (-exchange + EXTRA_TO_AIR_W_K * (T_air - T[3])) / EXTRA_MASS_J_K
+            dT4 = (-exchange + EXTRA_TO_AIR_W_K * (T_air - T[k])) / EXTRA_MASS_J_K
             return np.append(dT, dT4)
 
         t_eval = np.arange(t0 + interval_s, t0 + step.duration_s + 1e-6, interval_s)
@@ -357,3 +359,45 @@ def test_demo_log_fit_recovers_its_known_multipliers(demo_paths):
         assert low <= DEMO_TRUTH[name] <= high
         assert abs(getattr(result, name) / DEMO_TRUTH[name] - 1.0) < 0.1
     assert result.ambient_source == "log mean"
+
+
+# --- the hardware coupling as an optional fitted parameter -------------------------------------
+
+def _coupling_log(truth_coupling, steps):
+    scenario = own_rig_scenario()
+    rig = build_rig(scenario, convection_multiplier=0.7, capacity_multiplier=1.3).with_changes(
+        hardware_coupling_multiplier=truth_coupling)
+    grid, bulk, _, power, pulls = sample(integrate(rig, steps, scenario.start_K, resolution=FINE), LOG_INTERVAL_S)
+    noisy_C = bulk - 273.15 + np.random.default_rng(11).normal(0.0, NOISE_K, bulk.size)
+    return scenario, csv_text(["time_s", "oil_C", "power_W", "pull"], [grid, noisy_C, power, pulls])
+
+
+def test_fits_the_hardware_coupling_where_long_pulls_show_it():
+    # Pulls of 10 min (many times the bodies' time constant while oil flows) with engine-off waits:
+    # the bulk oil shows how fast the bodies take up heat, and the fit recovers a coupling of 0.3
+    # (with the other two multipliers) within its 95 % interval, without a warning about it.
+    pull = Step(kind="pull", duration_s=600.0, engine="on", power_W=5000.0, rpm=3400.0)
+    steps = [pull, Step(kind="wait", duration_s=1200.0, engine="off")] * 3
+    scenario, text = _coupling_log(0.3, steps)
+    result = fit_log(scenario, text, fit_hardware_coupling=True)
+    for name, truth in (("convection_multiplier", 0.7), ("capacity_multiplier", 1.3),
+                        ("hardware_coupling_multiplier", 0.3)):
+        low, high = result.ci95[name]
+        assert low <= truth <= high, (name, low, high)
+    assert abs(result.hardware_coupling_multiplier / 0.3 - 1.0) < 0.15
+    assert not any("hardware coupling" in w for w in result.warnings)
+    assert result.calibrated_scenario.hardware_coupling_multiplier == pytest.approx(
+        result.hardware_coupling_multiplier, rel=1e-3)
+    assert result.to_dict(include_series=False)["hardware_coupling_multiplier"] is not None
+
+
+def test_warns_where_the_log_cannot_identify_the_hardware_coupling():
+    # 20-s pulls with 1-min engine-off waits: the bodies barely show in the bulk oil, the coupling
+    # trades off against the heat loss, and the fit says so (and fits it only when asked).
+    scenario = own_rig_scenario()
+    steps = list(scenario.steps) + [Step(kind="wait", duration_s=COOL_DOWN_S, engine="off")]
+    scenario, text = _coupling_log(0.3, steps)
+    result = fit_log(scenario, text, fit_hardware_coupling=True)
+    assert any("cannot identify the hardware coupling" in w for w in result.warnings)
+    plain = fit_log(scenario, text)
+    assert plain.hardware_coupling_multiplier is None and "hardware_coupling_multiplier" not in plain.ci95

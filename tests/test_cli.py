@@ -68,8 +68,8 @@ def test_run_json_and_csv(tmp_path, capsys, default_report):
     # the same dict as the Python API, thermo_budget.report(scenario)
     assert result == json.loads(json.dumps(default_report))
     header, *rows = csv_path.read_text(encoding="utf-8").strip().splitlines()
-    assert header == "time_s,oil_C,return_C,wall_C,hardware_C,power_W"
-    assert len(rows) > 10 and all(len(row.split(",")) == 6 for row in rows)
+    assert header == "time_s,oil_C,return_C,wall_C,hardware_C,power_W,hose_C"
+    assert len(rows) > 10 and all(len(row.split(",")) == 7 for row in rows)
 
 
 def test_run_summary_in_us_units(capsys):

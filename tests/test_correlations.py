@@ -153,3 +153,56 @@ def test_correlations_are_vectorised():
     assert corr.Nu_horizontal_cylinder_Churchill_Chu(Ra, 0.7).shape == (3,)
     assert corr.Nu_horizontal_plate_hot_up_McAdams(Ra).shape == (3,)
     assert corr.rayleigh(1 / 300.0, np.array([10.0, -10.0]), 0.3, 1.6e-5, 0.7).min() > 0
+
+
+@pytest.mark.parametrize("k, t, h, L", [(50.0, 0.002, 10.0, 0.2), (0.4, 0.006, 10.0, 0.3), (200.0, 0.001, 30.0, 0.05)])
+def test_fin_efficiency_against_ht_annular_fin_of_huge_radius(k, t, h, L):
+    # ht.fin_efficiency_Kern_Kraus: an annular fin of constant thickness, cooled on both faces,
+    # m = sqrt(2h / (k t)). On a tube of many metres it is a straight fin; our tank wall is cooled on
+    # one face, m = sqrt(h / (k t)), so the same m is ht's fin of twice the thickness.
+    # (The tube is kept below m r ~ 650, where ht's Bessel functions overflow; the curvature then
+    # leaves a difference of about L / D.)
+    m = np.sqrt(h / (k * t))
+    Do = min(100.0, 1300.0 / m)
+    assert float(corr.fin_efficiency_straight(m, L)) == pytest.approx(
+        ht.fin_efficiency_Kern_Kraus(Do, Do + 2 * L, 2 * t, k, h), rel=max(2e-3, L / Do))
+
+
+def test_fin_efficiency_limits():
+    assert float(corr.fin_efficiency_straight(0.0, 0.3)) == 1.0      # no loss: the fin is isothermal
+    assert float(corr.fin_efficiency_straight(100.0, 1.0)) == pytest.approx(0.01, rel=1e-6)   # 1/(mL)
+
+
+def test_round_jet_centreline_decay_constant():
+    # Round turbulent jet, u_c / u_0 = B d / x with B = 5.8 (Hussein, Capp and George 1994, in
+    # Pope, Turbulent Flows, 2000, Table 5.1); the potential core caps it at u_0.
+    assert float(corr.jet_centreline_velocity_Pope(2.0, 0.01, 0.58)) == pytest.approx(0.2)
+    assert float(corr.jet_centreline_velocity_Pope(2.0, 0.01, 0.01)) == pytest.approx(2.0)
+    # the momentum flux through the jet's cross-section is conserved: u_c x = const
+    x = np.array([0.3, 0.6, 1.2])
+    assert np.ptp(corr.jet_centreline_velocity_Pope(2.0, 0.01, x) * x) < 1e-12
+
+
+def test_horizontal_cylinder_incropera_steam_pipe_example():
+    # Incropera, 6th ed., ch. 9, worked example of a horizontal steam pipe (D = 0.1 m at 165 degC in
+    # 23 degC air; film 367 K: Pr = 0.697, Ra_D = 5.08e6), the book gives Nu_D = 23.3 (values recalled
+    # from memory of the book; check against it).
+    assert float(corr.Nu_horizontal_cylinder_Churchill_Chu(5.08e6, 0.697)) == pytest.approx(23.3, rel=0.01)
+
+
+def test_heated_box_incropera_duct_example():
+    # Incropera, 6th ed., ch. 9, worked example of a long horizontal rectangular duct 0.75 m wide and
+    # 0.3 m high at 45 degC in 15 degC air (the book's answer: 246 W per metre; properties at 303 K:
+    # nu = 16.2e-6 m^2/s, alpha = 22.9e-6 m^2/s, k = 0.0265 W/(m K), Pr = 0.707; recalled from
+    # memory of the book). Sides are vertical plates of L = 0.3 m, top and bottom horizontal plates
+    # of L = A/P = w/2. The book uses the laminar form of Churchill-Chu (its eq. 9.27) on the sides;
+    # we use the all-Ra form (eq. 9.26), which gives about 4 % more in total.
+    nu, alpha, k, Pr, dT = 16.2e-6, 22.9e-6, 0.0265, 0.707, 30.0
+
+    def Ra(L):
+        return 9.8 * (1 / 303.0) * dT * L**3 / (nu * alpha)
+    h_side = float(corr.Nu_vertical_plate_Churchill_Chu(Ra(0.3), Pr)) * k / 0.3
+    h_top = float(corr.Nu_horizontal_plate_hot_up_McAdams(Ra(0.375))) * k / 0.375
+    h_bottom = float(corr.Nu_horizontal_plate_hot_down_McAdams(Ra(0.375))) * k / 0.375
+    q_per_m = (2 * 0.3 * h_side + 0.75 * (h_top + h_bottom)) * dT
+    assert q_per_m == pytest.approx(246.0, rel=0.06)

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 import thermo_budget
-from thermo_budget.network import OIL, heat_capacities_J_K, passive_rejection_W
+from thermo_budget.network import N_NODES, NODE_NAMES, OIL, heat_capacities_J_K, passive_rejection_W
 from thermo_budget.outcome import first_crossing_s
 from thermo_budget.report import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
@@ -52,11 +52,13 @@ def test_report_numbers_of_the_default_rig(default_scenario, default_report):
 
 def test_heat_capacities_at_the_start_temperature(default_scenario, default_report):
     rig = build_rig(default_scenario)
-    C = heat_capacities_J_K(rig, np.full((1, 3), default_scenario.start_K))[0]
+    C = heat_capacities_J_K(rig, np.full((1, N_NODES), default_scenario.start_K))[0]
     caps = default_report["heat_capacity_J_per_K"]
+    assert list(caps) == list(NODE_NAMES)
     assert caps["oil"] == pytest.approx(C[0], abs=0.01)
-    # 18 L x 872 kg/m^3 x Cragoe c_p at 20 degC (~1.87 kJ/(kg K)): about 29 kJ/K
-    assert 18e-3 * 872 * 1800 < caps["oil"] < 18e-3 * 872 * 1950
+    # (18 L in the tank + about 0.8 L in the loop) x 872 kg/m^3 x Cragoe c_p at 20 degC
+    # (~1.87 kJ/(kg K)): about 31 kJ/K
+    assert 18.5e-3 * 872 * 1800 < caps["oil"] < 19.2e-3 * 872 * 1950
     assert caps["hardware"] == pytest.approx(9 * 470.0)  # 9 kg steel, c = 470 J/(kg K) (materials table)
 
 
@@ -135,14 +137,14 @@ def test_limit_reason_min_viscosity_in_the_report():
     assert r["limit_C"] < 80.0
 
 
-def test_trace_csv_has_the_six_columns(default_scenario):
+def test_trace_csv_keeps_the_six_columns_and_adds_the_hose_last(default_scenario):
     trace = simulate(default_scenario)
     text = trace_csv(trace)
     lines = text.strip().splitlines()
-    assert lines[0].split(",") == ["time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W"]
+    assert lines[0].split(",") == ["time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C"]
     assert TRACE_COLUMNS == tuple(lines[0].split(","))
     rows = np.array([[float(v) for v in line.split(",")] for line in lines[1:]])
-    assert rows.shape == (trace.time_s.shape[0], 6)
+    assert rows.shape == (trace.time_s.shape[0], 7)
     assert np.all(np.diff(rows[:, 0]) > 0)
     assert np.all(rows[:, 2] >= rows[:, 1] - 1e-3)           # return line never below the bulk
     assert set(np.round(rows[1:, 5])) <= {7000.0, 150.0}      # pull and idle loads of the default rig
@@ -163,7 +165,7 @@ def test_an_absurd_peak_gets_a_caution_and_a_sane_one_none(default_report):
     assert default_report["cautions"] == [] and default_report["flash_point_given"] is False
     raw = base_raw()
     set_path(raw, "reservoir.oil_volume", "4 L")
-    raw["session"]["steps"][0]["power"] = "40 kW"       # 40 kW pulls into 4 L of oil
+    raw["session"]["steps"][0]["power"] = "60 kW"       # 60 kW pulls into 4 L of oil
     answers = thermo_budget.report(load_scenario(raw))
     # past the assumed 180 degC flash point, and past the oil data: a caution in place of a peak (issue 13)
     assert answers["peak_C"] is None and answers["beyond_model_range"]

@@ -25,7 +25,7 @@ import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
-from .network import OIL, Inputs, node_equations
+from .network import N_NODES, OIL, Inputs, node_equations
 from .planning import session_outcome, take_designs
 from .report import report
 from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
@@ -45,7 +45,7 @@ def _best_of(repeats, function):
 
 def solve_ivp_peak_K(rig, steps, T0_K, rtol=1e-6):
     """Peak bulk temperature of one design by solve_ivp (RK45) step by step on node_equations."""
-    T = np.full(3, T0_K, dtype=float)
+    T = np.full(N_NODES, T0_K, dtype=float)
     peak = T[OIL]
     for step in steps:
         def rhs(t, y, step=step):
@@ -64,7 +64,7 @@ def solve_ivp_peak_K(rig, steps, T0_K, rtol=1e-6):
 def frozen_expm_session(rig, steps, T0_K, n, use_eigh=False):
     """The floor: coefficients frozen at the start state, one matrix exponential per step (scipy's
     expm of the augmented affine system, or, use_eigh=True, our own eigen-decomposition step)."""
-    T = np.full((n, 3), T0_K)
+    T = np.full((n, N_NODES), T0_K)
     peak = T[:, OIL].copy()
     frozen = {}
     for step in steps:
@@ -79,11 +79,12 @@ def frozen_expm_session(rig, steps, T0_K, n, use_eigh=False):
             T, _ = propagate_linear(C, L, b, T, np.full(n, step.duration_s))
             peak = np.maximum(peak, T[:, OIL])
             continue
-        M = np.zeros((n, 4, 4))
-        M[:, :3, :3] = -L / C[:, :, None]
-        M[:, :3, 3] = b / C
+        k = N_NODES
+        M = np.zeros((n, k + 1, k + 1))
+        M[:, :k, :k] = -L / C[:, :, None]
+        M[:, :k, k] = b / C
         E = expm(M * step.duration_s)
-        T = np.einsum("nij,nj->ni", E[:, :3, :3], T) + E[:, :3, 3]
+        T = np.einsum("nij,nj->ni", E[:, :k, :k], T) + E[:, :k, k]
         peak = np.maximum(peak, T[:, OIL])
     return peak
 

@@ -1,9 +1,10 @@
-"""Calibrate the model from a measured log: fit the convection and heat-capacity multipliers.
+"""Calibrate the model from a measured log: fit the convection and heat-capacity multipliers, and
+optionally the hardware coupling (the oil -> metal bodies conductance) and a start offset.
 
 The model of the logged day is `log_model.LogModel`; the summary text, the calibrated TOML and the
 `fit` command are in `fit_text.py`. The fit is weighted least squares (all readings equal weight) with
 scipy.optimize.least_squares on theta = (ln convection multiplier, ln capacity multiplier
-[, start offset K]); the logarithms keep the multipliers positive and make their intervals
+[, ln hardware coupling multiplier] [, start offset K]); the logarithms keep the multipliers positive and make their intervals
 multiplicative. The 95 % intervals are the usual linearised ones, theta +- t(0.975, n - p) * se with
 cov = s^2 (J^T J)^-1, s^2 = RSS / (n - p) (e.g. Seber and Wild, Nonlinear Regression, 1989, ch. 5);
 they assume independent noise, and the result says when the residuals show otherwise.
@@ -32,6 +33,7 @@ __all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "calibrated_toml", "fit_co
 CONVECTION_BOUNDS = (0.01, 10.0)      # the scenario file accepts 0 to 10
 CAPACITY_BOUNDS = (0.05, 10.0)        # the scenario file accepts above 0 up to 10
 START_OFFSET_BOUNDS_K = (-30.0, 30.0)
+COUPLING_BOUNDS = (0.01, 100.0)       # the scenario file accepts above 0 up to 100
 DIFFERENCE_STEP = 1e-4                # central-difference step in ln(multiplier), and 1e-4 K x 100 for the offset
 STRONG_CORRELATION = 0.95
 POOR_RELATIVE_HALF_WIDTH = 0.25
@@ -74,6 +76,7 @@ class FitResult:
     fitted_K: np.ndarray = field(repr=False)
     uncalibrated_K: np.ndarray = field(repr=False)
     calibrated_scenario: Scenario = field(repr=False, default=None)
+    hardware_coupling_multiplier: float | None = None    # None unless it was fitted
 
     @property
     def residual_K(self) -> np.ndarray:
@@ -85,6 +88,8 @@ class FitResult:
             "convection_multiplier": round(self.convection_multiplier, 5),
             "capacity_multiplier": round(self.capacity_multiplier, 5),
             "start_offset_K": None if self.start_offset_K is None else round(self.start_offset_K, 4),
+            "hardware_coupling_multiplier": (None if self.hardware_coupling_multiplier is None
+                                             else round(self.hardware_coupling_multiplier, 5)),
             "ci95": {k: None if v is None else [round(v[0], 5), round(v[1], 5)] for k, v in self.ci95.items()},
             "correlation": None if self.correlation is None else round(self.correlation, 4),
             "rms_K": round(self.rms_K, 4),
@@ -113,15 +118,17 @@ class FitResult:
 
 
 def fit_log(scenario: Scenario, log_text: str, sensor: str = "bulk", fit_start_offset: bool = False,
-            source: str = "log", strict: bool = False) -> FitResult:
-    """Fit the convection and capacity multipliers (and optionally a start offset) to a log's CSV text.
-    strict : refuse a log that looks implausible (log_checks) instead of warning."""
+            source: str = "log", strict: bool = False, fit_hardware_coupling: bool = False) -> FitResult:
+    """Fit the convection and capacity multipliers (and optionally the hardware coupling and a start
+    offset) to a log's CSV text. strict : refuse a log that looks implausible (log_checks) instead of
+    warning."""
     log = read_log(log_text, sensor, source)
-    return fit_measured_log(scenario, log, sensor, fit_start_offset, strict, source)
+    return fit_measured_log(scenario, log, sensor, fit_start_offset, strict, source, fit_hardware_coupling)
 
 
 def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
-                     fit_start_offset: bool = False, strict: bool = False, source: str = "log") -> FitResult:
+                     fit_start_offset: bool = False, strict: bool = False, source: str = "log",
+                     fit_hardware_coupling: bool = False) -> FitResult:
     """The fit of a read log; a long one is thinned first (log_checks.thin_for_fit)."""
     plausibility = plausibility_warnings(log, scenario.start_K, limit_K(scenario)[0], scenario.units)
     if strict:
@@ -130,11 +137,17 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     model = log_model(scenario, log, sensor)
     used = np.isfinite(log.oil_K)
     measured = log.oil_K[used]
-    n_par = 3 if fit_start_offset else 2
+    names = (["convection_multiplier", "capacity_multiplier"]
+             + (["hardware_coupling_multiplier"] if fit_hardware_coupling else [])
+             + (["start_offset_K"] if fit_start_offset else []))
+    n_par = len(names)
+    index = {name: i for i, name in enumerate(names)}
+    coupling_0 = scenario.hardware_coupling_multiplier
 
     def predictions(thetas: np.ndarray) -> np.ndarray:
-        offsets = thetas[:, 2] if n_par == 3 else 0.0
-        return model.temperatures_K(np.exp(thetas[:, 0]), np.exp(thetas[:, 1]), offsets)[:, used]
+        offsets = thetas[:, index["start_offset_K"]] if fit_start_offset else 0.0
+        coupling = np.exp(thetas[:, index["hardware_coupling_multiplier"]]) if fit_hardware_coupling else coupling_0
+        return model.temperatures_K(np.exp(thetas[:, 0]), np.exp(thetas[:, 1]), offsets, coupling)[:, used]
 
     cache = {}
 
@@ -145,16 +158,20 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         return cache[key]
 
     def jacobian(theta):
-        steps = np.array([DIFFERENCE_STEP, DIFFERENCE_STEP, 100 * DIFFERENCE_STEP])[:n_par]
+        steps = np.array([100 * DIFFERENCE_STEP if name == "start_offset_K" else DIFFERENCE_STEP for name in names])
         shifted = np.concatenate([theta[None, :], theta + np.diag(steps), theta - np.diag(steps)])
         values = predictions(shifted)
         cache[tuple(theta)] = values[0] - measured
         return ((values[1:1 + n_par] - values[1 + n_par:]) / (2.0 * steps)[:, None]).T
 
-    lower = [np.log(CONVECTION_BOUNDS[0]), np.log(CAPACITY_BOUNDS[0]), START_OFFSET_BOUNDS_K[0]][:n_par]
-    upper = [np.log(CONVECTION_BOUNDS[1]), np.log(CAPACITY_BOUNDS[1]), START_OFFSET_BOUNDS_K[1]][:n_par]
-    x0 = np.clip([np.log(max(scenario.convection_multiplier, CONVECTION_BOUNDS[0])),
-                  np.log(scenario.capacity_multiplier), 0.0][:n_par], lower, upper)
+    bounds = {"convection_multiplier": np.log(CONVECTION_BOUNDS), "capacity_multiplier": np.log(CAPACITY_BOUNDS),
+              "hardware_coupling_multiplier": np.log(COUPLING_BOUNDS), "start_offset_K": START_OFFSET_BOUNDS_K}
+    start = {"convection_multiplier": np.log(max(scenario.convection_multiplier, CONVECTION_BOUNDS[0])),
+             "capacity_multiplier": np.log(scenario.capacity_multiplier),
+             "hardware_coupling_multiplier": np.log(coupling_0), "start_offset_K": 0.0}
+    lower = [bounds[name][0] for name in names]
+    upper = [bounds[name][1] for name in names]
+    x0 = np.clip([start[name] for name in names], lower, upper)
     if not np.all(np.isfinite(residuals(np.asarray(x0, dtype=float)))):
         raise ScenarioError(source, "a log the model cannot follow", "a log whose heat input keeps the model's "
                             "temperatures finite (check the power_W column and its unit, W)")
@@ -164,13 +181,14 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     residual = residuals(theta)
     J = jacobian(theta)
     n = measured.size
-    uncalibrated = model.temperatures_K(scenario.convection_multiplier, scenario.capacity_multiplier)[0, used]
+    uncalibrated = model.temperatures_K(scenario.convection_multiplier, scenario.capacity_multiplier, 0.0,
+                                        coupling_0)[0, used]
     fitted = measured + residual
-    names = ["convection_multiplier", "capacity_multiplier", "start_offset_K"][:n_par]
-    ci95, correlation, relative_half_width = _intervals(theta, J, residual, names)
+    ci95, correlation, relative_half_width, correlations = _intervals(theta, J, residual, names)
 
     convection, capacity = float(np.exp(theta[0])), float(np.exp(theta[1]))
-    offset = float(theta[2]) if n_par == 3 else None
+    offset = float(theta[index["start_offset_K"]]) if fit_start_offset else None
+    coupling = float(np.exp(theta[index["hardware_coupling_multiplier"]])) if fit_hardware_coupling else None
     rms = float(np.sqrt(np.mean(residual**2)))
     lag1 = float(np.sum(residual[:-1] * residual[1:]) / max(np.sum(residual**2), 1e-300))
     # Noise from successive differences of the residuals, blind to a slow misfit (von Neumann et
@@ -178,11 +196,16 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
     noise = float(np.sqrt(np.mean(np.diff(residual) ** 2) / 2.0))
     tau = cooling_time_constant_s(model.rig.with_changes(convection_multiplier=convection,
                                                          capacity_multiplier=capacity), float(np.max(measured)))
-    calibrated = scenario.changed(**{"losses.convection_multiplier": float(f"{convection:.4g}"),
-                                     "losses.capacity_multiplier": float(f"{capacity:.4g}")})
+    changes = {"losses.convection_multiplier": float(f"{convection:.4g}"),
+               "losses.capacity_multiplier": float(f"{capacity:.4g}")}
+    if coupling is not None:
+        changes["losses.hardware_coupling_multiplier"] = float(f"{coupling:.4g}")
+    calibrated = scenario.changed(**changes)
     in_wait = np.array([piece < 0 or not model.pieces[piece].is_pull for piece in model.point_piece[used]])
     warnings = plausibility + _warnings(scenario, log, measured, residual, noise, in_wait, rms, lag1, correlation, relative_half_width, theta, lower, upper,
                          names, solution, tau, fit_start_offset)
+    if fit_hardware_coupling:
+        warnings += _coupling_warnings(names, ci95, relative_half_width, correlations)
     notes = list(log.notes) + list(model.notes)
     if offset is not None:
         notes.append("the start offset describes that day's start only; it is not written to the calibrated scenario")
@@ -196,19 +219,20 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         ambient_C=model.ambient_K - 273.15, ambient_source=model.ambient_source, heat_input=model.heat_input,
         time_constant_s=tau, converged=bool(solution.success), warnings=warnings, notes=notes,
         time_s=log.time_s[used], measured_K=measured, fitted_K=fitted, uncalibrated_K=uncalibrated,
-        calibrated_scenario=calibrated)
+        calibrated_scenario=calibrated, hardware_coupling_multiplier=coupling)
     result.calibrated_scenario = with_fit_posterior(calibrated, result)   # the band's posterior (uncertainty.py)
     return result
 
 
 def _intervals(theta, J, residual, names):
-    """95 % intervals from the Jacobian; the multipliers' are exp() of the interval in ln."""
+    """95 % intervals from the Jacobian; the multipliers' are exp() of the interval in ln.
+    Returns (ci95, correlation of the first two, relative half widths, correlation matrix or None)."""
     n, p = J.shape
     s2 = float(residual @ residual) / (n - p)
     JTJ = J.T @ J
     ci95 = {name: None for name in names}
     if not np.all(np.isfinite(JTJ)) or np.linalg.cond(JTJ) > 1e14:
-        return ci95, None, {name: np.inf for name in names}
+        return ci95, None, {name: np.inf for name in names}, None
     cov = s2 * np.linalg.inv(JTJ)
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
     t = float(stats.t.ppf(0.975, n - p))
@@ -223,7 +247,27 @@ def _intervals(theta, J, residual, names):
             ci95[name] = [float(low), float(high)]
             half_width[name] = 0.0
     correlation = float(cov[0, 1] / np.sqrt(cov[0, 0] * cov[1, 1])) if se[0] > 0 and se[1] > 0 else None
-    return ci95, correlation, half_width
+    correlations = cov / np.outer(se, se) if np.all(se > 0) else None
+    return ci95, correlation, half_width, correlations
+
+
+def _coupling_warnings(names, ci95, half_width, correlations) -> list:
+    """Where the log cannot identify the hardware coupling: no interval, or one wider than
+    +-POOR_RELATIVE_HALF_WIDTH (its correlation with the other parameters is quoted; a strong one with
+    a narrow interval only means the parameters trade off while the log still pins them)."""
+    name = "hardware_coupling_multiplier"
+    i = names.index(name)
+    if ci95.get(name) is None or correlations is None:
+        return ["the log cannot identify the hardware coupling (singular Jacobian); it stays at the fitted "
+                "value without an interval: fit without it"]
+    others = [abs(correlations[i, j]) for j in range(len(names)) if j != i]
+    if half_width[name] > POOR_RELATIVE_HALF_WIDTH:
+        return [f"the log cannot identify the hardware coupling well (95 % interval about "
+                f"+-{100 * half_width[name]:.0f} %, largest correlation with another parameter "
+                f"{max(others):.2f}): the bulk oil barely depends on it in this log; a sensor on the pump "
+                f"or valve body, or pulls long against the bodies' time constant, would tell it; otherwise "
+                f"fit without it"]
+    return []
 
 
 def _largest_fall_K(T_K) -> float:

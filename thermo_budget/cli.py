@@ -215,6 +215,8 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--fit-start-offset", action="store_true", help="also fit an offset of the start temperature")
     fit.add_argument("--strict", action="store_true",
                      help="refuse a log that looks implausible (another unit, or far from the start temperature)")
+    fit.add_argument("--fit-hardware-coupling", action="store_true",
+                     help="also fit the oil-to-pump/valve-body coupling (warns where the log cannot tell it)")
     fit.set_defaults(handler=_fit)
     watch = sub.add_parser("watch", help="follow a logger's file live: the state of every node and when the next pull may start")
     watch.add_argument("scenario")

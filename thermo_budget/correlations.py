@@ -163,3 +163,37 @@ def Nu_tube_Hausen_Gnielinski(Re, Pr, diameter_m, length_m):
     turbulent = Nu_tube_turbulent_Gnielinski(Re, Pr)
     weight = np.clip((np.asarray(Re) - 2300.0) / 700.0, 0.0, 1.0)
     return np.maximum((1.0 - weight) * laminar + weight * turbulent, laminar)
+
+
+def fin_efficiency_straight(m_per_m, length_m):
+    """Efficiency of a straight fin of uniform section with an adiabatic tip: eta = tanh(mL) / (mL),
+    m = sqrt(h P / (k A_c)); for a plate wall fed along one edge, per unit width, m = sqrt(h / (k t)).
+    eta -> 1 as mL -> 0. The fin sheds eta h A (T_base - T_ambient).
+    Reference: Incropera, 6th ed., eqs. 3.81 and 3.89 (Table 3.4, case B).
+
+    Incropera's remark (sec. 3.6.4): at mL = 2.65 the fin sheds 99 % of an infinitely long one's
+    heat, so eta = 0.99 / 2.65 = 0.374 there:
+
+    >>> round(float(fin_efficiency_straight(26.5, 0.1)), 3)
+    0.374
+    """
+    mL = np.asarray(m_per_m * length_m, dtype=float)
+    small = mL < 1e-6
+    safe = np.where(small, 1.0, mL)
+    return np.where(small, 1.0, np.tanh(safe) / safe)
+
+
+def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m, B=5.8):
+    """Mean centreline velocity of a free round turbulent jet: u_c / u_0 = B d / x, capped at u_0
+    (the potential core, x < B d).
+
+    The self-similar far field of a round jet from a nozzle of diameter d at velocity u_0; B = 5.8
+    (Hussein, Capp and George 1994, quoted in Pope, Turbulent Flows, 2000, Table 5.1; other
+    experiments give 5.4-6.1). Valid for a turbulent jet (Re_d above a few thousand) at x/d above
+    about 10-30; the virtual origin is neglected. For a laminar or transitional jet it is an
+    order-of-magnitude estimate.
+
+    >>> round(float(jet_centreline_velocity_Pope(3.0, 0.02, 0.5)), 3)
+    0.696
+    """
+    return u0_m_s * np.minimum(1.0, B * diameter_m / np.maximum(distance_m, 1e-12))

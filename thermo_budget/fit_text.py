@@ -37,6 +37,9 @@ def summary_text(result: FitResult) -> str:
     lines = [f"fit of the {result.sensor} sensor, {result.n_points} points, heat input from {result.heat_input}",
              f"  convection multiplier {result.convection_multiplier:.3f}  (95 %: {ci('convection_multiplier')})",
              f"  capacity multiplier   {result.capacity_multiplier:.3f}  (95 %: {ci('capacity_multiplier')})"]
+    if result.hardware_coupling_multiplier is not None:
+        lines.append(f"  hardware coupling     {result.hardware_coupling_multiplier:.3f}  "
+                     f"(95 %: {ci('hardware_coupling_multiplier')})")
     if result.start_offset_K is not None:
         lines.append(f"  start offset          {diff(result.start_offset_K)}  (95 %: {ci('start_offset_K')} K)")
     lines += [f"  RMS residual          {diff(result.rms_K)} (largest {diff(result.max_abs_residual_K)}); "
@@ -61,6 +64,8 @@ def calibrated_toml(result: FitResult, log_name: str) -> str:
               f"{result.n_points} points, RMS residual {result.rms_K:.2f} K).",
               f"convection_multiplier 95 %: {fmt('convection_multiplier')}; "
               f"capacity_multiplier 95 %: {fmt('capacity_multiplier')}."]
+    if result.hardware_coupling_multiplier is not None:
+        header.append(f"hardware_coupling_multiplier 95 %: {fmt('hardware_coupling_multiplier')}.")
     header += [f"warning: {w}" for w in result.warnings]
     return "".join(toml_comment(line) for line in header) + result.calibrated_scenario.to_toml()
 
@@ -85,7 +90,8 @@ def fit_command(args) -> int:
     scenario = load_scenario(args.scenario)
     text = log_file_text(args.log)
     result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
-                     source=str(args.log), strict=bool(getattr(args, "strict", False)))
+                     source=str(args.log), strict=bool(getattr(args, "strict", False)),
+                     fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
     if args.write:
         Path(args.write).write_text(calibrated_toml(result, args.log), encoding="utf-8")
     if args.plot:

@@ -14,7 +14,7 @@ import numpy as np
 
 from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, periodic_state, _round_up,
                        take_designs)
-from .network import NODE_NAMES
+from .network import N_NODES
 from .outcome import limiting_peak_K, pulls_completed_under
 from .scenario import Scenario, build_rig
 from .session import PLAN_RESOLUTION
@@ -76,19 +76,19 @@ def hot_day(scenario: Scenario, ambients_K=None, max_pulls: int | None = None) -
     per_cycle = sum(step.is_pull for step in scenario.cycle)
     max_pulls = max(4 * pulls_planned, 40) if max_pulls is None else max_pulls
     limit, return_limit = limits_K(scenario)
-    starts = np.repeat((scenario.start_K + ambients - scenario.ambient_K)[:, None], len(NODE_NAMES), axis=1)
+    starts = np.repeat((scenario.start_K + ambients - scenario.ambient_K)[:, None], N_NODES, axis=1)
     possible = (ambients < limit) & (starts[:, 0] < limit)   # a room at the limit leaves no pull
 
     rig = build_rig(scenario).with_changes(ambient_K=ambients)
     _, periodic_peak, converged = periodic_state(scenario, rig, n, X0=starts)
     stop_K = limit if return_limit is None else min(limit, return_limit)
-    cycles = -(-max_pulls // per_cycle)
+    cycles = -(-(max_pulls + 1) // per_cycle)   # one pull past max_pulls, so a count of max_pulls is seen
     trace = integrate(rig, list(scenario.cycle) * cycles, starts, n_designs=n, resolution=PLAN_RESOLUTION,
                       stop_above_K=stop_K)
     under = pulls_completed_under(trace, limit, return_limit).astype(float)
     crossed = under < trace.pull_end_s.shape[0]
     all_day = possible & converged & (periodic_peak <= limit) & ~crossed
-    pulls = np.where(crossed, under, np.nan)
+    pulls = np.where(crossed & (under <= max_pulls), under, np.nan)
     pulls = np.where(possible, pulls, 0.0)
     return HotDay(ambients_K=ambients, pulls=pulls, all_day=all_day,
                   cooler_W_per_K=_coolers_needed(scenario, ambients, starts, possible), max_pulls=max_pulls)

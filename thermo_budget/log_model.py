@@ -14,7 +14,7 @@ import numpy as np
 from .errors import ScenarioError
 from .fit_text import format_temperature
 from .measured_log import MeasuredLog
-from .network import OIL
+from .network import N_NODES, OIL
 from .scenario import Scenario, build_rig
 from .session import Resolution, Step
 from .solver import integrate
@@ -29,7 +29,7 @@ TIME_TOLERANCE_S = 1e-6
 class LogModel:
     """The scenario's network driven by one log's heat input, read at the log's times.
 
-    rig : the network with multipliers 1 and the ambient used for the fit.
+    rig : the network with multipliers 1 (hardware coupling included) and the ambient used for the fit.
     pieces : the steps, cut at every logged time. point_index : (M,) index of each log row in the
     integrated trace (0 = the start state). point_piece : (M,) the piece that ends at each log row
     (-1 for a row at time 0).
@@ -45,15 +45,17 @@ class LogModel:
     heat_input: str
     notes: tuple
 
-    def temperatures_K(self, convection, capacity, start_offset_K=0.0) -> np.ndarray:
+    def temperatures_K(self, convection, capacity, start_offset_K=0.0, hardware_coupling=1.0) -> np.ndarray:
         """Sensor temperature (N, M) K at the log's times for N parameter sets (arrays (N,)), run in
         one vectorised integration."""
         convection = np.atleast_1d(np.asarray(convection, dtype=float))
         capacity = np.atleast_1d(np.asarray(capacity, dtype=float))
         offset = np.broadcast_to(np.asarray(start_offset_K, dtype=float), convection.shape)
+        coupling = np.array(np.broadcast_to(np.asarray(hardware_coupling, dtype=float), convection.shape))
         n = convection.size
-        rig = self.rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity)
-        T0 = np.repeat((self.start_K + offset)[:, None], 3, axis=1)
+        rig = self.rig.with_changes(convection_multiplier=convection, capacity_multiplier=capacity,
+                                    hardware_coupling_multiplier=coupling)
+        T0 = np.repeat((self.start_K + offset)[:, None], N_NODES, axis=1)
         trace = integrate(rig, list(self.pieces), T0, n_designs=n, resolution=FIT_RESOLUTION)
         series = trace.T_K[:, :, OIL] if self.sensor == "bulk" else trace.return_K
         return series[self.point_index].T
@@ -64,7 +66,8 @@ def log_model(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk") -> Log
     if sensor not in ("bulk", "return"):
         raise ScenarioError("sensor", sensor, 'one of "bulk", "return"')
     notes = []
-    rig = build_rig(scenario, convection_multiplier=1.0, capacity_multiplier=1.0)
+    rig = build_rig(scenario, convection_multiplier=1.0, capacity_multiplier=1.0).with_changes(
+        hardware_coupling_multiplier=1.0)
     ambient = log.mean_ambient_K
     if ambient is None:
         ambient, ambient_source = scenario.ambient_K, "scenario"
@@ -202,5 +205,6 @@ def _log_pieces(scenario: Scenario, log: MeasuredLog):
 def predict_log_K(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk", start_offset_K: float = 0.0) -> np.ndarray:
     """The scenario's model (with its own multipliers) at the log's times, (M,) K."""
     model = log_model(scenario, log, sensor)
-    return model.temperatures_K(scenario.convection_multiplier, scenario.capacity_multiplier, start_offset_K)[0]
+    return model.temperatures_K(scenario.convection_multiplier, scenario.capacity_multiplier, start_offset_K,
+                                scenario.hardware_coupling_multiplier)[0]
 

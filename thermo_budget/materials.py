@@ -12,3 +12,11 @@ MATERIALS = {
     "cast_iron": {"density_kg_m3": 7200.0, "specific_heat_J_kgK": 460.0, "conductivity_W_mK": 50.0},
     "polyethylene": {"density_kg_m3": 950.0, "specific_heat_J_kgK": 1900.0, "conductivity_W_mK": 0.4},
 }
+
+# The wall of a braided hydraulic hose (rubber tube and cover with one or two steel-wire braids),
+# taken as one composite. Recalled from memory, not from a source; treat as +-30 %:
+# - conductivity: the rubber's, 0.2-0.3 W/(m K) (the braid does not conduct across the wall);
+# - density: two-wire-braid hose of 19 mm bore weighs about 0.8-1 kg/m over a wall of about
+#   3.3e-4 m^2, i.e. 2,500-3,000 kg/m^3 of wall; one-wire hose is lighter;
+# - specific heat: about 70 % rubber by mass at ~1,700 J/(kg K) and 30 % steel at 470 J/(kg K).
+HOSE_WALL = {"density_kg_m3": 2500.0, "specific_heat_J_kgK": 1330.0, "conductivity_W_mK": 0.25}

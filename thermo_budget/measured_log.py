@@ -7,7 +7,7 @@ Columns (header names are matched without regard to case; other columns are igno
     ambient_C | ambient_F  optional, air temperature near the rig
     power_W                optional, absorbed power: the mean over the interval that ends at the row
     pull                   optional, 1 while a pull runs in the interval that ends at the row, else 0
-The trace CSV that `run --csv` writes (time_s, oil_C, return_C, wall_C, hardware_C, power_W) is a
+The trace CSV that `run --csv` writes (time_s, oil_C, return_C, wall_C, hardware_C, power_W, hose_C) is a
 valid log; with the sensor "return" its return_C column is read in place of oil_C.
 
 Lines starting with "#" are comments. Rows are sorted by time; rows with the same time are merged

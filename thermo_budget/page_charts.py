@@ -28,14 +28,15 @@ def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_susta
                 n_volumes: int = DESIGN_VOLUMES, n_coolers: int = DESIGN_COOLERS):
     """Oil volumes (L) and cooler sizes (W/K) for the design chart.
 
-    Volumes run from a quarter to three times the current oil, and past the smallest reservoir that
-    finishes the session (1.3 x) where that is larger. Coolers run from none to 2.5 x the all-day
+    Volumes run from a quarter to three times the current oil, below the smallest reservoir that
+    finishes the session (0.8 x) and past it (1.3 x) where the quarter and the three times do not. Coolers run from none to 2.5 x the all-day
     cooler (which is at least the session's cooler), and past 1.5 x the rig's own cooler; where no
     cooler can sustain the cadence, to three times the rig's own passive loss at the limit.
     """
     volume_L = scenario.oil_volume_L
     top_L = max(3.0 * volume_L, 1.3 * (min_oil_volume_L or 0.0))
-    volumes = np.linspace(0.25 * volume_L, top_L, n_volumes)
+    bottom_L = min(0.25 * volume_L, 0.8 * (min_oil_volume_L or volume_L))
+    volumes = np.linspace(bottom_L, top_L, n_volumes)
     sizes = [1.5 * scenario.cooler_W_K]
     if cooler_sustained_W_K:
         sizes.append(2.5 * cooler_sustained_W_K)

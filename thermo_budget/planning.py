@@ -6,7 +6,7 @@ from dataclasses import fields
 
 import numpy as np
 
-from .network import OIL, Rig, cooling_time_constant_s
+from .network import N_NODES, OIL, Rig, cooling_time_constant_s
 from .outcome import limiting_peak_K, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
@@ -15,6 +15,9 @@ from .solver import integrate
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
 NEWTON_ITERATIONS = 12
+# From this many runs of the cycle in one batch, Broyden updates replace the later Jacobians
+# (periodic_state); below it a batch's cost is mostly per call.
+BROYDEN_FROM_DESIGNS = 500
 GRID_POINTS = 24           # candidates per round of a batched search
 GRID_ROUNDS = 3
 # Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
@@ -75,35 +78,69 @@ def _has_loss_path(rig: Rig) -> np.ndarray:
 
 
 def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
-    """The cycle's periodic steady state, by Newton iteration on the one-cycle map (finite-difference
-    Jacobian, all designs and perturbations in one batch).
+    """The cycle's periodic steady state, by Newton iteration on the one-cycle map, for the designs
+    not yet converged. The Jacobian is by finite differences (all designs and perturbations in one
+    batch); on a large batch (BROYDEN_FROM_DESIGNS or more runs of the cycle) only the first one, and
+    then Broyden's update (Dennis and Schnabel, Numerical Methods for Unconstrained Optimization and
+    Nonlinear Equations, 1983, ch. 8), which runs the cycle once per design instead of k + 1 times.
+    The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it; on
+    a small batch the cost is per call, not per design, so full Newton steps are cheaper there.
 
-    Returns (state at cycle start (N,3) K, peak oil over the periodic cycle (N,) K, converged (N,)).
+    Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
     (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set).
     """
-    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, 3)), dtype=float)
-    delta = 0.01
-    index4 = np.repeat(np.arange(n), 4)
-    rig4 = take_designs(rig, index4)
-    wait4 = None if wait_s is None else np.repeat(np.broadcast_to(wait_s, (n,)), 4)
-    eye = np.eye(3)
+    k = N_NODES
+    copies = k + 1                      # the state itself and one perturbation per node
+    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
+    waits = None if wait_s is None else np.broadcast_to(np.asarray(wait_s, dtype=float), (n,))
+    eye = np.eye(k)
+    broyden = n * copies >= BROYDEN_FROM_DESIGNS
+    residual = np.full((n, k), np.inf)
+    peak = np.full(n, np.nan)
+    B = np.empty((n, k, k))             # d residual / d X
+    converged = np.zeros(n, bool)
     for iteration in range(NEWTON_ITERATIONS):
-        X4 = np.repeat(X, 4, axis=0)
-        X4[1::4] += delta * eye[0]
-        X4[2::4] += delta * eye[1]
-        X4[3::4] += delta * eye[2]
-        F4, peak4 = _cycle_end(scenario, rig4, X4, wait4)
-        F, peak = F4[0::4], peak4[0::4]   # the cycle from X itself, and its peak
-        residual = F - X
-        converged = np.max(np.abs(residual), axis=1) < NEWTON_TOL_K
-        if converged.all() or iteration == NEWTON_ITERATIONS - 1:
+        active = np.flatnonzero(~converged)
+        if iteration > 0:
+            active = active[np.all(np.isfinite(residual[active]), axis=1)]
+            if not active.size:
+                break
+            step = np.linalg.solve(B[active] + 1e-12 * eye, -residual[active][..., None])[..., 0]
+            X_new = np.clip(X[active] + step, 150.0, 1500.0)
+        else:
+            X_new = X[active]
+        waits_active = None if waits is None else waits[active]
+        if iteration == 0 or not broyden:
+            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, waits_active)
+        else:
+            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, waits_active)
+            r_new = F_new - X_new
+            dx, dr = X_new - X[active], r_new - residual[active]
+            Bdx = (B[active] @ dx[..., None])[..., 0]
+            B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(
+                np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
+        X[active], residual[active], peak[active] = X_new, r_new, peak_new
+        converged[active] = np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K
+        if converged.all():
             break
-        J = np.stack([(F4[i + 1::4] - F) / delta for i in range(3)], axis=-1)
-        step = np.linalg.solve(J - eye + 1e-12 * eye, -residual[..., None])[..., 0]
-        X = np.clip(X + step, 150.0, 1500.0)
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
     return X, peak, ok
+
+
+def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
+    """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), and the residual's
+    Jacobian by forward differences (m,k,k), for the designs in index, in one batch."""
+    k = X.shape[1]
+    copies = k + 1
+    Xc = np.repeat(X, copies, axis=0)
+    for i in range(k):
+        Xc[i + 1::copies, i] += delta_K
+    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
+                            None if waits is None else np.repeat(waits, copies))
+    F = Fc[0::copies]
+    J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
+    return F - X, peak_c[0::copies], J
 
 
 def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0):
@@ -140,7 +177,7 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
     runs = np.full(n, np.nan)
     active = np.flatnonzero(~sustainable)
-    X = np.array(np.broadcast_to(scenario.start_K, (n, 3)), dtype=float)
+    X = np.array(np.broadcast_to(scenario.start_K, (n, N_NODES)), dtype=float)
     done_pulls = 0
     while active.size and done_pulls < max_pulls:
         if done_pulls == 0:
@@ -277,7 +314,7 @@ def _pull_and_wait_blocks(scenario: Scenario):
 
 
 def _run_steps(rig, steps, X):
-    return integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, 3).shape[0], resolution=PLAN_RESOLUTION)
+    return integrate(rig, steps, X, n_designs=np.asarray(X).reshape(-1, N_NODES).shape[0], resolution=PLAN_RESOLUTION)
 
 
 def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
@@ -322,7 +359,7 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
         return as_planned
     limit, _ = limit_K(scenario)
     rig = build_rig(scenario)
-    X = np.full((1, 3), scenario.start_K)
+    X = np.full((1, N_NODES), scenario.start_K)
     t = 0.0
     rows = []
     off = Step(kind="wait", duration_s=1.0, engine="off")

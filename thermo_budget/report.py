@@ -6,7 +6,7 @@ import math
 import numpy as np
 
 from .errors import ScenarioError
-from .network import HARDWARE, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
+from .network import HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
 from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
@@ -61,7 +61,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
     crossing = float(first_crossing_s(trace, limit, return_limit)[0])
     energy_in = float(trace.energy_in_J[0])
     lost, stored = float(trace.energy_lost_J[0]), float(trace.energy_stored_J[0])
-    capacities = heat_capacities_J_K(rig, np.full((1, 3), scenario.start_K))[0]
+    capacities = heat_capacities_J_K(rig, np.full((1, N_NODES), scenario.start_K))[0]
     pump = pump_operating_point(scenario)
     return {
         "name": scenario.name,
@@ -76,6 +76,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "end_C": _celsius(trace.T_K[-1, 0, OIL]),
         "end_wall_C": _celsius(trace.T_K[-1, 0, WALL]),
         "end_hardware_C": _celsius(trace.T_K[-1, 0, HARDWARE]),
+        "end_hose_C": _celsius(trace.T_K[-1, 0, HOSE]),
         "peak_return_C": _celsius(trace.return_K[:, 0].max()),
         "pulls_planned": int(trace.pull_end_s.shape[0]),
         "return_line_limit_C": None if return_limit is None else _celsius(return_limit),
@@ -204,14 +205,15 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
 
 
 def trace_rows(trace: Trace, design: int = 0):
-    """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W.
-    power_W is the mean absorbed power over the interval that ends at the row."""
+    """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W, hose_C.
+    power_W is the mean absorbed power over the interval that ends at the row; hose_C comes last so
+    that readers of the older six columns keep working."""
     T = trace.T_K[:, design, :] - 273.15
     return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
-                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design]])
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], T[:, HOSE]])
 
 
-TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W")
+TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C")
 
 
 def trace_csv(trace: Trace) -> str:

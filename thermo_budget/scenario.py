@@ -15,7 +15,8 @@ import tomli_w
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
-from .rig_build import build_rig, limit_K  # noqa: F401  (build_rig re-exported: the scenario's network)
+from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
+                        limit_K)  # (build_rig re-exported: the scenario's network)
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              read_toml_bytes, read_toml_text, with_path)
@@ -69,6 +70,8 @@ class Hardware:
     hose_inner_diameter_m: float
     emissivity: float
     body_area_m2: float
+    internal_area_m2: float       # wetted inside of the metal bodies
+    passage_length_m: float       # one passage through a body (the side of the bodies' cube)
 
 
 @dataclass(frozen=True)
@@ -94,6 +97,7 @@ class Scenario:
     repeat: int
     cycle: tuple
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
+    hardware_coupling_multiplier: float = 1.0  # scales the oil -> metal bodies conductance (a log fit sets it)
     return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
     flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
@@ -203,12 +207,16 @@ def _parse(raw: dict) -> Scenario:
     hose_id = h.quantity("hose_inner_diameter", "length", "mm", DEFAULT_HOSE_BORE_FRACTION * hose_od * 1000.0, above=0.0)
     if hose_id >= hose_od:
         raise ScenarioError("hardware.hose_inner_diameter", h.raw.get("hose_inner_diameter"), "less than hose_outer_diameter")
-    side = (mass / MATERIALS[hw_material]["density_kg_m3"]) ** (1.0 / 3.0)
+    metal_density = MATERIALS[hw_material]["density_kg_m3"]
     hardware = Hardware(mass_kg=mass, material=hw_material,
                         hose_length_m=h.quantity("hose_length", "length", "m", minimum=0.0),
                         hose_outer_diameter_m=hose_od, hose_inner_diameter_m=hose_id,
                         emissivity=h.number("emissivity", minimum=0.0, maximum=1.0),
-                        body_area_m2=h.quantity("body_area", "area", "m^2", 6.0 * side * side, minimum=0.0))
+                        body_area_m2=h.quantity("body_area", "area", "m^2", default_body_area_m2(mass, metal_density),
+                                                minimum=0.0),
+                        internal_area_m2=h.quantity("internal_area", "area", "m^2", default_internal_area_m2(
+                            mass, metal_density, displacement, hose_id), above=0.0),
+                        passage_length_m=body_cube_side_m(mass, metal_density))
     return_line_max = h.quantity("return_line_max_temperature", "temperature", "degC", None, above=0.0)
     if hardware.hose_length_m == 0.0:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
@@ -217,6 +225,7 @@ def _parse(raw: dict) -> Scenario:
     losses = top.table("losses", required=False)
     convection_multiplier = losses.number("convection_multiplier", 1.0, minimum=0.0, maximum=10.0)
     capacity_multiplier = losses.number("capacity_multiplier", 1.0, above=0.0, maximum=10.0)
+    coupling_multiplier = losses.number("hardware_coupling_multiplier", 1.0, above=0.0, maximum=100.0)
     air_speed = losses.quantity("air_speed", "speed", "m/s", 0.0, minimum=0.0)
     losses.finish()
 
@@ -248,6 +257,7 @@ def _parse(raw: dict) -> Scenario:
                         convection_multiplier=convection_multiplier, capacity_multiplier=capacity_multiplier,
                         air_speed_m_s=air_speed, cooler_W_K=cooler_W_K, cooler_fan=cooler_fan,
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
+                        hardware_coupling_multiplier=coupling_multiplier,
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
+from .network import (N_NODES, OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
                       temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
@@ -34,8 +34,8 @@ def _phi1_phi2(x):
 def propagate_linear(C, L, b, T0, h):
     """Exact solution of C dT/dt = -L T + b over h seconds, with C, L, b constant.
 
-    C (N,3) J/K, L (N,3,3) W/K symmetric, b (N,3) W, T0 (N,3) K, h (N,) s.
-    Returns (T(h) (N,3) K, integral of T over the sub-step (N,3) K s).
+    C (N,k) J/K, L (N,k,k) W/K symmetric, b (N,k) W, T0 (N,k) K, h (N,) s (k nodes).
+    Returns (T(h) (N,k) K, integral of T over the sub-step (N,k) K s).
     """
     root = np.sqrt(C)
     inv_root = 1.0 / root
@@ -84,7 +84,7 @@ def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
 
     predictor : optional (C, L, b) to predict with; by default the system frozen at T0. Within one
         step (same inputs) the previous sub-step's corrector serves and saves an evaluation.
-    Returns (T1 (N,3), heat_in_J (N,), heat_lost_J (N,), the corrector's (C, L, b)).
+    Returns (T1 (N,k), heat_in_J (N,), heat_lost_J (N,), the corrector's (C, L, b)).
     """
     C, L, b = node_equations(rig, T0, inputs)[:3] if predictor is None else predictor
     T_pred, _ = propagate_linear(C, L, b, T0, h)
@@ -100,7 +100,7 @@ def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
 class Trace:
     """Result of integrating a list of steps for N designs; M recorded points.
 
-    time_s (M,N), T_K (M,N,3), return_K (M,N) return-line oil, power_W (M,N) (of the sub-step that
+    time_s (M,N), T_K (M,N,k) (k = N_NODES), return_K (M,N) return-line oil, power_W (M,N) (of the sub-step that
     ends at the point), step_index (M,) (-1 for the start point), energies (N,) in J.
     pull_start_s / pull_end_s (n_pulls, N): when each pull began and ended.
     """
@@ -131,7 +131,7 @@ class Trace:
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
               resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None,
               give_up_above_K: float = GIVE_UP_ABOVE_K) -> Trace:
-    """Integrate the steps in order from the state T0_K ((N,3) or (3,) K).
+    """Integrate the steps in order from the state T0_K ((N,k) or (k,) K, k = N_NODES; a scalar fills every node).
 
     give_up_above_K : a design whose bulk oil passes this (or whose state stops being finite) is
     held at its last finite state from then on and gains no more heat; its peak stays above the
@@ -142,7 +142,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     stop_above_K : optional; stop after the first step by whose end the bulk oil of every design has
     been above this temperature at a recorded point (the trace then ends there).
     """
-    T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, 3)))
+    T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
     H_start = node_enthalpy_J(rig, T)
     times, temps, returns, powers, indices = [t.copy()], [T.copy()], [T[:, OIL].copy()], [np.zeros(n_designs)], [-1]

@@ -45,10 +45,10 @@ def summary_text(result: dict) -> str:
              f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
              f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
              f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in",
-             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at 60 degC "
-             "(rate doubling per 10 K; common practice, a relative figure)",
+             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at {_temp(60.0, u)} "
+             f"(rate doubling per {_fmt(10.0, 'temperature_difference', u, 0)}; common practice, a relative figure)",
              f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
-             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3)})"]
+             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3 if u == 'SI' else 2)})"]
     if "runs_before_limit" in result:
         runs = result["runs_before_limit"]
         lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
@@ -115,7 +115,7 @@ def _run(args) -> int:
     hot = None
     if args.ambients is not None:
         from .hot_day import hot_day
-        hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients) + 273.15)
+        hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
         result["hot_day"] = hot.to_dict()
     if args.json:
         from .report import check_finite
@@ -128,17 +128,23 @@ def _run(args) -> int:
     return 0
 
 
-def _ambients(text: str):
-    """--ambients START:STOP:N in degC (negative allowed)."""
+def _ambients(text: str, system: str):
+    """--ambients START:STOP:N in the scenario's temperature unit (degC or degF, negative allowed),
+    as air temperatures in K."""
     import numpy as np
+
+    from .units import from_display, to_display
+    low, high = (to_display(T, "temperature", system) for T in (213.15, 423.15))   # -60 and 150 degC
+    unit = "degF" if system == "US" else "degC"
     parts = text.split(":")
     try:
         start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
-        if len(parts) != 3 or not 1 <= count <= 200 or not -60 <= start <= stop <= 150:
+        if len(parts) != 3 or not 1 <= count <= 200 or not low - 1e-9 <= start <= stop <= high + 1e-9:
             raise ValueError
     except (ValueError, IndexError):
-        raise ScenarioError("--ambients", text, "START:STOP:N in degC, -60 <= START <= STOP <= 150, 1 <= N <= 200") from None
-    return np.linspace(start, stop, count)
+        raise ScenarioError("--ambients", text, f"START:STOP:N in {unit}, {low:g} <= START <= STOP <= {high:g}, "
+                                                "1 <= N <= 200") from None
+    return from_display(np.linspace(start, stop, count), "temperature", system)
 
 
 def _grid(text: str, option: str):
@@ -159,8 +165,10 @@ def _sweep(args) -> int:
     from .design_sweep import check_grid, sweep
     check_outputs(args, ("scenario",), ("plot",))
     scenario = _load(args.scenario)
-    volumes = _grid(args.oil_volumes, "--oil-volumes")
-    coolers = _grid(args.coolers, "--coolers")
+    from .units import from_display
+    # the grid in the scenario's units (L and W/K, or gal and BTU/hr/degF), in SI for the sweep
+    volumes = 1000.0 * from_display(_grid(args.oil_volumes, "--oil-volumes"), "volume", scenario.units)
+    coolers = from_display(_grid(args.coolers, "--coolers"), "conductance", scenario.units)
     check_grid(volumes, coolers, ("--oil-volumes", args.oil_volumes), ("--coolers", args.coolers))
     result = sweep(scenario, volumes, coolers)
     if args.plot:
@@ -195,13 +203,14 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--csv", metavar="TRACE.csv", help="write the temperature trace")
     run.add_argument("--plot", metavar="TRACE.png", help="plot the temperatures against time")
     run.add_argument("--ambients", nargs="?", const="default", metavar="START:STOP:N",
-                     help="also the pull count and cooler needed across ambient temperatures (degC); "
-                          "without a value 0:45 degC in steps of 5 K, or the scenario's ambient +/- 15 K")
+                     help="also the pull count and cooler needed across ambient temperatures, in the "
+                          "scenario's units (degC, or degF in a US file); without a value 0:45 degC in steps "
+                          "of 5 K, or the scenario's ambient +/- 15 K")
     run.set_defaults(handler=_run)
     sw = sub.add_parser("sweep", help="pulls before the limit over a grid of oil volumes and cooler sizes")
     sw.add_argument("scenario")
-    sw.add_argument("--oil-volumes", required=True, metavar="START:STOP:N", help="litres at 15 degC")
-    sw.add_argument("--coolers", required=True, metavar="START:STOP:N", help="specific dissipation, W/K")
+    sw.add_argument("--oil-volumes", required=True, metavar="START:STOP:N", help="oil volumes at 15 degC in the scenario's units: litres, or US gallons in a US file")
+    sw.add_argument("--coolers", required=True, metavar="START:STOP:N", help="cooler specific dissipation in the scenario's units: W/K, or BTU/hr/degF in a US file")
     sw.add_argument("--json", action="store_true")
     sw.add_argument("--plot", metavar="FILE.png")
     sw.set_defaults(handler=_sweep)

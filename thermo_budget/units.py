@@ -258,6 +258,11 @@ def to_display(value_si, kind: str, system: str):
     return convert(value_si, _SI_OF_DISPLAY_KIND[kind], DISPLAY_UNITS[system][kind])
 
 
+def from_display(value, kind: str, system: str):
+    """Convert a value (float or array) of ``kind`` in the display unit of ``system`` to SI."""
+    return convert(value, DISPLAY_UNITS[system][kind], _SI_OF_DISPLAY_KIND[kind])
+
+
 def unit_label(kind: str, system: str) -> str:
     """The printed symbol of the display unit, e.g. '°F'."""
     return UNIT_LABEL[DISPLAY_UNITS[system][kind]]

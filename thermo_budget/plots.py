@@ -199,6 +199,6 @@ def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
             right.set_ylabel(f"cooler needed ({unit_symbol('conductance', system)})", color=LIMIT_COLOUR)
             title = "Pulls (bars) and the cooler the plan needs (line)"
         else:
-            title = "Pulls before the limit; the plan needs no cooler at any of these"
+            title = "Pulls before the limit (no cooler needed)"
         ax.set_title(title, loc="left", y=1.0, fontsize="medium")
     return fig

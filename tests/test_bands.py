@@ -9,7 +9,6 @@ from thermo_budget import build_rig, load_scenario, report
 from thermo_budget.bands import BAND_KEYS, SIZING_KEYS, sample_answers
 from thermo_budget.planning import planning_answers, runs_before_limit
 from thermo_budget.report import session_report
-from thermo_budget.uncertainty import posterior_from_fit
 
 from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS
 

@@ -211,7 +211,8 @@ def _shipped_and_short_of_oil():
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
 def test_schedule_read_off_the_session_equals_the_block_search(scenario):
-    from thermo_budget.planning import ready_schedule, session_trace
+    from thermo_budget.planning import session_trace
+    from thermo_budget.ready_schedule import ready_schedule
     rig = build_rig(scenario)
     assert ready_schedule(scenario, [], session_trace(scenario, rig, 1)) == ready_schedule(scenario, [])
 

@@ -248,7 +248,7 @@ def _collapsed(value) -> dict | None:
     return None if value is None else {"p10": value, "p50": value, "p90": value}
 
 
-def _order_statistic(values: np.ndarray, q: float):
+def order_statistic(values: np.ndarray, q: float):
     """The smallest sample value with at least a fraction q of the samples at or below it."""
     ordered = np.sort(values)
     return float(ordered[max(int(np.ceil(q * ordered.size)) - 1, 0)])
@@ -258,7 +258,7 @@ def _band(key: str, values, point_value) -> dict | None:
     if point_value is None or values is None:
         return None
     if key in COUNT_KEYS:
-        q = [_order_statistic(values, p) for p in (0.1, 0.5, 0.9)]
+        q = [order_statistic(values, p) for p in (0.1, 0.5, 0.9)]
         return {f"p{p}": None if not np.isfinite(v) else int(v) for p, v in zip((10, 50, 90), q)}
     q = np.quantile(np.where(np.isfinite(values), values, 1e300), [0.1, 0.5, 0.9])
     return {f"p{p}": None if v > 1e299 else round(float(v), ROUND_DIGITS[key]) for p, v in zip((10, 50, 90), q)}
@@ -286,7 +286,7 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
         if point.get(key) is None or values is None:
             plan[key] = None
             continue
-        v = _order_statistic(values, confidence)
+        v = order_statistic(values, confidence)
         digits = ROUND_DIGITS[key]      # rounded up, so that the planned size still suffices
         plan[key] = max(0.0, float(np.ceil(v * 10**digits - 1e-9) / 10**digits)) if np.isfinite(v) else None
     return plan

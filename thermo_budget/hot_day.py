@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, periodic_state, _round_up,
+from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, periodic_state, round_up,
                        take_designs)
 from .network import N_NODES
 from .outcome import limiting_peak_K, pulls_completed_under
@@ -126,5 +126,5 @@ def _coolers_needed(scenario: Scenario, ambients, starts, possible) -> np.ndarra
         upper = np.where(found, answer, largest)
         grid = lower[:, None] + (upper - lower)[:, None] * np.linspace(0.0, 1.0, GRID_POINTS + 1)[None, 1:]
         grid[answer == 0.0] = 0.0
-    answer = np.array([_round_up(a, 3) if np.isfinite(a) else np.nan for a in answer])
+    answer = np.array([round_up(a, 3) if np.isfinite(a) else np.nan for a in answer])
     return np.where(possible, answer, np.nan)

@@ -2,7 +2,7 @@
 pulls still fit at the planned cadence, and whether a running pull will cross the limit.
 
 Each answer is one integration (or one batched search) of the planned steps from the estimated
-state, with the planning answers' own search (`planning._extra_wait_s`, the same margin below the
+state, with the planning answers' own search (`ready_schedule.extra_wait_s`, the same margin below the
 limit), so a forecast agrees with `run` started from the same state.
 
 An unmodelled heat flow into the oil that the estimate has found (W, state_estimate) is carried
@@ -19,9 +19,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from .network import OIL, Rig
-from .bands import _order_statistic
+from .bands import order_statistic
 from .outcome import first_crossing_s, pulls_completed_under
-from .planning import SEARCH_MARGIN_K, _extra_wait_s, batched_threshold, take_designs, time_constant_s
+from .planning import SEARCH_MARGIN_K, batched_threshold, take_designs, time_constant_s
+from .ready_schedule import extra_wait_s
 from .scenario import Scenario
 from .session import Resolution, Step
 from .solver import integrate
@@ -114,7 +115,7 @@ def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, coo
     to `disturbance_W` (from `rig`) added to their peaks."""
     X = np.asarray(X_K, dtype=float)[None, :]
     if disturbance_W <= 0.0 and rigs is None:
-        return _extra_wait_s(scenario, rig, X, pull, cool, limit_K)
+        return extra_wait_s(scenario, rig, X, pull, cool, limit_K)
     rigs, k = (rig, 1) if rigs is None else (rigs, n)
     nodes = X.shape[1]
     pulled = transition_matrix(rig, X[0], X[0], pull)
@@ -157,7 +158,7 @@ def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: flo
                       resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
     counts = pulls_completed_under(trace, limit_K).astype(float)
     counts[counts >= max_pulls] = np.inf
-    value = _order_statistic(counts, 1.0 - confidence)      # as the planning band reads its quantiles
+    value = order_statistic(counts, 1.0 - confidence)      # as the planning band reads its quantiles
     return None if not np.isfinite(value) else int(value)
 
 

@@ -148,9 +148,10 @@ def tank_card(answers: dict, oil_volume_m3: float, system: str) -> Card:
 def ageing_card(answers: dict, system: str) -> Card:
     hours = answers["oil_ageing_equivalent_h"]
     reference = shown_celsius(answers.get("oil_ageing_reference_C", 60.0), system)
-    details = ["Oxidation doubling per 10 K: a rule of thumb for comparing days."]
+    step = "10 K" if system == "SI" else "18 °F"
+    details = [f"Oxidation doubling per {step}: a rule of thumb for comparing days."]
     if answers["peak_C"] is None or answers["peak_C"] > 100.0:
-        details.append("Past 100 °C the rule understates the ageing.")
+        details.append(f"Past {shown_celsius(100.0, system)} the rule understates the ageing.")
     return Card("ageing", "Oil ageing today", f"{hours:.2f}", f"h as at {reference}", tuple(details),
                 help="Equivalent hours at 60 °C that age the oil as much as this session does, by the rule that "
                      "the oxidation rate doubles per 10 K. Common practice, no single source; a relative figure, "

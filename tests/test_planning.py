@@ -214,7 +214,15 @@ def test_schedule_read_off_the_session_equals_the_block_search(scenario):
     from thermo_budget.planning import session_trace
     from thermo_budget.ready_schedule import ready_schedule
     rig = build_rig(scenario)
-    assert ready_schedule(scenario, [], session_trace(scenario, rig, 1)) == ready_schedule(scenario, [])
+    read_off = ready_schedule(scenario, [], session_trace(scenario, rig, 1))
+    searched = ready_schedule(scenario, [])
+    # the same rows. Temperatures may differ by a few mK: a block restarts the integrator's predictor,
+    # which within one integration is the last same-input sub-step's system (2e-3 K measured on the
+    # 20 hp rig; the integrator's own accuracy requirement is 0.05 K, test_solver.py)
+    assert [row.keys() for row in read_off] == [row.keys() for row in searched]
+    for a, b in zip(read_off, searched, strict=True):
+        for key in a:
+            assert a[key] == pytest.approx(b[key], abs=0.01), key
 
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])

@@ -32,7 +32,19 @@ def air_properties(T_film_K):
 
     Returns (k W/(m K), nu m^2/s, Pr, beta 1/K); beta = 1/T for an ideal gas.
     """
+    columns = _stacked_columns()
+    # fmin/fmax: a NaN film temperature reads the table's first row (the NaN stays in dT downstream)
+    T = np.fmin(np.fmax(T_film_K, TABLE_T_K[0]), TABLE_T_K[-1])
+    x = (T - TABLE_T_K[0]) / TABLE_STEP_K
+    i = np.minimum(x.astype(int), TABLE_T_K.size - 2)     # the interval holding T (x >= 0)
+    f = x - i
+    low, high = columns[:, i], columns[:, i + 1]
+    k, nu, pr = low + f * (high - low)
+    return k, nu, pr, 1.0 / T
+
+
+@lru_cache(maxsize=1)
+def _stacked_columns() -> np.ndarray:
+    """(3, rows) k, nu and Pr of the table, for one gather per lookup."""
     table = air_table()
-    T = np.minimum(np.maximum(T_film_K, TABLE_T_K[0]), TABLE_T_K[-1])
-    return (np.interp(T, TABLE_T_K, table["k_W_mK"]), np.interp(T, TABLE_T_K, table["nu_m2_s"]),
-            np.interp(T, TABLE_T_K, table["Pr"]), 1.0 / T)
+    return np.stack([table["k_W_mK"], table["nu_m2_s"], table["Pr"]])

@@ -125,7 +125,7 @@ def constant_parts(rig: Rig) -> dict:
     }
 
 
-def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props=None):
     """(sides, bottom) oil-side coefficients on the tank's wetted wall, W/(m^2 K), each times the
     oil-side multiplier; oil properties at the film temperature, beta the oil's expansion.
 
@@ -137,9 +137,10 @@ def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
     running): each combined by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, with forced flow along the
     wall (flat plate, Incropera eqs. 7.30/7.38) at stirring_velocity_m_s, over the fill height on
     the sides and the footprint's length on the bottom.
+    film_props : optional oil.transport() at the film temperature, if the caller has it already.
     """
     oil, parts = rig.oil, rig.constants
-    nu, k, _, _, pr = oil.transport(0.5 * (T_oil_K + T_wall_K))
+    nu, k, _, _, pr = oil.transport(0.5 * (T_oil_K + T_wall_K)) if film_props is None else film_props
     dT = T_wall_K - T_oil_K
     Ra_side = rayleigh(oil.expansion_per_K, dT, rig.fill_height_m, nu, pr)
     Ra_bottom = Ra_side * parts["bottom_ra_per_side_ra"]
@@ -255,11 +256,11 @@ def hose_to_ambient_W_K(rig: Rig, T_hose_K):
     return ambient_conductances_W_K(rig, T_hose_K, T_hose_K)[2]
 
 
-def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s):
+def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props=None):
     """Conductance oil -> wall node, W/K: the oil-side coefficients over the wetted sides and the
-    bottom, each in series with half the wall thickness."""
-    h_side, h_bottom = _oil_side_coefficients(rig, T_oil_K, T_wall_K, volume_flow_m3_s)
-    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
+    bottom, each in series with half the wall thickness. film_props: see _oil_side_coefficients."""
+    h_side, h_bottom = _oil_side_coefficients(rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props)
+    half_wall = rig.constants["half_wall_m2K_W"]
     return _series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.wetted_bottom_area_m2, h_bottom, half_wall)
 
 

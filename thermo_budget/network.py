@@ -192,12 +192,13 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     Q = per_design(inputs.volume_flow_m3_s, n)
     P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
     flowing = Q > 0
-    oil_props = rig.oil.transport(T_oil)
+    both = rig.oil.transport(_columns(T_oil, 0.5 * (T_oil + T_wall), n=n).T)   # bulk and wall film
+    oil_props, film_props = tuple(p[0] for p in both), tuple(p[1] for p in both)
     cp, rho = oil_props[2], oil_props[3]
     mass_flow = rho * Q
     return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
 
-    G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q)
+    G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_ob = rig.hardware_coupling_multiplier * G_ob
     G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE])

@@ -21,14 +21,50 @@ from .session import Resolution, Step, pump_flow_m3_s
 GIVE_UP_ABOVE_K = 573.15
 
 
-def _phi1_phi2(x):
-    """phi1(x) = (e^x - 1)/x and phi2(x) = (e^x - 1 - x)/x^2, accurate near 0 (x <= 0 here)."""
+def _phi1_phi2(x, with_phi2: bool = True):
+    """phi1(x) = (e^x - 1)/x and phi2(x) = (e^x - 1 - x)/x^2, accurate near 0 (x <= 0 here);
+    phi2 is None unless asked for."""
     small = np.abs(x) < 1e-4
     xs = np.where(small, 1.0, x)
     em1 = np.expm1(xs)
     phi1 = np.where(small, 1.0 + x / 2.0 + x * x / 6.0, em1 / xs)
+    if not with_phi2:
+        return phi1, None
     phi2 = np.where(small, 0.5 + x / 6.0 + x * x / 24.0, (em1 - xs) / (xs * xs))
     return phi1, phi2
+
+
+def decompose(C, L):
+    """The symmetrised system S = -C^-1/2 L C^-1/2 of C dT/dt = -L T + b, eigen-decomposed once so
+    that several propagations (a predictor, a corrector) can share it.
+    C (N,k) J/K, L (N,k,k) W/K symmetric. Returns (sqrt C, 1/sqrt C, eigenvalues (N,k) 1/s,
+    eigenvectors (N,k,k), failed (N,) bool)."""
+    root = np.sqrt(C)
+    inv_root = 1.0 / root
+    lam, V, failed = _guarded_eigh(-L * inv_root[:, :, None] * inv_root[:, None, :])
+    return root, inv_root, lam, V, failed
+
+
+def propagate_decomposed(system, b, T0, h, with_integral: bool = True):
+    """Exact solution over h seconds (N,) of the decomposed system (decompose) with source b (N,k) W,
+    from T0 (N,k) K. Returns (T(h) (N,k) K, integral of T over the sub-step (N,k) K s, or None)."""
+    root, inv_root, lam, V, failed = system
+    Vt = np.swapaxes(V, 1, 2)
+    z0 = (Vt @ (T0 * root)[..., None])[..., 0]
+    w = (Vt @ (b * inv_root)[..., None])[..., 0]
+    hh = h[:, None]
+    phi1, phi2 = _phi1_phi2(lam * hh, with_integral)
+    rate = lam * z0 + w
+    T1 = (V @ (z0 + hh * phi1 * rate)[..., None])[..., 0] * inv_root
+    T_int = (V @ (hh * z0 + hh * hh * phi2 * rate)[..., None])[..., 0] * inv_root if with_integral else None
+    finite = np.isfinite(T1.sum() if T_int is None else T1.sum() + T_int.sum())
+    if failed.any() or not finite:   # a design whose system is not finite keeps its state (the caller stops it)
+        bad = failed | ~np.all(np.isfinite(T1), axis=-1)
+        if T_int is not None:
+            bad |= ~np.all(np.isfinite(T_int), axis=-1)
+            T_int = np.where(bad[:, None], T0 * np.reshape(h, (-1, 1)), T_int)
+        T1 = np.where(bad[:, None], T0, T1)
+    return T1, T_int
 
 
 def propagate_linear(C, L, b, T0, h):
@@ -37,25 +73,7 @@ def propagate_linear(C, L, b, T0, h):
     C (N,k) J/K, L (N,k,k) W/K symmetric, b (N,k) W, T0 (N,k) K, h (N,) s (k nodes).
     Returns (T(h) (N,k) K, integral of T over the sub-step (N,k) K s).
     """
-    root = np.sqrt(C)
-    inv_root = 1.0 / root
-    S = -L * inv_root[:, :, None] * inv_root[:, None, :]
-    lam, V, failed = _guarded_eigh(S)
-    Vt = np.swapaxes(V, 1, 2)
-    z0 = (Vt @ (T0 * root)[..., None])[..., 0]
-    w = (Vt @ (b * inv_root)[..., None])[..., 0]
-    hh = h[:, None]
-    phi1, phi2 = _phi1_phi2(lam * hh)
-    rate = lam * z0 + w
-    z1 = z0 + hh * phi1 * rate
-    z_int = hh * z0 + hh * hh * phi2 * rate
-    T1 = (V @ z1[..., None])[..., 0] * inv_root
-    T_int = (V @ z_int[..., None])[..., 0] * inv_root
-    failed |= ~(np.all(np.isfinite(T1), axis=-1) & np.all(np.isfinite(T_int), axis=-1))
-    if failed.any():   # a design whose system is not finite keeps its state (the caller stops it)
-        T1 = np.where(failed[:, None], T0, T1)
-        T_int = np.where(failed[:, None], T0 * np.reshape(h, (-1, 1)), T_int)
-    return T1, T_int
+    return propagate_decomposed(decompose(C, L), b, T0, h)
 
 
 def _guarded_eigh(S):
@@ -82,18 +100,27 @@ def _guarded_eigh(S):
 def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
     """One sub-step: predictor, corrector at the predicted mid-point, energy-exact end state.
 
-    predictor : optional (C, L, b) to predict with; by default the system frozen at T0. Within one
-        step (same inputs) the previous sub-step's corrector serves and saves an evaluation.
-    Returns (T1 (N,k), heat_in_J (N,), heat_lost_J (N,), the corrector's (C, L, b)).
+    predictor : optional (b, decomposed system) to predict with; by default the system frozen at
+        T0. The corrector of the last sub-step with the same inputs serves (the caller keeps it), and
+        saves an evaluation and a decomposition.
+    Returns (T1 (N,k), heat_in_J (N,), heat_lost_J (N,), the corrector's (b, decomposed system)).
     """
-    C, L, b = node_equations(rig, T0, inputs)[:3] if predictor is None else predictor
-    T_pred, _ = propagate_linear(C, L, b, T0, h)
+    if predictor is None:
+        C, L, b = node_equations(rig, T0, inputs)[:3]
+        predictor = b, decompose(C, L)
+    T_pred, _ = propagate_decomposed(predictor[1], predictor[0], T0, h, with_integral=False)
     C, L, b, g_amb, loss_offset = node_equations(rig, 0.5 * (T0 + T_pred), inputs)
-    T_lin, T_int = propagate_linear(C, L, b, T0, h)
+    system = decompose(C, L)
+    T_lin, T_int = propagate_decomposed(system, b, T0, h)
     heat_in = inputs.power_W * h
     heat_lost = np.sum(g_amb * (T_int - ambient_column(ambient_K) * h[:, None]), axis=1) + loss_offset * h
     H1 = node_enthalpy_J(rig, T0) + C * (T_lin - T0)
-    return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (C, L, b)
+    return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (b, system)
+
+
+def _inputs_key(step: Step):
+    """Steps with equal keys put equal inputs into the network (constant power and speed)."""
+    return step.engine, step.power_W, step.rpm
 
 
 @dataclass
@@ -130,7 +157,7 @@ class Trace:
 
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
               resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None,
-              give_up_above_K: float = GIVE_UP_ABOVE_K) -> Trace:
+              give_up_above_K: float = GIVE_UP_ABOVE_K, stop_count: int | None = None) -> Trace:
     """Integrate the steps in order from the state T0_K ((N,k) or (k,) K, k = N_NODES; a scalar fills every node).
 
     give_up_above_K : a design whose bulk oil passes this (or whose state stops being finite) is
@@ -140,7 +167,8 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     durations_s : optional list, one (N,) array or float per step, overriding step.duration_s (used
     by sweeps whose designs differ in their waits).
     stop_above_K : optional; stop after the first step by whose end the bulk oil of every design has
-    been above this temperature at a recorded point (the trace then ends there).
+    been above this temperature at a recorded point (the trace then ends there); with stop_count,
+    as soon as that many designs have.
     """
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
@@ -153,19 +181,20 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     held = np.zeros(n_designs, bool)
     T_first = T.copy()
     power_scale = np.array(per_design(rig.power_multiplier, n_designs))
+    last_system = {}      # the last corrector's system of each kind of constant-input step
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
         n_sub = resolution.substeps(step, float(np.max(duration)))
         h = duration / n_sub
         if step.is_pull:
             pull_start.append(t.copy())
-        corrector = None
+        corrector = None if step.curve is not None else last_system.get(_inputs_key(step))
         for k in range(n_sub):
             f0, f1 = k / n_sub, (k + 1) / n_sub
             power = step.mean_power_W(f0, f1)
             flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
             inputs = Inputs(power_W=power_scale * power, volume_flow_m3_s=np.full(n_designs, float(flow)))
-            constant_inputs = step.curve is None and k > 0
+            constant_inputs = step.curve is None
             # a held design is evaluated at its start state (its result is discarded), so that no
             # correlation is asked about a state far outside its range
             T_eval = np.where(held[:, None], T_first, T) if held.any() else T
@@ -177,6 +206,8 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
                 T_new = np.where(bad[:, None], T, T_new)
                 q_in, q_lost = np.where(bad, 0.0, q_in), np.where(bad, 0.0, q_lost)
                 held |= bad
+            if constant_inputs:
+                last_system[_inputs_key(step)] = corrector
             T = T_new
             held |= T[:, OIL] > give_up_above_K
             energy_in += q_in
@@ -191,7 +222,8 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
                 been_above |= T[:, OIL] > stop_above_K
         if step.is_pull:
             pull_end.append(t.copy())
-        if stop_above_K is not None and been_above.all():
+        if stop_above_K is not None and (been_above.all() or (stop_count is not None
+                                                              and np.count_nonzero(been_above) >= stop_count)):
             break
     stored = np.sum(node_enthalpy_J(rig, T) - H_start, axis=1)
     return Trace(time_s=np.array(times), T_K=np.array(temps), return_K=np.array(returns),

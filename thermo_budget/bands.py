@@ -26,7 +26,6 @@ BAND_KEYS = ("pulls_under_limit", "runs_before_limit", "peak_C", "time_to_limit_
 COUNT_KEYS = ("pulls_under_limit", "runs_before_limit")
 SIZING_KEYS = ("min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L")
 SECANT_ROUNDS = 4          # after the first; 3 gave the same quantiles on the default rig asked for 30 pulls
-CENSORED_FRACTION = 0.05   # samples left uncounted past 1.5 x the point's pull count (all above P90)
 PEAK_TOLERANCE_K = 0.2     # a sample's sizing answer is done when it keeps the peak within this of the target
 RELATIVE_TOLERANCE = 0.03   # bracket width at which the interpolated root is taken
 ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_required_W_per_K": 2,
@@ -86,18 +85,16 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
 
 def _sample_runs(scenario, rig, n: int, session, point_runs: int):
     """Pulls before the limit per sample: (for the band, inf where uncounted; for the ranking, an
-    uncounted sample at its lower bound). Counted first to 1.5 x the point answer, which most samples
-    reach; the rest are counted further (to 3 x) only where they are more than CENSORED_FRACTION of
-    the samples, since below that they lie above P90 whatever their count."""
+    uncounted sample at its lower bound). Counted up to 3 x the point answer, and only until the
+    samples needed for the P90 (bands.order_statistic) have crossed: the later ones lie above P90
+    whatever their count, so they stay uncounted."""
     per_cycle = sum(step.is_pull for step in scenario.cycle)
-    cap = int(np.ceil(1.5 * point_runs)) + per_cycle
-    runs = runs_before_limit(scenario, rig, n, np.zeros(n, bool), max_pulls=cap, session=session)
-    uncounted = np.flatnonzero(np.isnan(runs))
-    if uncounted.size > CENSORED_FRACTION * n:
-        runs[uncounted] = runs_before_limit(scenario, take_designs(rig, uncounted), uncounted.size,
-                                            np.zeros(uncounted.size, bool), max_pulls=3 * point_runs + cap)
-        cap = 3 * point_runs + cap
-    return np.where(np.isnan(runs), np.inf, runs), np.where(np.isnan(runs), cap + 1, runs)
+    cap = 3 * point_runs + per_cycle
+    needed = int(np.ceil(0.9 * n))
+    runs = runs_before_limit(scenario, rig, n, np.zeros(n, bool), max_pulls=cap, session=session, enough=needed)
+    uncounted = np.isnan(runs)
+    counted_to = np.nanmax(runs) if (~uncounted).any() else cap   # every uncounted sample lasts at least this
+    return np.where(uncounted, np.inf, runs), np.where(uncounted, counted_to + 1, runs)
 
 
 # --- the sizing answers, per sample ------------------------------------------------------------------

@@ -7,7 +7,7 @@ from dataclasses import fields
 import numpy as np
 
 from .network import N_NODES, Rig, cooling_time_constant_s
-from .outcome import limiting_peak_K, peak_oil_K, pulls_completed_under
+from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
@@ -164,13 +164,14 @@ def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: 
 
 
 def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS,
-                      session=None):
+                      session=None, enough: int | None = None):
     """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
     Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls.
 
     Two chunks: the planned session (or `session`, a session_trace of the same rig and designs),
     then the cycles that remain up to max_pulls, integrated only until every design still counted
-    has crossed the limit.
+    has crossed the limit, or (enough) until that many designs in all have: the designs counted
+    are then the `enough` earliest to cross, and the others stay NaN.
     """
     limit, return_limit = limits_K(scenario)
     stop_K = limit if return_limit is None else min(limit, return_limit)  # over it, a limit is passed
@@ -180,6 +181,9 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     X = np.array(np.broadcast_to(scenario.start_K, (n, N_NODES)), dtype=float)
     done_pulls = 0
     while active.size and done_pulls < max_pulls:
+        counted = n - active.size - np.count_nonzero(sustainable)
+        if enough is not None and counted >= enough:
+            break
         if done_pulls == 0:
             cycles = max(scenario.repeat, 1)
             trace = session.designs(active) if session is not None else integrate(
@@ -188,9 +192,12 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
         else:
             cycles = -(-(max_pulls - done_pulls) // pulls_per_cycle)
             trace = integrate(take_designs(rig, active), list(scenario.cycle) * cycles, X[active],
-                              n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=stop_K)
+                              n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=stop_K,
+                              stop_count=None if enough is None else enough - counted)
         under = pulls_completed_under(trace, limit, return_limit)
-        crossed = under < cycles * pulls_per_cycle
+        # a design that crossed in the chunk's last wait has completed all its pulls in it; a trace
+        # that stopped early (stop_count) has enough designs crossed, so the loop ends after it
+        crossed = ~np.isnan(first_crossing_s(trace, limit, return_limit))
         runs[active[crossed]] = done_pulls + under[crossed]
         X[active] = trace.final_K
         done_pulls += cycles * pulls_per_cycle

@@ -1,0 +1,276 @@
+"""A resolved reference for the hose wall, for the tests only: radial transient conduction through
+the rubber (and, in case B, through the oil standing in the bore), cylindrical finite volumes.
+
+It checks one claim of the lumped network (thermo_budget.network, node HOSE): that on an adiabatic
+rig with short pulls and engine-off waits, most of what the bulk oil ends above the
+single-temperature energy balance is heat that a real hose wall cannot yet have taken, because its
+conduction time t^2/alpha is minutes. The lumped node puts the whole wall's capacity at its
+mid-surface behind the inner half of the wall; here the wall is cut into n_cells rings.
+
+Physics (what each piece stands for, and its source):
+- Conduction in a cylinder, finite volumes: ring i between faces r_i and r_i+1 holds
+  rho c pi (r_i+1^2 - r_i^2) L; two neighbouring centres r_a < r_b exchange 2 pi k L / ln(r_b / r_a)
+  (the steady conduction resistance of a cylindrical shell, Incropera, Fundamentals of Heat and Mass
+  Transfer, 6th ed., eq. 3.27; the transient method of ch. 5, sec. 5.10, in radial form).
+  Time: theta-method (Crank-Nicolson, theta = 1/2; Incropera sec. 5.10.2 for the implicit form).
+- Outer face adiabatic (the rig is adiabatic).
+- Inner face while oil flows: convection to the passing oil, the inner coefficient from the `ht`
+  package (independent of thermo_budget): Re < 2300 the mean Nusselt number of simultaneously
+  developing laminar flow over the hose length, Baehr and Stephan (ht.conv_internal.
+  laminar_entry_Baehr_Stephan); Re >= 2300 Gnielinski (1976) (ht.conv_internal.turbulent_Gnielinski)
+  with the smooth-pipe Darcy factor of Clamond (fluids.friction.Clamond). Properties of the oil at the
+  driving temperature, no wall-viscosity correction. Between the coefficient and the first ring's
+  centre: the conduction of the half ring.
+- Inner face while the engine is off, case "A": adiabatic (what the lumped model assumes: it
+  couples the hose to the tank only along the standing column, nearly nothing). Case "B": the oil
+  standing in the bore, resolved as its own rings (conduction only, which Ra ~ 1e5 in a 18 mm bore
+  would enhance: a lower bound on what it gives), starting each wait at the temperature of the oil
+  that was flowing, and flushed back into the tank when the pump restarts.
+- Materials: the hose wall's rho, c, k are thermo_budget.materials.HOSE_WALL, which were recalled
+  from memory (not from a source; +-30 %); the oil's properties come from the package's oil model
+  (Cragoe, NBS Misc. Publ. 97; ASTM D341), which its own tests hold against those sources.
+
+Units are in the names; every function is pure.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from fluids.friction import Clamond
+from scipy.linalg import solve_banded
+from ht.conv_internal import laminar_entry_Baehr_Stephan, turbulent_Gnielinski
+
+RE_TURBULENT = 2300.0    # the start of Gnielinski's range (ht's docstring: 2300 <= Re <= 5e6)
+
+
+def inner_coefficient_W_m2K(volume_flow_m3_s, bore_m, length_m, nu_m2_s, k_W_mK, pr):
+    """Oil-side coefficient in a tube of bore_m and length_m at volume_flow_m3_s, W/(m^2 K):
+    Baehr-Stephan laminar thermal and velocity entry (mean over the length) below Re = 2300,
+    Gnielinski above, both from the `ht` package. Returns (h, Re)."""
+    velocity = volume_flow_m3_s / (0.25 * np.pi * bore_m**2)
+    Re = velocity * bore_m / nu_m2_s
+    if Re < RE_TURBULENT:
+        Nu = laminar_entry_Baehr_Stephan(Re=Re, Pr=pr, L=length_m, Di=bore_m)
+    else:
+        Nu = turbulent_Gnielinski(Re=Re, Pr=pr, fd=Clamond(Re, 0.0))
+    return Nu * k_W_mK / bore_m, Re
+
+
+@dataclass(frozen=True)
+class Rings:
+    """Concentric rings of one material or two: faces (n+1,) m, centres (n,) m, capacity (n,) J/K,
+    conductance between neighbouring centres (n-1,) W/K. L is the length of the cylinder."""
+    faces_m: np.ndarray
+    centres_m: np.ndarray
+    capacity_J_K: np.ndarray
+    link_W_K: np.ndarray
+
+
+def rings(faces_m, rho_c_J_m3K, k_W_mK, length_m) -> Rings:
+    """Rings between the given faces; rho_c and k are one value per ring. The centre of a ring is
+    the mid-radius (the innermost disc's, of a solid cylinder, half its radius); two neighbours are
+    joined by the shell conductances of their halves in series, 2 pi k L / ln(r_out / r_in) each."""
+    faces = np.asarray(faces_m, dtype=float)
+    centres = 0.5 * (faces[:-1] + faces[1:])
+    rho_c = np.broadcast_to(np.asarray(rho_c_J_m3K, dtype=float), centres.shape)
+    k = np.broadcast_to(np.asarray(k_W_mK, dtype=float), centres.shape)
+    capacity = rho_c * np.pi * (faces[1:] ** 2 - faces[:-1] ** 2) * length_m
+    inner_half = np.log(faces[1:-1] / centres[:-1]) / (2 * np.pi * k[:-1] * length_m)
+    outer_half = np.log(centres[1:] / faces[1:-1]) / (2 * np.pi * k[1:] * length_m)
+    return Rings(faces, centres, capacity, 1.0 / (inner_half + outer_half))
+
+
+def _theta_step(T, capacity, link, dt_s, inner_W_K=0.0, inner_T_K=0.0, theta=0.5):
+    """One theta-method step of C dT/dt = flows between neighbours + inner_W_K (inner_T - T[0]),
+    outer face adiabatic. Tridiagonal, solved directly (Thomas algorithm through numpy)."""
+    n = T.size
+    # flows: F = -A T + s, with A tridiagonal symmetric
+    diag = np.zeros(n)
+    diag[:-1] += link
+    diag[1:] += link
+    diag[0] += inner_W_K
+    s = np.zeros(n)
+    s[0] = inner_W_K * inner_T_K
+    AT = diag * T
+    AT[:-1] -= link * T[1:]
+    AT[1:] -= link * T[:-1]
+    rhs = capacity / dt_s * T - (1 - theta) * AT + s
+    # (C/dt + theta A) T1 = rhs
+    d = capacity / dt_s + theta * diag
+    off = -theta * link
+    ab = np.zeros((3, n))
+    ab[0, 1:] = off
+    ab[1] = d
+    ab[2, :-1] = off
+    return solve_banded((1, 1), ab, rhs)
+
+
+@dataclass(frozen=True)
+class HoseWall:
+    """The hose and its wall material. Lengths in m, rho_c in J/(m^3 K), k in W/(m K)."""
+    bore_m: float
+    outside_m: float
+    length_m: float
+    rho_c_J_m3K: float
+    k_W_mK: float
+
+    def capacity_J_K(self):
+        return self.rho_c_J_m3K * 0.25 * np.pi * (self.outside_m**2 - self.bore_m**2) * self.length_m
+
+    def conduction_time_s(self):
+        """t^2 / alpha of the wall, s (alpha = k / rho c)."""
+        return (0.5 * (self.outside_m - self.bore_m)) ** 2 * self.rho_c_J_m3K / self.k_W_mK
+
+
+@dataclass(frozen=True)
+class Drive:
+    """What the inner face sees, as functions of time (s): the flowing oil's temperature (K), whether
+    oil flows, and the inner coefficient (W/(m^2 K)) at that time; the standing oil's rho c
+    (J/(m^3 K)) and k (W/(m K)) for case B."""
+    oil_K: object
+    flowing: object
+    h_W_m2K: object
+    standing_rho_c_J_m3K: float
+    standing_k_W_mK: float
+
+
+@dataclass
+class Result:
+    """The reference's history at its time points: the heat the rubber has taken since the start
+    (J), the heat flushed back to the tank by standing oil at each restart, summed (J), and the
+    standing column's heat deficit not yet flushed at each point (J)."""
+    time_s: np.ndarray
+    wall_heat_J: np.ndarray
+    flushed_J: np.ndarray
+    pending_J: np.ndarray
+    wall_K: np.ndarray          # the rubber's ring temperatures at the end
+
+
+def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str = "A", n_cells: int = 40,
+             dt_s: float = 0.1, n_oil_cells: int | None = None, theta: float = 0.5) -> Result:
+    """Integrate the wall from a uniform T0_K to end_s.
+
+    case "A": inner face adiabatic with the engine off. case "B": the standing oil is resolved
+    (n_oil_cells rings of the bore, by default as many as the wall's per unit of radius, at least 8).
+    """
+    if case not in ("A", "B"):
+        raise ValueError(f"case must be 'A' or 'B', got {case!r}")
+    r_i, r_o, L = 0.5 * hose.bore_m, 0.5 * hose.outside_m, hose.length_m
+    wall = rings(np.linspace(r_i, r_o, n_cells + 1), hose.rho_c_J_m3K, hose.k_W_mK, L)
+    half_ring_W_K = 2 * np.pi * hose.k_W_mK * L / np.log(wall.centres_m[0] / r_i)
+    if n_oil_cells is None:
+        n_oil_cells = max(8, int(round(n_cells * r_i / (r_o - r_i))))
+    faces = np.concatenate([np.linspace(0.0, r_i, n_oil_cells + 1), wall.faces_m[1:]])
+    rho_c = np.concatenate([np.full(n_oil_cells, drive.standing_rho_c_J_m3K), np.full(n_cells, hose.rho_c_J_m3K)])
+    k = np.concatenate([np.full(n_oil_cells, drive.standing_k_W_mK), np.full(n_cells, hose.k_W_mK)])
+    both = rings(faces, rho_c, k, L)
+
+    n_steps = int(np.ceil(end_s / dt_s))
+    times = np.linspace(0.0, end_s, n_steps + 1)
+    T = np.full(n_cells, float(T0_K))
+    column = None                  # the standing oil's rings while the engine is off (case B)
+    column_start_K = 0.0
+    flushed = 0.0
+    wall_heat = [0.0]
+    flushed_hist = [0.0]
+    pending = [0.0]
+    for t0, t1 in zip(times[:-1], times[1:]):
+        mid = 0.5 * (t0 + t1)
+        h = t1 - t0
+        if drive.flowing(mid):
+            if column is not None:             # the pump restarts: the column goes back to the tank
+                flushed += float(np.sum(both.capacity_J_K[:n_oil_cells] * (column_start_K - column)))
+                column = None
+            hA = drive.h_W_m2K(mid) * np.pi * hose.bore_m * L
+            G = 1.0 / (1.0 / hA + 1.0 / half_ring_W_K)
+            T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, G, drive.oil_K(mid), theta)
+        elif case == "A":                      # adiabatic inside and out: heat moves only within the wall
+            T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, 0.0, 0.0, theta)
+        else:
+            if column is None:                 # the pump stops: the bore holds the oil that was flowing
+                column_start_K = float(drive.oil_K(t0))
+                column = np.full(n_oil_cells, column_start_K)
+            state = _theta_step(np.concatenate([column, T]), both.capacity_J_K, both.link_W_K, h, 0.0, 0.0, theta)
+            column, T = state[:n_oil_cells], state[n_oil_cells:]
+        wall_heat.append(float(np.sum(wall.capacity_J_K * (T - T0_K))))
+        flushed_hist.append(flushed)
+        pending.append(0.0 if column is None else
+                       float(np.sum(both.capacity_J_K[:n_oil_cells] * (column_start_K - column))))
+    return Result(times, np.array(wall_heat), np.array(flushed_hist), np.array(pending), T)
+
+
+# --- driving the reference from the package's trace ---------------------------------------------
+
+def drive_from_trace(rig, steps, trace, T_offset_K=None):
+    """A Drive from a thermo_budget trace of one design on `rig` over `steps`.
+
+    The flowing oil's temperature is the mean loop oil temperature the lumped hose node sees: the
+    bulk (the trace's oil, linear between its points) plus half the return-line rise P / (rho Q c_p)
+    while a loaded pump runs; the hose carries oil from the tank (at the bulk) and back from the
+    valve (at the return line). The same temperature as the lumped node's, so that the comparison
+    tests the wall's conduction and not the choice of driving temperature.
+    T_offset_K : optional (times_s, offset_K) to add (a feedback correction, see feedback_drive).
+    """
+    from thermo_budget.session import pump_flow_m3_s
+
+    t_pts = trace.time_s[:, 0]
+    oil_pts = trace.T_K[:, 0, 0]
+    starts = np.concatenate([[0.0], np.cumsum([s.duration_s for s in steps])])
+
+    def step_at(t):
+        i = int(np.searchsorted(starts, t, side="right") - 1)
+        return steps[min(max(i, 0), len(steps) - 1)]
+
+    def flow_m3_s(t):
+        step = step_at(t)
+        return float(pump_flow_m3_s(rig.displacement_m3, step.rpm, rig.volumetric_efficiency)) if step.flowing else 0.0
+
+    def bulk_K(t):
+        T = float(np.interp(t, t_pts, oil_pts))
+        if T_offset_K is not None:
+            T += float(np.interp(t, T_offset_K[0], T_offset_K[1]))
+        return T
+
+    def oil_K(t):
+        T = bulk_K(t)
+        Q = flow_m3_s(t)
+        if Q > 0:
+            step = step_at(t)
+            cap_rate = float(rig.oil.density_kg_m3(T) * Q * rig.oil.specific_heat(T))
+            T += 0.5 * float(step.power_W) * float(rig.power_multiplier) / cap_rate
+        return T
+
+    def h_W_m2K(t):
+        T = oil_K(t)
+        nu, k, _, _, pr = (float(np.atleast_1d(p)[0]) for p in rig.oil.transport(np.array([T])))
+        return inner_coefficient_W_m2K(flow_m3_s(t), rig.hose_inner_diameter_m, rig.hose_length_m, nu, k, pr)[0]
+
+    T_mid = float(np.mean(oil_pts))
+    _, k_oil, cp, rho, _ = (float(np.atleast_1d(p)[0]) for p in rig.oil.transport(np.array([T_mid])))
+    return Drive(oil_K=oil_K, flowing=lambda t: flow_m3_s(t) > 0, h_W_m2K=h_W_m2K,
+                 standing_rho_c_J_m3K=rho * cp, standing_k_W_mK=k_oil)
+
+
+def hose_of(rig, wall_material) -> HoseWall:
+    """The rig's hose with a wall material dict (density_kg_m3, specific_heat_J_kgK, conductivity_W_mK)."""
+    return HoseWall(bore_m=rig.hose_inner_diameter_m, outside_m=rig.hose_outer_diameter_m, length_m=rig.hose_length_m,
+                    rho_c_J_m3K=wall_material["density_kg_m3"] * wall_material["specific_heat_J_kgK"],
+                    k_W_mK=wall_material["conductivity_W_mK"])
+
+
+def lumped_hose_heat_J(rig, trace):
+    """The heat the lumped hose node has taken at each trace point, J."""
+    from thermo_budget.network import HOSE
+    return rig.hose_capacity_J_K * (trace.T_K[:, 0, HOSE] - trace.T_K[0, 0, HOSE])
+
+
+def feedback_offset(rig, trace, result: Result):
+    """The bulk's shift if the oil had given the reference's heat to the hose instead of the lumped
+    node's, at the trace's times: -(Q_ref - Q_lumped) / C_oil, K (a one-way correction; the oil
+    node's capacity alone, so the larger of the plausible shifts)."""
+    from thermo_budget.network import OIL, heat_capacities_J_K
+    t = trace.time_s[:, 0]
+    q_ref = np.interp(t, result.time_s, result.wall_heat_J)
+    C_oil = heat_capacities_J_K(rig, trace.T_K[:, 0, :])[:, OIL]
+    return t, -(q_ref - lumped_hose_heat_J(rig, trace)) / C_oil

@@ -133,31 +133,46 @@ class Drive:
     h_W_m2K: object
     standing_rho_c_J_m3K: float
     standing_k_W_mK: float
+    breaks_s: tuple = ()        # the times at which the inputs change (step boundaries), s
+
+
+def time_grid_s(end_s, dt_s, breaks_s=()):
+    """Time points from 0 to end_s at most dt_s apart, with a point on every break, so that no step
+    of the integration straddles a change of the inputs."""
+    edges = np.unique(np.concatenate([[0.0, end_s], [b for b in breaks_s if 0.0 < b < end_s]]))
+    pieces = [np.linspace(a, b, max(1, int(np.ceil((b - a) / dt_s - 1e-9))) + 1)[:-1] for a, b in zip(edges[:-1], edges[1:])]
+    return np.concatenate(pieces + [[end_s]])
 
 
 @dataclass
 class Result:
-    """The reference's history at its time points: the heat the rubber has taken since the start
-    (J), the heat flushed back to the tank by standing oil at each restart, summed (J), and the
-    standing column's heat deficit not yet flushed at each point (J)."""
+    """The reference's history at its time points (J, since the start): the heat the rubber has
+    taken, the heat it took from flowing oil, the heat flushed back to the tank by standing oil at
+    each restart (summed), and the standing column's heat deficit not yet flushed. First law:
+    wall_heat = from_flow + flushed + pending at every point."""
     time_s: np.ndarray
     wall_heat_J: np.ndarray
+    from_flow_J: np.ndarray
     flushed_J: np.ndarray
     pending_J: np.ndarray
     wall_K: np.ndarray          # the rubber's ring temperatures at the end
 
 
 def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str = "A", n_cells: int = 40,
-             dt_s: float = 0.1, n_oil_cells: int | None = None, theta: float = 0.5) -> Result:
+             dt_s: float = 0.2, n_oil_cells: int | None = None, theta: float = 0.5, wall_faces_m=None) -> Result:
     """Integrate the wall from a uniform T0_K to end_s.
 
+    wall_faces_m : optional faces of the rubber's rings (bore/2 to outside/2), m; by default n_cells
+    equal rings.
     case "A": inner face adiabatic with the engine off. case "B": the standing oil is resolved
-    (n_oil_cells rings of the bore, by default as many as the wall's per unit of radius, at least 8).
+    (n_oil_cells rings of the bore; by default as many per unit of radius as the wall has, at least 8).
     """
     if case not in ("A", "B"):
         raise ValueError(f"case must be 'A' or 'B', got {case!r}")
     r_i, r_o, L = 0.5 * hose.bore_m, 0.5 * hose.outside_m, hose.length_m
-    wall = rings(np.linspace(r_i, r_o, n_cells + 1), hose.rho_c_J_m3K, hose.k_W_mK, L)
+    faces_wall = np.linspace(r_i, r_o, n_cells + 1) if wall_faces_m is None else np.asarray(wall_faces_m, dtype=float)
+    n_cells = faces_wall.size - 1
+    wall = rings(faces_wall, hose.rho_c_J_m3K, hose.k_W_mK, L)
     half_ring_W_K = 2 * np.pi * hose.k_W_mK * L / np.log(wall.centres_m[0] / r_i)
     if n_oil_cells is None:
         n_oil_cells = max(8, int(round(n_cells * r_i / (r_o - r_i))))
@@ -165,26 +180,25 @@ def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str 
     rho_c = np.concatenate([np.full(n_oil_cells, drive.standing_rho_c_J_m3K), np.full(n_cells, hose.rho_c_J_m3K)])
     k = np.concatenate([np.full(n_oil_cells, drive.standing_k_W_mK), np.full(n_cells, hose.k_W_mK)])
     both = rings(faces, rho_c, k, L)
+    column_capacity_J_K = both.capacity_J_K[:n_oil_cells]
 
-    n_steps = int(np.ceil(end_s / dt_s))
-    times = np.linspace(0.0, end_s, n_steps + 1)
+    times = time_grid_s(end_s, dt_s, drive.breaks_s)
     T = np.full(n_cells, float(T0_K))
     column = None                  # the standing oil's rings while the engine is off (case B)
     column_start_K = 0.0
-    flushed = 0.0
-    wall_heat = [0.0]
-    flushed_hist = [0.0]
-    pending = [0.0]
+    from_flow = flushed = 0.0
+    history = [(0.0, 0.0, 0.0, 0.0)]
     for t0, t1 in zip(times[:-1], times[1:]):
-        mid = 0.5 * (t0 + t1)
-        h = t1 - t0
+        mid, h = 0.5 * (t0 + t1), t1 - t0
         if drive.flowing(mid):
             if column is not None:             # the pump restarts: the column goes back to the tank
-                flushed += float(np.sum(both.capacity_J_K[:n_oil_cells] * (column_start_K - column)))
+                flushed += float(np.sum(column_capacity_J_K * (column_start_K - column)))
                 column = None
             hA = drive.h_W_m2K(mid) * np.pi * hose.bore_m * L
-            G = 1.0 / (1.0 / hA + 1.0 / half_ring_W_K)
-            T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, G, drive.oil_K(mid), theta)
+            G, T_oil = 1.0 / (1.0 / hA + 1.0 / half_ring_W_K), drive.oil_K(mid)
+            T1 = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, G, T_oil, theta)
+            from_flow += G * (T_oil - theta * T1[0] - (1 - theta) * T[0]) * h
+            T = T1
         elif case == "A":                      # adiabatic inside and out: heat moves only within the wall
             T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, 0.0, 0.0, theta)
         else:
@@ -193,11 +207,79 @@ def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str 
                 column = np.full(n_oil_cells, column_start_K)
             state = _theta_step(np.concatenate([column, T]), both.capacity_J_K, both.link_W_K, h, 0.0, 0.0, theta)
             column, T = state[:n_oil_cells], state[n_oil_cells:]
-        wall_heat.append(float(np.sum(wall.capacity_J_K * (T - T0_K))))
-        flushed_hist.append(flushed)
-        pending.append(0.0 if column is None else
-                       float(np.sum(both.capacity_J_K[:n_oil_cells] * (column_start_K - column))))
-    return Result(times, np.array(wall_heat), np.array(flushed_hist), np.array(pending), T)
+        pending = 0.0 if column is None else float(np.sum(column_capacity_J_K * (column_start_K - column)))
+        history.append((float(np.sum(wall.capacity_J_K * (T - T0_K))), from_flow, flushed, pending))
+    wall_heat, flow_heat, flushed_heat, pending_heat = (np.array(c) for c in zip(*history))
+    return Result(times, wall_heat, flow_heat, flushed_heat, pending_heat, T)
+
+
+def standing_column_heat_J(bore_m, length_m, rho_c_J_m3K, k_W_mK, start_K, wall_K, duration_s, n_cells=24,
+                           dt_s=0.2, theta=0.5):
+    """Heat that oil standing in a tube gives to a wall held at wall_K (a function of time, K) over
+    duration_s, starting uniform at start_K (conduction only), J; and the column's rings at the end.
+    The wall is taken as isothermal: a metal's effusivity sqrt(k rho c) is some 30 times the oil's
+    (steel about 13,600, oil about 470 W s^0.5/(m^2 K)), so the face barely moves."""
+    R = 0.5 * bore_m
+    col = rings(np.linspace(0.0, R, n_cells + 1), rho_c_J_m3K, k_W_mK, length_m)
+    face_W_K = 2 * np.pi * k_W_mK * length_m / np.log(R / col.centres_m[-1])
+    # the chain from the wall inwards: ring n-1 first, so that _theta_step's inner face is the wall
+    cap, link = col.capacity_J_K[::-1], col.link_W_K[::-1]
+    T = np.full(n_cells, float(start_K))
+    steps = max(1, int(np.ceil(duration_s / dt_s)))
+    h = duration_s / steps
+    for i in range(steps):
+        T = _theta_step(T, cap, link, h, face_W_K, wall_K((i + 0.5) * h), theta)
+    return float(np.sum(cap * (start_K - T))), T[::-1]
+
+
+def bodies_heat_J(capacity_J_K, flowing_W_K, drive: Drive, T0_K, end_s, case="A", passage_bore_m=0.02,
+                  passage_length_m=1.0, n_oil_cells=24, dt_s=0.2, theta=0.5):
+    """The metal bodies as one isothermal node (as the lumped model has them) coupled to the flowing
+    oil by flowing_W_K(t) while oil flows; with the engine off, case "A": nothing (the model's
+    coupling through the standing hose column is some 1e-3 W/K), case "B": the oil standing in their
+    passages (a tube of passage_bore_m and passage_length_m, conduction only) gives heat to the
+    metal face. Returns the metal's heat since the start at each time point (J) and the heat the
+    standing oil gave, summed (J)."""
+    R = 0.5 * passage_bore_m
+    col = rings(np.linspace(0.0, R, n_oil_cells + 1), drive.standing_rho_c_J_m3K, drive.standing_k_W_mK,
+                passage_length_m)
+    face_W_K = 2 * np.pi * drive.standing_k_W_mK * passage_length_m / np.log(R / col.centres_m[-1])
+    cap, link = col.capacity_J_K[::-1], col.link_W_K[::-1]        # from the metal face inwards
+    times = time_grid_s(end_s, dt_s, drive.breaks_s)
+    T_metal, column, from_standing = float(T0_K), None, 0.0
+    heat = [0.0]
+    for t0, t1 in zip(times[:-1], times[1:]):
+        mid, h = 0.5 * (t0 + t1), t1 - t0
+        if drive.flowing(mid):
+            column = None
+            G, T_oil = flowing_W_K(mid), drive.oil_K(mid)
+            T_metal = T_oil + (T_metal - T_oil) * np.exp(-G * h / capacity_J_K)    # exact for a frozen G
+        elif case == "B":
+            if column is None:
+                column = np.full(n_oil_cells, float(drive.oil_K(t0)))
+            column1 = _theta_step(column, cap, link, h, face_W_K, T_metal, theta)
+            q = float(np.sum(cap * (column - column1)))
+            column, T_metal, from_standing = column1, T_metal + q / capacity_J_K, from_standing + q
+        heat.append(capacity_J_K * (T_metal - T0_K))
+    return times, np.array(heat), from_standing
+
+
+def body_conductance_from_trace(rig, steps, trace):
+    """The lumped model's own oil -> bodies conductance while oil flows, W/K, as a function of time:
+    node_equations at the trace's points within pulls (thermo_budget.network), linear between them."""
+    from thermo_budget.network import HARDWARE, OIL, Inputs, node_equations
+    from thermo_budget.session import pump_flow_m3_s
+    t_pts, G_pts = [], []
+    for i in range(1, trace.time_s.shape[0]):
+        step = steps[trace.step_index[i]]
+        if not step.flowing:
+            continue
+        Q = float(pump_flow_m3_s(rig.displacement_m3, step.rpm, rig.volumetric_efficiency))
+        L = node_equations(rig, trace.T_K[i], Inputs(power_W=np.array([step.power_W]),
+                                                     volume_flow_m3_s=np.array([Q])))[1]
+        t_pts.append(float(trace.time_s[i, 0]))
+        G_pts.append(float(-L[0, OIL, HARDWARE]))
+    return lambda t: float(np.interp(t, t_pts, G_pts))
 
 
 # --- driving the reference from the package's trace ---------------------------------------------
@@ -249,7 +331,7 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
     T_mid = float(np.mean(oil_pts))
     _, k_oil, cp, rho, _ = (float(np.atleast_1d(p)[0]) for p in rig.oil.transport(np.array([T_mid])))
     return Drive(oil_K=oil_K, flowing=lambda t: flow_m3_s(t) > 0, h_W_m2K=h_W_m2K,
-                 standing_rho_c_J_m3K=rho * cp, standing_k_W_mK=k_oil)
+                 standing_rho_c_J_m3K=rho * cp, standing_k_W_mK=k_oil, breaks_s=tuple(starts))
 
 
 def hose_of(rig, wall_material) -> HoseWall:
@@ -274,3 +356,49 @@ def feedback_offset(rig, trace, result: Result):
     q_ref = np.interp(t, result.time_s, result.wall_heat_J)
     C_oil = heat_capacities_J_K(rig, trace.T_K[:, 0, :])[:, OIL]
     return t, -(q_ref - lumped_hose_heat_J(rig, trace)) / C_oil
+
+
+def with_feedback(rig, steps, trace, hose, T0_K, end_s, case, **kw):
+    """The reference driven by the trace, then once more with the bulk shifted by what the reference
+    took beyond the lumped node (feedback_offset). Returns (first Result, corrected Result, drive)."""
+    first = simulate(hose, drive_from_trace(rig, steps, trace), T0_K, end_s, case, **kw)
+    drive = drive_from_trace(rig, steps, trace, T_offset_K=feedback_offset(rig, trace, first))
+    return first, simulate(hose, drive, T0_K, end_s, case, **kw), drive
+
+
+def figures(rig, steps, trace, T_eq_K, T0_K, n_cells=40):
+    """The comparison of one session: lumped against resolved hose, both cases, and what each
+    implies for the bulk oil at the end (J and K). The wall as our model has it; the bodies as our
+    model has them, and with the oil standing in their passages (case B) as a second figure."""
+    from thermo_budget.materials import HOSE_WALL
+    from thermo_budget.network import HARDWARE, OIL, heat_capacities_J_K
+    end_s = float(trace.time_s[-1, 0])
+    hose = hose_of(rig, HOSE_WALL)
+    C = heat_capacities_J_K(rig, trace.T_K[-1, 0][None, :])[0]
+    q_lumped = float(lumped_hose_heat_J(rig, trace)[-1])
+    q_full = rig.hose_capacity_J_K * (T_eq_K - T0_K)
+    excess = float(trace.T_K[-1, 0, OIL]) - T_eq_K
+    out = {"bulk_excess_model_K": excess, "hose_lumped_J": q_lumped, "hose_at_balance_J": q_full,
+           "hose_deficit_lumped_K": (q_lumped - q_full) / rig.hose_capacity_J_K,
+           "conduction_time_s": hose.conduction_time_s()}
+    G_bodies = body_conductance_from_trace(rig, steps, trace)
+    passage_length = rig.internal_area_m2 / (np.pi * rig.passage_diameter_m)
+    for case in ("A", "B"):
+        first, ref, drive = with_feedback(rig, steps, trace, hose, T0_K, end_s, case, n_cells=n_cells)
+        q = float(ref.wall_heat_J[-1])
+        out[f"hose_{case}_J"] = q
+        out[f"hose_{case}_one_way_J"] = float(first.wall_heat_J[-1])
+        out[f"hose_deficit_{case}_K"] = (q - q_full) / rig.hose_capacity_J_K
+        out[f"bulk_excess_{case}_K"] = excess - (q - q_lumped) / C[OIL]
+        if case == "B":
+            out["hose_B_from_standing_J"] = float(ref.flushed_J[-1] + ref.pending_J[-1])
+            out["hose_B_pending_J"] = float(ref.pending_J[-1])
+            _, qa, _ = bodies_heat_J(rig.hardware_capacity_J_K, G_bodies, drive, T0_K, end_s, "A",
+                                     rig.passage_diameter_m, passage_length)
+            _, qb, given = bodies_heat_J(rig.hardware_capacity_J_K, G_bodies, drive, T0_K, end_s, "B",
+                                         rig.passage_diameter_m, passage_length)
+            out["bodies_model_J"] = rig.hardware_capacity_J_K * float(trace.T_K[-1, 0, HARDWARE] - T0_K)
+            out["bodies_replica_J"], out["bodies_B_J"] = float(qa[-1]), float(qb[-1])
+            out["bodies_B_from_standing_J"] = given
+            out["bulk_excess_B_and_bodies_K"] = out["bulk_excess_B_K"] - (qb[-1] - qa[-1]) / C[OIL]
+    return out

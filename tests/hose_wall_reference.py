@@ -38,7 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from fluids.friction import Clamond
-from scipy.linalg import solve_banded
+from scipy.linalg.lapack import dgtsv
 from ht.conv_internal import laminar_entry_Baehr_Stephan, turbulent_Gnielinski
 
 RE_TURBULENT = 2300.0    # the start of Gnielinski's range (ht's docstring: 2300 <= Re <= 5e6)
@@ -81,29 +81,27 @@ def rings(faces_m, rho_c_J_m3K, k_W_mK, length_m) -> Rings:
     return Rings(faces, centres, capacity, 1.0 / (inner_half + outer_half))
 
 
-def _theta_step(T, capacity, link, dt_s, inner_W_K=0.0, inner_T_K=0.0, theta=0.5):
-    """One theta-method step of C dT/dt = flows between neighbours + inner_W_K (inner_T - T[0]),
-    outer face adiabatic. Tridiagonal, solved directly (Thomas algorithm through numpy)."""
+def _theta_step(T, capacity, link, dt_s, inner_W_K=0.0, inner_T_K=0.0, theta=0.5, outer_W_K=0.0, outer_T_K=0.0):
+    """One theta-method step of C dT/dt = flows between neighbours + inner_W_K (inner_T - T[0])
+    + outer_W_K (outer_T - T[-1]) (outer face adiabatic by default)."""
     n = T.size
     # flows: F = -A T + s, with A tridiagonal symmetric
     diag = np.zeros(n)
     diag[:-1] += link
     diag[1:] += link
     diag[0] += inner_W_K
+    diag[-1] += outer_W_K
     s = np.zeros(n)
     s[0] = inner_W_K * inner_T_K
+    s[-1] += outer_W_K * outer_T_K
     AT = diag * T
     AT[:-1] -= link * T[1:]
     AT[1:] -= link * T[:-1]
     rhs = capacity / dt_s * T - (1 - theta) * AT + s
-    # (C/dt + theta A) T1 = rhs
-    d = capacity / dt_s + theta * diag
+    # (C/dt + theta A) T1 = rhs, tridiagonal (LAPACK's gtsv, Gaussian elimination with pivoting)
     off = -theta * link
-    ab = np.zeros((3, n))
-    ab[0, 1:] = off
-    ab[1] = d
-    ab[2, :-1] = off
-    return solve_banded((1, 1), ab, rhs)
+    T1 = dgtsv(off, capacity / dt_s + theta * diag, off, rhs)[3]
+    return T1
 
 
 @dataclass(frozen=True)
@@ -159,11 +157,15 @@ class Result:
 
 
 def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str = "A", n_cells: int = 40,
-             dt_s: float = 0.2, n_oil_cells: int | None = None, theta: float = 0.5, wall_faces_m=None) -> Result:
+             dt_s: float = 0.2, n_oil_cells: int | None = None, theta: float = 0.5, wall_faces_m=None,
+             outer=None) -> Result:
     """Integrate the wall from a uniform T0_K to end_s.
 
     wall_faces_m : optional faces of the rubber's rings (bore/2 to outside/2), m; by default n_cells
     equal rings.
+    outer : optional function (outer ring's temperature K) -> (W/K from the outer ring's centre to the
+    air, air temperature K), for a rig that is not adiabatic (outer_air); its heat lost is left out
+    of the first-law columns of the Result, so use it only with case "A" or flowing oil throughout.
     case "A": inner face adiabatic with the engine off. case "B": the standing oil is resolved
     (n_oil_cells rings of the bore; by default as many per unit of radius as the wall has, at least 8).
     """
@@ -190,22 +192,24 @@ def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str 
     history = [(0.0, 0.0, 0.0, 0.0)]
     for t0, t1 in zip(times[:-1], times[1:]):
         mid, h = 0.5 * (t0 + t1), t1 - t0
+        G_out, T_air = (0.0, 0.0) if outer is None else outer(T[-1])     # lagged by one step
         if drive.flowing(mid):
             if column is not None:             # the pump restarts: the column goes back to the tank
                 flushed += float(np.sum(column_capacity_J_K * (column_start_K - column)))
                 column = None
             hA = drive.h_W_m2K(mid) * np.pi * hose.bore_m * L
             G, T_oil = 1.0 / (1.0 / hA + 1.0 / half_ring_W_K), drive.oil_K(mid)
-            T1 = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, G, T_oil, theta)
+            T1 = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, G, T_oil, theta, G_out, T_air)
             from_flow += G * (T_oil - theta * T1[0] - (1 - theta) * T[0]) * h
             T = T1
         elif case == "A":                      # adiabatic inside and out: heat moves only within the wall
-            T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, 0.0, 0.0, theta)
+            T = _theta_step(T, wall.capacity_J_K, wall.link_W_K, h, 0.0, 0.0, theta, G_out, T_air)
         else:
             if column is None:                 # the pump stops: the bore holds the oil that was flowing
                 column_start_K = float(drive.oil_K(t0))
                 column = np.full(n_oil_cells, column_start_K)
-            state = _theta_step(np.concatenate([column, T]), both.capacity_J_K, both.link_W_K, h, 0.0, 0.0, theta)
+            state = _theta_step(np.concatenate([column, T]), both.capacity_J_K, both.link_W_K, h, 0.0, 0.0, theta,
+                                G_out, T_air)
             column, T = state[:n_oil_cells], state[n_oil_cells:]
         pending = 0.0 if column is None else float(np.sum(column_capacity_J_K * (column_start_K - column)))
         history.append((float(np.sum(wall.capacity_J_K * (T - T0_K))), from_flow, flushed, pending))
@@ -269,13 +273,16 @@ def body_conductance_from_trace(rig, steps, trace):
     node_equations at the trace's points within pulls (thermo_budget.network), linear between them."""
     from thermo_budget.network import HARDWARE, OIL, Inputs, node_equations
     from thermo_budget.session import pump_flow_m3_s
+    starts = np.concatenate([[0.0], np.cumsum([s.duration_s for s in steps])])
     t_pts, G_pts = [], []
     for i in range(1, trace.time_s.shape[0]):
-        step = steps[trace.step_index[i]]
+        index = trace.step_index[i]
+        step = steps[index]
         if not step.flowing:
             continue
-        Q = float(pump_flow_m3_s(rig.displacement_m3, step.rpm, rig.volumetric_efficiency))
-        L = node_equations(rig, trace.T_K[i], Inputs(power_W=np.array([step.power_W]),
+        fraction = (trace.time_s[i, 0] - starts[index]) / step.duration_s
+        Q = float(pump_flow_m3_s(rig.displacement_m3, step.rpm_at(fraction), rig.volumetric_efficiency))
+        L = node_equations(rig, trace.T_K[i], Inputs(power_W=np.array([float(step.power_at(fraction))]),
                                                      volume_flow_m3_s=np.array([Q])))[1]
         t_pts.append(float(trace.time_s[i, 0]))
         G_pts.append(float(-L[0, OIL, HARDWARE]))
@@ -301,12 +308,14 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
     starts = np.concatenate([[0.0], np.cumsum([s.duration_s for s in steps])])
 
     def step_at(t):
-        i = int(np.searchsorted(starts, t, side="right") - 1)
-        return steps[min(max(i, 0), len(steps) - 1)]
+        """The step running at time t, and the fraction of it done."""
+        i = min(max(int(np.searchsorted(starts, t, side="right") - 1), 0), len(steps) - 1)
+        return steps[i], (t - starts[i]) / steps[i].duration_s
 
     def flow_m3_s(t):
-        step = step_at(t)
-        return float(pump_flow_m3_s(rig.displacement_m3, step.rpm, rig.volumetric_efficiency)) if step.flowing else 0.0
+        step, fraction = step_at(t)
+        rpm = float(step.rpm_at(fraction))
+        return float(pump_flow_m3_s(rig.displacement_m3, rpm, rig.volumetric_efficiency)) if step.flowing else 0.0
 
     def bulk_K(t):
         T = float(np.interp(t, t_pts, oil_pts))
@@ -318,9 +327,9 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
         T = bulk_K(t)
         Q = flow_m3_s(t)
         if Q > 0:
-            step = step_at(t)
+            step, fraction = step_at(t)
             cap_rate = float(rig.oil.density_kg_m3(T) * Q * rig.oil.specific_heat(T))
-            T += 0.5 * float(step.power_W) * float(rig.power_multiplier) / cap_rate
+            T += 0.5 * float(step.power_at(fraction)) * float(np.mean(rig.power_multiplier)) / cap_rate
         return T
 
     def h_W_m2K(t):
@@ -332,6 +341,30 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
     _, k_oil, cp, rho, _ = (float(np.atleast_1d(p)[0]) for p in rig.oil.transport(np.array([T_mid])))
     return Drive(oil_K=oil_K, flowing=lambda t: flow_m3_s(t) > 0, h_W_m2K=h_W_m2K,
                  standing_rho_c_J_m3K=rho * cp, standing_k_W_mK=k_oil, breaks_s=tuple(starts))
+
+
+def outer_air(rig, hose: HoseWall, n_cells: int):
+    """The outer face to the air, for `simulate(outer=...)`: the package's coefficient of a horizontal
+    cylinder (natural convection by Churchill and Chu, combined with the rig's air speed by Churchill
+    1977; conductances.h_air_W_m2K, held against worked examples in the package's tests) times the
+    rig's convection multiplier, plus grey
+    radiation (Incropera eqs. 1.7-1.9), in series with the outer half of the outermost ring; the
+    surface taken at the ring's temperature."""
+    from thermo_budget.conductances import h_air_W_m2K
+    from thermo_budget.correlations import h_radiation_grey
+    r_o = 0.5 * hose.outside_m
+    centre = r_o - 0.5 * (r_o - 0.5 * hose.bore_m) / n_cells
+    half_W_K = 2 * np.pi * hose.k_W_mK * hose.length_m / np.log(r_o / centre)
+    area = np.pi * hose.outside_m * hose.length_m
+    T_air = float(rig.ambient_K)
+
+    def coupling(T_surface_K):
+        Ts = np.array([max(float(T_surface_K), T_air + 1e-3)])
+        h = float(np.asarray(rig.convection_multiplier) * h_air_W_m2K("cylinder", hose.outside_m, Ts, T_air,
+                                                                          rig.air_speed_m_s, hose.outside_m)[0]
+                  + h_radiation_grey(rig.hardware_emissivity, Ts, T_air)[0])
+        return 1.0 / (1.0 / (h * area) + 1.0 / half_W_K), T_air
+    return coupling
 
 
 def hose_of(rig, wall_material) -> HoseWall:
@@ -402,3 +435,64 @@ def figures(rig, steps, trace, T_eq_K, T0_K, n_cells=40):
             out["bodies_B_from_standing_J"] = given
             out["bulk_excess_B_and_bodies_K"] = out["bulk_excess_B_K"] - (qb[-1] - qa[-1]) / C[OIL]
     return out
+
+
+def session_figures(rig, steps, trace, n_cells=40):
+    """For any rig (losses to the air included): the heat the hose took from the oil by the end of
+    the session, lumped (its stored heat plus what it lost to the air, by the package's own
+    conductance, trapezoidal over the trace) and resolved, cases A and B (one-way, driven by the
+    trace), the bodies' extra heat from their standing oil, and the bulk shift each implies
+    (-extra heat / C_oil, K). The bodies' replica has no loss to the air: its B - A is the figure."""
+    from thermo_budget.conductances import hose_to_ambient_W_K
+    from thermo_budget.materials import HOSE_WALL
+    from thermo_budget.network import HOSE, OIL, heat_capacities_J_K
+    end_s = float(trace.time_s[-1, 0])
+    T0 = float(trace.T_K[0, 0, OIL])
+    hose = hose_of(rig, HOSE_WALL)
+    drive = drive_from_trace(rig, steps, trace)
+    C_oil = float(heat_capacities_J_K(rig, trace.T_K[-1, 0][None, :])[0, OIL])
+    T_hose = trace.T_K[:, 0, HOSE]
+    g_air = np.array([float(np.atleast_1d(hose_to_ambient_W_K(rig, np.array([T])))[0]) for T in T_hose])
+    lumped_stored = float(lumped_hose_heat_J(rig, trace)[-1])
+    lumped_taken = lumped_stored + float(np.trapezoid(g_air * (T_hose - rig.ambient_K), trace.time_s[:, 0]))
+    out = {"C_oil_J_K": C_oil, "hose_lumped_stored_J": lumped_stored, "hose_lumped_taken_J": lumped_taken}
+    for case in ("A", "B"):
+        r = simulate(hose, drive, T0, end_s, case, n_cells=n_cells, outer=outer_air(rig, hose, n_cells))
+        out[f"hose_{case}_stored_J"] = float(r.wall_heat_J[-1])
+        out[f"hose_{case}_taken_J"] = float(r.from_flow_J[-1] + r.flushed_J[-1] + r.pending_J[-1])
+    G = body_conductance_from_trace(rig, steps, trace) if any(s.flowing for s in steps) else (lambda t: 0.0)
+    passage_length = rig.internal_area_m2 / (np.pi * rig.passage_diameter_m)
+    _, qa, _ = bodies_heat_J(rig.hardware_capacity_J_K, G, drive, T0, end_s, "A", rig.passage_diameter_m, passage_length)
+    _, qb, _ = bodies_heat_J(rig.hardware_capacity_J_K, G, drive, T0, end_s, "B", rig.passage_diameter_m, passage_length)
+    out["bodies_B_extra_J"] = float(qb[-1] - qa[-1])
+    out["bulk_shift_A_vs_lumped_K"] = -(out["hose_A_taken_J"] - lumped_taken) / C_oil
+    out["bulk_shift_B_vs_A_hose_K"] = -(out["hose_B_taken_J"] - out["hose_A_taken_J"]) / C_oil
+    out["bulk_shift_B_vs_A_bodies_K"] = -out["bodies_B_extra_J"] / C_oil
+    return out
+
+
+if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figures of the report
+    import sys
+    from pathlib import Path
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
+
+    from thermo_budget.report import TRACE_RESOLUTION
+    from thermo_budget.scenario import build_rig, load_scenario
+    from thermo_budget.solver import integrate
+
+    scenario = load_scenario(adiabatic_raw())
+    rig = build_rig(scenario)
+    steps = [ADIABATIC_PULL, ENGINE_OFF_30S] * 20
+    trace = integrate(rig, steps, scenario.start_K, resolution=TRACE_RESOLUTION)
+    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    print("adiabatic rig, 20 x (10 kW x 10 s, 30 s engine off):")
+    for key, value in figures(rig, steps, trace, T_eq, scenario.start_K).items():
+        print(f"  {key:32s} {value:12.3f}")
+    for path in sorted((Path(__file__).resolve().parent.parent / "scenarios").glob("*.toml")):
+        scenario = load_scenario(path)
+        rig = build_rig(scenario)
+        trace = integrate(rig, scenario.steps, scenario.start_K, resolution=TRACE_RESOLUTION)
+        print(f"{path.name}:")
+        for key, value in session_figures(rig, scenario.steps, trace).items():
+            print(f"  {key:32s} {value:12.3f}")

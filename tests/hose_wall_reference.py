@@ -99,9 +99,11 @@ def _theta_step(T, capacity, link, dt_s, inner_W_K=0.0, inner_T_K=0.0, theta=0.5
     AT[1:] -= link * T[:-1]
     rhs = capacity / dt_s * T - (1 - theta) * AT + s
     # (C/dt + theta A) T1 = rhs, tridiagonal (LAPACK's gtsv, Gaussian elimination with pivoting)
+    d = capacity / dt_s + theta * diag
+    if n == 1:
+        return rhs / d
     off = -theta * link
-    T1 = dgtsv(off, capacity / dt_s + theta * diag, off, rhs)[3]
-    return T1
+    return dgtsv(off, d, off, rhs)[3]
 
 
 @dataclass(frozen=True)

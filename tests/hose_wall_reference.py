@@ -13,7 +13,8 @@ Physics (what each piece stands for, and its source):
   (the steady conduction resistance of a cylindrical shell, Incropera, Fundamentals of Heat and Mass
   Transfer, 6th ed., eq. 3.27; the transient method of ch. 5, sec. 5.10, in radial form).
   Time: theta-method (Crank-Nicolson, theta = 1/2; Incropera sec. 5.10.2 for the implicit form).
-- Outer face adiabatic (the rig is adiabatic).
+  (Equation and section numbers recalled from memory.)
+- Outer face adiabatic (the rig is adiabatic); for a rig that loses heat, optionally to the air (outer_air).
 - Inner face while oil flows: convection to the passing oil, the inner coefficient from the `ht`
   package (independent of thermo_budget): Re < 2300 the mean Nusselt number of simultaneously
   developing laminar flow over the hose length, Baehr and Stephan (ht.conv_internal.
@@ -30,7 +31,8 @@ Physics (what each piece stands for, and its source):
   from memory (not from a source; +-30 %); the oil's properties come from the package's oil model
   (Cragoe, NBS Misc. Publ. 97; ASTM D341), which its own tests hold against those sources.
 
-Units are in the names; every function is pure.
+Units are in the names; the functions keep no state. `python tests/hose_wall_reference.py` prints the
+figures (the adiabatic session, then every shipped scenario).
 """
 from __future__ import annotations
 
@@ -166,8 +168,8 @@ def simulate(hose: HoseWall, drive: Drive, T0_K: float, end_s: float, case: str 
     wall_faces_m : optional faces of the rubber's rings (bore/2 to outside/2), m; by default n_cells
     equal rings.
     outer : optional function (outer ring's temperature K) -> (W/K from the outer ring's centre to the
-    air, air temperature K), for a rig that is not adiabatic (outer_air); its heat lost is left out
-    of the first-law columns of the Result, so use it only with case "A" or flowing oil throughout.
+    air, air temperature K), for a rig that is not adiabatic (outer_air); the heat lost through it
+    is not in the Result's first-law columns (they then sum to more than wall_heat_J).
     case "A": inner face adiabatic with the engine off. case "B": the standing oil is resolved
     (n_oil_cells rings of the bore; by default as many per unit of radius as the wall has, at least 8).
     """

@@ -15,6 +15,8 @@ the wall. Sources beside each number:
   J0): Incropera Table 5.1 (Bi -> infinity);
 - the inner coefficient: the `ht` package, Baehr-Stephan laminar entry / Gnielinski turbulent;
 - rubber properties: thermo_budget.materials.HOSE_WALL, recalled from memory (+-30 %).
+The equation and table numbers of Incropera (6th ed.) are recalled from memory; the formulas are
+the standard ones and the tests hold the reference to them, not to the numbering.
 Figures: `python tests/hose_wall_reference.py` prints them.
 """
 from __future__ import annotations

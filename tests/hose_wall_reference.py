@@ -1,11 +1,12 @@
 """A resolved reference for the hose wall, for the tests only: radial transient conduction through
 the rubber (and, in case B, through the oil standing in the bore), cylindrical finite volumes.
 
-It checks one claim of the lumped network (thermo_budget.network, node HOSE): that on an adiabatic
-rig with short pulls and engine-off waits, most of what the bulk oil ends above the
+It checks one claim of the lumped network (thermo_budget.network, nodes HOSE and HOSE_COVER): that on
+an adiabatic rig with short pulls and engine-off waits, most of what the bulk oil ends above the
 single-temperature energy balance is heat that a real hose wall cannot yet have taken, because its
-conduction time t^2/alpha is minutes. The lumped node puts the whole wall's capacity at its
-mid-surface behind the inner half of the wall; here the wall is cut into n_cells rings.
+conduction time t^2/alpha is minutes. The lumped network has the wall as two rings (the liner, the
+inner fifth of the thickness, and the cover; conductances.hose_rings_m; until it found one node at
+mid-wall 38 % short, one node); here the wall is cut into n_cells rings.
 
 Physics (what each piece stands for, and its source):
 - Conduction in a cylinder, finite volumes: ring i between faces r_i and r_i+1 holds
@@ -379,9 +380,10 @@ def hose_of(rig, wall_material) -> HoseWall:
 
 
 def lumped_hose_heat_J(rig, trace):
-    """The heat the lumped hose node has taken at each trace point, J."""
-    from thermo_budget.network import HOSE
-    return rig.hose_capacity_J_K * (trace.T_K[:, 0, HOSE] - trace.T_K[0, 0, HOSE])
+    """The heat the lumped hose nodes (the liner and the cover) have taken at each trace point, J."""
+    from thermo_budget.network import HOSE_RINGS, heat_capacities_J_K
+    C = heat_capacities_J_K(rig, trace.T_K[:1, 0, :])[0]
+    return sum(C[i] * (trace.T_K[:, 0, i] - trace.T_K[0, 0, i]) for i in HOSE_RINGS)
 
 
 def feedback_offset(rig, trace, result: Result):
@@ -449,13 +451,13 @@ def session_figures(rig, steps, trace, n_cells=40):
     (-extra heat / C_oil, K). The bodies' replica has no loss to the air: its B - A is the figure."""
     from thermo_budget.conductances import hose_to_ambient_W_K
     from thermo_budget.materials import HOSE_WALL
-    from thermo_budget.network import HOSE, OIL, heat_capacities_J_K
+    from thermo_budget.network import HOSE_COVER, OIL, heat_capacities_J_K
     end_s = float(trace.time_s[-1, 0])
     T0 = float(trace.T_K[0, 0, OIL])
     hose = hose_of(rig, HOSE_WALL)
     drive = drive_from_trace(rig, steps, trace)
     C_oil = float(heat_capacities_J_K(rig, trace.T_K[-1, 0][None, :])[0, OIL])
-    T_hose = trace.T_K[:, 0, HOSE]
+    T_hose = trace.T_K[:, 0, HOSE_COVER]      # the cover loses to the air
     g_air = np.array([float(np.atleast_1d(hose_to_ambient_W_K(rig, np.array([T])))[0]) for T in T_hose])
     lumped_stored = float(lumped_hose_heat_J(rig, trace)[-1])
     lumped_taken = lumped_stored + float(np.trapezoid(g_air * (T_hose - rig.ambient_K), trace.time_s[:, 0]))

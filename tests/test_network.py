@@ -3,7 +3,9 @@ import numpy as np
 import pytest
 
 from thermo_budget.materials import HOSE_WALL
-from thermo_budget.network import (HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, Inputs, cooler_W_K,
+from thermo_budget.correlations import cylinder_wall_conductance_W_K
+from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTION, N_NODES, NODE_NAMES, OIL, WALL,
+                                   Inputs, cooler_W_K, hose_mean_K, hose_ring_link_W_K, hose_rings_m,
                                    dry_shell_W_K, h_air_W_m2K, h_oil_bottom_W_m2K, h_oil_side_W_m2K,
                                    hardware_to_ambient_W_K, heat_capacities_J_K, hose_to_ambient_W_K,
                                    loop_conductances_W_K, node_enthalpy_J, node_equations, oil_to_hardware_W_K,
@@ -18,7 +20,8 @@ from conftest import base_raw, set_path
 # Exact unit factors
 W_IN_BTU_PER_HR = 3600.0 / 1055.05585262      # 1 W in BTU/hr (IT Btu)
 GAL_M3 = 3.785411784e-3                        # US gallon
-STATES_K = np.array([[330.0, 320.0, 315.0, 310.0], [300.0, 299.0, 298.0, 297.0], [360.0, 340.0, 345.0, 330.0]])
+STATES_K = np.array([[330.0, 320.0, 315.0, 310.0, 305.0], [300.0, 299.0, 298.0, 297.0, 296.5],
+                     [360.0, 340.0, 345.0, 330.0, 325.0]])
 
 
 def flowing_inputs(rig, power_W=7000.0, rpm=3400.0, n=1):
@@ -53,9 +56,9 @@ def test_node_equations_conserve_heat(rig, flowing):
 
 
 def test_node_names_live_in_one_place():
-    assert len(NODE_NAMES) == N_NODES == 4
-    assert (NODE_NAMES[OIL], NODE_NAMES[WALL], NODE_NAMES[HARDWARE], NODE_NAMES[HOSE]) == (
-        "oil", "wall", "hardware", "hose")
+    assert len(NODE_NAMES) == N_NODES == 5
+    assert (NODE_NAMES[OIL], NODE_NAMES[WALL], NODE_NAMES[HARDWARE], NODE_NAMES[HOSE], NODE_NAMES[HOSE_COVER]) == (
+        "oil", "wall", "hardware", "hose liner", "hose cover")
 
 
 def test_heat_capacities(rig):
@@ -74,8 +77,41 @@ def test_heat_capacities(rig):
     assert C[HARDWARE] == pytest.approx(8.0 * 470.0)
     # the hose wall: its annulus times the composite's rho c (materials.HOSE_WALL, from memory)
     hose_m3 = np.pi / 4 * (outside**2 - bore**2) * length
-    assert C[HOSE] == pytest.approx(hose_m3 * HOSE_WALL["density_kg_m3"] * HOSE_WALL["specific_heat_J_kgK"])
+    rho_c = HOSE_WALL["density_kg_m3"] * HOSE_WALL["specific_heat_J_kgK"]
+    assert C[HOSE] + C[HOSE_COVER] == pytest.approx(hose_m3 * rho_c)
     assert 1.5 < hose_m3 * HOSE_WALL["density_kg_m3"] < 3.0        # kg: "a few kg on a small rig"
+    # the two rings: the liner is the inner fifth of the wall's thickness, each holds its ring's volume
+    r_i, r_o = bore / 2, outside / 2
+    r_s = r_i + 0.2 * (r_o - r_i)
+    assert C[HOSE] == pytest.approx(np.pi * (r_s**2 - r_i**2) * length * rho_c)
+    assert C[HOSE_COVER] == pytest.approx(np.pi * (r_o**2 - r_s**2) * length * rho_c)
+
+
+def test_hose_rings_are_finite_volumes_of_the_wall(rig):
+    # Each node at its ring's mid-radius; the shell conductance 2 pi k L / ln(r_b / r_a) between
+    # neighbouring centres (Incropera eq. 3.27). In series, bore -> liner -> cover -> outside face
+    # is the whole wall's conduction, as a steady state through the wall must give.
+    r_i, r_s, r_o, r_1, r_2 = hose_rings_m(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m)
+    assert HOSE_LINER_FRACTION == 0.2
+    assert (r_s - r_i) == pytest.approx(0.2 * (r_o - r_i))
+    assert (r_1, r_2) == pytest.approx((0.5 * (r_i + r_s), 0.5 * (r_s + r_o)))
+    k, L = HOSE_WALL["conductivity_W_mK"], rig.hose_length_m
+    parts = rig.constants
+    assert float(hose_ring_link_W_K(rig)) == pytest.approx(2 * np.pi * k * L / np.log(r_2 / r_1))
+    assert parts["hose_inner_W_K"] == pytest.approx(2 * np.pi * k * L / np.log(r_1 / r_i))
+    assert parts["hose_outer_W_K"] == pytest.approx(2 * np.pi * k * L / np.log(r_o / r_2))
+    series = 1.0 / (1.0 / parts["hose_inner_W_K"] + 1.0 / parts["hose_link_W_K"] + 1.0 / parts["hose_outer_W_K"])
+    whole = cylinder_wall_conductance_W_K(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m, L, k)
+    assert series == pytest.approx(whole, rel=1e-12)
+
+
+def test_the_hose_mean_is_the_rubbers_heat(rig):
+    # hose_mean_K (the report's end_hose_C, the trace CSV's hose_C): the temperature whose rise
+    # times the hose's whole capacity is the heat the two rings hold.
+    T = STATES_K
+    C = heat_capacities_J_K(rig, T)
+    held = C[:, HOSE] * (T[:, HOSE] - 293.15) + C[:, HOSE_COVER] * (T[:, HOSE_COVER] - 293.15)
+    np.testing.assert_allclose((C[:, HOSE] + C[:, HOSE_COVER]) * (hose_mean_K(rig, T) - 293.15), held, rtol=1e-12)
 
 
 def test_enthalpy_and_temperature_are_inverse(rig):
@@ -134,10 +170,10 @@ def test_adiabatic_rig_has_no_path_to_ambient():
     set_path(raw, "reservoir.emissivity", 0.0)
     set_path(raw, "hardware.emissivity", 0.0)
     rig = build_rig(load_scenario(raw))
-    T = np.array([[350.0, 340.0, 345.0, 330.0]])
+    T = np.array([[350.0, 340.0, 345.0, 330.0, 325.0]])
     assert float(wall_to_ambient_W_K(rig, T[:, WALL])[0]) == 0.0
     assert float(np.atleast_1d(hardware_to_ambient_W_K(rig, T[:, HARDWARE]))[0]) == 0.0
-    assert float(np.atleast_1d(hose_to_ambient_W_K(rig, T[:, HOSE]))[0]) == 0.0
+    assert float(np.atleast_1d(hose_to_ambient_W_K(rig, T[:, HOSE_COVER]))[0]) == 0.0
     for inputs in (flowing_inputs(rig), still_inputs()):
         _, _, _, g_amb, offset = node_equations(rig, T, inputs)
         assert np.all(g_amb == 0.0) and np.all(offset == 0.0)

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 import thermo_budget
-from thermo_budget.network import N_NODES, NODE_NAMES, OIL, heat_capacities_J_K, passive_rejection_W
+from thermo_budget.network import HOSE, HOSE_COVER, N_NODES, OIL, heat_capacities_J_K, passive_rejection_W
 from thermo_budget.outcome import first_crossing_s
 from thermo_budget.report import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
@@ -27,6 +27,19 @@ def us_scenario():
 @pytest.fixture(scope="module")
 def us_trace(us_scenario):
     return simulate(us_scenario)
+
+
+@pytest.fixture(scope="module")
+def crossing_scenario(us_scenario):
+    # The US rig with 14 pulls planned instead of 12: with the hose as two rings it stays under its
+    # 180 degF limit for its own 12 pulls (peak 81.7 degC against 82.2; the one-node hose crossed in
+    # the 12th), and crosses during the 13th.
+    return us_scenario.changed(**{"session.repeat": 14})
+
+
+@pytest.fixture(scope="module")
+def crossing_trace(crossing_scenario):
+    return simulate(crossing_scenario)
 
 
 def test_report_is_the_public_api_and_has_every_key(default_report):
@@ -54,8 +67,11 @@ def test_heat_capacities_at_the_start_temperature(default_scenario, default_repo
     rig = build_rig(default_scenario)
     C = heat_capacities_J_K(rig, np.full((1, N_NODES), default_scenario.start_K))[0]
     caps = default_report["heat_capacity_J_per_K"]
-    assert list(caps) == list(NODE_NAMES)
-    assert caps["oil"] == pytest.approx(C[0], abs=0.01)
+    # one per body: the hose's two rings (liner and cover) summed, as the one hose node was
+    assert list(caps) == ["oil", "wall", "hardware", "hose"]
+    assert caps["oil"] == pytest.approx(C[OIL], abs=0.01)
+    assert caps["hose"] == pytest.approx(C[HOSE] + C[HOSE_COVER], abs=0.01)
+    assert sum(caps.values()) == pytest.approx(C.sum(), abs=0.05)
     # (18 L in the tank + about 0.8 L in the loop) x 872 kg/m^3 x Cragoe c_p at 20 degC
     # (~1.87 kJ/(kg K)): about 31 kJ/K
     assert 18.5e-3 * 872 * 1800 < caps["oil"] < 19.2e-3 * 872 * 1950
@@ -100,9 +116,10 @@ def test_peak_return_rise_matches_the_210_rule(us_scenario, us_trace):
     assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - 273.15, abs=1e-3)
 
 
-def test_pulls_under_limit_counts_until_the_first_crossing(us_scenario, us_trace):
+def test_pulls_under_limit_counts_until_the_first_crossing(crossing_scenario, crossing_trace):
     # The invented US rig passes its 180 degF limit mid-session: count, from the trace itself, the
     # pulls completed with the bulk never above the limit before their end.
+    us_scenario, us_trace = crossing_scenario, crossing_trace
     r = session_report(us_scenario, us_trace)
     limit, _ = limit_K(us_scenario)
     assert r["peak_C"] > r["limit_C"]
@@ -149,9 +166,12 @@ def test_trace_csv_keeps_the_six_columns_and_adds_the_hose_last(default_scenario
     assert np.all(rows[:, 2] >= rows[:, 1] - 1e-3)           # return line never below the bulk
     assert set(np.round(rows[1:, 5])) <= {7000.0, 150.0}      # pull and idle loads of the default rig
     np.testing.assert_allclose(rows, trace_rows(trace), rtol=1e-5, atol=1e-3)
+    # hose_C: the rubber's capacity-weighted mean over its two rings (liner and cover)
+    np.testing.assert_allclose(rows[:, 6], trace.hose_K[:, 0] - 273.15, atol=1e-3)
 
 
-def test_first_crossing_interpolates_between_points(us_trace, us_scenario):
+def test_first_crossing_interpolates_between_points(crossing_trace, crossing_scenario):
+    us_trace, us_scenario = crossing_trace, crossing_scenario
     limit, _ = limit_K(us_scenario)
     t = float(first_crossing_s(us_trace, limit)[0])
     oil, times = us_trace.T_K[:, 0, OIL], us_trace.time_s[:, 0]

@@ -96,14 +96,52 @@ def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
     return np.maximum(jet, volume_flow_m3_s / rig.tank_cross_section_m2)
 
 
+# The hose wall as two finite-volume rings (see hose_rings_m): the liner is this fraction of the
+# wall's thickness, next to the oil; the cover is the rest.
+HOSE_LINER_FRACTION = 0.2
+
+
+def hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m):
+    """The hose wall's two rings, radii in m: (bore face, liner/cover interface, outside face,
+    liner centre, cover centre).
+
+    Finite-volume rings (Incropera, 6th ed., ch. 5, in radial form): each node sits at its ring's
+    mid-radius and holds its ring's volume; neighbouring centres exchange 2 pi k L / ln(r_b / r_a)
+    (the shell conductance, eq. 3.27). The rule: the liner, the ring in contact with the oil, is the
+    inner HOSE_LINER_FRACTION (a fifth) of the wall thickness, the cover the rest.
+
+    Why a fifth: a pull touches the rubber for 10-30 s, and heat soaks into it about sqrt(alpha t)
+    deep, 0.9-1.5 mm with alpha = k / (rho c) = 7.5e-8 m^2/s (materials.HOSE_WALL), a fifth to a
+    third of a 4.8 mm wall, while the whole wall's conduction time t^2 / alpha is about 300 s. One node
+    at mid-wall (the former model) cannot take heat up in a 10-s contact. Against the wall resolved
+    into 40 rings (tests/hose_wall_reference.py, the adiabatic rig of tests/test_solver.py: 20 pulls
+    of 10 kW x 10 s with 30 s engine-off waits, inner face adiabatic while the engine is off), the heat
+    two rings take over the session, by the liner's share of the thickness (measured, one-way drive
+    by the four-node model's trace): 0.10: -8.6 %, 0.15: -6.0 %, 0.20: -6.5 %, 0.25: -8.1 %,
+    1/3: -11.7 %, 0.50 (equal rings): -19.3 %; one node at mid-wall: -38 %. The optimum is flat
+    between 0.15 and 0.2; a fifth is the round figure in it.
+    """
+    r_i, r_o = 0.5 * hose_inner_diameter_m, 0.5 * hose_outer_diameter_m
+    r_s = r_i + HOSE_LINER_FRACTION * (r_o - r_i)
+    return r_i, r_s, r_o, 0.5 * (r_i + r_s), 0.5 * (r_s + r_o)
+
+
+def hose_liner_share(hose_inner_diameter_m, hose_outer_diameter_m):
+    """The liner's share of the hose wall's volume (and so of its capacity): (r_s^2 - r_i^2) /
+    (r_o^2 - r_i^2), a little under HOSE_LINER_FRACTION (0.18 on a 0.66 bore ratio)."""
+    r_i, r_s, r_o, _, _ = hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m)
+    return (r_s**2 - r_i**2) / (r_o**2 - r_i**2)
+
+
 def constant_parts(rig: Rig) -> dict:
     """Geometry-only parts of the conductances, to work out once per rig (Rig.constants): stacked
     lengths, the wall's and the hose wall's conduction, areas. (Emissivities and multipliers may be
     sampled per design by the uncertainty band, so they stay out of it.)"""
     like = np.atleast_1d(rig.fill_height_m)
     half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    mid = 0.5 * (rig.hose_inner_diameter_m + rig.hose_outer_diameter_m)
     L = rig.hose_length_m
+    r_i, _, r_o, r_liner, r_cover = hose_rings_m(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m)
+    k_hose = HOSE_WALL_CONDUCTIVITY_W_mK
     return {
         "half_wall_m2K_W": half_wall,
         # oil side: (sides, bottom) natural-convection lengths and forced-flow lengths
@@ -115,10 +153,13 @@ def constant_parts(rig: Rig) -> dict:
         "forced_lengths_m": _rows(rig.plate_length_m, rig.body_length_m, like=like),
         "dry_area_m2": rig.dry_side_area_m2 + rig.top_area_m2,
         "wall_kt_W_K": rig.wall_conductivity_W_mK * rig.wall_thickness_m,
-        # hoses: the hose wall's halves, inside and outside of the node at mid-wall
+        # hoses: the rubber's two rings (hose_rings_m): bore face -> liner centre, liner centre ->
+        # cover centre, cover centre -> outside face; the liner's share of the capacity
         "hose_area_m2": np.pi * rig.hose_outer_diameter_m * L,
-        "hose_inner_half_W_K": cylinder_wall_conductance_W_K(rig.hose_inner_diameter_m, mid, L, HOSE_WALL_CONDUCTIVITY_W_mK),
-        "hose_outer_half_W_K": cylinder_wall_conductance_W_K(mid, rig.hose_outer_diameter_m, L, HOSE_WALL_CONDUCTIVITY_W_mK),
+        "hose_inner_W_K": cylinder_wall_conductance_W_K(2 * r_i, 2 * r_liner, L, k_hose),
+        "hose_link_W_K": cylinder_wall_conductance_W_K(2 * r_liner, 2 * r_cover, L, k_hose),
+        "hose_outer_W_K": cylinder_wall_conductance_W_K(2 * r_cover, 2 * r_o, L, k_hose),
+        "hose_liner_share": hose_liner_share(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m),
         # loop: rows (hose bore, passages) of the tube diameters and lengths
         "tube_diameters_m": _rows(rig.hose_inner_diameter_m, rig.passage_diameter_m, like=like),
         "tube_lengths_m": _rows(L, rig.passage_length_m, like=like),
@@ -173,9 +214,10 @@ def _series(area_m2, h_W_m2K, resistance_m2K_W):
     return area_m2 * h_W_m2K / (1.0 + h_W_m2K * resistance_m2K_W)
 
 
-def hose_mid_diameter_m(rig: Rig):
-    """Diameter of the hose wall's mid-surface, where the hose node sits, m."""
-    return 0.5 * (rig.hose_inner_diameter_m + rig.hose_outer_diameter_m)
+def hose_ring_link_W_K(rig: Rig):
+    """Conductance hose liner -> hose cover, W/K: the rubber's shell between the two rings' centres
+    (hose_rings_m), 2 pi k L / ln(r_cover / r_liner)."""
+    return rig.constants["hose_link_W_K"]
 
 
 def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
@@ -198,12 +240,13 @@ def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
 
 def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses), each convection (times
-    the multiplier) plus linearised radiation. T_hose_K defaults to T_hardware_K.
+    the multiplier) plus linearised radiation. T_hose_K is the hose cover's (the outer ring's)
+    temperature, the hoses' conductance is from the cover's centre; it defaults to T_hardware_K.
 
     Wall: the wetted sides (vertical plates, Churchill-Chu) and the bottom (McAdams), each in series
     with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K). Bodies: vertical
     plates of body_length_m over body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series
-    with the outer half of the hose wall.
+    with the conduction from the cover's centre to the outside face (hose_rings_m).
     Evaluated together to share work: one air-property lookup for the three film temperatures, one
     vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
     and the bottom (same face, same temperature).
@@ -237,7 +280,7 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
             + dry_shell_W_K(rig, h_side, h_top))
     hardware = rig.body_area_m2 * (m * h_body + h_rad[1])
     hose_area = parts["hose_area_m2"]
-    hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / parts["hose_outer_half_W_K"])
+    hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / parts["hose_outer_W_K"])
     return wall, hardware, hose
 
 
@@ -252,7 +295,8 @@ def hardware_to_ambient_W_K(rig: Rig, T_hardware_K):
 
 
 def hose_to_ambient_W_K(rig: Rig, T_hose_K):
-    """Conductance hoses -> air, W/K (see ambient_conductances_W_K)."""
+    """Conductance hose cover -> air, W/K, at the cover's temperature T_hose_K (see
+    ambient_conductances_W_K)."""
     return ambient_conductances_W_K(rig, T_hose_K, T_hose_K)[2]
 
 
@@ -265,7 +309,7 @@ def oil_to_wall_W_K(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props=No
 
 
 def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
-    """Conductances loop oil -> (metal bodies, hoses), W/K; the bodies' is not yet multiplied by
+    """Conductances loop oil -> (metal bodies, hose liner), W/K; the bodies' is not yet multiplied by
     hardware_coupling_multiplier.
 
     Flowing: each is a heat exchanger with one side (the solid) at a uniform temperature, so
@@ -280,9 +324,9 @@ def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, c
       number h t / k ~ 0.1-0.3). The valve's throttling jet and the gear mesh stir more than either
       estimate says, so this is a low estimate (hardware_coupling_multiplier carries the
       uncertainty).
-    - Hoses: the tube correlation over the bore in series with the inner half of the rubber wall
-      (the hose node sits at the wall's mid-surface).
-    Still (engine off): the bodies and the hoses touch the tank's oil only through the oil standing
+    - Hoses: the tube correlation over the bore in series with the conduction from the bore to the
+      liner's centre (the hose liner is the inner ring of the rubber, hose_rings_m).
+    Still (engine off): the bodies and the hose liner touch the tank's oil only through the oil standing
     in the hoses: conduction along that column, half the hose length, nearly nothing each.
     """
     D_i, L = rig.hose_inner_diameter_m, rig.hose_length_m
@@ -296,7 +340,7 @@ def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, c
     length = _like(parts["tube_lengths_m"], D[0])
     velocity = volume_flow_m3_s / (0.25 * np.pi * D**2)
     h = Nu_tube_Hausen_Gnielinski(velocity * D / nu, pr, D, length) * k_oil / D
-    UA_hose = 1.0 / (1.0 / (h[0] * np.pi * D_i * L) + 1.0 / parts["hose_inner_half_W_K"])
+    UA_hose = 1.0 / (1.0 / (h[0] * np.pi * D_i * L) + 1.0 / parts["hose_inner_W_K"])
     d_p = rig.gear_pitch_diameter_m
     pitch_speed = np.pi * d_p * volume_flow_m3_s / (rig.displacement_m3 * rig.volumetric_efficiency)
     h_pump = Nu_flat_plate_forced_Incropera(pitch_speed * 0.5 * d_p / nu, pr) * k_oil / (0.5 * d_p)
@@ -314,5 +358,5 @@ def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_
 
 
 def oil_to_hose_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):
-    """Conductance loop oil -> hoses, W/K (see loop_conductances_W_K)."""
+    """Conductance loop oil -> hose liner, W/K (see loop_conductances_W_K)."""
     return loop_conductances_W_K(rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props)[1]

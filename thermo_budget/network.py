@@ -1,11 +1,16 @@
-"""The lumped thermal network of a rig: four nodes and ambient air as the boundary.
+"""The lumped thermal network of a rig: five nodes and ambient air as the boundary.
 
     C_i(T) dT_i/dt = sum_j G_ij(T, flow) (T_j - T_i) + G_i,amb (T_amb - T_i) + Q_i
 
 Nodes (NODE_NAMES): the oil (the reservoir's and the loop's), the reservoir wall, the loop's metal
-bodies (pump, valve, manifold and fittings, wetted inside) and the hoses (rubber and braid).
+bodies (pump, valve, manifold and fittings, wetted inside), and the hoses' wall (rubber and braid)
+as two rings: the liner (HOSE, the inner fifth of the wall, touched by the oil) and the cover
+(HOSE_COVER, the rest, to the air); see conductances.hose_rings_m for the rule and why.
 Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
-a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE.
+a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE, HOSE_COVER.
+Where one temperature stands for the hose (a report's end_hose_C, the trace CSV's hose_C), it is
+the rubber's capacity-weighted mean (hose_mean_K), the temperature whose rise times the hose's
+capacity is the heat it holds, as the one hose node's was.
 """
 from __future__ import annotations
 
@@ -14,15 +19,17 @@ from functools import cached_property
 
 import numpy as np
 
-from .conductances import (HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K, constant_parts, dry_shell_W_K,
-                           h_air_W_m2K,
+from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K,
+                           constant_parts, dry_shell_W_K, h_air_W_m2K, hose_ring_link_W_K, hose_rings_m,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
 from .oil import Oil
 
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
-__all__ = ["HARDWARE", "HOSE", "HOSE_WALL_CONDUCTIVITY_W_mK", "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig",
+__all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
+           "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_ring_link_W_K",
+           "hose_rings_m",
            "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
            "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
@@ -30,9 +37,11 @@ __all__ = ["HARDWARE", "HOSE", "HOSE_WALL_CONDUCTIVITY_W_mK", "N_NODES", "NODE_N
            "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
            "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
-OIL, WALL, HARDWARE, HOSE = 0, 1, 2, 3
-NODE_NAMES = ("oil", "wall", "hardware", "hose")
+# HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
+OIL, WALL, HARDWARE, HOSE, HOSE_COVER = 0, 1, 2, 3, 4
+NODE_NAMES = ("oil", "wall", "hardware", "hose liner", "hose cover")
 N_NODES = len(NODE_NAMES)
+HOSE_RINGS = (HOSE, HOSE_COVER)
 
 
 @dataclass(frozen=True)
@@ -80,7 +89,7 @@ class Rig:
     cooler_fan: str = "with_flow"
     # The inside of the rig (build_rig fills these; the defaults describe a rig without them).
     loop_oil_mass_kg: float = 0.0            # oil in the hoses, pump and valve (in the OIL node)
-    hose_capacity_J_K: float = 1.0           # hose rubber and braid
+    hose_capacity_J_K: float = 1.0           # hose rubber and braid, both rings (the liner's share: constants)
     internal_area_m2: float = 0.0            # wetted inside of the metal bodies (pump chamber + passages)
     pump_wetted_area_m2: float = 0.0         # the part of it in the pump's working chamber
     gear_pitch_diameter_m: float = 0.04      # the pump's gears (taken as an external gear pump)
@@ -149,7 +158,9 @@ def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndar
     C[:, OIL] = oil_node_mass_kg(rig) * cp
     C[:, WALL] = rig.wall_capacity_J_K
     C[:, HARDWARE] = rig.hardware_capacity_J_K
-    C[:, HOSE] = rig.hose_capacity_J_K
+    liner = rig.constants["hose_liner_share"]
+    C[:, HOSE] = liner * rig.hose_capacity_J_K
+    C[:, HOSE_COVER] = (1.0 - liner) * rig.hose_capacity_J_K
     return _capacity_scale(rig) * C
 
 
@@ -164,8 +175,10 @@ def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
     wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
     hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    hose = rig.hose_capacity_J_K * (T_K[:, HOSE] - 273.15)
-    return _capacity_scale(rig) * _columns(oil, wall, hardware, hose, n=T_K.shape[0])
+    liner_C = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
+    liner = liner_C * (T_K[:, HOSE] - 273.15)
+    cover = (rig.hose_capacity_J_K - liner_C) * (T_K[:, HOSE_COVER] - 273.15)
+    return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, n=T_K.shape[0])
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
@@ -174,8 +187,17 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
     wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
     hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
-    hose = H[:, HOSE] / rig.hose_capacity_J_K + 273.15
-    return _columns(oil, wall, hardware, hose, n=H.shape[0])
+    liner_C = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
+    liner = H[:, HOSE] / liner_C + 273.15
+    cover = H[:, HOSE_COVER] / (rig.hose_capacity_J_K - liner_C) + 273.15
+    return _columns(oil, wall, hardware, liner, cover, n=H.shape[0])
+
+
+def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
+    """The hose rubber's capacity-weighted mean temperature, K, of states T_K (..., N_NODES): the
+    temperature whose rise times the hose's capacity is the heat the two rings hold."""
+    liner = rig.constants["hose_liner_share"]
+    return liner * T_K[..., HOSE] + (1.0 - liner) * T_K[..., HOSE_COVER]
 
 
 def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
@@ -201,19 +223,22 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_ob = rig.hardware_coupling_multiplier * G_ob
-    G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE])
+    G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER])
+    G_lc = rig.constants["hose_link_W_K"]
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
     L = np.zeros((n, N_NODES, N_NODES))
     L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool
     L[:, WALL, WALL] = G_ow + G_wa
     L[:, HARDWARE, HARDWARE] = G_ob + G_ba
-    L[:, HOSE, HOSE] = G_oh + G_ha
+    L[:, HOSE, HOSE] = G_oh + G_lc
+    L[:, HOSE_COVER, HOSE_COVER] = G_lc + G_ha
     L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
     L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_ob
     L[:, OIL, HOSE] = L[:, HOSE, OIL] = -G_oh
-    g_amb = _columns(G_cool, G_wa, G_ba, G_ha, n=n)
-    # The bodies and the hoses see the mean loop oil temperature, bulk + half the return-line rise;
+    L[:, HOSE, HOSE_COVER] = L[:, HOSE_COVER, HOSE] = -G_lc
+    g_amb = _columns(G_cool, G_wa, G_ba, 0.0, G_ha, n=n)
+    # The bodies and the hose liner see the mean loop oil temperature, bulk + half the return-line rise;
     # the cooler sees the return line, bulk + the full rise.
     b = g_amb * ambient_column(T_a)
     b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh) * return_rise
@@ -251,7 +276,8 @@ def cooling_time_constant_s(rig: Rig, T_K: float) -> float:
     capacity over the total conductance to the air, s (inf where nothing is lost). Design 0."""
     T = np.full((1, N_NODES), float(T_K))
     C = float(np.sum(heat_capacities_J_K(rig, T)[0]))
-    G = float(sum(np.atleast_1d(g)[0] for g in ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE], T[:, HOSE])))
+    G = float(sum(np.atleast_1d(g)[0]
+                  for g in ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE], T[:, HOSE_COVER])))
     return C / G if G > 0 else float("inf")
 
 

@@ -6,7 +6,7 @@ import math
 import numpy as np
 
 from .errors import ScenarioError
-from .network import HARDWARE, HOSE, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
+from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
 from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
@@ -76,7 +76,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "end_C": _celsius(trace.T_K[-1, 0, OIL]),
         "end_wall_C": _celsius(trace.T_K[-1, 0, WALL]),
         "end_hardware_C": _celsius(trace.T_K[-1, 0, HARDWARE]),
-        "end_hose_C": _celsius(trace.T_K[-1, 0, HOSE]),
+        "end_hose_C": _celsius(trace.hose_K[-1, 0]),     # the rubber's mean (both rings, by capacity)
         "peak_return_C": _celsius(trace.return_K[:, 0].max()),
         "pulls_planned": int(trace.pull_end_s.shape[0]),
         "return_line_limit_C": None if return_limit is None else _celsius(return_limit),
@@ -88,7 +88,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "energy_lost_J": lost,
         "energy_stored_J": stored,
         "energy_balance_rel_error": (energy_in - lost - stored) / energy_in,
-        "heat_capacity_J_per_K": {name: round(float(c), 2) for name, c in zip(NODE_NAMES, capacities)},
+        "heat_capacity_J_per_K": capacity_by_body(capacities),
         "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
         "peak_pull_power_W": pump["peak_pull_power_W"],
         "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
@@ -204,13 +204,22 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     return result
 
 
+def capacity_by_body(capacities) -> dict:
+    """Node capacities (N_NODES,) as the report's heat_capacity_J_per_K, J/K, one per body: oil, wall,
+    hardware, hose (the rubber and braid, its two rings summed, as the one hose node was)."""
+    out = {name: round(float(c), 2) for i, (name, c) in enumerate(zip(NODE_NAMES, capacities)) if i not in HOSE_RINGS}
+    out["hose"] = round(float(sum(capacities[i] for i in HOSE_RINGS)), 2)
+    return out
+
+
 def trace_rows(trace: Trace, design: int = 0):
     """Rows of the trace CSV: time_s, oil_C, return_C, wall_C, hardware_C, power_W, hose_C.
-    power_W is the mean absorbed power over the interval that ends at the row; hose_C comes last so
-    that readers of the older six columns keep working."""
+    power_W is the mean absorbed power over the interval that ends at the row; hose_C (the hose
+    rubber's capacity-weighted mean over its two rings, Trace.hose_K) comes last so that readers of
+    the older six columns keep working."""
     T = trace.T_K[:, design, :] - 273.15
     return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
-                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], T[:, HOSE]])
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], trace.hose_K[:, design] - 273.15])
 
 
 TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C")

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (N_NODES, OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
+from .network import (HOSE, HOSE_COVER, N_NODES, OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
                       temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
@@ -130,6 +130,8 @@ class Trace:
     time_s (M,N), T_K (M,N,k) (k = N_NODES), return_K (M,N) return-line oil, power_W (M,N) (of the sub-step that
     ends at the point), step_index (M,) (-1 for the start point), energies (N,) in J.
     pull_start_s / pull_end_s (n_pulls, N): when each pull began and ended.
+    hose_liner_share: the hose liner's share of the hose's capacity (a float, or one per design), so
+    that the trace can give the hose rubber's mean temperature (hose_K) without its rig.
     """
     time_s: np.ndarray
     T_K: np.ndarray
@@ -141,10 +143,17 @@ class Trace:
     energy_stored_J: np.ndarray
     pull_start_s: np.ndarray
     pull_end_s: np.ndarray
+    hose_liner_share: float | np.ndarray
 
     @property
     def final_K(self) -> np.ndarray:
         return self.T_K[-1]
+
+    @property
+    def hose_K(self) -> np.ndarray:
+        """The hose rubber's capacity-weighted mean temperature (M,N), K (network.hose_mean_K)."""
+        share = self.hose_liner_share
+        return share * self.T_K[..., HOSE] + (1.0 - share) * self.T_K[..., HOSE_COVER]
 
     def designs(self, index) -> "Trace":
         """The trace of the designs in `index` only."""
@@ -152,7 +161,9 @@ class Trace:
                      power_W=self.power_W[:, index], step_index=self.step_index,
                      energy_in_J=self.energy_in_J[index], energy_lost_J=self.energy_lost_J[index],
                      energy_stored_J=self.energy_stored_J[index], pull_start_s=self.pull_start_s[:, index],
-                     pull_end_s=self.pull_end_s[:, index])
+                     pull_end_s=self.pull_end_s[:, index],
+                     hose_liner_share=self.hose_liner_share if np.ndim(self.hose_liner_share) == 0
+                     else self.hose_liner_share[index])
 
 
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
@@ -230,5 +241,6 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
                  power_W=np.array(powers), step_index=np.array(indices), energy_in_J=energy_in,
                  energy_lost_J=energy_lost, energy_stored_J=stored,
                  pull_start_s=np.array(pull_start).reshape(-1, n_designs),
-                 pull_end_s=np.array(pull_end).reshape(-1, n_designs))
+                 pull_end_s=np.array(pull_end).reshape(-1, n_designs),
+                 hose_liner_share=rig.constants["hose_liner_share"])
 

@@ -246,3 +246,13 @@ def test_runs_before_limit_stops_counting_at_max_pulls():
     # full pulls completed, so the crossing is in pull full + 1: counting that far finds it
     assert runs_before_limit(scenario, rig, 1, np.zeros(1, bool), max_pulls=int(full) + 1)[0] == full
     assert np.isnan(runs_before_limit(scenario, rig, 1, np.zeros(1, bool), max_pulls=int(full))[0])
+
+
+def test_the_warm_started_cooler_search_gives_the_cold_started_answer(busy, monkeypatch):
+    # The sustained-cooler search starts the periodic states of its later rounds from the converged
+    # states of the earlier ones (planning._warm_start); Newton converges to the same fixed point, so
+    # the answer is the same as from the session's start state (a saving of time, not a change).
+    import thermo_budget.planning as planning
+    fitted = planning.required_cooler_W_K(busy, [], sustained=True)
+    monkeypatch.setattr(planning, "_warm_start", lambda seen, values: None)
+    assert planning.required_cooler_W_K(busy, [], sustained=True) == fitted

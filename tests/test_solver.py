@@ -137,21 +137,34 @@ def scenario_and_reference(request):
     return request.param, scenario, rig, Reference(rig, scenario.steps, np.full(N_NODES, scenario.start_K))
 
 
-# Worst differences measured when this test was written (K, bulk oil / any node):
+# Worst differences measured when this test was written (K, bulk oil / any node), four nodes:
 #   default           trace 3.7e-4 / 5.2e-3   plan 1.4e-3 / 2.2e-2
 #   plastic cylinder  trace 7.8e-5 / 7.8e-4   plan 4.6e-4 / 7.4e-3
 #   us units, fan     trace 6.2e-4 / 1.2e-2   plan 4.7e-3 / 4.9e-2
+# With the hose as two rings (bulk oil / hose liner / any other node):
+#   default           trace 8.2e-4 / 8.8e-4 / 1.6e-3   plan 3.1e-3 / 3.4e-3 / 6.3e-3
+#   plastic cylinder  trace 6.8e-5 / 1.4e-4 / 2.7e-4   plan 1.4e-3 / 1.4e-3 / 2.9e-3
+#   us units, fan     trace 2.6e-3 / 1.9e-1 / 1.9e-2   plan 2.4e-2 / 1.5e+0 / 2.3e-1
 @pytest.mark.parametrize("resolution", [TRACE_RESOLUTION, PLAN_RESOLUTION], ids=["trace", "plan"])
 def test_bulk_temperature_within_0p05_K_of_the_reference(scenario_and_reference, resolution):
     # Issue requirement: bulk oil within 0.05 K of a tight-tolerance reference solution.
     name, scenario, rig, reference = scenario_and_reference
     trace = integrate(rig, scenario.steps, scenario.start_K, resolution=resolution)
     ref = reference.T_K(trace.time_s[:, 0])
-    error_oil = np.max(np.abs(trace.T_K[:, 0, OIL] - ref[:, OIL]))
-    error_any = np.max(np.abs(trace.T_K[:, 0, :] - ref))
-    print(f"{name} {resolution}: worst bulk error {error_oil:.2e} K, any node {error_any:.2e} K")
+    error = np.max(np.abs(trace.T_K[:, 0, :] - ref), axis=0)
+    error_oil, error_liner = error[OIL], error[HOSE]
+    error_any = np.max(np.delete(error, HOSE))
+    print(f"{name} {resolution}: worst bulk error {error_oil:.2e} K, hose liner {error_liner:.2e} K, "
+          f"any other node {error_any:.2e} K")
     assert error_oil < 0.05
-    assert error_any < 0.25   # wall and hardware: not a requirement, a guard against regressions
+    assert error_any < 0.25   # wall, hardware, hose cover: not a requirement, a guard against regressions
+    # The hose liner (a fifth of the rubber, behind the bore coefficient and a tenth of the wall)
+    # feels the bore coefficient directly. On the US rig the hose's Reynolds number crosses 2300 in
+    # the 6th pull, where the tube correlation jumps from Hausen's laminar entry to Gnielinski
+    # (26 -> 38 W/K over the pull); the planning resolution holds a pull's coefficients at its
+    # mid-point, so that pull's liner ends 1.5 K low (measured; 0.19 K at the trace resolution; the
+    # bulk 0.024 K). A guard, not a requirement:
+    assert error_liner < 2.0
     # the recorded peak too
     assert abs(float(peak_oil_K(trace)[0]) - ref[:, OIL].max()) < 0.05
 
@@ -251,7 +264,7 @@ def test_designs_are_independent_in_a_batch(base_scenario):
 
 def test_long_engine_off_wait_cools_towards_ambient(base_scenario):
     rig = build_rig(base_scenario)
-    T0 = np.array([350.0, 340.0, 330.0, 320.0])
+    T0 = np.array([350.0, 340.0, 330.0, 320.0, 315.0])
     cool = Step(kind="wait", duration_s=48 * 3600.0, engine="off")
     trace = integrate(rig, [cool], T0)
     oil = trace.T_K[:, 0, OIL]
@@ -447,7 +460,8 @@ def test_adiabatic_rig_with_engine_off_waits_the_bodies_hold_back_little():
     # through the hose rubber) left the bulk 6.6 K above the single-temperature balance with the
     # hardware 52 K behind the oil; now the metal bodies are less than 15 K behind it and the bulk
     # less than 5 K above the balance. Most of what is left is the hose rubber, which 10-s pulls cannot heat through
-    # (measured when this test was written: bulk +4.1 K, bodies -6.9 K, hose -31 K from the balance).
+    # (measured when this test was written: bulk +4.1 K, bodies -6.9 K, hose -31 K from the balance;
+    # with the hose as two rings: bulk +3.2 K, bodies -7.6 K, hose liner -16 K, cover -20 K).
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)
     T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)

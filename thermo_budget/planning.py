@@ -143,16 +143,21 @@ def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
     return F - X, peak_c[0::copies], J
 
 
-def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0):
+def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0, X0=None,
+                   states: list | None = None):
     """(sustainable (N,) bool, periodic peak (N,) K). Sustainable: the periodic state exists and its
     peak stays at or below the limit, and the way there from the start stays below it too.
+    X0 : optional first guess of the periodic states (N,k) K (periodic_state); states : optional list
+    to which (the periodic states (N,k) K, converged (N,) bool) is appended.
 
     The network is cooperative (every coupling pushes temperatures together), so a start no warmer
     than the periodic state, node by node, approaches it from below and never peaks above it; only
     designs that start warmer than their periodic state need the planned session checked as well.
     """
     limit, _ = limit_K(scenario)
-    X, peak, ok = periodic_state(scenario, rig, n, wait_s)
+    X, peak, ok = periodic_state(scenario, rig, n, wait_s, X0=X0)
+    if states is not None:
+        states.append((X, ok))
     ok = ok & (peak <= limit - margin_K)
     warmer = ok & np.any(scenario.start_K > X + 1e-9, axis=1)
     if warmer.any():
@@ -266,15 +271,37 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     return round_up(wait, 2)
 
 
+def _warm_start(seen: list, values: np.ndarray):
+    """First guesses of the periodic states at the candidate values of a search, node by node
+    linear in the value between the converged states of the candidates tried before (None when
+    there are fewer than two). Later rounds of a search lie inside the bracket of the earlier ones,
+    so Newton starts close to the answer and needs fewer iterations; the answer is the same fixed
+    point (converged to NEWTON_TOL_K either way)."""
+    if not seen:
+        return None
+    tried = np.concatenate([v for v, _, _ in seen])
+    X = np.concatenate([x for _, x, _ in seen])
+    good = np.concatenate([c for _, _, c in seen])
+    if np.count_nonzero(good) < 2:
+        return None
+    order = np.argsort(tried[good])
+    tried, X = tried[good][order], X[good][order]
+    return np.column_stack([np.interp(values, tried, X[:, j]) for j in range(X.shape[1])])
+
+
 def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> float | None:
     """Smallest cooler specific dissipation (W/K) for the planned session (or, sustained=True, for
     the cadence to be sustainable). 0 when none is needed; None when no rating can do it."""
     limit, _ = limit_K(scenario)
+    seen: list = []       # (coolers, periodic states, converged) of the candidates tried so far
 
     def passes(coolers):
         rig = build_rig(scenario, cooler_W_K=coolers)
         if sustained:
-            ok, _ = sustainability(scenario, rig, coolers.size, margin_K=SEARCH_MARGIN_K)
+            states: list = []
+            ok, _ = sustainability(scenario, rig, coolers.size, margin_K=SEARCH_MARGIN_K,
+                                   X0=_warm_start(seen, coolers), states=states)
+            seen.append((coolers, *states[0]))
             return ok
         peak, _ = session_outcome(scenario, rig, coolers.size)
         return peak <= limit - SEARCH_MARGIN_K

@@ -212,15 +212,16 @@ def test_run_ambients_gives_the_hot_day_and_refuses_a_bad_range(capsys):
 
 
 def test_a_plain_run_loads_neither_scipy_nor_pint_nor_coolprop(tmp_path):
-    # start-up (issue 13): these cost seconds; the run of a scenario without the band needs none
+    # start-up (issue 13): these cost seconds; a run needs none of them, with the band off or on (the
+    # band's Sobol points are shipped: uncertainty.standard_normals, make_sobol_table)
     raw = {**base_raw(), "uncertainty": {"enabled": False}}
-    path = write_toml(tmp_path, raw)
-    code = ("import sys, io, contextlib; from thermo_budget.cli import main\n"
-            f"with contextlib.redirect_stdout(io.StringIO()): assert main(['run', {str(path)!r}, '--json']) == 0\n"
-            "print(sorted({m.split('.')[0] for m in sys.modules} & {'scipy', 'pint', 'CoolProp', 'matplotlib'}))")
-    done = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True, text=True, timeout=120)
-    assert done.returncode == 0, done.stderr
-    assert done.stdout.strip() == "[]"
+    for path in (write_toml(tmp_path, raw), DEFAULT):
+        code = ("import sys, io, contextlib; from thermo_budget.cli import main\n"
+                f"with contextlib.redirect_stdout(io.StringIO()): assert main(['run', {str(path)!r}, '--json']) == 0\n"
+                "print(sorted({m.split('.')[0] for m in sys.modules} & {'scipy', 'pint', 'CoolProp', 'matplotlib'}))")
+        done = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True, text=True, timeout=120)
+        assert done.returncode == 0, done.stderr
+        assert done.stdout.strip() == "[]", path
     help_only = subprocess.run([sys.executable, "-c", "import sys; from thermo_budget.cli import main; main(['--help'])\n"
                                 "print('numpy' in sys.modules)"], cwd=REPO, capture_output=True, text=True, timeout=60)
     assert help_only.stdout.strip().endswith("False")

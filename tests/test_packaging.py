@@ -65,6 +65,7 @@ def test_pip_install_gives_the_package_and_the_command(tmp_path):
                           capture_output=True, text=True, timeout=300)
     assert done.returncode == 0, done.stderr
     assert (target / "thermo_budget" / "data" / "air_1atm.csv").is_file()
+    assert (target / "thermo_budget" / "data" / "sobol_normals.npz").is_file()
     env = {"PYTHONPATH": str(target), "PATH": "/usr/bin:/bin"}
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()

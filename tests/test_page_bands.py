@@ -2,7 +2,7 @@
 band's line under the headline."""
 import numpy as np
 
-from thermo_budget import load_scenario, report
+from thermo_budget import DEFAULT_SCENARIO, load_scenario, report
 from thermo_budget.band_text import plan_phrase, pulls_phrase
 from thermo_budget.page_bands import envelope_png, ranking_png
 from thermo_budget.report import simulate
@@ -48,3 +48,19 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
     line = next(m.value for m in at.markdown if "Before the log" in m.value)
     (b10, b90), (a10, a90) = [tuple(map(int, pair)) for pair in re.findall(r"likely (\d+)-(\d+)", line)]
     assert a90 - a10 < b90 - b10
+
+
+def test_the_pull_count_band_is_shown_once():
+    """The pull-count card carries the count's band and the plan; the "How sure" line below it says
+    what the range means and what to measure, without repeating them."""
+    from pathlib import Path
+    from streamlit.testing.v1 import AppTest
+    repo = Path(__file__).resolve().parent.parent
+    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
+    assert not at.exception
+    texts = [m.value for m in at.markdown]
+    band = report(load_scenario(DEFAULT_SCENARIO))["bands"]["runs_before_limit"]
+    shown = f"likely {band['p10']}–{band['p90']}"
+    assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
+    how_sure = next(t for t in texts if t.startswith("**How sure:**"))
+    assert f"{band['p10']}-{band['p90']}" not in how_sure and "8 in 10" in how_sure

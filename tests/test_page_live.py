@@ -67,6 +67,13 @@ def _live_app(folder, system):
     return AppTest.from_function(app, args=(str(folder), system), default_timeout=120)
 
 
+def _elements(node):
+    """Every element under an AppTest tree node (the live chart has no typed accessor)."""
+    for child in (node.children.values() if isinstance(getattr(node, "children", None), dict) else []):
+        yield child
+        yield from _elements(child)
+
+
 @pytest.mark.parametrize("system, unit", [("SI", "°C"), ("US", "°F")])
 def test_the_section_shows_ready_time_pulls_left_and_nodes(tmp_path, system, unit):
     (tmp_path / "demo.csv").write_text((SCENARIO_DIR / "demo_log.csv").read_text())
@@ -75,6 +82,8 @@ def test_the_section_shows_ready_time_pulls_left_and_nodes(tmp_path, system, uni
     assert any("Ready now" in m.value for m in at.markdown)
     metrics = {m.label: m.value for m in at.metric}
     assert metrics["Pulls left"].isdigit()
+    charts = [e for e in _elements(at._tree) if getattr(e, "type", None) == "vega_lite_chart"]
+    assert len(charts) == 1 and all(f"{what} (" in str(charts[0].proto) for what in ("measured", "forecast", "limit"))
     assert metrics["Oil, estimated"].endswith(unit) and "Wall, estimated" in metrics
     at.text_input(key="live_log").set_value("../outside.csv").run()
     assert not at.exception and any("inside" in e.value for e in at.error)

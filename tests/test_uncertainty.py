@@ -98,3 +98,18 @@ def test_posterior_from_the_demo_log_fit():
     model = read_uncertainty({"posterior": table})
     assert "emissivity" not in {f.key for f in model.active}
     assert table["sd_ln"][0] < np.log1p(UncertaintyModel().widths["convection"])
+
+
+def test_the_shipped_sobol_points_are_scipys():
+    # the table the package reads (make_sobol_table) against scipy.stats.qmc.Sobol and norm.ppf, the
+    # source; and more points than the table holds still come from scipy, continuing the same sequence
+    from thermo_budget.make_sobol_table import main as check_table
+    from thermo_budget.uncertainty import (SOBOL_SEED, SOBOL_TABLE_POINTS, UncertaintyModel,
+                                           sobol_normals_from_scipy, standard_normals)
+    assert check_table(["--check"]) == 0
+    model = UncertaintyModel()
+    k = len(model.active)
+    from_table = standard_normals(model, 128)
+    assert np.array_equal(from_table, sobol_normals_from_scipy(k, 128, SOBOL_SEED))
+    more = standard_normals(model, 2 * SOBOL_TABLE_POINTS)
+    assert np.array_equal(more[:128], from_table)

@@ -97,17 +97,23 @@ def _table(answers: dict, system: str) -> list[dict]:
 
 
 def section(page: PagePlan):
-    """How sure the answers are: the pull count's band and the plan first, then the table of every
-    answer's band and plan, what to measure first, and the band before and after a log fit."""
+    """How sure the answers are: what the range means and what to measure first (the pull count's band
+    and plan where its card does not show them), then the table of every answer's band and plan, and
+    the band before and after a log fit."""
     answers, system = page.answers, page.system
     if "bands" not in answers:
         return
     if not answers["uncertainty"].get("samples"):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
-    plan = plan_phrase(answers)
-    st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") +
-                (f" {answers['band_advice']}" if answers["band_advice"] else ""))
+    advice = f" {answers['band_advice']}" if answers["band_advice"] else ""
+    if answers["runs_before_limit"] is not None:   # the pull-count card shows the band and the plan already
+        st.markdown(f"**How sure:** the likely range beside a figure is where 8 in 10 of the rigs the uncertainty "
+                    f"model allows fall; the plan keeps the session under the limit in "
+                    f"{100 * answers['confidence']:.0f} % of them.{advice}")
+    else:
+        plan = plan_phrase(answers)
+        st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") + advice)
     with st.expander("The likely range of every answer, the plan at your confidence, and what moves them",
                      expanded=False):
         left, right = st.columns([3, 2])

@@ -111,12 +111,12 @@ def _live_view(toml_text: str, system: str, path: str, sensor: str):
     if record is None:
         st.info(f"Waiting for oil readings in {Path(path).name} …")
         return
-    show_record(record, system)
+    show_record(record, system, state.live_watch.limit_K)
 
 
-def show_record(record, system: str):
+def show_record(record, system: str, limit_K: float | None = None):
     """The ready time large, the pulls left, the nodes, the alarm and the measured against the
-    forecast temperature, in the page's unit system."""
+    forecast temperature, with the bulk limit (limit_K, where given) as a line, in the page's unit system."""
     def temperature(T_K):
         return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
 
@@ -139,7 +139,9 @@ def show_record(record, system: str):
     ahead = pd.Series(to_display(record.forecast.path_oil_K, "temperature", system),
                       index=record.forecast.path_time_s / 60.0, name=f"forecast ({unit})")
     frame = pd.concat([measured[~measured.index.duplicated()], ahead[~ahead.index.duplicated()]], axis=1).sort_index()
-    st.line_chart(frame.interpolate(limit_area="inside") if len(frame) > 1 else frame,
-                  x_label="log time (min)", y_label=f"oil ({unit})")
+    frame = frame.interpolate(limit_area="inside") if len(frame) > 1 else frame
+    if limit_K is not None:
+        frame[f"limit ({unit})"] = float(to_display(limit_K, "temperature", system))
+    st.line_chart(frame, x_label="log time (min)", y_label=f"oil ({unit})")
     st.caption(f"Log time {record.time_s / 60:.1f} min. The forecast runs the planned pulls from the estimated "
                "state, the next one at its ready time.")

@@ -159,7 +159,8 @@ def hot_day(page: PagePlan, slots: Slots):
 def _draw_hot_day(page: PagePlan, place):
     from .hot_day import AROUND_K, DEFAULT_RANGE_C
     with place, st.spinner("Working out a hotter day…"):
-        hot, image = state.hot_day_chart(page.toml_text, page.system)
+        hot = state.hot_day_for(page.toml_text)
+        image = state.hot_day_png(page.toml_text, page.system)
     system = page.system
     left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")

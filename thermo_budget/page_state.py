@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import streamlit as st
 
 import thermo_budget as tb
-from . import page_charts, page_worker
+from . import page_charts
 from .errors import ScenarioError
 from .report import report, simulate
 from .scenario import Scenario, load_scenario, read_toml_text
@@ -52,59 +52,16 @@ def design_sweep_for(toml_text: str):
     return page_charts.design_sweep(toml_text, answers_for(toml_text))
 
 
-@st.cache_resource(show_spinner=False)
-def _worker():
-    """The page's worker process (page_worker), shared by every session; None where it cannot start."""
-    return page_worker.start_pool()
-
-
-@st.cache_resource(show_spinner=False)
-def _chart_jobs() -> dict:
-    """The worker's chart jobs by (scenario TOML, unit system), asked for and not yet taken."""
-    return {}
-
-
-@st.cache_resource(show_spinner=False)
-def _hot_day_charts() -> dict:
-    """(hot day, its PNG) by (scenario TOML, unit system), from the worker."""
-    return {}
-
-
-def start_charts(toml_text: str, system: str, keep: int = 8):
-    """Ask the worker for the design chart and the hot day of this scenario, unless they are at hand."""
-    jobs, key = _chart_jobs(), (toml_text, system)
-    if key in jobs or key in _design_charts():
-        return
-    while len(jobs) >= keep:
-        jobs.pop(next(iter(jobs))).cancel()
-    jobs[key] = page_worker.submit(_worker(), toml_text, system)
-
-
-def _keep(cache: dict, key, value, keep: int = 32):
-    while len(cache) >= keep:
-        cache.pop(next(iter(cache)))
-    cache[key] = value
-
-
-def design_chart(toml_text: str, system: str) -> bytes:
+def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
     charts, key = _design_charts(), (toml_text, system)
     if key not in charts:
         with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
                         f"{page_charts.DESIGN_COOLERS} rigs)…"):
-            done = page_worker.charts_of(_chart_jobs().pop(key, None))
-            if done is not None:
-                png = done["design_png"]
-                _keep(_hot_day_charts(), key, (done["hot_day"], done["hot_day_png"]))
-            else:
-                png = page_charts.design_chart_png(toml_text, system, result=design_sweep_for(toml_text))
-        _keep(charts, key, png)
+            png = page_charts.design_chart_png(toml_text, system, result=design_sweep_for(toml_text))
+        while len(charts) >= keep:
+            charts.pop(next(iter(charts)))
+        charts[key] = png
     return charts[key]
-
-
-def hot_day_chart(toml_text: str, system: str):
-    """(hot day, its chart PNG): the worker's where it drew them, else worked out here."""
-    done = _hot_day_charts().get((toml_text, system))
-    return done if done is not None else (hot_day_for(toml_text), hot_day_png(toml_text, system))
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
@@ -268,7 +225,6 @@ def plan(current: Scenario, draft_error: str | None, drawn_from: dict) -> PagePl
                                             **fit.calibrated_scenario.raw.get("uncertainty", {})})
                if calibrated else current)
     toml_text = planned.to_toml()
-    start_charts(toml_text, ss.system)   # drawn by the worker while the answers are worked out here
     started = time.perf_counter()
     answers = answers_for(toml_text)
     return PagePlan(planned, toml_text, answers, ss.system, calibrated, fit, fit_error, draft_error,

@@ -118,6 +118,13 @@ def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
     return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (b, system)
 
 
+def _step_inputs(rig: Rig, step: Step, f0: float, f1: float, power_scale, n: int) -> Inputs:
+    """The network's inputs over the fraction [f0, f1] of a step: its mean power (times each design's
+    power multiplier) and the pump's flow at the middle of it."""
+    flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
+    return Inputs(power_W=power_scale * step.mean_power_W(f0, f1), volume_flow_m3_s=np.full(n, float(flow)))
+
+
 def _inputs_key(step: Step):
     """Steps with equal keys put equal inputs into the network (constant power and speed)."""
     return step.engine, step.power_W, step.rpm
@@ -199,35 +206,35 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         h = duration / n_sub
         if step.is_pull:
             pull_start.append(t.copy())
-        corrector = None if step.curve is not None else last_system.get(_inputs_key(step))
+        constant_inputs = step.curve is None
+        corrector = last_system.get(_inputs_key(step)) if constant_inputs else None
+        inputs = _step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs) if constant_inputs else None
         for k in range(n_sub):
-            f0, f1 = k / n_sub, (k + 1) / n_sub
-            power = step.mean_power_W(f0, f1)
-            flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
-            inputs = Inputs(power_W=power_scale * power, volume_flow_m3_s=np.full(n_designs, float(flow)))
-            constant_inputs = step.curve is None
+            if not constant_inputs:
+                inputs = _step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
+            any_held = held.any()
             # a held design is evaluated at its start state (its result is discarded), so that no
             # correlation is asked about a state far outside its range
-            T_eval = np.where(held[:, None], T_first, T) if held.any() else T
+            T_eval = np.where(held[:, None], T_first, T) if any_held else T
             with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
                 T_new, q_in, q_lost, corrector = advance_substep(rig, T_eval, inputs, h, rig.ambient_K,
-                                                                 corrector if constant_inputs and not held.any() else None)
-            if held.any() or not np.all(np.isfinite(T_new)):
+                                                                 corrector if constant_inputs and not any_held else None)
+            if any_held or not np.isfinite(T_new.sum()):
                 bad = held | ~np.all(np.isfinite(T_new), axis=1)
                 T_new = np.where(bad[:, None], T, T_new)
                 q_in, q_lost = np.where(bad, 0.0, q_in), np.where(bad, 0.0, q_lost)
                 held |= bad
             if constant_inputs:
                 last_system[_inputs_key(step)] = corrector
-            T = T_new
+            T = T_new                      # a new array each sub-step: the lists below keep it as it is
             held |= T[:, OIL] > give_up_above_K
             energy_in += q_in
             energy_lost += q_lost
             t = t + h
-            times.append(t.copy())
-            temps.append(T.copy())
+            times.append(t)
+            temps.append(T)
             powers.append(inputs.power_W)
-            returns.append(T[:, OIL] + return_line_rise_K(rig, T[:, OIL], inputs))
+            returns.append(T[:, OIL] + return_line_rise_K(rig, T[:, OIL], inputs) if step.flowing else T[:, OIL])
             indices.append(index)
             if stop_above_K is not None:
                 been_above |= T[:, OIL] > stop_above_K

@@ -14,6 +14,8 @@ covariance) in place of their prior.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
+from pathlib import Path
 
 import numpy as np
 
@@ -22,6 +24,8 @@ from .scenario_table import _Table
 from .units import parse_quantity
 
 SOBOL_SEED = 20261202          # fixed, so that the same scenario gives the same band
+SOBOL_TABLE_POINTS = 256       # points per dimension shipped in data/sobol_normals.npz (make_sobol_table)
+SOBOL_TABLE_PATH = Path(__file__).resolve().parent / "data" / "sobol_normals.npz"
 DEFAULT_CONFIDENCE = 0.9
 FACTOR_OF_TWO = np.sqrt(2.0) - 1.0   # ln(1 + w) = ln(2) / 2: x/÷ 2 is the two-sigma range
 
@@ -207,11 +211,25 @@ def posterior_table(names_sd_ln: dict, correlation) -> dict:
 
 def standard_normals(model: UncertaintyModel, n: int, seed: int = SOBOL_SEED) -> np.ndarray:
     """(n, k) standard normal points for the k active factors: scrambled Sobol points (n a power of
-    two) through the normal quantile function."""
+    two) through the normal quantile function. Read from the shipped table (make_sobol_table) where
+    it holds them, else from scipy: the same numbers either way."""
     k = len(model.active)
+    if seed == SOBOL_SEED and n <= SOBOL_TABLE_POINTS and 1 <= k <= len(FACTORS):
+        return _sobol_table()[f"d{k}"][:n].copy()
+    return sobol_normals_from_scipy(k, n, seed)
+
+
+def sobol_normals_from_scipy(k: int, n: int, seed: int) -> np.ndarray:
+    """(n, k) scrambled Sobol points (the first n of the sequence) through the normal quantile function."""
     from scipy.stats import norm, qmc   # here, not at the top: a second of start-up for every command
-    points = qmc.Sobol(d=k, scramble=True, seed=seed).random_base2(int(np.log2(n)))
+    points = qmc.Sobol(d=k, scramble=True, seed=seed).random_base2(int(np.ceil(np.log2(n))))[:n]
     return norm.ppf(np.clip(points, 1e-12, 1.0 - 1e-12))
+
+
+@lru_cache(maxsize=1)
+def _sobol_table() -> dict[str, np.ndarray]:
+    with np.load(SOBOL_TABLE_PATH) as table:
+        return {name: table[name] for name in table.files}
 
 
 def factor_values(model: UncertaintyModel, z: np.ndarray) -> dict:

@@ -256,3 +256,22 @@ def test_the_warm_started_cooler_search_gives_the_cold_started_answer(busy, monk
     fitted = planning.required_cooler_W_K(busy, [], sustained=True)
     monkeypatch.setattr(planning, "_warm_start", lambda seen, values: None)
     assert planning.required_cooler_W_K(busy, [], sustained=True) == fitted
+
+
+def test_runs_before_limit_resumed_where_it_stopped_counts_as_one_go():
+    # the band counts in two goes (bands._sample_runs): to a first cap, then on from the state reached
+    # for the designs not yet over; the second go must give the counts of one go to the second cap
+    from thermo_budget.planning import runs_before_limit
+    scenario = load_scenario(DEFAULT_SCENARIO)
+    volumes = np.array([0.6, 1.0, 1.3]) * scenario.reservoir.oil_volume_m3
+    rig = build_rig(scenario, oil_volume_m3=volumes)
+    never = np.zeros(3, bool)
+    one_go = runs_before_limit(scenario, rig, 3, never, max_pulls=80)
+    reached = {}
+    first = runs_before_limit(scenario, rig, 3, never, max_pulls=30, state_out=reached)
+    left = np.flatnonzero(np.isnan(first))
+    assert left.size and reached["pulls"] >= 30
+    from thermo_budget.planning import take_designs
+    first[left] = runs_before_limit(scenario, take_designs(rig, left), left.size, np.zeros(left.size, bool),
+                                    max_pulls=80, resume=(reached["state"][left], reached["pulls"]))
+    np.testing.assert_array_equal(first, one_go)

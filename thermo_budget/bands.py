@@ -13,7 +13,8 @@ import numpy as np
 
 from .network import OIL
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, take_designs, time_constant_s
+from .planning import (SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, sustainability, take_designs,
+                       time_constant_s)
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
@@ -72,7 +73,8 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
            "peak_C": peak_oil_K(session) - 273.15, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
         out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,
-                                                                         int(point["runs_before_limit"]))
+                                                                         int(point["runs_before_limit"]),
+                                                                         model.confidence)
     oil = session.T_K[:, :, OIL] - 273.15
     out["envelope"] = {"time_s": np.round(session.time_s[:, 0], 2).tolist(),
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
@@ -83,17 +85,36 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     return out
 
 
-def _sample_runs(scenario, rig, n: int, session, point_runs: int):
+def _sample_runs(scenario, rig, n: int, session, point_runs: int, confidence: float = 0.9):
     """Pulls before the limit per sample: (for the band, inf where uncounted; for the ranking, an
-    uncounted sample at its lower bound). Counted up to 3 x the point answer, and only until the
-    samples needed for the P90 (bands.order_statistic) have crossed: the later ones lie above P90
-    whatever their count, so they stay uncounted."""
+    uncounted sample at its lower bound). Counted only as far as the quantiles need: until the
+    samples that decide P90 (order_statistic) have crossed, the later ones lying above P90 whatever
+    their count. First to 1.5 x the point answer. Where P90 is not decided by then, the samples left
+    are checked for a cadence that never crosses (planning.sustainability): if those make P90
+    unbounded, counting stops there (P10, P50 and the plan are decided); else the others are counted
+    on from where they are, to 3 x the point answer."""
     per_cycle = sum(step.is_pull for step in scenario.cycle)
-    cap = 3 * point_runs + per_cycle
     needed = int(np.ceil(0.9 * n))
-    runs = runs_before_limit(scenario, rig, n, np.zeros(n, bool), max_pulls=cap, session=session, enough=needed)
+    decided = max(int(np.ceil(0.5 * n)), int(np.floor((1.0 - confidence) * n)) + 1)   # P10, P50, the plan
+    first_cap, cap = int(np.ceil(1.5 * point_runs)) + per_cycle, 3 * point_runs + per_cycle
+    reached: dict = {}
+    runs = runs_before_limit(scenario, rig, n, np.zeros(n, bool), max_pulls=first_cap, session=session,
+                             enough=needed, state_out=reached)
+    left = np.flatnonzero(np.isnan(runs))
+    counted_to = first_cap
+    if left.size and n - left.size < needed and reached["pulls"] < cap:
+        never = np.zeros(left.size, bool)
+        if n - left.size >= decided:
+            never, _ = sustainability(scenario, take_designs(rig, left), left.size)
+        if np.count_nonzero(never) <= n - needed:      # P90 may still be a count: count the others on
+            on = left[~never]
+            runs[on] = runs_before_limit(scenario, take_designs(rig, on), on.size, np.zeros(on.size, bool),
+                                         max_pulls=cap, enough=needed - (n - left.size),
+                                         resume=(reached["state"][on], reached["pulls"]))
+            counted_to = cap
     uncounted = np.isnan(runs)
-    counted_to = np.nanmax(runs) if (~uncounted).any() else cap   # every uncounted sample lasts at least this
+    if not uncounted.all():
+        counted_to = min(counted_to, int(np.nanmax(runs)))   # every uncounted sample lasts at least this
     return np.where(uncounted, np.inf, runs), np.where(uncounted, counted_to + 1, runs)
 
 

@@ -169,7 +169,7 @@ def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: 
 
 
 def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS,
-                      session=None, enough: int | None = None):
+                      session=None, enough: int | None = None, resume=None, state_out: dict | None = None):
     """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
     Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls.
 
@@ -177,14 +177,18 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     then the cycles that remain up to max_pulls, integrated only until every design still counted
     has crossed the limit, or (enough) until that many designs in all have: the designs counted
     are then the `enough` earliest to cross, and the others stay NaN.
+
+    resume : optional (state (N,k) K at a cycle's start, pulls done by then) to count on from, for
+    designs none of which has crossed yet; state_out : optional dict that receives that pair
+    ("state", "pulls") where the counting ended (at a cycle's start unless it ended on `enough`).
     """
     limit, return_limit = limits_K(scenario)
     stop_K = limit if return_limit is None else min(limit, return_limit)  # over it, a limit is passed
     pulls_per_cycle = sum(step.is_pull for step in scenario.cycle)
     runs = np.full(n, np.nan)
     active = np.flatnonzero(~sustainable)
-    X = np.array(np.broadcast_to(scenario.start_K, (n, N_NODES)), dtype=float)
-    done_pulls = 0
+    X = np.array(np.broadcast_to(scenario.start_K if resume is None else resume[0], (n, N_NODES)), dtype=float)
+    done_pulls = 0 if resume is None else int(resume[1])
     while active.size and done_pulls < max_pulls:
         counted = n - active.size - np.count_nonzero(sustainable)
         if enough is not None and counted >= enough:
@@ -207,6 +211,8 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
         X[active] = trace.final_K
         done_pulls += cycles * pulls_per_cycle
         active = active[~crossed]
+    if state_out is not None:
+        state_out.update(state=X, pulls=done_pulls)
     return runs
 
 

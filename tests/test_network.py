@@ -249,13 +249,18 @@ def test_rig_geometry_of_a_box():
     assert float(rig.oil_mass_kg[0]) == pytest.approx(15.0 * 0.870)
 
 
-def test_plastic_wall_conduction_matters():
-    # A 6 mm polyethylene wall (k ~0.4 W/(m K)) must reject noticeably less than 2 mm steel.
+def _steel_and_plastic_rigs():
+    """The invented base rig with its 2 mm steel tank, and the same rig with a 6 mm polyethylene tank."""
     raw = base_raw()
     steel = build_rig(load_scenario(raw))
     set_path(raw, "reservoir.wall_material", "polyethylene")
     set_path(raw, "reservoir.wall_thickness", "6 mm")
-    plastic = build_rig(load_scenario(raw))
+    return steel, build_rig(load_scenario(raw))
+
+
+def test_plastic_wall_conduction_matters():
+    # A 6 mm polyethylene wall (k ~0.4 W/(m K)) must reject noticeably less than 2 mm steel.
+    steel, plastic = _steel_and_plastic_rigs()
     T = np.array([350.0])
     g_steel, g_plastic = float(wall_to_ambient_W_K(steel, T)[0]), float(wall_to_ambient_W_K(plastic, T)[0])
     assert g_plastic < g_steel
@@ -356,11 +361,7 @@ def test_dry_shell_is_a_fin_steel_mostly_effective_plastic_hardly():
     # (Incropera eq. 3.89): 2 mm steel with h ~ 10 W/(m^2 K) has 1/m = 0.1 m, so a 0.2 m fin keeps
     # about half its effect; 6 mm polyethylene has 1/m ~ 0.015 m, so almost nothing above the oil
     # line works.
-    raw = base_raw()
-    steel = build_rig(load_scenario(raw))
-    set_path(raw, "reservoir.wall_material", "polyethylene")
-    set_path(raw, "reservoir.wall_thickness", "6 mm")
-    plastic = build_rig(load_scenario(raw))
+    steel, plastic = _steel_and_plastic_rigs()
     h = np.array([10.0])
     for rig, low, high in ((steel, 0.35, 0.7), (plastic, 0.0, 0.1)):
         full = (rig.dry_side_area_m2 + rig.top_area_m2) * h / (1 + h * 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK)

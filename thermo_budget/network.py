@@ -28,7 +28,8 @@ from .oil import Oil
 
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
-           "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_ring_link_W_K",
+           "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
+           "hose_ring_link_W_K",
            "hose_rings_m",
            "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
            "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
@@ -196,8 +197,12 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
 def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     """The hose rubber's capacity-weighted mean temperature, K, of states T_K (..., N_NODES): the
     temperature whose rise times the hose's capacity is the heat the two rings hold."""
-    liner = rig.constants["hose_liner_share"]
-    return liner * T_K[..., HOSE] + (1.0 - liner) * T_K[..., HOSE_COVER]
+    return hose_mean_from_share_K(rig.constants["hose_liner_share"], T_K)
+
+
+def hose_mean_from_share_K(liner_share, T_K: np.ndarray) -> np.ndarray:
+    """hose_mean_K from the liner's share of the hose's capacity (a float, or one per design)."""
+    return liner_share * T_K[..., HOSE] + (1.0 - liner_share) * T_K[..., HOSE_COVER]
 
 
 def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
@@ -224,7 +229,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_ob = rig.hardware_coupling_multiplier * G_ob
     G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER])
-    G_lc = rig.constants["hose_link_W_K"]
+    G_lc = hose_ring_link_W_K(rig)
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
     L = np.zeros((n, N_NODES, N_NODES))

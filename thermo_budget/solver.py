@@ -11,8 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (HOSE, HOSE_COVER, N_NODES, OIL, Inputs, Rig, ambient_column, node_enthalpy_J, node_equations, per_design, return_line_rise_K,
-                      temperatures_from_enthalpy_K)
+from .network import (N_NODES, OIL, Inputs, Rig, ambient_column, hose_mean_from_share_K, node_enthalpy_J,
+                      node_equations, per_design, return_line_rise_K, temperatures_from_enthalpy_K)
 from .session import Resolution, Step, pump_flow_m3_s
 
 # A design whose oil passes this temperature is held there and no longer integrated: it is far past
@@ -159,8 +159,7 @@ class Trace:
     @property
     def hose_K(self) -> np.ndarray:
         """The hose rubber's capacity-weighted mean temperature (M,N), K (network.hose_mean_K)."""
-        share = self.hose_liner_share
-        return share * self.T_K[..., HOSE] + (1.0 - share) * self.T_K[..., HOSE_COVER]
+        return hose_mean_from_share_K(self.hose_liner_share, self.T_K)
 
     def designs(self, index) -> "Trace":
         """The trace of the designs in `index` only."""

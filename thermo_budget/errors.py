@@ -37,3 +37,6 @@ class ScenarioError(ValueError):
             key_text = "…" + key_text[-MAX_KEY_CHARS:]
         expected_text = " ".join(str(expected).split())
         super().__init__(f"{key_text}: got {shown(value)}, expected {expected_text}")
+
+    def __reduce__(self):   # so that it pickles whole (the page's worker hands it back)
+        return type(self), (self.key, self.value, self.expected)

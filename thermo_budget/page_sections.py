@@ -159,8 +159,8 @@ def hot_day(page: PagePlan, slots: Slots):
 def _draw_hot_day(page: PagePlan, place):
     from .hot_day import AROUND_K, DEFAULT_RANGE_C
     with place, st.spinner("Working out a hotter day…"):
-        hot = state.hot_day_for(page.toml_text)
-        image = state.hot_day_png(page.toml_text, page.system)
+        charts = state.slow_charts(page.toml_text, page.system)
+        hot, image = charts.hot, charts.hot_png
     system = page.system
     left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")
@@ -189,7 +189,7 @@ def design_chart(page: PagePlan, slots: Slots):
     else is up; until then the page keeps showing the previous chart. Then the sections that asked
     to come after it."""
     with slots.design_chart:
-        image = state.design_chart(page.toml_text, page.system)
+        image = state.slow_charts(page.toml_text, page.system).design_png
         st.image(image, width="stretch")
     slots.design_download.download_button("Design chart (.png)", image, file_name="design_chart.png",
                                           mime="image/png")

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import streamlit as st
 
 import thermo_budget as tb
-from . import page_charts
+from . import page_charts, page_worker
 from .errors import ScenarioError
 from .report import report, simulate
 from .scenario import Scenario, load_scenario, read_toml_text
@@ -41,44 +41,48 @@ def answers_for(toml_text: str) -> dict:
 
 
 @st.cache_resource(show_spinner=False)
-def _design_charts() -> dict:
-    """Design-chart PNGs by (scenario TOML, unit system), shared by every session, oldest first.
-    Held by hand rather than by st.cache_data so that a cached chart shows no spinner."""
+def _worker():
+    """The page's worker process (page_worker), shared by every session."""
+    return page_worker.Worker()
+
+
+@st.cache_resource(show_spinner=False)
+def _slow_charts() -> dict:
+    """page_worker.SlowCharts futures by (scenario TOML, unit system), shared by every session,
+    oldest first. Held by hand: a future is kept from the moment it is asked for."""
     return {}
 
 
-@st.cache_data(max_entries=32, show_spinner=False)
-def design_sweep_for(toml_text: str):
-    return page_charts.design_sweep(toml_text, answers_for(toml_text))
+def start_slow_charts(toml_text: str, system: str, keep: int = 32):
+    """Ask the worker for the design chart and the hot day now; slow_charts() takes them later."""
+    futures, key = _slow_charts(), (toml_text, system)
+    if key not in futures:
+        while len(futures) >= keep:
+            futures.pop(next(iter(futures)))
+        if not _worker().alive():
+            _worker.clear()
+        futures[key] = _worker().submit(toml_text, system)
 
 
-def design_chart(toml_text: str, system: str, keep: int = 32) -> bytes:
-    charts, key = _design_charts(), (toml_text, system)
-    if key not in charts:
+def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
+    """The worker's design chart and hot day; worked out here if the worker has died."""
+    start_slow_charts(toml_text, system)
+    future = _slow_charts()[(toml_text, system)]
+    try:
+        if future.done():
+            return future.result()
         with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
-                        f"{page_charts.DESIGN_COOLERS} rigs)…"):
-            png = page_charts.design_chart_png(toml_text, system, result=design_sweep_for(toml_text))
-        while len(charts) >= keep:
-            charts.pop(next(iter(charts)))
-        charts[key] = png
-    return charts[key]
+                        f"{page_charts.DESIGN_COOLERS} rigs) and a hotter day…"):
+            return future.result()
+    except page_worker.WorkerGone:
+        _slow_charts().pop((toml_text, system), None)
+        return page_worker.slow_charts(toml_text, system)
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
     from .page_bands import envelope_png   # the chart with the band's P10-P90 envelope
     return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
-
-
-@st.cache_data(max_entries=32, show_spinner=False)
-def hot_day_for(toml_text: str):
-    from .hot_day import hot_day
-    return hot_day(scenario_of(toml_text))
-
-
-@st.cache_data(max_entries=32, show_spinner=False)
-def hot_day_png(toml_text: str, system: str) -> bytes:
-    return page_charts.hot_day_chart_png(toml_text, system, hot_day_for(toml_text))
 
 
 @st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
@@ -225,6 +229,7 @@ def plan(current: Scenario, draft_error: str | None, drawn_from: dict) -> PagePl
                                             **fit.calibrated_scenario.raw.get("uncertainty", {})})
                if calibrated else current)
     toml_text = planned.to_toml()
+    start_slow_charts(toml_text, ss.system)   # worked out beside the answers
     started = time.perf_counter()
     answers = answers_for(toml_text)
     return PagePlan(planned, toml_text, answers, ss.system, calibrated, fit, fit_error, draft_error,

@@ -4,22 +4,32 @@ import numpy as np
 
 from thermo_budget import DEFAULT_SCENARIO, load_scenario, report
 from thermo_budget.band_text import plan_phrase, pulls_phrase
-from thermo_budget.page_bands import envelope_png, ranking_png
+from thermo_budget.page_bands import envelope_png, ranking_html
 from thermo_budget.report import simulate
 
 from conftest import SCENARIO_DIR
 
 
-def test_envelope_and_ranking_charts_are_pngs():
+def test_the_envelope_chart_is_a_png_with_the_band_drawn():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
     r = report(scenario)
     text = scenario.to_toml()
     with_band = envelope_png(text, "SI", simulate(scenario), r["band_envelope"])
     without = envelope_png(text, "SI", simulate(scenario), None)
     assert with_band[:8] == b"\x89PNG\r\n\x1a\n" and with_band != without
-    png = ranking_png.__wrapped__(tuple((row["what"], row["share"]) for row in r["band_ranking"])) \
-        if hasattr(ranking_png, "__wrapped__") else ranking_png(tuple((row["what"], row["share"]) for row in r["band_ranking"]))
-    assert png[:4] == b"\x89PNG"
+
+
+def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share():
+    import re
+    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    rows = [(row["what"], row["share"]) for row in r["band_ranking"]]
+    chart = ranking_html(rows, r["band_ranking"][0]["of"])
+    widths = [float(w) for w in re.findall(r'style="width:([0-9.]+)%"', chart)]
+    assert len(widths) == len(rows) and widths[0] == 80.0
+    assert np.allclose(np.array(widths) / 80.0, [share / rows[0][1] for _, share in rows], atol=1e-3)
+    for label, share in rows:
+        assert label in chart and f"{100 * share:.0f} %" in chart
+    assert "<script" not in ranking_html([("<script>x</script>", 0.5)])   # labels are escaped
 
 
 def test_the_band_in_words():

@@ -189,7 +189,7 @@ def browser_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[floa
             browser = p.chromium.launch(executable_path=BROWSER, args=BROWSER_FLAGS)
             page = browser.new_page(viewport={"width": 1366, "height": 900})
             page.goto(url)
-            page.wait_for_function(_PAGE_SETTLED, arg=[[], 4], timeout=180_000)
+            page.wait_for_function(_PAGE_SETTLED, arg=[[], 3], timeout=180_000)
             page.wait_for_timeout(2000)
             field = page.locator('[data-testid="stSidebar"] [data-testid="stNumberInput"]').filter(
                 has_text="Oil in the tank").locator("input")

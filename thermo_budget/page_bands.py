@@ -3,10 +3,11 @@ what moves them most (a small chart), the band before and after a log fit, and t
 on the temperature chart. Every figure comes from the report's band keys (bands.py)."""
 from __future__ import annotations
 
+import html
+
 import numpy as np
 import pandas as pd
 import streamlit as st
-from matplotlib.figure import Figure
 
 from . import page_format as pf
 from . import page_state as state
@@ -32,22 +33,27 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
     return png_bytes(figure)
 
 
-@st.cache_data(max_entries=32, show_spinner=False)
-def ranking_png(rows: tuple, of_what: str = "the pull count") -> bytes:
-    """A small horizontal bar chart: each uncertain input's share of the spread in the pull count."""
-    figure = Figure(figsize=(4.6, 0.42 * len(rows) + 0.7))
-    figure.subplots_adjust(left=0.42, right=0.97, bottom=0.2 if len(rows) > 3 else 0.3, top=0.97)
-    ax = figure.add_subplot()
-    labels = [label for label, _ in rows][::-1]
-    shares = [100.0 * share for _, share in rows][::-1]
-    ax.barh(labels, shares, color=ENVELOPE_COLOUR, alpha=0.8)
-    for y, share in enumerate(shares):
-        ax.annotate(f"{share:.0f} %", (share, y), xytext=(3, 0), textcoords="offset points", va="center", fontsize=8)
-    ax.set_xlim(0, max(shares) * 1.25 + 1)
-    ax.set_xlabel(f"share of the spread in {of_what} (%)", fontsize=8)
-    ax.tick_params(labelsize=8)
-    ax.grid(axis="x", alpha=0.3)
-    return png_bytes(figure)
+RANKING_CSS = f"""<style>
+.tb-ranking {{ margin: 0.2rem 0 0.4rem 0; font-size: 0.82rem; }}
+.tb-rank {{ display: grid; grid-template-columns: minmax(6rem, 42%) 1fr; gap: 0.6rem; align-items: center;
+           margin: 0.2rem 0; }}
+.tb-rank-bar {{ display: flex; align-items: center; gap: 0.35rem; white-space: nowrap; }}
+.tb-rank-bar > span {{ height: 0.85rem; background: {ENVELOPE_COLOUR}; opacity: 0.8; border-radius: 2px; }}
+</style>"""
+
+
+def ranking_html(rows, of_what: str = "the pull count") -> str:
+    """A small horizontal bar chart, drawn by the browser: each uncertain input's share of the spread
+    in the pull count (rows: (label, share as a fraction), largest first). The largest bar spans
+    four fifths of its column; each bar carries its percentage."""
+    top = max((share for _, share in rows), default=0.0) or 1.0
+    bars = "".join(
+        f'<div class="tb-rank"><span>{html.escape(label)}</span><span class="tb-rank-bar">'
+        f'<span style="width:{80.0 * share / top:.1f}%"></span>{100.0 * share:.0f} %</span></div>'
+        for label, share in rows)
+    summary = "; ".join(f"{label} {100.0 * share:.0f} %" for label, share in rows)
+    return (f'{RANKING_CSS}<div class="tb-ranking" role="img" aria-label="Share of the spread in '
+            f'{html.escape(of_what)}: {html.escape(summary)}">{bars}</div>')
 
 
 def _likely(band, quantity, system, scale=1.0) -> str:
@@ -124,8 +130,8 @@ def section(page: PagePlan):
                      f"is the one above the range.")
         ranking = answers["band_ranking"]
         if ranking:
-            right.image(ranking_png(tuple((row["what"], row["share"]) for row in ranking), ranking[0]["of"]),
-                        width="stretch")
+            right.markdown(ranking_html([(row["what"], row["share"]) for row in ranking], ranking[0]["of"]),
+                           unsafe_allow_html=True)
             right.caption(f"Each input's share of the spread in {ranking[0]['of']} (the linear fit behind the "
                           f"shares explains {100 * ranking[0]['r2']:.0f} % of it).")
         if page.calibrated:

@@ -25,6 +25,7 @@ def test_the_worker_answers_as_the_page_would(worker):
     assert there.design_png[:8] == b"\x89PNG\r\n\x1a\n" and there.hot_png[:8] == b"\x89PNG\r\n\x1a\n"
     assert there.design_png == here.design_png and there.hot_png == here.hot_png
     assert there_us.design_png != there.design_png          # drawn in the other units
+    assert worker.ready()
     np.testing.assert_array_equal(there.hot.pulls, here.hot.pulls)
     np.testing.assert_array_equal(there.hot.cooler_W_per_K, here.hot.cooler_W_per_K)
 
@@ -45,3 +46,25 @@ def test_a_worker_that_has_ended_fails_what_was_asked_of_it():
     assert not gone.alive()
     with pytest.raises(WorkerGone):
         gone.submit(load_scenario(SCENARIO_DIR / "default.toml").to_toml(), "SI").result(timeout=60)
+
+
+def test_the_page_asks_its_worker_once_it_is_ready():
+    """After the first page the worker starts; once it is ready, a change of input is worked out
+    there (its future is kept by the scenario's text) and the page shows the same charts."""
+    import time
+    from pathlib import Path
+    from streamlit.testing.v1 import AppTest
+    from thermo_budget import page_state
+    page = AppTest.from_file(str(Path(__file__).resolve().parent.parent / "app.py"), default_timeout=300).run()
+    running = page_state.worker(start=False)
+    assert running is not None
+    deadline = time.monotonic() + 120
+    while not running.ready() and time.monotonic() < deadline:
+        time.sleep(0.1)
+    asked_before = len(page_state._slow_charts())
+    oil = next(w for w in page.number_input if w.label.startswith("Oil in the tank"))
+    oil.set_value(13.5).run()
+    assert not page.exception and len(page.get("image")) == 3
+    assert len(page_state._slow_charts()) == asked_before + 1
+    (text, system), future = list(page_state._slow_charts().items())[-1]
+    assert future.done() and future.result().design_png == slow_charts(text, system).design_png

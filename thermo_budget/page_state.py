@@ -7,6 +7,7 @@ the page are drawn from.
 """
 from __future__ import annotations
 
+import threading
 import time
 from dataclasses import dataclass
 
@@ -41,9 +42,21 @@ def answers_for(toml_text: str) -> dict:
 
 
 @st.cache_resource(show_spinner=False)
-def _worker():
-    """The page's worker process (page_worker), shared by every session."""
-    return page_worker.Worker()
+def _worker_held() -> dict:
+    """The page's worker process (page_worker) under "worker" once started, shared by every session."""
+    return {}
+
+
+_starting = threading.Lock()
+
+
+def worker(start: bool = True) -> page_worker.Worker | None:
+    """The page's worker, started (afresh, if it has ended) where `start`; else None if there is none."""
+    held = _worker_held()
+    with _starting:
+        if start and (held.get("worker") is None or not held["worker"].alive()):
+            held["worker"] = page_worker.Worker()
+        return held.get("worker")
 
 
 @st.cache_resource(show_spinner=False)
@@ -54,28 +67,31 @@ def _slow_charts() -> dict:
 
 
 def start_slow_charts(toml_text: str, system: str, keep: int = 32):
-    """Ask the worker for the design chart and the hot day now; slow_charts() takes them later."""
+    """Ask the worker for the design chart and the hot day now, so that they are worked out while
+    the page works out its answers; slow_charts() takes them later. Not while the worker is still
+    starting: its imports would only slow the page's own first run, which then draws them itself."""
     futures, key = _slow_charts(), (toml_text, system)
-    if key not in futures:
+    running = worker(start=False)
+    if key not in futures and running is not None and running.alive() and running.ready():
         while len(futures) >= keep:
             futures.pop(next(iter(futures)))
-        if not _worker().alive():
-            _worker.clear()
-        futures[key] = _worker().submit(toml_text, system)
+        futures[key] = running.submit(toml_text, system)
 
 
 def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
-    """The worker's design chart and hot day; worked out here if the worker has died."""
-    start_slow_charts(toml_text, system)
-    future = _slow_charts()[(toml_text, system)]
-    try:
-        if future.done():
-            return future.result()
-        with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
-                        f"{page_charts.DESIGN_COOLERS} rigs) and a hotter day…"):
-            return future.result()
-    except page_worker.WorkerGone:
-        _slow_charts().pop((toml_text, system), None)
+    """The design chart and the hot day: the worker's, or worked out here where it was not asked
+    (still starting) or has ended."""
+    key = (toml_text, system)
+    future = _slow_charts().get(key)
+    if future is not None and future.done() and future.exception() is None:
+        return future.result()
+    with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
+                    f"{page_charts.DESIGN_COOLERS} rigs) and a hotter day…"):
+        try:
+            if future is not None:
+                return future.result()
+        except page_worker.WorkerGone:
+            _slow_charts().pop(key, None)
         return page_worker.slow_charts(toml_text, system)
 
 

@@ -33,6 +33,9 @@ class SlowCharts:
     hot_png: bytes
 
 
+READY = "ready"   # the worker's first message
+
+
 class WorkerGone(RuntimeError):
     """The worker process ended before it answered."""
 
@@ -68,6 +71,7 @@ class Worker:
                                          stdin=subprocess.PIPE, stdout=subprocess.PIPE, env=env)
         self._pending: collections.deque[Future] = collections.deque()   # in the order asked
         self._asking = threading.Lock()
+        self._ready = threading.Event()   # set when the worker has said it is ready
         threading.Thread(target=self._read_answers, name="page-worker-reader", daemon=True).start()
 
     def submit(self, toml_text: str, system: str) -> Future:
@@ -83,7 +87,15 @@ class Worker:
                 future.set_exception(WorkerGone("the page's worker process has ended"))
         return future
 
+    def ready(self) -> bool:
+        """True once the worker has imported what it needs (it says so before its first answer)."""
+        return self._ready.is_set()
+
     def _read_answers(self):
+        try:
+            self._ready.set() if pickle.load(self._process.stdout) == READY else self._process.kill()
+        except Exception:
+            self._process.kill()
         while True:
             try:
                 ok, value = pickle.load(self._process.stdout)
@@ -107,8 +119,10 @@ class Worker:
 
 
 def serve(requests, answers):
-    """The worker's loop: read (toml_text, system) pickles from `requests`, write (True, SlowCharts)
-    or (False, the exception) pickles to `answers`, until `requests` ends."""
+    """The worker's loop: say READY, then read (toml_text, system) pickles from `requests` and write
+    (True, SlowCharts) or (False, the exception) pickles to `answers`, until `requests` ends."""
+    answers.write(pickle.dumps(READY))
+    answers.flush()
     while True:
         try:
             toml_text, system = pickle.load(requests)
@@ -132,4 +146,5 @@ if __name__ == "__main__":
     answers_out = os.fdopen(os.dup(sys.stdout.fileno()), "wb")
     os.dup2(sys.stderr.fileno(), sys.stdout.fileno())   # a stray print must not corrupt the answers
     from thermo_budget import hot_day, page_worker, plots  # noqa: F401  (imported before the first request)
+    page_charts.png_bytes(plots.Figure(figsize=(1, 1)).text(0.5, 0.5, "°").figure)   # and the fonts loaded
     page_worker.serve(sys.stdin.buffer, answers_out)   # by its own name, so that its answers unpickle

@@ -68,3 +68,20 @@ def test_the_page_asks_its_worker_once_it_is_ready():
     assert len(page_state._slow_charts()) == asked_before + 1
     (text, system), future = list(page_state._slow_charts().items())[-1]
     assert future.done() and future.result().design_png == slow_charts(text, system).design_png
+
+
+def test_charts_drawn_in_the_page_are_kept_and_use_its_answers():
+    """Where the worker was not asked, the page draws the charts itself with its own report (no
+    second search for the sizing answers) and keeps them, so a rerun does not draw them again."""
+    from thermo_budget import page_state, report
+    scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"reservoir.oil_volume": "15.5 L"})
+    text = scenario.to_toml()
+    assert (text, "SI") not in page_state._slow_charts()
+    drawn = page_state.slow_charts(text, "SI")
+    kept = page_state._slow_charts()[(text, "SI")]
+    assert kept.done() and kept.result() is drawn
+    assert page_state.slow_charts(text, "SI") is drawn
+    # the report's sizing answers give the grid the worker's own searches give
+    from thermo_budget.page_charts import design_axes
+    for given, searched in zip(design_axes(scenario, report(scenario)), design_axes(scenario)):
+        np.testing.assert_array_equal(given, searched)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import threading
 import time
+from concurrent.futures import Future
 from dataclasses import dataclass
 
 import streamlit as st
@@ -66,16 +67,21 @@ def _slow_charts() -> dict:
     return {}
 
 
-def start_slow_charts(toml_text: str, system: str, keep: int = 32):
+def _keep(key, future: Future, keep: int = 32):
+    futures = _slow_charts()
+    while len(futures) >= keep:
+        futures.pop(next(iter(futures)))
+    futures[key] = future
+
+
+def start_slow_charts(toml_text: str, system: str):
     """Ask the worker for the design chart and the hot day now, so that they are worked out while
     the page works out its answers; slow_charts() takes them later. Not while the worker is still
     starting: its imports would only slow the page's own first run, which then draws them itself."""
-    futures, key = _slow_charts(), (toml_text, system)
+    key = (toml_text, system)
     running = worker(start=False)
-    if key not in futures and running is not None and running.alive() and running.ready():
-        while len(futures) >= keep:
-            futures.pop(next(iter(futures)))
-        futures[key] = running.submit(toml_text, system)
+    if key not in _slow_charts() and running is not None and running.alive() and running.ready():
+        _keep(key, running.submit(toml_text, system))
 
 
 def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
@@ -91,8 +97,12 @@ def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
             if future is not None:
                 return future.result()
         except page_worker.WorkerGone:
-            _slow_charts().pop(key, None)
-        return page_worker.slow_charts(toml_text, system)
+            pass
+        charts = page_worker.slow_charts(toml_text, system, answers_for(toml_text))   # drawn here, kept
+        done: Future = Future()
+        done.set_result(charts)
+        _keep(key, done)
+        return charts
 
 
 @st.cache_data(max_entries=64, show_spinner=False)

@@ -40,23 +40,38 @@ class WorkerGone(RuntimeError):
     """The worker process ended before it answered."""
 
 
-@lru_cache(maxsize=32)
-def _sweep(toml_text: str):
-    return page_charts.design_sweep(toml_text)   # the sizing answers its grid needs, worked out here
+KEEP = 32                       # design sweeps and hot days kept, by scenario text
+_sweeps: dict = {}              # the design sweeps, oldest first
+_sweeps_lock = threading.Lock()
 
 
-@lru_cache(maxsize=32)
+def _sweep(toml_text: str, answers: dict | None = None):
+    """The design chart's sweep, kept by text. answers: the scenario's report where the caller has
+    it (the page's own process); else the sizing answers its grid needs are worked out here."""
+    with _sweeps_lock:
+        if toml_text in _sweeps:
+            return _sweeps[toml_text]
+    result = page_charts.design_sweep(toml_text, answers)
+    with _sweeps_lock:
+        while len(_sweeps) >= KEEP:
+            _sweeps.pop(next(iter(_sweeps)))
+        _sweeps[toml_text] = result
+    return result
+
+
+@lru_cache(maxsize=KEEP)
 def _hot_day(toml_text: str):
     from .hot_day import hot_day
     from .scenario import load_scenario, read_toml_text
     return hot_day(load_scenario(read_toml_text(toml_text)))
 
 
-def slow_charts(toml_text: str, system: str) -> SlowCharts:
-    """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`.
-    The sweep and the hot day are kept by text, so a change of units only redraws."""
+def slow_charts(toml_text: str, system: str, answers: dict | None = None) -> SlowCharts:
+    """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`
+    (answers: its report, if known). The sweep and the hot day are kept by text, so a change of
+    units only redraws."""
     hot = _hot_day(toml_text)
-    return SlowCharts(page_charts.design_chart_png(toml_text, system, result=_sweep(toml_text)), hot,
+    return SlowCharts(page_charts.design_chart_png(toml_text, system, result=_sweep(toml_text, answers)), hot,
                       page_charts.hot_day_chart_png(toml_text, system, hot))
 
 

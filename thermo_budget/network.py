@@ -29,9 +29,7 @@ from .oil import Oil
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
-           "hose_ring_link_W_K",
-           "hose_rings_m",
-           "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
+           "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
            "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
@@ -159,10 +157,14 @@ def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndar
     C[:, OIL] = oil_node_mass_kg(rig) * cp
     C[:, WALL] = rig.wall_capacity_J_K
     C[:, HARDWARE] = rig.hardware_capacity_J_K
-    liner = rig.constants["hose_liner_share"]
-    C[:, HOSE] = liner * rig.hose_capacity_J_K
-    C[:, HOSE_COVER] = (1.0 - liner) * rig.hose_capacity_J_K
+    C[:, HOSE], C[:, HOSE_COVER] = _hose_ring_capacities_J_K(rig)
     return _capacity_scale(rig) * C
+
+
+def _hose_ring_capacities_J_K(rig: Rig):
+    """(liner, cover) heat capacities, J/K: the hose's split by the liner's share of the rubber."""
+    liner = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
+    return liner, rig.hose_capacity_J_K - liner
 
 
 def _capacity_scale(rig: Rig):
@@ -176,9 +178,9 @@ def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
     wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
     hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    liner_C = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
+    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
     liner = liner_C * (T_K[:, HOSE] - 273.15)
-    cover = (rig.hose_capacity_J_K - liner_C) * (T_K[:, HOSE_COVER] - 273.15)
+    cover = cover_C * (T_K[:, HOSE_COVER] - 273.15)
     return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, n=T_K.shape[0])
 
 
@@ -188,9 +190,9 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
     wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
     hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
-    liner_C = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
+    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
     liner = H[:, HOSE] / liner_C + 273.15
-    cover = H[:, HOSE_COVER] / (rig.hose_capacity_J_K - liner_C) + 273.15
+    cover = H[:, HOSE_COVER] / cover_C + 273.15
     return _columns(oil, wall, hardware, liner, cover, n=H.shape[0])
 
 

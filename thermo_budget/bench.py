@@ -296,10 +296,12 @@ def main(argv=None):
         print(f"report() with the band ({N_SAMPLES} samples, {N_SIZING_SAMPLES} for the sizing answers), {name}: "
               f"{t_with:.3f} s, of it the band {t_band:.3f} s ({100 * t_band / t_with:.0f} %, "
               f"{t_band / t_one:.1f} plain simulations) (target <= 1 s)")
-    print(f"page after one input change (5 new oil volumes): median {median_total:.3f} s; best {sum(best_redraw):.3f} s ="
+    print(f"the page's work after one input change, in one process (5 new oil volumes): median {median_total:.3f} s;"
+          f" best {sum(best_redraw):.3f} s ="
           f" answers {best_redraw[0]:.3f} + temperature chart {best_redraw[1]:.3f} + design chart's sweep"
           f" {best_redraw[2]:.3f} + its drawing {best_redraw[3]:.3f}"
-          " (Streamlit and the browser add their own time)")
+          " (the page runs the design chart and the hot day in a second process beside the answers;"
+          " Streamlit and the browser add their own time)")
     in_browser = browser_redraws_s() if args.browser else None
     if in_browser:
         print(f"page in the browser after one input change (headless Chromium, 5 new oil volumes): median "

@@ -74,3 +74,19 @@ def test_the_pull_count_band_is_shown_once():
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
     assert f"{band['p10']}-{band['p90']}" not in how_sure and "8 in 10" in how_sure
+
+
+def test_the_table_of_bands_wraps_every_value_to_the_page():
+    """The table of every answer's band and plan is a plain HTML table (it wraps to the page's width,
+    so no value is cut off on a phone), one row per answer, its values those of the report."""
+    from pathlib import Path
+    from streamlit.testing.v1 import AppTest
+    repo = Path(__file__).resolve().parent.parent
+    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
+    assert not at.exception
+    table = next(m.value for m in at.markdown if "tb-bands" in m.value)
+    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    band = r["bands"]["runs_before_limit"]
+    assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
+    assert f"<td>{band['p10']} to {band['p90']}</td>" in table
+    assert f"<td>{r['plan_at_confidence']['runs_before_limit']}</td>" in table

@@ -6,7 +6,6 @@ from __future__ import annotations
 import html
 
 import numpy as np
-import pandas as pd
 import streamlit as st
 
 from . import page_format as pf
@@ -14,6 +13,7 @@ from . import page_state as state
 from .band_text import plan_phrase, pulls_phrase
 from .page_charts import png_bytes, trace_chart_figure
 from .page_format import to_shown
+from .page_sections import html_table
 from .page_state import PagePlan
 
 ENVELOPE_COLOUR = "#b5461f"
@@ -123,7 +123,9 @@ def section(page: PagePlan):
     with st.expander("The likely range of every answer, the plan at your confidence, and what moves them",
                      expanded=False):
         left, right = st.columns([3, 2])
-        left.dataframe(pd.DataFrame(_table(answers, system)), hide_index=True, width="stretch")
+        rows = _table(answers, system)   # a wrapping table: every value stays readable at any width
+        left.markdown(html_table(list(rows[0]), [list(row.values()) for row in rows], "tb-bands", words_first=True),
+                      unsafe_allow_html=True)
         left.caption(f"Likely: from P10 to P90, i.e. 8 in 10 of the rigs the uncertainty model allows fall in the range "
                      f"({answers['uncertainty']['samples']} quasi-random samples). The plan keeps the session "
                      f"under the limit in {100 * answers['confidence']:.0f} % of them. The model's own figure "

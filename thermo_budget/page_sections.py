@@ -65,15 +65,26 @@ def charts(page: PagePlan) -> Slots:
     return Slots(design_chart=right, design_download=None)
 
 
-SCHEDULE_CSS = """
+TABLE_CSS = """
 <style>
-.tb-schedule { overflow-x: auto; max-width: 100%; }
-.tb-schedule table { border-collapse: collapse; font-size: 0.82rem; width: 100%; }
-.tb-schedule th, .tb-schedule td { border-bottom: 1px solid rgba(49, 51, 63, 0.15); padding: 0.2rem 0.35rem;
-                                   text-align: right; }
-.tb-schedule th { font-weight: 600; vertical-align: bottom; line-height: 1.2; }
+.tb-table { overflow-x: auto; max-width: 100%; }
+.tb-table table { border-collapse: collapse; font-size: 0.82rem; width: 100%; }
+.tb-table th, .tb-table td { border-bottom: 1px solid rgba(49, 51, 63, 0.15); padding: 0.2rem 0.35rem;
+                             text-align: right; }
+.tb-table th { font-weight: 600; vertical-align: bottom; line-height: 1.2; }
+.tb-table.tb-words-first th:first-child, .tb-table.tb-words-first td:first-child { text-align: left; }
 </style>
 """
+
+
+def html_table(header, rows, name: str, words_first: bool = False) -> str:
+    """A plain HTML table (cells escaped) that wraps its text to the page's width, with TABLE_CSS;
+    name: its own class; words_first: the first column is words, set flush left."""
+    e = html.escape
+    classes = f"tb-table {name}" + (" tb-words-first" if words_first else "")
+    return (TABLE_CSS + f"<div class='{classes}'><table><thead><tr>" + "".join(f"<th>{e(h)}</th>" for h in header)
+            + "</tr></thead><tbody>" + "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in row) + "</tr>"
+                                             for row in rows) + "</tbody></table></div>")
 
 
 def schedule_rows(answers: dict, system: str) -> tuple[list[str], list[list[str]]]:
@@ -95,11 +106,7 @@ def schedule(page: PagePlan):
     st.caption("Each planned pull, started after its planned wait, lengthened where needed so that the pull "
                "ends with both the bulk and the return-line oil under their limits.")
     header, rows = schedule_rows(page.answers, page.system)
-    e = html.escape
-    table = ("<div class='tb-schedule'><table><thead><tr>" + "".join(f"<th>{e(h)}</th>" for h in header)
-             + "</tr></thead><tbody>" + "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in row) + "</tr>"
-                                              for row in rows) + "</tbody></table></div>")
-    st.markdown(SCHEDULE_CSS + table, unsafe_allow_html=True)
+    st.markdown(html_table(header, rows, "tb-schedule"), unsafe_allow_html=True)
 
 
 def files(page: PagePlan, slots: Slots):

@@ -67,10 +67,10 @@ def table(doc: str) -> str:
 def rendered(doc: str) -> str:
     """doc with its table regenerated (appended with its markers if it has none yet)."""
     if BEGIN not in doc or END not in doc:
-        return doc.rstrip("\n") + f"\n\n{BEGIN}\n{table(doc)}\n{END}\n"
+        return doc.rstrip("\n") + f"\n\n{BEGIN}\n{table(doc)}\n\n{END}\n"
     before, rest = doc.split(BEGIN, 1)
     after = rest.split(END, 1)[1]
-    return f"{before}{BEGIN}\n{table(doc)}\n{END}{after}"
+    return f"{before}{BEGIN}\n{table(doc)}\n\n{END}{after}"
 
 
 def main(argv: list[str]) -> int:

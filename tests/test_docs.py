@@ -162,14 +162,28 @@ def test_key_reference_quotes_the_range_a_refusal_quotes():
 LINK = re.compile(r"\]\(([^)\s]+)\)")
 
 
+def anchors(text: str) -> set[str]:
+    """The anchors GitHub gives a markdown text's headings: lower case, punctuation dropped,
+    spaces as hyphens."""
+    return {re.sub(r"[^\w\- ]", "", line.lstrip("#").strip().lower()).replace(" ", "-")
+            for _, line in outside_code(text) if re.match(r"^#{1,6} ", line)}
+
+
+def test_anchors_are_githubs():
+    assert anchors("## The uncertainty band\n### What `run` answers\n") == {"the-uncertainty-band", "what-run-answers"}
+
+
 @pytest.mark.parametrize("path", DOCUMENTS, ids=lambda p: p.relative_to(REPO).as_posix())
-def test_links_between_documents_lead_to_files(path):
+def test_links_between_documents_lead_somewhere(path):
     for _, line in outside_code(path.read_text(encoding="utf-8")):
         for target in LINK.findall(line):
-            if re.match(r"^[a-z]+:", target) or target.startswith("#"):
+            if re.match(r"^[a-z]+:", target):
                 continue
-            file = (path.parent / target.split("#", 1)[0]).resolve()
+            name, _, anchor = target.partition("#")
+            file = (path.parent / name).resolve() if name else path
             assert file.exists(), f"{path.name} links to {target}, which does not exist"
+            if anchor and file.suffix == ".md":
+                assert anchor in anchors(file.read_text(encoding="utf-8")), f"{path.name} links to {target}: no such heading"
 
 
 def repository_files() -> list:

@@ -6,12 +6,11 @@ no headline element overflows its box and none ends in an ellipsis.
 
 Skipped (with the reason) only where /usr/bin/chromium is missing. Never downloads a browser.
 Screenshots go to a temporary folder, or to $THERMO_BUDGET_SCREENSHOTS (e.g. `docs`) to refresh the
-ones under docs/.
+ones under docs/ (the README shows docs/page_default_SI_1366.png).
 """
 from __future__ import annotations
 
 import os
-import shutil
 import signal
 import socket
 import subprocess
@@ -209,7 +208,7 @@ def test_phone_width_schedule_and_page_do_not_overflow(server, browser):
     assert found == {"table": 0, "page": 0}
 
 
-def test_page_in_browser_reacts_to_oil_volume(server, browser, shots):
+def test_page_in_browser_reacts_to_oil_volume(server, browser):
     page = _open(browser, server, 1366)
     _settled(page, _expected_pulls(REPO / "scenarios" / "default.toml"), "°C")
     before = _headline(page)
@@ -223,5 +222,3 @@ def test_page_in_browser_reacts_to_oil_volume(server, browser, shots):
     after = _headline(page)
     assert after.strip().isdigit() and int(after) < int(before)  # less oil, fewer pulls
     page.close()
-    if os.environ.get("THERMO_BUDGET_SCREENSHOTS"):   # the README's picture: the default rig at 1366 px
-        shutil.copy(shots / "page_default_SI_1366.png", REPO / "docs" / "screenshot.png")

@@ -2,7 +2,7 @@
 
 Prints P10 / P50 / P90 of the pull count before the limit, of the session's peak, and of the smallest
 oil volume, for growing sample counts of the same Sobol sequence, against a large reference (4,096
-samples for the count and the peak, 256 for the volume). The README's table of sample counts comes
+samples for the count and the peak, 256 for the volume). The table of sample counts in docs/method.md comes
 from it; bands.N_SAMPLES and N_SIZING_SAMPLES are chosen by it.
 """
 from __future__ import annotations

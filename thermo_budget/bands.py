@@ -5,7 +5,8 @@ confidence, the ranking of the uncertain inputs, and the P10-P90 envelope of the
 Cost: the session answers and the pull count take one batched session (N_SAMPLES designs) and the
 counting chunk after it; the three sizing answers take one batched search, per sample, over
 N_SIZING_SAMPLES samples x 3 answers, a bracketed secant on the session's peak (a few rounds of one
-integration each). See README "How sure is the answer" for the convergence figures behind the counts.
+integration each). docs/method.md ("The uncertainty band") has the convergence figures behind the
+counts.
 """
 from __future__ import annotations
 
@@ -20,7 +21,7 @@ from .session import PLAN_RESOLUTION
 from .solver import integrate
 from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
 
-N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: README)
+N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: docs/method.md)
 N_SIZING_SAMPLES = 32      # wait, cooler and oil volume (the first points of the same Sobol sequence)
 BAND_KEYS = ("pulls_under_limit", "runs_before_limit", "peak_C", "time_to_limit_s", "min_wait_s",
              "cooler_required_W_per_K", "min_oil_volume_L")

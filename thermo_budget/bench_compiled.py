@@ -5,7 +5,7 @@ The kernel does the sub-step's linear algebra per design in compiled code (the s
 its eigen-decomposition by cyclic Jacobi rotations, the phi-functions and the exact solution); the
 conductances stay in numpy (network.node_equations). It is timed against solver.propagate_linear at
 1, 24 and 128 designs (one run, a search, the band), beside node_equations itself, with the cost of
-loading it in a fresh process. README "Performance" quotes the figures and the decision they led to.
+loading it in a fresh process. CHANGELOG.md quotes the figures and the decision they led to.
 """
 from __future__ import annotations
 

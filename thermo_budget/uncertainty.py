@@ -116,7 +116,7 @@ class UncertaintyModel:
                                 self.posterior)
 
     def table(self) -> list[dict]:
-        """The factors, their distributions, widths and sources, for the report and the README."""
+        """The factors, their distributions, widths and sources, for the report and docs/method.md."""
         rows = []
         fitted = dict(zip(self.posterior.keys, self.posterior.sd_ln)) if self.posterior else {}
         active = {f.key for f in self.active}

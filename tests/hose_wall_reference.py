@@ -481,7 +481,7 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     import sys
     from pathlib import Path
     sys.path.insert(0, str(Path(__file__).resolve().parent))
-    from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
+    from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K
 
     from thermo_budget.report import TRACE_RESOLUTION
     from thermo_budget.scenario import build_rig, load_scenario
@@ -491,7 +491,7 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     rig = build_rig(scenario)
     steps = [ADIABATIC_PULL, ENGINE_OFF_30S] * 20
     trace = integrate(rig, steps, scenario.start_K, resolution=TRACE_RESOLUTION)
-    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    T_eq = single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
     print("adiabatic rig, 20 x (10 kW x 10 s, 30 s engine off):")
     for key, value in figures(rig, steps, trace, T_eq, scenario.start_K).items():
         print(f"  {key:32s} {value:12.3f}")

@@ -199,6 +199,20 @@ def default_report(default_scenario):
     return thermo_budget.report(default_scenario)
 
 
+@pytest.fixture(scope="session")
+def busy_scenario(default_scenario):
+    """The default rig asked for 45 pulls: more than fit, so the wait, the cooler and the volume are
+    all non-trivial."""
+    return default_scenario.changed(**{"session.repeat": 45})
+
+
+@pytest.fixture(scope="session")
+def busy_report(busy_scenario):
+    """thermo_budget.report on the busy scenario, computed once (tests/test_bands.py, tests/test_planning.py)."""
+    import thermo_budget
+    return thermo_budget.report(busy_scenario)
+
+
 # Keys `run --json` must contain (issue 2)
 REQUIRED_JSON_KEYS = ["limit_C", "limit_reason", "start_C", "peak_C", "end_C", "peak_return_C",
                       "pulls_planned", "pulls_under_limit", "time_to_limit_s", "energy_in_J", "energy_lost_J",

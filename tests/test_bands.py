@@ -14,19 +14,8 @@ from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS
 
 
 @pytest.fixture(scope="module")
-def default():
-    return load_scenario(SCENARIO_DIR / "default.toml")
-
-
-@pytest.fixture(scope="module")
-def default_report(default):
-    return report(default)
-
-
-@pytest.fixture(scope="module")
-def busy_report(default):
-    """45 pulls asked for: more than fit, so the wait, the cooler and the volume are all non-trivial."""
-    return report(default.changed(**{"session.repeat": 45}))
+def default(default_scenario):
+    return default_scenario
 
 
 def _width(band):

@@ -76,9 +76,11 @@ def test_coupled_linear_system_against_the_matrix_exponential():
 # --- tight-tolerance reference ------------------------------------------------------------------
 
 class Reference:
-    """scipy solve_ivp (Radau, rtol = atol = 1e-10), step by step, the right-hand side being
+    """scipy solve_ivp (Radau, rtol = atol = 1e-8), step by step, the right-hand side being
     thermo_budget.network.node_equations at the current state and the step's instantaneous inputs.
-    One more state integrates the heat lost to ambient."""
+    One more state integrates the heat lost to ambient. (Against rtol = atol = 1e-10 on the US rig,
+    measured: 3.3e-6 K at most, the heat lost within 5e-10, at a third of the cost; the requirement
+    it checks is 0.05 K.)"""
 
     def __init__(self, rig, steps, T0_K):
         self.pieces = []
@@ -111,7 +113,7 @@ class Reference:
             J[N_NODES, :N_NODES] = g_amb[0]
             return J
 
-        sol = solve_ivp(rhs, (t0, t0 + step.duration_s), y0, method="Radau", rtol=1e-10, atol=1e-10,
+        sol = solve_ivp(rhs, (t0, t0 + step.duration_s), y0, method="Radau", rtol=1e-8, atol=1e-8,
                         jac=jac, dense_output=True)
         assert sol.success, sol.message
         return sol

@@ -200,6 +200,14 @@ def default_report(default_scenario):
 
 
 @pytest.fixture(scope="session")
+def demo_log_fit(default_scenario):
+    """calibrate.fit_log of the shipped demo log on the default scenario, computed once (tests of
+    the calibration, the band and the uncertainty model read it; none changes it)."""
+    from thermo_budget.calibrate import fit_log
+    return fit_log(default_scenario, (SCENARIO_DIR / "demo_log.csv").read_text())
+
+
+@pytest.fixture(scope="session")
 def busy_scenario(default_scenario):
     """The default rig asked for 45 pulls: more than fit, so the wait, the cooler and the volume are
     all non-trivial."""

@@ -87,9 +87,8 @@ def test_widening_the_inputs_never_narrows_the_band(default):
     assert np.all(np.diff(widths, axis=0) >= 0), widths
 
 
-def test_a_log_fit_narrows_the_band(default, default_report):
-    from thermo_budget.calibrate import fit_log
-    result = fit_log(default, (SCENARIO_DIR / "demo_log.csv").read_text())
+def test_a_log_fit_narrows_the_band(default, default_report, demo_log_fit):
+    result = demo_log_fit
     calibrated = result.calibrated_scenario
     after = report(calibrated)
     prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None}))

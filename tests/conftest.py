@@ -1,16 +1,38 @@
-"""Shared fixtures: an invented base rig as a raw scenario dict, and helpers to write it as TOML.
+"""Shared fixtures: an invented base rig as a raw scenario dict, and helpers to write it as TOML;
+the adiabatic rig of the solver's and the hose wall's tests; the `heavy` mark.
 
 Every number in BASE_RAW is invented for the tests (our own rig, not a measured one).
+
+Heavy runs (the long fuzz, 500 random rigs, the page in a real browser) carry `@pytest.mark.heavy`
+and run only with THERMO_HEAVY=1 (`.ci/run` sets it in its second pytest command); the README's
+`python -m pytest -q` runs the same checks on fewer, sharper cases.
 """
 from __future__ import annotations
 
 import copy
+import os
 from pathlib import Path
 
+import numpy as np
 import pytest
 import tomli_w
 
 from thermo_budget.scenario import load_scenario, with_path
+
+HEAVY = os.environ.get("THERMO_HEAVY", "") not in ("", "0")
+
+
+def pytest_configure(config):
+    config.addinivalue_line("markers", "heavy: a long run, only with THERMO_HEAVY=1 (.ci/run sets it)")
+
+
+def pytest_collection_modifyitems(config, items):
+    if HEAVY:
+        return
+    skip = pytest.mark.skip(reason="heavy run: set THERMO_HEAVY=1 (.ci/run does)")
+    for item in items:
+        if "heavy" in item.keywords:
+            item.add_marker(skip)
 
 REPO = Path(__file__).resolve().parent.parent
 SCENARIO_DIR = REPO / "scenarios"
@@ -177,8 +199,64 @@ def default_report(default_scenario):
     return thermo_budget.report(default_scenario)
 
 
+@pytest.fixture(scope="session")
+def demo_log_fit(default_scenario):
+    """calibrate.fit_log of the shipped demo log on the default scenario, computed once (tests of
+    the calibration, the band and the uncertainty model read it; none changes it)."""
+    from thermo_budget.calibrate import fit_log
+    return fit_log(default_scenario, (SCENARIO_DIR / "demo_log.csv").read_text())
+
+
+@pytest.fixture(scope="session")
+def busy_scenario(default_scenario):
+    """The default rig asked for 45 pulls: more than fit, so the wait, the cooler and the volume are
+    all non-trivial."""
+    return default_scenario.changed(**{"session.repeat": 45})
+
+
+@pytest.fixture(scope="session")
+def busy_report(busy_scenario):
+    """thermo_budget.report on the busy scenario, computed once (tests/test_bands.py, tests/test_planning.py)."""
+    import thermo_budget
+    return thermo_budget.report(busy_scenario)
+
+
 # Keys `run --json` must contain (issue 2)
 REQUIRED_JSON_KEYS = ["limit_C", "limit_reason", "start_C", "peak_C", "end_C", "peak_return_C",
                       "pulls_planned", "pulls_under_limit", "time_to_limit_s", "energy_in_J", "energy_lost_J",
                       "energy_stored_J", "energy_balance_rel_error", "heat_capacity_J_per_K",
                       "passive_rejection_at_limit_W", "peak_pull_power_W", "pump"]
+
+
+# --- the adiabatic rig (tests/test_solver.py, tests/test_hose_wall_reference.py) ------------------
+
+def adiabatic_raw() -> dict:
+    """The base rig with no path to the air: no convection, no radiation."""
+    raw = base_raw()
+    set_path(raw, "losses.convection_multiplier", 0.0)
+    set_path(raw, "reservoir.emissivity", 0.0)
+    set_path(raw, "hardware.emissivity", 0.0)
+    return raw
+
+
+def single_temperature_K(rig, T0_K, energy_J):
+    """The temperature at which every node would sit after taking energy_J from T0_K (first law,
+    written with the package's enthalpies, which tests/test_solver.py checks against Cragoe)."""
+    from scipy.optimize import brentq
+
+    from thermo_budget.network import N_NODES, node_enthalpy_J
+
+    def total(T):
+        return float(np.sum(node_enthalpy_J(rig, np.full((1, N_NODES), T))))
+    H0 = total(T0_K)
+    return brentq(lambda T: total(T) - H0 - energy_J, T0_K, T0_K + 300.0, xtol=1e-10)
+
+
+def _adiabatic_steps():
+    from thermo_budget.session import Step
+    return (Step(kind="pull", duration_s=10.0, engine="on", power_W=10000.0, rpm=3600.0),
+            Step(kind="wait", duration_s=30.0, engine="off"))
+
+
+# 10 kW x 10 s pulls and 30 s engine-off waits (invented)
+ADIABATIC_PULL, ENGINE_OFF_30S = _adiabatic_steps()

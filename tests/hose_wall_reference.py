@@ -349,25 +349,31 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
 
 
 def outer_air(rig, hose: HoseWall, n_cells: int):
-    """The outer face to the air, for `simulate(outer=...)`: the package's coefficient of a horizontal
-    cylinder (natural convection by Churchill and Chu, combined with the rig's air speed by Churchill
-    1977; conductances.h_air_W_m2K, held against worked examples in the package's tests) times the
-    rig's convection multiplier, plus grey
-    radiation (Incropera eqs. 1.7-1.9), in series with the outer half of the outermost ring; the
-    surface taken at the ring's temperature."""
-    from thermo_budget.conductances import h_air_W_m2K
-    from thermo_budget.correlations import h_radiation_grey
+    """The outer face to the air, for `simulate(outer=...)`: the package's own coefficient of the
+    hoses' outside (natural convection on a horizontal cylinder by Churchill and Chu, combined with
+    the rig's air speed by Churchill 1977, times the rig's convection multiplier, plus grey radiation,
+    Incropera eqs. 1.7-1.9), read off the production path (conductances.ambient_conductances_W_K,
+    whose hose conductance is that coefficient over the outside area in series with the rubber from
+    the cover's centre), in series with the outer half of the outermost ring; the surface taken at
+    the ring's temperature."""
+    from thermo_budget.conductances import ambient_conductances_W_K, hose_rings_m
+    from thermo_budget.correlations import cylinder_wall_conductance_W_K
+    from thermo_budget.materials import HOSE_WALL
     r_o = 0.5 * hose.outside_m
     centre = r_o - 0.5 * (r_o - 0.5 * hose.bore_m) / n_cells
     half_W_K = 2 * np.pi * hose.k_W_mK * hose.length_m / np.log(r_o / centre)
     area = np.pi * hose.outside_m * hose.length_m
     T_air = float(rig.ambient_K)
+    r_cover = float(np.atleast_1d(hose_rings_m(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m)[4])[0])
+    cover_W_K = float(cylinder_wall_conductance_W_K(2 * r_cover, hose.outside_m, hose.length_m,
+                                                    HOSE_WALL["conductivity_W_mK"]))
 
     def coupling(T_surface_K):
         Ts = np.array([max(float(T_surface_K), T_air + 1e-3)])
-        h = float(np.asarray(rig.convection_multiplier) * h_air_W_m2K("cylinder", hose.outside_m, Ts, T_air,
-                                                                          rig.air_speed_m_s, hose.outside_m)[0]
-                  + h_radiation_grey(rig.hardware_emissivity, Ts, T_air)[0])
+        G = float(np.atleast_1d(ambient_conductances_W_K(rig, Ts, Ts, Ts)[2])[0])
+        if G <= 0.0:
+            return 0.0, T_air
+        h = 1.0 / (area * (1.0 / G - 1.0 / cover_W_K))
         return 1.0 / (1.0 / (h * area) + 1.0 / half_W_K), T_air
     return coupling
 
@@ -481,7 +487,7 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     import sys
     from pathlib import Path
     sys.path.insert(0, str(Path(__file__).resolve().parent))
-    from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
+    from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K
 
     from thermo_budget.report import TRACE_RESOLUTION
     from thermo_budget.scenario import build_rig, load_scenario
@@ -491,7 +497,7 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     rig = build_rig(scenario)
     steps = [ADIABATIC_PULL, ENGINE_OFF_30S] * 20
     trace = integrate(rig, steps, scenario.start_K, resolution=TRACE_RESOLUTION)
-    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    T_eq = single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
     print("adiabatic rig, 20 x (10 kW x 10 s, 30 s engine off):")
     for key, value in figures(rig, steps, trace, T_eq, scenario.start_K).items():
         print(f"  {key:32s} {value:12.3f}")

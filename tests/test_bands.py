@@ -14,19 +14,8 @@ from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS
 
 
 @pytest.fixture(scope="module")
-def default():
-    return load_scenario(SCENARIO_DIR / "default.toml")
-
-
-@pytest.fixture(scope="module")
-def default_report(default):
-    return report(default)
-
-
-@pytest.fixture(scope="module")
-def busy_report(default):
-    """45 pulls asked for: more than fit, so the wait, the cooler and the volume are all non-trivial."""
-    return report(default.changed(**{"session.repeat": 45}))
+def default(default_scenario):
+    return default_scenario
 
 
 def _width(band):
@@ -98,9 +87,8 @@ def test_widening_the_inputs_never_narrows_the_band(default):
     assert np.all(np.diff(widths, axis=0) >= 0), widths
 
 
-def test_a_log_fit_narrows_the_band(default, default_report):
-    from thermo_budget.calibrate import fit_log
-    result = fit_log(default, (SCENARIO_DIR / "demo_log.csv").read_text())
+def test_a_log_fit_narrows_the_band(default, default_report, demo_log_fit):
+    result = demo_log_fit
     calibrated = result.calibrated_scenario
     after = report(calibrated)
     prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None}))
@@ -137,24 +125,79 @@ def test_order_holds_and_the_plan_is_never_bolder_than_p50(name, path, busy_repo
 
 
 def test_busy_session_bands_spread_around_the_point(busy_report):
+    """Asked for 45 pulls, every sizing answer and the count have a band that really spreads
+    (P10 < P90), and the point answer (every factor at its median) sits near the band's P50: within
+    a quarter of the P10-P90 width (the answers are monotone in each factor, and each factor's median
+    is its nominal value, so the median sample is close to the nominal rig). Measured when written:
+    runs 40 against P50 39 (P10-P90 30-73), wait 193 s against 204 s (152-250 s), cooler 0.44
+    against 0.72 W/K (0-2.15), volume 19.4 L against 20.2 L (14.6-25.3 L)."""
     for key in ("runs_before_limit", "min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L"):
         band = busy_report["bands"][key]
         assert band["p10"] <= busy_report[key] <= band["p90"], key
-    assert busy_report["band_ranking"] and busy_report["band_advice"].startswith("The ")
-    assert sum(row["share"] for row in busy_report["band_ranking"]) == pytest.approx(1.0, abs=1e-3)
+        assert band["p10"] < band["p90"], key
+        assert abs(busy_report[key] - band["p50"]) <= 0.25 * (band["p90"] - band["p10"]), key
+    ranking = busy_report["band_ranking"]
+    shares = [row["share"] for row in ranking]
+    assert sum(shares) == pytest.approx(1.0, abs=1e-3) and shares == sorted(shares, reverse=True)
+    # the count is set by the heat put in and the heat shed: the pull's power or the air-side
+    # convection leads (measured when written: power 48 %, convection 31 %)
+    assert ranking[0]["factor"] in ("power", "convection")
+    assert {row["factor"] for row in ranking[:2]} == {"power", "convection"}
+    assert busy_report["band_advice"].startswith("The ")
 
 
-def test_plan_keeps_the_session_under_the_limit_in_the_chosen_fraction(default):
-    """Re-run: the planned oil volume at 0.9 finishes the session in at least 90 % of the samples."""
-    r = report(default)
-    volume_L = r["plan_at_confidence"]["min_oil_volume_L"]
-    samples = sample_answers(default, r)
-    assert np.mean(samples["min_oil_volume_L"] <= volume_L) >= 0.9
-    assert np.mean(samples["runs_before_limit"] >= r["plan_at_confidence"]["runs_before_limit"]) >= 0.9
+def _planned_fraction_under(scenario, n, oil_volume_L=None, pulls=None):
+    """Re-run the first n samples of the band (the same Sobol points through the same factor model)
+    and return the fraction that stay under the limit: through the planned session at oil_volume_L,
+    or through `pulls` pulls of the repeated cycle."""
+    from thermo_budget.outcome import peak_oil_K, pulls_completed_under
+    from thermo_budget.scenario import limit_K
+    from thermo_budget.session import PLAN_RESOLUTION
+    from thermo_budget.solver import integrate
+    from thermo_budget.uncertainty import factor_values, sample_rig, standard_normals
+
+    values = factor_values(scenario.uncertainty, standard_normals(scenario.uncertainty, n))
+    limit, _ = limit_K(scenario)
+    if oil_volume_L is not None:
+        rig = sample_rig(build_rig(scenario, oil_volume_m3=np.full(n, oil_volume_L / 1000.0)), values)
+        trace = integrate(rig, scenario.steps, scenario.start_K, n_designs=n, resolution=PLAN_RESOLUTION)
+        return float(np.mean(peak_oil_K(trace) <= limit))
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    steps = list(scenario.cycle) * int(np.ceil(pulls / per_cycle))
+    trace = integrate(sample_rig(build_rig(scenario), values), steps, scenario.start_K, n_designs=n,
+                      resolution=PLAN_RESOLUTION)
+    return float(np.mean(pulls_completed_under(trace, limit) >= pulls))
 
 
-def test_envelope_brackets_the_oil_temperature(default_report):
+def test_plan_keeps_the_session_under_the_limit_in_the_chosen_fraction(default, default_report):
+    """Re-run: the band's sampled rigs simulated again with the plan at 0.9. The planned oil volume
+    finishes the planned session under the limit in at least 90 % of the sizing samples (32), the
+    band's P50 volume in about half; the planned pull count is reached in at least 90 % of the
+    samples (128), one pull more in fewer (the plan is the most that holds in 90 %)."""
+    from thermo_budget.bands import N_SAMPLES, N_SIZING_SAMPLES
+    plan, bands = default_report["plan_at_confidence"], default_report["bands"]
+    assert default_report["confidence"] == 0.9
+    assert _planned_fraction_under(default, N_SIZING_SAMPLES, oil_volume_L=plan["min_oil_volume_L"]) >= 0.9
+    assert 0.3 <= _planned_fraction_under(default, N_SIZING_SAMPLES,
+                                          oil_volume_L=bands["min_oil_volume_L"]["p50"]) <= 0.7
+    k = plan["runs_before_limit"]
+    assert _planned_fraction_under(default, N_SAMPLES, pulls=k) >= 0.9
+    assert _planned_fraction_under(default, N_SAMPLES, pulls=k + 1) < 0.9
+
+
+def test_envelope_brackets_the_oil_temperature(default, default_report):
+    """The P10-P90 envelope of the oil temperature: it starts at the start temperature, spreads once
+    the pulls begin, holds the point trace (every factor at its median) between its edges at every
+    time, and its P90 edge never passes the P90 of the samples' peaks (the largest of per-time P90s
+    cannot exceed the P90 of per-sample maxima), while reaching above the point's peak."""
+    from thermo_budget.report import simulate
     envelope = default_report["band_envelope"]
-    assert len(envelope["time_s"]) == len(envelope["p10_C"]) == len(envelope["p90_C"])
-    assert all(a <= b + 1e-9 for a, b in zip(envelope["p10_C"], envelope["p90_C"]))
-    assert max(envelope["p90_C"]) >= default_report["peak_C"] - 0.5
+    t, p10, p90 = (np.array(envelope[key]) for key in ("time_s", "p10_C", "p90_C"))
+    assert len(t) == len(p10) == len(p90) == len(envelope["p50_C"])
+    assert p10[0] == p90[0] == pytest.approx(default_report["start_C"])
+    assert np.all(p10 <= p90 + 1e-9) and np.all(p90[t > 60.0] - p10[t > 60.0] > 0.1)
+    trace = simulate(default)
+    point_C = np.interp(t, trace.time_s[:, 0], trace.T_K[:, 0, 0] - 273.15)
+    assert t[-1] == pytest.approx(trace.time_s[-1, 0])
+    assert np.all(p10 - 0.01 <= point_C) and np.all(point_C <= p90 + 0.01)
+    assert default_report["peak_C"] < p90.max() <= default_report["bands"]["peak_C"]["p90"] + 0.01

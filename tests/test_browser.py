@@ -4,7 +4,8 @@ One server and one browser for the module. The headline must read whole at every
 (400 px phone to 1920 px desktop), in both unit systems, on the default rig and on a US 20 hp rig:
 no headline element overflows its box and none ends in an ellipsis.
 
-Skipped (with the reason) only where /usr/bin/chromium is missing. Never downloads a browser.
+A heavy run: skipped unless THERMO_HEAVY=1 (`.ci/run` sets it), and skipped (with the reason) where
+/usr/bin/chromium is missing. Never downloads a browser.
 Screenshots go to a temporary folder, or to $THERMO_BUDGET_SCREENSHOTS (e.g. `docs`) to refresh the
 ones under docs/ (the README shows docs/page_default_SI_1366.png).
 """
@@ -31,7 +32,9 @@ WIDTHS = (400, 1024, 1366, 1920)
 HEIGHT = 1000
 US_RIG = REPO / "scenarios" / "us_20hp_small_tank.toml"
 
-pytestmark = pytest.mark.skipif(not Path(CHROMIUM).exists(), reason=f"{CHROMIUM} is not installed")
+# A heavy run (about 1.5 min on 2 cores): only with THERMO_HEAVY=1, as .ci/run's second pytest command.
+pytestmark = [pytest.mark.heavy,
+              pytest.mark.skipif(not Path(CHROMIUM).exists(), reason=f"{CHROMIUM} is not installed")]
 
 # Every headline element: each card, and its label, value, unit and detail lines.
 CHECK_HEADLINE = """() => {

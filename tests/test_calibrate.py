@@ -352,8 +352,8 @@ def test_demo_log_is_the_labelled_synthetic_log_it_claims_to_be(demo_paths):
     assert text == demo_log_text()
 
 
-def test_demo_log_fit_recovers_its_known_multipliers(demo_paths):
-    result = fit_log(load_scenario(demo_paths[0]), demo_paths[1].read_text())
+def test_demo_log_fit_recovers_its_known_multipliers(demo_log_fit):
+    result = demo_log_fit      # fit_log of scenarios/demo_log.csv on scenarios/default.toml (conftest)
     for name in ("convection_multiplier", "capacity_multiplier"):
         low, high = result.ci95[name]
         assert low <= DEMO_TRUTH[name] <= high

@@ -1,6 +1,7 @@
 """Edges of the model (issue 13): states far outside the rig's range never crash the integrator,
-a peak past the oil data gets a caution instead of a number, every answer is finite, and 500 random
-plausible rigs give a report. Speed is measured in bench.py, not here."""
+a peak past the oil data gets a caution instead of a number, every answer is finite, and random
+plausible rigs keep the invariants and give a report (20 and 6 here; 500 with THERMO_HEAVY=1). Speed
+is measured in the benchmark, not here."""
 from __future__ import annotations
 
 import math
@@ -11,8 +12,10 @@ import pytest
 from thermo_budget import report
 from thermo_budget.errors import ScenarioError
 from thermo_budget.network import OIL
+from thermo_budget.outcome import pulls_completed_under
 from thermo_budget.report import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.session import PLAN_RESOLUTION
 from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, base_raw, set_path
@@ -117,16 +120,69 @@ def random_rig(rng) -> dict:
     return raw
 
 
-def test_500_random_plausible_rigs_report_without_an_exception():
-    rng = np.random.default_rng(13)
-    refused = 0
-    for i in range(500):
+def _random_scenarios(count, seed=13):
+    """(raw, scenario) of `count` random rigs, and how many were refused."""
+    rng = np.random.default_rng(seed)
+    scenarios, refused = [], 0
+    for _ in range(count):
         raw = random_rig(rng)
         try:
-            scenario = load_scenario(raw)
+            scenarios.append((raw, load_scenario(raw)))
         except ScenarioError:
             refused += 1     # e.g. a limit the oil's viscosity sets below a hot ambient
-            continue
+    return scenarios, refused
+
+
+TOL_K = 1e-6
+
+
+def test_20_random_rigs_keep_the_invariants_over_a_long_day():
+    """20 random rigs, each with three designs in one integration over 40 of its cycles: the rig,
+    the rig with 1.5 x the oil (the tank scaled with it), the rig with a 40 W/K cooler running
+    always (each integration stops once all three are over the limit, which leaves the counts as they
+    are, tests/test_solver.py). More oil never means fewer pulls or a hotter peak; a cooler never makes the oil hotter
+    at any moment; the energy balance closes for every design (conservation, to round-off)."""
+    scenarios, refused = _random_scenarios(20)
+    assert refused <= 3
+    crossed = 0
+    for raw, scenario in scenarios:
+        V = scenario.reservoir.oil_volume_m3
+        cooled = scenario.changed(cooler={"specific_dissipation": "40 W/K", "fan": "always"})
+        rig = build_rig(cooled, oil_volume_m3=np.array([V, 1.5 * V, V]), cooler_W_K=np.array([0.0, 0.0, 40.0]))
+        limit, _ = limit_K(scenario)
+        trace = integrate(rig, list(scenario.cycle) * 40, scenario.start_K, n_designs=3,
+                          resolution=PLAN_RESOLUTION, stop_above_K=limit)
+        closure = trace.energy_in_J - trace.energy_lost_J - trace.energy_stored_J
+        assert np.all(np.abs(closure) <= 1e-9 * trace.energy_in_J), raw
+        oil = trace.T_K[:, :, OIL]
+        assert oil[:, 1].max() <= oil[:, 0].max() + TOL_K, raw
+        assert np.all(oil[:, 2] <= oil[:, 0] + TOL_K), raw
+        assert np.all(oil >= scenario.ambient_K - 1e-6), raw    # heated from ambient, never below it
+        pulls = pulls_completed_under(trace, limit)
+        assert pulls[1] >= pulls[0] and pulls[2] >= pulls[0], (raw, pulls)
+        crossed += pulls[0] < 40
+    print(f"{crossed} of {len(scenarios)} rigs crossed their limit within 40 cycles")
+    assert crossed >= 5     # the invariants are tested where the limit binds, not only on idle rigs
+
+
+def test_6_random_rigs_report_finite_answers_that_agree_with_their_trace():
+    """report() with every planning search on 6 random rigs (band off): every number finite, the
+    energy balance closed, and the pulls under the limit those of its own session trace."""
+    scenarios, _ = _random_scenarios(6, seed=17)
+    assert len(scenarios) >= 5
+    for raw, scenario in scenarios:
+        trace = simulate(scenario)
+        result = report(scenario, trace)
+        assert all_finite(result), raw
+        assert abs(result["energy_balance_rel_error"]) < 1e-6, raw
+        limit, _ = limit_K(scenario)
+        assert result["pulls_under_limit"] == int(pulls_completed_under(trace, limit)[0]), raw
+
+
+@pytest.mark.heavy
+def test_500_random_plausible_rigs_report_without_an_exception():
+    scenarios, refused = _random_scenarios(500)
+    for raw, scenario in scenarios:
         trace = simulate(scenario)
         result = report(scenario, trace)
         assert all_finite(result), raw

@@ -33,7 +33,7 @@ from thermo_budget.scenario import build_rig, load_scenario
 from thermo_budget.solver import integrate
 
 import hose_wall_reference as ref
-from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
+from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K
 
 STEPS = [ADIABATIC_PULL, ENGINE_OFF_30S] * 20
 ENERGY_IN_J = 20 * 10 * 10000.0
@@ -50,7 +50,7 @@ def session():
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)
     trace = integrate(rig, STEPS, scenario.start_K, resolution=TRACE_RESOLUTION)
-    T_eq = _single_temperature_K(rig, scenario.start_K, ENERGY_IN_J)
+    T_eq = single_temperature_K(rig, scenario.start_K, ENERGY_IN_J)
     return rig, trace, scenario.start_K, T_eq, ref.hose_of(rig, HOSE_WALL)
 
 

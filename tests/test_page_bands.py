@@ -1,27 +1,36 @@
 """The page's band (issue 11): the envelope on the temperature chart, the ranking chart, and the
 band's line under the headline."""
 import numpy as np
+import pytest
 
-from thermo_budget import DEFAULT_SCENARIO, load_scenario, report
+from thermo_budget import report
 from thermo_budget.band_text import plan_phrase, pulls_phrase
 from thermo_budget.page_bands import envelope_png, ranking_html
 from thermo_budget.report import simulate
 
-from conftest import SCENARIO_DIR
+from conftest import REPO
 
 
-def test_the_envelope_chart_is_a_png_with_the_band_drawn():
-    scenario = load_scenario(SCENARIO_DIR / "default.toml")
-    r = report(scenario)
+@pytest.fixture(scope="module")
+def default_page():
+    """The page on the default scenario, run once for the tests that only read it."""
+    from streamlit.testing.v1 import AppTest
+    at = AppTest.from_file(str(REPO / "app.py"), default_timeout=300).run()
+    assert not at.exception
+    return at
+
+
+def test_the_envelope_chart_is_a_png_with_the_band_drawn(default_scenario, default_report):
+    scenario, r = default_scenario, default_report
     text = scenario.to_toml()
     with_band = envelope_png(text, "SI", simulate(scenario), r["band_envelope"])
     without = envelope_png(text, "SI", simulate(scenario), None)
     assert with_band[:8] == b"\x89PNG\r\n\x1a\n" and with_band != without
 
 
-def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share():
+def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share(default_report):
     import re
-    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    r = default_report
     rows = [(row["what"], row["share"]) for row in r["band_ranking"]]
     chart = ranking_html(rows, r["band_ranking"][0]["of"])
     widths = [float(w) for w in re.findall(r'style="width:([0-9.]+)%"', chart)]
@@ -32,13 +41,13 @@ def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share():
     assert "<script" not in ranking_html([("<script>x</script>", 0.5)])   # labels are escaped
 
 
-def test_the_band_in_words():
-    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+def test_the_band_in_words(default_scenario, default_report):
+    r = default_report
     band = r["bands"]["runs_before_limit"]
     assert pulls_phrase(r) == f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}-{band['p90']})"
     assert plan_phrase(r) == (f"plan {r['plan_at_confidence']['runs_before_limit']} pulls to stay under 80.0 °C "
                               f"with 90 % confidence")
-    off = report(load_scenario(SCENARIO_DIR / "default.toml").changed(uncertainty={"enabled": False}))
+    off = report(default_scenario.changed(uncertainty={"enabled": False}))
     assert pulls_phrase(off) == f"{off['runs_before_limit']} pulls before the limit"
     assert np.isfinite(r["confidence"])
 
@@ -47,11 +56,9 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
     """Upload the demo log and use the calibrated model: the page quotes both bands, and the one
     after the fit (carrying the fit's posterior) is the narrower."""
     import re
-    from pathlib import Path
     from streamlit.testing.v1 import AppTest
-    repo = Path(__file__).resolve().parent.parent
-    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
-    log = (repo / "scenarios" / "demo_log.csv").read_bytes()
+    at = AppTest.from_file(str(REPO / "app.py"), default_timeout=300).run()
+    log = (REPO / "scenarios" / "demo_log.csv").read_bytes()
     at.file_uploader(key="log_upload").set_value(("demo_log.csv", log, "text/csv")).run()
     at.toggle(key="use_calibrated").set_value(True).run()
     assert not at.exception
@@ -60,32 +67,22 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
     assert a90 - a10 < b90 - b10
 
 
-def test_the_pull_count_band_is_shown_once():
+def test_the_pull_count_band_is_shown_once(default_page, default_report):
     """The pull-count card carries the count's band and the plan; the "How sure" line below it says
     what the range means and what to measure, without repeating them."""
-    from pathlib import Path
-    from streamlit.testing.v1 import AppTest
-    repo = Path(__file__).resolve().parent.parent
-    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
-    assert not at.exception
-    texts = [m.value for m in at.markdown]
-    band = report(load_scenario(DEFAULT_SCENARIO))["bands"]["runs_before_limit"]
+    texts = [m.value for m in default_page.markdown]
+    band = default_report["bands"]["runs_before_limit"]
     shown = f"likely {band['p10']}–{band['p90']}"
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
     assert f"{band['p10']}-{band['p90']}" not in how_sure and "8 in 10" in how_sure
 
 
-def test_the_table_of_bands_wraps_every_value_to_the_page():
+def test_the_table_of_bands_wraps_every_value_to_the_page(default_page, default_report):
     """The table of every answer's band and plan is a plain HTML table (it wraps to the page's width,
     so no value is cut off on a phone), one row per answer, its values those of the report."""
-    from pathlib import Path
-    from streamlit.testing.v1 import AppTest
-    repo = Path(__file__).resolve().parent.parent
-    at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
-    assert not at.exception
-    table = next(m.value for m in at.markdown if "tb-bands" in m.value)
-    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    table = next(m.value for m in default_page.markdown if "tb-bands" in m.value)
+    r = default_report
     band = r["bands"]["runs_before_limit"]
     assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
     assert f"<td>{band['p10']} to {band['p90']}</td>" in table

@@ -2,21 +2,24 @@
 rig and the sizing answers."""
 from __future__ import annotations
 
+import io
+
+import matplotlib.image
+import numpy as np
 import pytest
 
-from thermo_budget import DEFAULT_SCENARIO, load_scenario, report
 from thermo_budget import page_charts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
 
 @pytest.fixture(scope="module")
-def default():
-    return load_scenario(DEFAULT_SCENARIO)
+def default(default_scenario):
+    return default_scenario
 
 
-def test_design_axes_bracket_the_rig_and_the_answers(default):
-    answers = report(default)
+def test_design_axes_bracket_the_rig_and_the_answers(default, default_report):
+    answers = default_report
     volumes, coolers = page_charts.design_axes(default)
     assert [a.tolist() for a in page_charts.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]
     assert volumes.size == page_charts.DESIGN_VOLUMES and coolers.size == page_charts.DESIGN_COOLERS
@@ -32,18 +35,37 @@ def test_design_grid_reaches_past_the_smallest_tank_and_the_own_cooler(default):
     assert coolers[-1] == pytest.approx(60.0)
 
 
-def test_design_grid_without_an_all_day_cooler_uses_the_passive_loss(default):
-    answers = report(default)
+def test_design_grid_without_an_all_day_cooler_uses_the_passive_loss(default, default_report):
+    answers = default_report
     _, coolers = page_charts.design_grid(default, None, None)
     passive_W_K = answers["passive_rejection_at_limit_W"] / (answers["limit_C"] - answers["ambient_C"])
     assert coolers[-1] == pytest.approx(3.0 * passive_W_K, rel=1e-3)
 
 
-@pytest.mark.parametrize("system", ["SI", "US"])
-def test_charts_are_png(default, system):
+def _image(png: bytes) -> np.ndarray:
+    assert png.startswith(PNG_SIGNATURE)
+    return matplotlib.image.imread(io.BytesIO(png))
+
+
+def test_charts_are_pictures_of_the_scenario_in_its_units(default):
+    """Each chart decodes to a picture of the figure's size at the page's resolution (5.6 in wide at
+    CHART_DPI), with something drawn on it; it follows the unit system (the axes change) and the
+    trace chart follows the scenario (more oil, another curve)."""
     text = default.to_toml()
-    assert page_charts.design_chart_png(text, system).startswith(PNG_SIGNATURE)
-    assert page_charts.trace_chart_png(text, system).startswith(PNG_SIGNATURE)
+    sweep = page_charts.design_sweep(text)
+    width_px = round(5.6 * page_charts.CHART_DPI)
+    pictures = {}
+    for system in ("SI", "US"):
+        for name, png in (("design", page_charts.design_chart_png(text, system, result=sweep)),
+                          ("trace", page_charts.trace_chart_png(text, system))):
+            image = _image(png)
+            assert image.shape[1] == width_px and image.shape[0] > 0.6 * width_px and image.shape[2] in (3, 4)
+            assert len(np.unique(image.reshape(-1, image.shape[2]), axis=0)) > 50, (name, system)  # not blank
+            pictures[name, system] = png
+    assert pictures["design", "SI"] != pictures["design", "US"]
+    assert pictures["trace", "SI"] != pictures["trace", "US"]
+    more_oil = default.changed(**{"reservoir.oil_volume": "22 L"}).to_toml()
+    assert page_charts.trace_chart_png(more_oil, "SI") != pictures["trace", "SI"]
 
 
 def test_design_chart_from_a_kept_sweep_is_the_same_picture(default):

@@ -7,21 +7,23 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from thermo_budget import DEFAULT_SCENARIO, build_rig, limit_K, load_scenario, report, sweep
+from thermo_budget import DEFAULT_SCENARIO, build_rig, limit_K, load_scenario, sweep
 from thermo_budget.network import OIL
-from thermo_budget.planning import batched_threshold, session_outcome
+from thermo_budget.planning import batched_threshold, planning_answers, session_outcome
+from thermo_budget.report import session_report
 from thermo_budget.solver import integrate
 
 
 @pytest.fixture(scope="module")
-def busy():
+def busy(busy_scenario):
     """The default rig asked for 45 pulls: more than fit, so every sizing answer is non-trivial."""
-    return load_scenario(DEFAULT_SCENARIO).changed(**{"session.repeat": 45})
+    return busy_scenario
 
 
-@pytest.fixture(scope="module")
-def busy_report(busy):
-    return report(busy)
+def _point_answers(scenario) -> dict:
+    """report() without its band: the session's answers and the planning answers (tests/test_bands.py
+    checks that these are report()'s own point answers)."""
+    return session_report(scenario) | planning_answers(scenario)
 
 
 def _with_waits(scenario, wait_s):
@@ -33,7 +35,7 @@ def _with_waits(scenario, wait_s):
 
 
 def _finishes(scenario):
-    r = report(scenario)
+    r = session_report(scenario)
     return r["pulls_under_limit"] == r["pulls_planned"] and r["peak_C"] <= r["limit_C"]
 
 
@@ -61,8 +63,9 @@ def test_required_cooler_rerun(busy, busy_report):
 def test_sustained_cooler_rerun(busy, busy_report):
     cooler = busy_report["cooler_required_sustained_W_per_K"]
     assert cooler >= busy_report["cooler_required_W_per_K"]
-    assert report(busy.changed(**{"cooler.specific_dissipation": f"{cooler} W/K"}))["sustainable"] is True
-    assert report(busy.changed(**{"cooler.specific_dissipation": f"{0.85 * cooler} W/K"}))["sustainable"] is False
+    assert planning_answers(busy.changed(**{"cooler.specific_dissipation": f"{cooler} W/K"}))["sustainable"] is True
+    assert planning_answers(busy.changed(**{"cooler.specific_dissipation": f"{0.85 * cooler} W/K"}))["sustainable"] \
+        is False
 
 
 def _scaled_tank(scenario, volume_L):
@@ -98,7 +101,7 @@ def test_ready_temperature_schedule_waits_until_cool():
     raw = copy.deepcopy(load_scenario(DEFAULT_SCENARIO).raw)
     raw["session"]["ready_temperature"] = "40 degC"
     raw["session"]["steps"][1] = {"kind": "wait", "duration": "3 min", "engine": "off"}
-    rows = report(load_scenario(raw))["schedule"]
+    rows = planning_answers(load_scenario(raw))["schedule"]
     assert len(rows) == raw["session"]["repeat"]
     later = [row for row in rows if row["index"] > 1]
     assert all(row["start_C"] <= 40.0 + 1e-6 for row in later)
@@ -107,7 +110,7 @@ def test_ready_temperature_schedule_waits_until_cool():
 
 def test_ready_temperature_out_of_reach_is_explained():
     """Idling with a parasitic load (150 W), the oil settles above 25 degC: the schedule says so."""
-    r = report(load_scenario(DEFAULT_SCENARIO).changed(**{"session.ready_temperature": "25 degC"}))
+    r = _point_answers(load_scenario(DEFAULT_SCENARIO).changed(**{"session.ready_temperature": "25 degC"}))
     assert len(r["schedule"]) < r["pulls_planned"]
     assert any("does not cool to the ready temperature" in note for note in r["notes"])
 
@@ -115,7 +118,7 @@ def test_ready_temperature_out_of_reach_is_explained():
 def test_sustainability_agrees_with_brute_force():
     """Periodic state by Newton against 400 cycles simulated one after another."""
     scenario = load_scenario(DEFAULT_SCENARIO).changed(**{"cooler.specific_dissipation": "8 W/K"})
-    r = report(scenario)
+    r = planning_answers(scenario)
     assert r["sustainable"] is True
     rig = build_rig(scenario)
     trace = integrate(rig, list(scenario.cycle) * 400, scenario.start_K)
@@ -231,9 +234,11 @@ def test_runs_before_limit_reuses_the_session_as_its_first_chunk(scenario):
     volumes = np.array([0.4, 1.0, 2.0]) * scenario.reservoir.oil_volume_m3
     rig = build_rig(scenario, oil_volume_m3=volumes)
     never = np.zeros(3, bool)
-    plain = runs_before_limit(scenario, rig, 3, never)
-    reused = runs_before_limit(scenario, rig, 3, never, session=session_trace(scenario, rig, 3))
+    # counted to 150 pulls (a design that never crosses would be counted to MAX_PULLS, 2,000, else)
+    plain = runs_before_limit(scenario, rig, 3, never, max_pulls=150)
+    reused = runs_before_limit(scenario, rig, 3, never, max_pulls=150, session=session_trace(scenario, rig, 3))
     np.testing.assert_array_equal(plain, reused)
+    assert np.any(np.isfinite(plain))      # something is counted
 
 
 def test_runs_before_limit_stops_counting_at_max_pulls():

@@ -8,14 +8,13 @@ import numpy as np
 import pytest
 from matplotlib.figure import Figure
 
-from thermo_budget import DEFAULT_SCENARIO, load_scenario
 from thermo_budget.plots import plot_design_chart, plot_trace
 from thermo_budget.report import simulate
 
 
 @pytest.fixture(scope="module")
-def default():
-    return load_scenario(DEFAULT_SCENARIO)
+def default(default_scenario):
+    return default_scenario
 
 
 @pytest.fixture(scope="module")
@@ -83,12 +82,31 @@ def test_design_chart_all_unlimited_and_all_short_do_not_fail(default):
     assert isinstance(plot_design_chart(default, sweep), Figure)
 
 
-def test_design_chart_from_real_sweep(default):
+def _legend(fig):
+    return [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+
+
+def test_design_chart_from_real_sweep(default, default_report):
+    """A real sweep around the default rig (6-30 L x 0-5 W/K): more oil or a larger cooler never
+    gives fewer pulls, a hotter peak or a cadence that stops being sustainable; the rig's own cell
+    (18 L, no cooler) is the report's answer; and the chart draws the plan's contour exactly when
+    the plan splits the grid (10 planned: every design finishes, no contour; 30: some do not)."""
     from thermo_budget.design_sweep import sweep
-    result = sweep(default, [6.0, 12.0, 18.0, 30.0], [0.0, 2.0, 5.0])
+    volumes, coolers = [6.0, 12.0, 18.0, 30.0], [0.0, 2.0, 5.0]
+    result = sweep(default, volumes, coolers)
+    runs = np.nan_to_num(result.runs_before_limit, nan=np.inf)
+    for grid in (runs, result.sustainable, -result.peak_C):
+        assert np.all(grid[1:] >= grid[:-1] - 1e-6) and np.all(grid[:, 1:] >= grid[:, :-1] - 1e-6)
+    assert result.runs_before_limit[2, 0] == default_report["runs_before_limit"]
+    assert result.peak_C[2, 0] == pytest.approx(default_report["peak_C"], abs=0.05)   # two resolutions
+    assert 0 < np.count_nonzero(result.sustainable) < result.sustainable.size
     fig = plot_design_chart(default, result)
-    assert any("your plan" in t.get_text() for t in fig.axes[0].get_legend().get_texts()) or \
-        np.all(np.nan_to_num(result.runs_before_limit, nan=1e9) >= result.pulls_planned)
+    assert _legend(fig) == ["your rig now"]                 # 10 planned, every design gets there
+    assert fig.axes[1].get_yticklabels()[-1].get_text() == "all day"
+    busy = default.changed(**{"session.repeat": 30})
+    busy_result = sweep(busy, volumes, coolers)
+    assert np.nanmin(busy_result.runs_before_limit) < 30 < np.nanmax(busy_result.runs_before_limit)
+    assert _legend(plot_design_chart(busy, busy_result)) == ["your plan: 30 pulls", "your rig now"]
 
 
 @pytest.mark.parametrize("planned,cap", [(12, 48), (10, 40), (1, 40), (40, 160), (3, 40), (26, 104)])

@@ -16,7 +16,8 @@ from thermo_budget.scenario import build_rig, limit_K, load_scenario
 from thermo_budget.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate, propagate_linear
 
-from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS, base_raw, set_path
+from conftest import (ADIABATIC_PULL, ENGINE_OFF_30S, SCENARIO_DIR, SHIPPED_SCENARIOS, adiabatic_raw, base_raw,
+                      set_path, single_temperature_K)
 
 
 # --- analytic solutions -------------------------------------------------------------------------
@@ -75,9 +76,11 @@ def test_coupled_linear_system_against_the_matrix_exponential():
 # --- tight-tolerance reference ------------------------------------------------------------------
 
 class Reference:
-    """scipy solve_ivp (Radau, rtol = atol = 1e-10), step by step, the right-hand side being
+    """scipy solve_ivp (Radau, rtol = atol = 1e-8), step by step, the right-hand side being
     thermo_budget.network.node_equations at the current state and the step's instantaneous inputs.
-    One more state integrates the heat lost to ambient."""
+    One more state integrates the heat lost to ambient. (Against rtol = atol = 1e-10 on the US rig,
+    measured: 3.3e-6 K at most, the heat lost within 5e-10, at a third of the cost; the requirement
+    it checks is 0.05 K.)"""
 
     def __init__(self, rig, steps, T0_K):
         self.pieces = []
@@ -110,7 +113,7 @@ class Reference:
             J[N_NODES, :N_NODES] = g_amb[0]
             return J
 
-        sol = solve_ivp(rhs, (t0, t0 + step.duration_s), y0, method="Radau", rtol=1e-10, atol=1e-10,
+        sol = solve_ivp(rhs, (t0, t0 + step.duration_s), y0, method="Radau", rtol=1e-8, atol=1e-8,
                         jac=jac, dense_output=True)
         assert sol.success, sol.message
         return sol
@@ -191,14 +194,6 @@ def test_energy_balance_closes_at_planning_resolution(path):
     trace = integrate(build_rig(scenario), scenario.steps, scenario.start_K, resolution=PLAN_RESOLUTION)
     residual = trace.energy_in_J - trace.energy_lost_J - trace.energy_stored_J
     assert abs(float(residual[0] / trace.energy_in_J[0])) < 1e-9
-
-
-def adiabatic_raw():
-    raw = base_raw()
-    set_path(raw, "losses.convection_multiplier", 0.0)
-    set_path(raw, "reservoir.emissivity", 0.0)
-    set_path(raw, "hardware.emissivity", 0.0)
-    return raw
 
 
 def cragoe_enthalpy_J_kg(T_K, s):
@@ -423,19 +418,6 @@ def test_per_design_ambient_power_and_inside_multipliers_match_separate_runs():
 
 # --- the inside of the rig: the loop follows the oil ------------------------------------------
 
-def _single_temperature_K(rig, T0_K, energy_J):
-    """The temperature at which every node would sit after taking energy_J from T0_K (first law,
-    written with the package's enthalpies, which the tests above check against Cragoe)."""
-    def total(T):
-        return float(np.sum(node_enthalpy_J(rig, np.full((1, N_NODES), T))))
-    H0 = total(T0_K)
-    return brentq(lambda T: total(T) - H0 - energy_J, T0_K, T0_K + 300.0, xtol=1e-10)
-
-
-ADIABATIC_PULL = Step(kind="pull", duration_s=10.0, engine="on", power_W=10000.0, rpm=3600.0)
-ENGINE_OFF_30S = Step(kind="wait", duration_s=30.0, engine="off")
-
-
 def test_adiabatic_rig_every_node_reaches_the_single_temperature_while_oil_flows():
     # Issue 10: adiabatic rig, 20 pulls of 10 kW x 10 s with 30 s engine-off waits; then the pump
     # turns with no load. The metal bodies follow the oil within 0.5 K after 3 minutes of flow;
@@ -443,7 +425,7 @@ def test_adiabatic_rig_every_node_reaches_the_single_temperature_while_oil_flows
     # within 0.5 K of the single-temperature energy balance after 15 minutes.
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)
-    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    T_eq = single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
     for minutes, nodes, tolerance in ((3, [OIL, HARDWARE], None), (15, slice(None), 0.5)):
         flow = Step(kind="wait", duration_s=60.0 * minutes, engine="idle", power_W=0.0, rpm=3600.0)
         final = integrate(rig, [ADIABATIC_PULL, ENGINE_OFF_30S] * 20 + [flow], scenario.start_K,
@@ -463,7 +445,7 @@ def test_adiabatic_rig_with_engine_off_waits_the_bodies_hold_back_little():
     # with the hose as two rings: bulk +3.2 K, bodies -7.6 K, hose liner -16 K, cover -20 K).
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)
-    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    T_eq = single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
     final = integrate(rig, [ADIABATIC_PULL, ENGINE_OFF_30S] * 20, scenario.start_K,
                       resolution=TRACE_RESOLUTION).final_K[0]
     assert 0.0 < final[OIL] - T_eq < 5.0

@@ -81,12 +81,10 @@ def test_sample_rig_moves_the_fields_about_the_scenario_values():
     assert np.all(rig.wall_emissivity <= 1.0)
 
 
-def test_posterior_from_the_demo_log_fit():
+def test_posterior_from_the_demo_log_fit(demo_log_fit):
     """The fit's 95 % intervals back to standard errors of ln(multiplier): exp(+-t se) spans the interval."""
     from scipy import stats
-    from thermo_budget.calibrate import fit_log
-    scenario = load_scenario(SCENARIO_DIR / "default.toml")
-    result = fit_log(scenario, (SCENARIO_DIR / "demo_log.csv").read_text())
+    result = demo_log_fit
     table = posterior_from_fit(result)
     assert table["factors"] == ["convection", "capacity"]
     t = stats.t.ppf(0.975, result.n_points - result.n_parameters)

@@ -13,7 +13,8 @@ import pytest
 
 from thermo_budget.cli import main
 from thermo_budget.live_forecast import forecast, planned_pull
-from thermo_budget.live_watch import JSON_KEYS, LiveWatch
+from thermo_budget.live_state import JSON_KEYS
+from thermo_budget.live_watch import LiveWatch
 from thermo_budget.network import NODE_NAMES, OIL
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
 

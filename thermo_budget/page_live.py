@@ -16,7 +16,8 @@ import pandas as pd
 import streamlit as st
 
 from .errors import ScenarioError
-from .live_watch import LiveWatch, ready_text
+from .live_state import ready_text
+from .live_watch import LiveWatch
 from .network import NODE_NAMES
 from .scenario import load_scenario, read_toml_text
 from .units import to_display, unit_label

@@ -144,27 +144,31 @@ class LiveWatch:
 
     def update(self) -> LiveState | None:
         """Read what the logger added; return a state if there are new readings, else None."""
+        return self.state() if self.read() else None
+
+    def read(self) -> bool:
+        """Take in what the logger added; True when there are new readings to answer for."""
         poll = self.follower.poll()
         if poll.missing:
             self._say(f"waiting for {self.path} to appear")
-            return None
+            return False
         if poll.restart:
             self._say(f"{poll.restart}: the estimate starts again", once=False)
             self._reset()
         if not poll.lines:
-            return None
+            return False
         log = self._parse_new(poll.lines)
         if log is None:
-            return None
+            return False
         if self.last_time_s is not None and log.time_s[0] <= self.last_time_s + 1e-6:
             log = self._after_step_back(log, poll.lines)
             if log is None:
-                return None
+                return False
         for note in log.notes:
             if not note.startswith(("gap of", "rows were not")):
                 self._say(note)
         self._take_rows(log)
-        return None if self.pending is None else self._state()
+        return self.pending is not None
 
     def _parse_new(self, lines: list[str]):
         """The new lines read by the log reader with the file's header; a line it refuses is dropped
@@ -267,11 +271,11 @@ class LiveWatch:
         else:
             next_pull = None if after is None else after[2]
             at_edge = is_pull != p.last_is_pull or (next_pull is not None and next_pull != is_pull)
-            edge, step_K = 0, 0.0
+            edge, pull_power = 0, 0.0
             if at_edge:
                 pull_power = power if is_pull else (after[3] if next_pull else p.last_pull_power_W)
-                edge, step_K = (-1 if is_pull else 1), self._edge_step_K(p, dt, pull_power)
-            taken = p.filter.advance(t, flow, power, reading, edge, step_K)
+                edge = -1 if is_pull else 1
+            taken = p.filter.advance(t, flow, power, reading, edge, pull_power, self.pull_input[0])
             fraction = float(is_pull)
             p.last_is_pull = is_pull
             if is_pull:
@@ -284,16 +288,10 @@ class LiveWatch:
                 if taken is False:
                     self._say(f"reading {reading - 273.15:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
 
-    def _edge_step_K(self, p: _Progress, dt: float, pull_power_W: float) -> float:
-        """What a whole interval of pull adds to the reading: the bulk oil's rise over it, and the
-        return line's rise above the bulk where the sensor sits there."""
-        net = p.filter.network(self.pull_input[0])
-        rise = net.over(dt)[2][OIL] if dt > 0 else 0.0
-        return pull_power_W * (rise + (net.return_rise_K_per_W if self.sensor == "return" else 0.0))
-
     # ------------------------------------------------------------------ forecasting
 
-    def _state(self) -> LiveState:
+    def state(self) -> LiveState:
+        """The answer for the latest row: it is taken on a copy of the estimate, then the forecast."""
         latest = self.progress.copy()
         self._advance(latest, self.pending, None, final=False)
         self.latest = latest

@@ -27,9 +27,9 @@ When the innovations stay larger than the filter expects (a model that is wrong,
   noisy), the process noise is scaled up by their recent mean square, so the estimate follows the
   measurement more closely and its stated uncertainty grows.
 
-A reading at a pull flag's edge (see `LiveFilter.advance`) may lie anywhere between what a wait
-and what a pull would give at that row: the flag says only in which sample interval the pull
-started or ended. Such a reading is never taken for a spike.
+At a pull flag's edge the filter knows the pull's start or end only to the sample interval (see
+`LiveFilter.advance`): the heat of one interval of pull is added to its uncertainty there, so a
+step in the reading that the flag explains is never taken for a spike.
 
 The filter keeps the present state and its covariance only; nothing grows with the log.
 Every array is generic in the node count: a state has one entry per `network.NODE_NAMES`.
@@ -55,8 +55,8 @@ DISTURBANCE_WALK_W_PER_SQRT_S = 1.0
 INITIAL_SD_K = 2.0             # hidden nodes at the first reading: equal to the oil, give or take this
 GATE_SIGMAS = 5.0              # a reading this many standard deviations from the prediction is a spike
 ADAPT_WINDOW = 20              # readings over which the innovations' mean square is taken
-RELINEARISE_K = 0.5            # freeze the network again once a node has moved this far ...
-RELINEARISE_S = 120.0          # ... or this long after it was frozen
+RELINEARISE_K = 1.0            # freeze the network again once a node has moved this far ...
+RELINEARISE_S = 300.0          # ... or this long after it was frozen
 LONGEST_INTERVAL_S = 30.0      # a longer interval between readings is predicted in parts of at most this
 REFERENCE_POWER_W = 1000.0     # b1 is taken from b at 0 and at this power
 
@@ -146,16 +146,20 @@ class FrozenNetwork:
         self.unit_oil[OIL] = 1.0
         rise = return_line_rise_K(rig, at_K[OIL], Inputs(power_W=power_scale, volume_flow_m3_s=self.flow_m3_s))
         self.return_rise_K_per_W = float(rise)
-        self._over = {}
+        self._over, self._last = {}, (None, None)
 
     def over(self, dt_s: float):
-        """(Phi (n+1, n+1), g0 (n+1,), g1 (n+1,)) over dt_s: the augmented state after the interval
-        is Phi x + g0 + P g1 for a logged power P (W) held over it."""
+        """(Phi (n+1, n+1), g0 (n+1,), g1 (n+1,), q0 (n+1,)) over dt_s: the augmented state after
+        the interval is Phi x + g0 + P g1 for a logged power P (W) held over it; q0 is the process
+        noise's random-walk part over it (variances)."""
+        if self._last[0] == dt_s:
+            return self._last[1]
         key = round(dt_s, 9)
         if key not in self._over:
             if len(self._over) > 16:
                 self._over.clear()
             self._over[key] = self._solve(dt_s)
+        self._last = (dt_s, self._over[key])
         return self._over[key]
 
     def _solve(self, dt_s: float):
@@ -171,7 +175,9 @@ class FrozenNetwork:
         Phi[:n, :n] = Phi_T
         Phi[:n, n] = G[:, OIL]
         Phi[n, n] = 1.0
-        return Phi, np.append(G @ self.b0, 0.0), np.append(G @ self.b1, 0.0)
+        q0 = np.full(n + 1, RANDOM_WALK_K_PER_SQRT_S**2 * dt_s)
+        q0[n] = DISTURBANCE_WALK_W_PER_SQRT_S**2 * dt_s
+        return Phi, np.append(G @ self.b0, 0.0), np.append(G @ self.b1, 0.0), q0
 
 
 class LiveFilter:
@@ -186,7 +192,7 @@ class LiveFilter:
         start = initial_estimate(time_s, oil_K)
         self.rig, self.sensor = rig, sensor
         self.time_s, self.x, self.P = start.time_s, start.state.copy(), start.cov.copy()
-        self.nis = deque(maxlen=ADAPT_WINDOW)
+        self.nis, self.nis_sum = deque(maxlen=ADAPT_WINDOW), 0.0
         self.rejected_in_a_row, self.last_rejected_sign = 0, 0.0
         self.frozen: dict = {}
 
@@ -206,45 +212,44 @@ class LiveFilter:
 
     def network(self, flow_m3_s: float) -> FrozenNetwork:
         """The network frozen for this flow, frozen again where it has gone stale."""
-        key = round(float(flow_m3_s), 12)
-        net = self.frozen.get(key)
+        net = self.frozen.get(flow_m3_s)
         n = len(NODE_NAMES)
         if (net is None or self.time_s - net.time_s > RELINEARISE_S
-                or np.max(np.abs(self.x[:n] - net.at_K)) > RELINEARISE_K):
-            net = self.frozen[key] = FrozenNetwork(self.rig, self.x[:n], key, self.time_s)
+                or np.abs(self.x[:n] - net.at_K).max() > RELINEARISE_K):
+            net = self.frozen[flow_m3_s] = FrozenNetwork(self.rig, self.x[:n], flow_m3_s, self.time_s)
         return net
 
     def _predict(self, net: FrozenNetwork, dt_s: float, power_W: float):
         """(mean, covariance) carried over dt_s with the power held, without changing the filter."""
-        Phi, g0, g1 = net.over(dt_s)
+        Phi, g0, g1, q0 = net.over(dt_s)
         x = Phi @ self.x + g0 + power_W * g1
-        n = len(NODE_NAMES)
-        q = np.empty(n + 1)
-        q[:n] = (MODEL_ERROR_FRACTION * (x[:n] - self.x[:n])) ** 2 + RANDOM_WALK_K_PER_SQRT_S**2 * dt_s
-        q[n] = DISTURBANCE_WALK_W_PER_SQRT_S**2 * dt_s
+        change = x - self.x                          # 0 for the heat flow, which is held
+        q = q0 + (MODEL_ERROR_FRACTION * MODEL_ERROR_FRACTION) * change * change
         P = Phi @ self.P @ Phi.T
-        P[np.diag_indices(n + 1)] += self.misfit_scale * q
+        P.flat[::P.shape[0] + 1] += self.misfit_scale * q
         return x, P
 
     @property
     def misfit_scale(self) -> float:
-        return max(1.0, sum(self.nis) / len(self.nis)) if self.nis else 1.0
+        return max(1.0, self.nis_sum / len(self.nis)) if self.nis else 1.0
 
     def offset_K(self, net: FrozenNetwork, power_W: float) -> float:
         """What the sensor reads above the bulk oil with this power: 0 in the reservoir."""
         return power_W * net.return_rise_K_per_W if self.sensor == "return" else 0.0
 
     def advance(self, time_s: float, flow_m3_s: float, power_W: float, reading_K: float,
-                edge: int = 0, edge_step_K: float = 0.0) -> bool | None:
+                edge: int = 0, edge_power_W: float = 0.0, pull_flow_m3_s: float = 0.0) -> bool | None:
         """Carry the estimate to time_s over an interval with the pump's flow and the logged power
         held, then take the reading there (NaN: none). Returns True if it was taken, False if
         rejected as a spike, None if there was none.
 
-        edge : +1 or -1 where the row lies at a pull flag's edge (its own or its neighbour's): the
-        reading may then lie up to edge_step_K above (+1) or below (-1) the prediction, the step a
-        whole sample interval of pull would make. It is judged by its distance from that range,
-        and taken with the range's middle as its prediction and a quarter of its square added to
-        its variance.
+        edge : +1 (a wait row) or -1 (a pull row) where the row lies at a pull flag's edge, its own
+        or its neighbour's: the pull may have started or ended anywhere in the interval, so the
+        heat of a whole interval of pull (edge_power_W at pull_flow_m3_s) is uncertain: its effect
+        on every node is added to the estimate's covariance before the reading is taken. With the
+        return-line sensor the reading may also lie a whole return-line rise above (+1) or below
+        (-1) the prediction: it is judged by its distance from that range, and taken with the
+        range's middle as its prediction and a quarter of its square added to its variance.
         """
         dt = time_s - self.time_s
         parts = max(int(np.ceil(dt / LONGEST_INTERVAL_S - 1e-9)), 1)
@@ -253,18 +258,24 @@ class LiveFilter:
             self.x, self.P = self._predict(net, dt / parts, power_W)
             self.time_s += dt / parts
         self.time_s = float(time_s)
+        offset_step = 0.0
+        if edge:
+            pulled = self.network(pull_flow_m3_s)
+            step = edge_power_W * (pulled.over(dt)[2] if dt > 0 else 0.0)
+            self.P = self.P + step[:, None] * step[None, :]
+            offset_step = edge * self.offset_K(pulled, edge_power_W)
         if not np.isfinite(reading_K):
             return None
-        return self._take(reading_K - self.offset_K(net, power_W), edge * edge_step_K)
+        return self._take(reading_K - self.offset_K(net, power_W), offset_step)
 
     def _take(self, reading_K: float, edge_K: float = 0.0) -> bool:
         """Take a reading of the bulk oil (its sensor offset already taken off); edge_K the signed
         step a flag edge may explain."""
         P = self.P
-        nu = reading_K - self.x[OIL]
-        S = P[OIL, OIL] + MEASUREMENT_SD_K**2
+        nu = float(reading_K - self.x[OIL])
+        S = float(P[OIL, OIL]) + MEASUREMENT_SD_K**2
         outside = nu - min(max(nu, min(0.0, edge_K)), max(0.0, edge_K))     # distance from the edge's range
-        sign = float(np.sign(outside))
+        sign = 1.0 if outside > 0 else -1.0 if outside < 0 else 0.0
         if outside * outside > GATE_SIGMAS**2 * S:
             if not (self.rejected_in_a_row and sign == self.last_rejected_sign):
                 self.rejected_in_a_row += 1
@@ -279,8 +290,11 @@ class LiveFilter:
             S += 0.25 * edge_K * edge_K
         column = P[:, OIL]
         self.x = self.x + column * (nu / S)
-        self.P = P - np.outer(column, column) / S
+        self.P = P - column[:, None] * (column[None, :] / S)
+        if len(self.nis) == ADAPT_WINDOW:
+            self.nis_sum -= self.nis[0]
         self.nis.append(nu * nu / S)
+        self.nis_sum += nu * nu / S
         return True
 
     def advance_detecting(self, time_s: float, wait: tuple, pull: tuple, reading_K: float,

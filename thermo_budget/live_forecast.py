@@ -135,8 +135,8 @@ def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, coo
         trace = integrate(take_designs(rigs, np.tile(np.arange(k), c)), [cool, pull], np.repeat(X, c * k, axis=0),
                           n_designs=c * k, durations_s=[np.repeat(extras, k), pull.duration_s],
                           resolution=CADENCE_RESOLUTION)
-        waited = trace.step_index == 0
-        during = replace(trace, T_K=trace.T_K[~waited], return_K=trace.return_K[~waited])
+        waited, pulled = trace.step_index == 0, trace.step_index == 1
+        during = replace(trace, T_K=trace.T_K[pulled], return_K=trace.return_K[pulled])
         rise = np.array([rise_K(float(e)) for e in extras]) if disturbance_W > 0 else np.zeros(c)
         peak = limiting_peak_K(during, limit_K, return_limit).reshape(c, k) + rise[:, None]
         ok = peak <= limit_K - SEARCH_MARGIN_K

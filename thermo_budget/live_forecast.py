@@ -13,7 +13,6 @@ flow all day.
 """
 from __future__ import annotations
 
-import itertools
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -43,6 +42,7 @@ OFF = Step(kind="wait", duration_s=1.0, engine="off")
 DISTURBANCE_HORIZON_S = 600.0
 SHOWN_PULLS = 3               # pulls of the forecast path drawn after the ready time
 CONFIDENCE_SAMPLES = 32       # rigs drawn from the scenario's [uncertainty] for the answers at its confidence
+PULL_CHUNK = 20               # pulls integrated at a time when counting the pulls left
 
 
 @dataclass(frozen=True)
@@ -71,16 +71,15 @@ class Forecast:
 def planned_pull(scenario: Scenario, index: int) -> tuple[Step, list[Step]]:
     """The index-th pull of the cadence (0 = the session's first) and the waits planned before it.
     Past the planned session the cycle goes on repeating."""
-    waits, count = [], -1
-    for step in itertools.cycle(scenario.cycle):
-        if step.is_pull:
-            count += 1
-            if count == index:
-                return step, waits
-            waits = []
-        else:
-            waits.append(step)
-    raise ValueError("the cycle has no pull")
+    cycle = list(scenario.cycle)
+    where = [j for j, step in enumerate(cycle) if step.is_pull]
+    if not where:
+        raise ValueError("the cycle has no pull")
+    j = where[index % len(where)]
+    if index == 0:
+        return cycle[j], cycle[:j]
+    before = where[(index - 1) % len(where)]
+    return cycle[j], (cycle[before + 1:j] if j > before else cycle[before + 1:] + cycle[:j])
 
 
 def cadence_steps(scenario: Scenario, first_index: int, n_pulls: int) -> list[Step]:
@@ -97,14 +96,57 @@ def _run(rig: Rig, steps: list[Step], X_K: np.ndarray, t0: float, resolution: Re
     return integrate(rig, steps, X_K[None, :], start_time_s=t0, resolution=resolution, stop_above_K=stop_above_K)
 
 
+def count_pulls(scenario: Scenario, rigs: Rig, n: int, limit_K: float, X_K: np.ndarray, next_index: int,
+                max_pulls: int = LIVE_MAX_PULLS, enough: int | None = None):
+    """Pulls each of n designs still completes under the limit at the planned cadence from states
+    X_K (n, k), taken at the start of pull `next_index`. Returns ((n,) counts, inf beyond
+    max_pulls; the trace of the first PULL_CHUNK pulls).
+
+    The cadence is integrated PULL_CHUNK pulls at a time, each design until it crosses the limit.
+    It stops early once `enough` designs have crossed (the others then count as inf: a lower
+    quantile needs only the smallest counts), and once the designs still going have settled into
+    a repeating cycle: the state at a chunk's end moved less than at the one before, by a ratio r,
+    and the peak plus the rest of that geometric approach (change r / (1 - r)) stays under the
+    limit by the planning margin."""
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    chunk = per_cycle * int(np.ceil(PULL_CHUNK / per_cycle))
+    counts, X = np.full(n, np.nan), np.array(X_K, dtype=float, copy=True)
+    done, first, last_change = 0, None, None
+    while done < max_pulls:
+        active = np.flatnonzero(np.isnan(counts))
+        size = min(chunk, max_pulls - done)
+        steps = ([] if done == 0 else planned_pull(scenario, next_index + done)[1]) + cadence_steps(
+            scenario, next_index + done, size)
+        trace = integrate(take_designs(rigs, active), steps, X[active], n_designs=active.size,
+                          resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
+        first = trace if first is None else first
+        under = pulls_completed_under(trace, limit_K)
+        crossed = ~np.isnan(first_crossing_s(trace, limit_K))
+        counts[active[crossed]] = done + under[crossed]
+        change = float(np.max(np.abs(trace.final_K[~crossed] - X[active[~crossed]]))) if (~crossed).any() else 0.0
+        X[active] = trace.final_K
+        done += size
+        going = np.isnan(counts)
+        if not going.any() or (enough is not None and np.count_nonzero(~going) >= enough):
+            break
+        if last_change is not None and size == chunk and change < last_change:
+            r = change / last_change
+            peak = float(trace.T_K[:, ~crossed, OIL].max())
+            if peak + change * r / (1.0 - r) < limit_K - SEARCH_MARGIN_K:
+                break
+        last_change = change if size == chunk else None
+    counts[np.isnan(counts)] = np.inf
+    counts[counts >= max_pulls] = np.inf
+    return counts, first
+
+
 def pulls_left(scenario: Scenario, rig: Rig, limit_K: float, X_K: np.ndarray, next_index: int,
                max_pulls: int = LIVE_MAX_PULLS):
     """Pulls that still fit under the limit at the planned cadence from state X_K, taken at the
     start of pull `next_index`: the planned pulls and waits from it on. Returns (count or None
-    beyond max_pulls, the trace up to the first crossing, its time from 0)."""
-    trace = _run(rig, cadence_steps(scenario, next_index, max_pulls), X_K, 0.0, CADENCE_RESOLUTION, stop_above_K=limit_K)
-    done = int(pulls_completed_under(trace, limit_K)[0])
-    return (None if done >= max_pulls else done), trace
+    beyond max_pulls, the trace of the first pulls, its time from 0)."""
+    counts, trace = count_pulls(scenario, rig, 1, limit_K, np.asarray(X_K, dtype=float)[None, :], next_index, max_pulls)
+    return (None if not np.isfinite(counts[0]) else int(counts[0])), trace
 
 
 def ready_extra_s(scenario: Scenario, rig: Rig, X_K: np.ndarray, pull: Step, cool: Step, limit_K: float,
@@ -166,11 +208,10 @@ def pulls_left_at_confidence(scenario: Scenario, rigs: Rig, n: int, limit_K: flo
     X = np.repeat(np.asarray(X_K, dtype=float)[None, :], n, axis=0)
     if wait is not None:
         X = integrate(rigs, [wait], X, n_designs=n, resolution=CADENCE_RESOLUTION).final_K
-    trace = integrate(rigs, cadence_steps(scenario, next_index, max_pulls), X, n_designs=n,
-                      resolution=CADENCE_RESOLUTION, stop_above_K=limit_K)
-    counts = pulls_completed_under(trace, limit_K).astype(float)
-    counts[counts >= max_pulls] = np.inf
-    value = order_statistic(counts, 1.0 - confidence)      # as the planning band reads its quantiles
+    q = 1.0 - confidence
+    enough = max(int(np.ceil(q * n)), 1)              # the order statistic's rank (bands.order_statistic)
+    counts, _ = count_pulls(scenario, rigs, n, limit_K, X, next_index, max_pulls, enough)
+    value = order_statistic(counts, q)                 # as the planning band reads its quantiles
     return None if not np.isfinite(value) else int(value)
 
 

@@ -49,9 +49,12 @@ PULL_CHUNK = 20               # pulls integrated at a time when counting the pul
 class Forecast:
     """What the present state means for the plan. Times are log times (s), temperatures K.
 
-    next_pull_ready_s : when the next planned pull may start and still end under the limit (None
-        when no wait is long enough). pulls_left : pulls that still start and end under the limit
-        at the planned cadence (None: more than LIVE_MAX_PULLS, the cadence can go on).
+    next_pull_ready_s, wait_s : when the next planned pull may start and still end under the
+        limit, and the seconds from now until then, in every state (through the rest of a running
+        pull; over the limit, the cooling after which the next pull ends at the limit); None when
+        no wait is long enough. pulls_left : pulls that still start and end under the limit along
+        the rest of the planned day: the next at its ready time (or its planned time, if later),
+        then the planned pulls and waits (None: more than LIVE_MAX_PULLS, the cadence can go on).
     pull_ends_over_limit, seconds_to_limit : for a running pull (False and None otherwise);
         seconds_to_limit counts to the moment the oil would reach the limit if the pull went on
         at its power (None if not within PULL_HORIZON_S past its planned end).

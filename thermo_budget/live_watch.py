@@ -37,6 +37,7 @@ AMBIENT_TIME_CONSTANT_S = 600.0  # the logged ambient is followed as a running m
 AMBIENT_STEP_K = 0.1            # ... and the rig's ambient changed when it has moved this far
 HISTORY_RECENT_S = 900.0        # the chart keeps every reading of this last stretch ...
 HISTORY_STEP_S = 10.0           # ... and one in every this many seconds before it
+PARSE_LINES = 4096              # a long catch-up is read this many lines at a time (bounded memory)
 SPACING_ROWS = 50               # the log's spacing is the median of this many last intervals
 
 
@@ -155,20 +156,24 @@ class LiveWatch:
         if poll.restart:
             self._say(f"{poll.restart}: the estimate starts again", once=False)
             self._reset()
-        if not poll.lines:
-            return False
-        log = self._parse_new(poll.lines)
+        taken = False
+        for start in range(0, len(poll.lines), PARSE_LINES):
+            taken |= self._take_lines(poll.lines[start:start + PARSE_LINES])
+        return taken and self.pending is not None
+
+    def _take_lines(self, lines: list[str]) -> bool:
+        log = self._parse_new(lines)
         if log is None:
             return False
         if self.last_time_s is not None and log.time_s[0] <= self.last_time_s + 1e-6:
-            log = self._after_step_back(log, poll.lines)
+            log = self._after_step_back(log, lines)
             if log is None:
                 return False
         for note in log.notes:
             if not note.startswith(("gap of", "rows were not")):
                 self._say(note)
         self._take_rows(log)
-        return self.pending is not None
+        return True
 
     def _parse_new(self, lines: list[str]):
         """The new lines read by the log reader with the file's header; a line it refuses is dropped

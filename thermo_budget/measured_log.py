@@ -224,23 +224,21 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
 
 
 def _plain_rows(rows: list, line_numbers: list, columns: dict, width: int):
-    """The rows read at once where every cell is a plain finite number (a long log written by a
-    logger): (line numbers, time_s array, {role: array}); None where any row needs the careful
-    reading above (a blank or missing cell, a word, an infinity, clock times, a time out of range),
-    which then gives the same result or names the cell."""
+    """A log of plain finite numbers in seconds read column by column: (line numbers, time_s,
+    {role: values}); None where any row needs the row-by-row reading (blank or missing cells, words,
+    infinities, clock times, times out of range), which then reads it or names the cell."""
     if columns["time"][0].lower() != "time_s" or not rows or any(len(row) < width for row in rows):
         return None
+    roles = (("oil", "temperature"), ("ambient", "ambient"), ("power", "power"), ("pull", "pull"))
     try:
         time_s = np.array([float(row[columns["time"][1]]) for row in rows])
         values = {key: np.array([float(row[columns[role][1]]) for row in rows]) if role in columns else []
-                  for key, role in (("oil", "temperature"), ("ambient", "ambient"), ("power", "power"), ("pull", "pull"))}
+                  for key, role in roles}
     except ValueError:
         return None
-    if not (np.all(np.isfinite(time_s)) and time_s.min() >= 0 and time_s.max() <= MAX_LOG_SPAN_S):
-        return None
-    if any(len(v) and np.any(np.isinf(v)) for v in values.values()):
-        return None
-    return line_numbers, time_s, values
+    plain = (np.all(np.isfinite(time_s)) and time_s.min() >= 0 and time_s.max() <= MAX_LOG_SPAN_S
+             and not any(len(v) and np.any(np.isinf(v)) for v in values.values()))
+    return (line_numbers, time_s, values) if plain else None
 
 
 def _with_note(log: MeasuredLog, note: str) -> MeasuredLog:

@@ -14,12 +14,12 @@ rate of rise (`state_estimate.LiveFilter.advance_detecting`).
 from __future__ import annotations
 
 import re
-from collections import deque
 
 import numpy as np
 
 from .errors import ScenarioError
 from .live_forecast import forecast
+from .live_progress import Progress, ReadingHistory
 from .live_state import LiveState, state_text, temperature_text
 from .log_follower import LogFollower
 from .log_model import _reference_steps, logged_inputs
@@ -35,59 +35,7 @@ MISFIT_ALARM = 9.0              # innovations' mean square this many times the e
 NEAR_LIMIT_K = 2.0
 AMBIENT_TIME_CONSTANT_S = 600.0  # the logged ambient is followed as a running mean over about this long
 AMBIENT_STEP_K = 0.1            # ... and the rig's ambient changed when it has moved this far
-HISTORY_RECENT_S = 900.0        # the chart keeps every reading of this last stretch ...
-HISTORY_STEP_S = 10.0           # ... and one in every this many seconds before it
 PARSE_LINES = 4096              # a long catch-up is read this many lines at a time (bounded memory)
-SPACING_ROWS = 50               # the log's spacing is the median of this many last intervals
-
-
-class _Progress:
-    """Everything a row changes: the filter, the pulls seen, the ambient, the last reading."""
-
-    def __init__(self, filter_: LiveFilter, rig, is_pull: bool, time_s: float, reading_K: float, pull_power_W: float):
-        self.filter, self.rig = filter_, rig
-        self.pulls_started, self.in_pull, self.last_is_pull = 0, False, is_pull
-        self.pull_start_s = self.pull_end_s = self.first_time_s = time_s
-        self.last_reading_s, self.last_oil_K = time_s, reading_K
-        self.ambient_K = None
-        self.last_pull_power_W = pull_power_W
-        self.spacing = deque(maxlen=SPACING_ROWS)
-
-    def copy(self) -> "_Progress":
-        other = _Progress.__new__(_Progress)
-        other.__dict__.update(self.__dict__)
-        other.filter, other.spacing = self.filter.copy(), deque(self.spacing, SPACING_ROWS)
-        return other
-
-    def track_pulls(self, t0: float, t1: float, fraction: float):
-        pulling = fraction > 0
-        if pulling and not self.in_pull:
-            self.pulls_started += 1
-            self.pull_start_s = t1 - fraction * (t1 - t0)
-        if self.in_pull and not pulling:
-            self.pull_end_s = t0
-        if self.in_pull and pulling and fraction < 1.0:      # a pull ending inside the interval
-            self.pull_end_s, pulling = t0 + fraction * (t1 - t0), False
-        self.in_pull = pulling
-
-
-class _History:
-    """The readings for the chart: all of the last HISTORY_RECENT_S, one per HISTORY_STEP_S before."""
-
-    def __init__(self):
-        self.recent, self.older_t, self.older_T = deque(), [], []
-
-    def add(self, t: float, T: float):
-        self.recent.append((t, T))
-        while self.recent and self.recent[0][0] < t - HISTORY_RECENT_S:
-            t0, T0 = self.recent.popleft()
-            if not self.older_t or t0 >= self.older_t[-1] + HISTORY_STEP_S:
-                self.older_t.append(t0)
-                self.older_T.append(T0)
-
-    def arrays(self, extra=()):
-        points = list(self.recent) + list(extra)
-        return (np.array(self.older_t + [p[0] for p in points]), np.array(self.older_T + [p[1] for p in points]))
 
 
 class LiveWatch:
@@ -115,11 +63,11 @@ class LiveWatch:
 
     def _reset(self):
         self.header, self.lines_read = None, 0
-        self.progress: _Progress | None = None
-        self.latest: _Progress | None = None
+        self.progress: Progress | None = None
+        self.latest: Progress | None = None
         self.pending = None
         self.last_time_s = None
-        self.history = _History()
+        self.history = ReadingHistory()
 
     # the latest answer's view of the pulls and the estimate
     @property
@@ -249,13 +197,13 @@ class LiveWatch:
     def _start(self, row):
         t, reading, is_pull, *_ = row
         rig = self.base_rig
-        self.progress = _Progress(LiveFilter(rig, t, reading, self.sensor), rig, bool(is_pull), t, reading,
+        self.progress = Progress(LiveFilter(rig, t, reading, self.sensor), rig, bool(is_pull), t, reading,
                                   self.pull_input[1])
         self._ambient(self.progress, row[5], 0.0)
         self.history.add(t, reading)
         self.pending = None
 
-    def _ambient(self, p: _Progress, ambient_K: float, dt: float):
+    def _ambient(self, p: Progress, ambient_K: float, dt: float):
         if not np.isfinite(ambient_K):
             return
         p.ambient_K = ambient_K if p.ambient_K is None else (
@@ -264,7 +212,7 @@ class LiveWatch:
             p.rig = self.base_rig.with_changes(ambient_K=p.ambient_K)
             p.filter.set_rig(p.rig)
 
-    def _advance(self, p: _Progress, row, after, final: bool):
+    def _advance(self, p: Progress, row, after, final: bool):
         """Take one row into p. after : the next row (None for the latest one); final: for good."""
         t, reading, is_pull, power, flow, ambient = row
         t0 = p.filter.time_s
@@ -315,7 +263,7 @@ class LiveWatch:
                          forecast=result, alarm=self._alarm(result, now, latest, estimate, spacing),
                          measured_time_s=t, measured_oil_K=T)
 
-    def _alarm(self, result, now: float, latest: _Progress, estimate, spacing: float) -> str | None:
+    def _alarm(self, result, now: float, latest: Progress, estimate, spacing: float) -> str | None:
         u = self.scenario.units
         limit = temperature_text(self.limit_K, u)
         oil = estimate.mean_K[OIL]

@@ -18,22 +18,25 @@ from __future__ import annotations
 
 import csv
 import io
+import math
 from dataclasses import dataclass, replace
+from datetime import datetime
 from pathlib import Path
 
 import numpy as np
 
 from .errors import ScenarioError
-from .log_cells import MISSING_CELLS, cell_number, cell_times_s, plain_rows
 from .units import convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
 MAX_CELL_CHARS = 1_000
+MAX_LOG_SPAN_S = 12 * 3600.0   # a test day; the fit integrates every logged second (found by the fuzz test)
 MAX_POWER_W = 1e6          # the plausible range of a pull's power (scenario_table.KEYS)
 MIN_POINTS = 10            # readings needed to fit two or three parameters and judge the residual
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
+MISSING_CELLS = {"", "nan", "na", "n/a", "null", "none", "-"}
 # Readings outside this range are taken as a wrong unit or a broken sensor, not as oil (the upper
 # bound is far above any hydraulic oil's flash point; common practice, no source).
 OIL_RANGE_C = (-60.0, 300.0)
@@ -143,7 +146,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
 
     skipped = 0
     times, values = [], {key: [] for key in ("oil", "ambient", "power", "pull")}
-    fast = plain_rows(rows[1:], [n for n, _ in numbered[1:]], columns, len(names))
+    fast = _plain_rows(rows[1:], [n for n, _ in numbered[1:]], columns, len(names))
     for (line_no, _), cells in zip(numbered[1:], rows[1:] if fast is None else []):
         cells = cells + [""] * (len(names) - len(cells))
         time_cell = cells[columns["time"][1]].strip()
@@ -152,11 +155,11 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
             continue
         times.append((line_no, time_cell))
         name, index = columns["temperature"]
-        values["oil"].append(cell_number(cells[index], source, line_no, name))
+        values["oil"].append(_number(cells[index], source, line_no, name))
         for key in ("ambient", "power", "pull"):
             if key in columns:
                 name, index = columns[key]
-                values[key].append(cell_number(cells[index], source, line_no, name))
+                values[key].append(_number(cells[index], source, line_no, name))
     if fast is not None:
         line_numbers, time_s, values = fast
     else:
@@ -166,7 +169,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
         raise ScenarioError(source, "no data rows", f"at least {MIN_POINTS} rows with a time and an oil temperature")
 
     if fast is None:
-        time_s = cell_times_s(times, columns["time"][0], source)
+        time_s = _times_s(times, columns["time"][0], source)
     oil_K = _to_kelvin(np.array(values["oil"]), columns["temperature"][0])
     _check_range(oil_K, OIL_RANGE_C, columns["temperature"][0], source, line_numbers)
     ambient_K = None
@@ -220,6 +223,24 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
     return log
 
 
+def _plain_rows(rows: list, line_numbers: list, columns: dict, width: int):
+    """A log of plain finite numbers in seconds read column by column: (line numbers, time_s,
+    {role: values}); None where any row needs the row-by-row reading (blank or missing cells, words,
+    infinities, clock times, times out of range), which then reads it or names the cell."""
+    if columns["time"][0].lower() != "time_s" or not rows or any(len(row) < width for row in rows):
+        return None
+    roles = (("oil", "temperature"), ("ambient", "ambient"), ("power", "power"), ("pull", "pull"))
+    try:
+        time_s = np.array([float(row[columns["time"][1]]) for row in rows])
+        values = {key: np.array([float(row[columns[role][1]]) for row in rows]) if role in columns else []
+                  for key, role in roles}
+    except ValueError:
+        return None
+    plain = (np.all(np.isfinite(time_s)) and time_s.min() >= 0 and time_s.max() <= MAX_LOG_SPAN_S
+             and not any(len(v) and np.any(np.isinf(v)) for v in values.values()))
+    return (line_numbers, time_s, values) if plain else None
+
+
 def _with_note(log: MeasuredLog, note: str) -> MeasuredLog:
     return replace(log, notes=log.notes + (note,))
 
@@ -260,6 +281,61 @@ def _columns(names: list, sensor: str, source: str) -> dict:
         if name in lower:
             found[role] = (names[lower[name]], lower[name])
     return found
+
+
+def _number(cell: str, source: str, line_no: int, column: str) -> float:
+    text = cell.strip()
+    if text.lower() in MISSING_CELLS:
+        return math.nan
+    try:
+        value = float(text)
+    except ValueError:
+        raise ScenarioError(f"{source} line {line_no}, column {column}", text,
+                            "a number, or a blank or NaN cell to skip") from None
+    if math.isinf(value):
+        raise ScenarioError(f"{source} line {line_no}, column {column}", text, "a finite number")
+    return value
+
+
+def _times_s(times: list, column: str, source: str) -> np.ndarray:
+    """Seconds from the session start: time_s as given, ISO timestamps from the earliest one."""
+    if column.lower() == "time_s":
+        values = []
+        for line_no, cell in times:
+            try:
+                value = float(cell)
+            except ValueError:
+                raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
+                                    "seconds from the session start as a number (for clock times name the column time)") from None
+            if not math.isfinite(value) or value < 0 or value > MAX_LOG_SPAN_S:
+                raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
+                                    f"seconds from the session start, zero or more and at most {MAX_LOG_SPAN_S:.0f} (12 h)")
+            values.append(value)
+        return np.array(values)
+    stamps = []
+    for line_no, cell in times:
+        try:
+            float(cell)
+            numeric = True
+        except ValueError:
+            numeric = False
+        if numeric:
+            raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
+                                "an ISO 8601 timestamp such as 2025-05-01T09:30:00 (for seconds name the column time_s)")
+        try:
+            stamps.append(datetime.fromisoformat(cell))
+        except ValueError:
+            raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
+                                "an ISO 8601 timestamp such as 2025-05-01T09:30:00") from None
+    aware = {stamp.tzinfo is not None for stamp in stamps}
+    if len(aware) > 1:
+        raise ScenarioError(f"{source} column {column}", "mixed", "timestamps all with a time zone or all without")
+    start = min(stamps)
+    seconds = np.array([(stamp - start).total_seconds() for stamp in stamps])
+    if seconds.max() > MAX_LOG_SPAN_S:
+        raise ScenarioError(f"{source} column {column}", f"{seconds.max():.0f} s from the first timestamp",
+                            f"a log spanning at most {MAX_LOG_SPAN_S:.0f} s (12 h)")
+    return seconds
 
 
 def _to_kelvin(values: np.ndarray, column: str) -> np.ndarray:

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import ScenarioError
+from .plain_log import plain_rows
 from .units import convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
@@ -146,7 +147,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
 
     skipped = 0
     times, values = [], {key: [] for key in ("oil", "ambient", "power", "pull")}
-    fast = _plain_rows(rows[1:], [n for n, _ in numbered[1:]], columns, len(names))
+    fast = plain_rows(rows[1:], [n for n, _ in numbered[1:]], columns, len(names), MAX_LOG_SPAN_S)
     for (line_no, _), cells in zip(numbered[1:], rows[1:] if fast is None else []):
         cells = cells + [""] * (len(names) - len(cells))
         time_cell = cells[columns["time"][1]].strip()
@@ -221,24 +222,6 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
                  if log.has_heat_input else "")
         log = _with_note(log, f"gap of {largest_gap:.0f} s in the log after t = {at:.0f} s.{extra}")
     return log
-
-
-def _plain_rows(rows: list, line_numbers: list, columns: dict, width: int):
-    """A log of plain finite numbers in seconds read column by column: (line numbers, time_s,
-    {role: values}); None where any row needs the row-by-row reading (blank or missing cells, words,
-    infinities, clock times, times out of range), which then reads it or names the cell."""
-    if columns["time"][0].lower() != "time_s" or not rows or any(len(row) < width for row in rows):
-        return None
-    roles = (("oil", "temperature"), ("ambient", "ambient"), ("power", "power"), ("pull", "pull"))
-    try:
-        time_s = np.array([float(row[columns["time"][1]]) for row in rows])
-        values = {key: np.array([float(row[columns[role][1]]) for row in rows]) if role in columns else []
-                  for key, role in roles}
-    except ValueError:
-        return None
-    plain = (np.all(np.isfinite(time_s)) and time_s.min() >= 0 and time_s.max() <= MAX_LOG_SPAN_S
-             and not any(len(v) and np.any(np.isinf(v)) for v in values.values()))
-    return (line_numbers, time_s, values) if plain else None
 
 
 def _with_note(log: MeasuredLog, note: str) -> MeasuredLog:

@@ -161,6 +161,35 @@ def memory_bytes(scenario, day: SimulatedDay, path: Path, until_s: float) -> tup
     return kept, peak, path.stat().st_size
 
 
+def page_live_s(day: SimulatedDay, folder: Path) -> tuple[float, float] | None:
+    """(the page's live section's first run on the whole day, a later run after two more rows), s,
+    in Streamlit's AppTest (no browser); None without streamlit."""
+    try:
+        from streamlit.testing.v1 import AppTest
+    except ImportError:
+        return None
+
+    def app(folder_name):
+        from pathlib import Path
+
+        from thermo_budget.page_live import live_section
+        from thermo_budget.scenario import DEFAULT_SCENARIO
+        live_section(Path(DEFAULT_SCENARIO).read_text(), "SI", Path(folder_name))
+    lines = day.lines()
+    path = folder / "page" / "day.csv"
+    path.parent.mkdir()
+    path.write_text("\n".join(lines[:-2]) + "\n")
+    at = AppTest.from_function(app, args=(str(path.parent),), default_timeout=600)
+    start = time.perf_counter()
+    at.run()
+    first = time.perf_counter() - start
+    with open(path, "a") as handle:
+        handle.write("\n".join(lines[-2:]) + "\n")
+    start = time.perf_counter()
+    at.run()
+    return first, time.perf_counter() - start
+
+
 def main(argv=None):
     scenario = day_scenario()
     start = time.perf_counter()
@@ -184,6 +213,10 @@ def main(argv=None):
             kept, peak, size = memory_bytes(scenario, day, Path(folder) / "memory.csv", until)
             print(f"  Python allocation after reading {until / 3600:.0f} h at once: kept {kept / 1e6:.2f} MB, peak while "
                   f"reading {peak / 1e6:.1f} MB (the file: {size / 1e6:.2f} MB)")
+        page = page_live_s(day, Path(folder))
+        if page:
+            print(f"  the page's live section on the whole day (AppTest, no browser): first run {page[0]:.2f} s, "
+                  f"a later run with 2 new rows {page[1]:.2f} s (its refresh: every 3 s)")
         fit, fit_cpu = _whole_process_s(["fit", str(DEFAULT_SCENARIO), str(path), "--json"], repeats=1)
         print(f"  `fit` on the whole day as a whole process: {fit:.1f} s wall, {fit_cpu:.1f} s CPU (target <= 30 s)")
 

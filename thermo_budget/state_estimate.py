@@ -55,8 +55,8 @@ DISTURBANCE_WALK_W_PER_SQRT_S = 1.0
 INITIAL_SD_K = 2.0             # hidden nodes at the first reading: equal to the oil, give or take this
 GATE_SIGMAS = 5.0              # a reading this many standard deviations from the prediction is a spike
 ADAPT_WINDOW = 20              # readings over which the innovations' mean square is taken
-RELINEARISE_K = 1.0            # freeze the network again once a node has moved this far ...
-RELINEARISE_S = 300.0          # ... or this long after it was frozen
+RELINEARISE_K = 2.0            # freeze the network again once a node has moved this far ...
+RELINEARISE_S = 600.0          # ... or this long after it was frozen
 LONGEST_INTERVAL_S = 30.0      # a longer interval between readings is predicted in parts of at most this
 REFERENCE_POWER_W = 1000.0     # b1 is taken from b at 0 and at this power
 
@@ -196,6 +196,7 @@ class LiveFilter:
         self.nis, self.nis_sum = deque(maxlen=ADAPT_WINDOW), 0.0
         self.rejected_in_a_row, self.last_rejected_sign = 0, 0.0
         self.frozen: dict = {}
+        self._source = (None, None, None)         # (g0, power, g0 + power g1) of the last interval
 
     def copy(self) -> "LiveFilter":
         other = copy.copy(self)
@@ -223,7 +224,9 @@ class LiveFilter:
     def _predict(self, net: FrozenNetwork, dt_s: float, power_W: float):
         """(mean, covariance) carried over dt_s with the power held, without changing the filter."""
         Phi, g0, g1, q0 = net.over(dt_s)
-        x = Phi @ self.x + g0 + power_W * g1
+        if self._source[0] is not g0 or self._source[1] != power_W:
+            self._source = (g0, power_W, g0 + power_W * g1)
+        x = Phi @ self.x + self._source[2]
         change = x - self.x                          # 0 for the heat flow, which is held
         q = q0 + (MODEL_ERROR_FRACTION * MODEL_ERROR_FRACTION) * change * change
         P = Phi @ self.P @ Phi.T

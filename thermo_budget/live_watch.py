@@ -107,7 +107,7 @@ class LiveWatch:
         taken = False
         for start in range(0, len(poll.lines), PARSE_LINES):
             taken |= self._take_lines(poll.lines[start:start + PARSE_LINES])
-        return taken and self.pending is not None
+        return taken and self.progress is not None
 
     def _take_lines(self, lines: list[str]) -> bool:
         log = self._parse_new(lines)
@@ -246,17 +246,18 @@ class LiveWatch:
     def state(self) -> LiveState:
         """The answer for the latest row: it is taken on a copy of the estimate, then the forecast."""
         latest = self.progress.copy()
-        self._advance(latest, self.pending, None, final=False)
+        if self.pending is not None:
+            self._advance(latest, self.pending, None, final=False)
         self.latest = latest
-        now = self.pending[0]
+        now, reading = (self.pending[0], self.pending[1]) if self.pending is not None else (
+            latest.filter.time_s, latest.last_oil_K)
         estimate = latest.filter.estimate
         X = estimate.mean_K
         result = forecast(self.scenario, latest.rig, self.limit_K, X, now, latest.pulls_started, latest.in_pull,
                           pull_elapsed_s=now - latest.pull_start_s,
                           since_pull_end_s=now - (latest.pull_end_s if latest.pulls_started else latest.first_time_s),
                           disturbance_W=estimate.established_disturbance_W, confidence=self.confidence)
-        reading = self.pending[1]
-        t, T = self.history.arrays([(now, reading)] if np.isfinite(reading) else [])
+        t, T = self.history.arrays([(now, reading)] if self.pending is not None and np.isfinite(reading) else [])
         spacing = float(np.median(latest.spacing)) if latest.spacing else 0.0
         return LiveState(time_s=now, oil_K=reading if np.isfinite(reading) else None, estimate_K=X.copy(),
                          estimate_sd_K=estimate.sd_K, in_pull=latest.in_pull, over_limit=bool(X[OIL] > self.limit_K),

@@ -127,7 +127,7 @@ def show_record(record, system: str, limit_K: float | None = None):
     if record.alarm:
         st.error(record.alarm, icon="🔥")
     colour = "#b00020" if record.over_limit else "#1b7f3b" if record.forecast.wait_s == 0 else "#b35900"
-    st.markdown(f"<div style='font-size:3.2rem;font-weight:700;color:{colour};line-height:1.1'>"
+    st.markdown(f"<div style='font-size:clamp(1.7rem,7vw,3.2rem);font-weight:700;color:{colour};line-height:1.1'>"
                 f"{ready_text(record).capitalize()}</div>", unsafe_allow_html=True)
     left = record.forecast.pulls_left
     columns = st.columns(2 + len(NODE_NAMES))

@@ -85,8 +85,9 @@ def test_the_simulated_day_agrees_with_solve_ivp_through_the_pulls_past_the_limi
 
 @pytest.fixture(scope="module")
 def followed(scenario, day, tmp_path_factory):
-    """The day followed as it is written (five appends, one update after each), and at each append a
-    second watch started afresh on the file as it stands. {time: (followed, restarted)}."""
+    """The day followed as it is written (five appends, one update after each; the two minutes before
+    the break two rows a poll), and at two of them a second watch started afresh on the file as it
+    stands. {time: (followed, restarted)}."""
     folder = tmp_path_factory.mktemp("day")
     path = folder / "day.csv"
     lines = day.lines()
@@ -95,9 +96,14 @@ def followed(scenario, day, tmp_path_factory):
     path.write_text(lines[0] + "\n")
     for end in CHUNK_ENDS_S:
         rows = int(np.searchsorted(day.time_s, end + 1e-6))
-        with open(path, "a") as handle:
-            handle.write("\n".join(lines[1 + done:1 + rows]) + "\n")
-        done = rows
+        # before the break, two rows a poll as a logger writes them (across two flag edges)
+        polls = range(int(np.searchsorted(day.time_s, 6100.0)), rows, 2) if end == OVER_LIMIT_S else []
+        for upto in list(polls) + [rows]:
+            with open(path, "a") as handle:
+                handle.write("\n".join(lines[1 + done:1 + upto]) + "\n")
+            done = upto
+            if upto < rows:
+                watch.read()
         state = watch.update()
         copy = folder / f"restart_{end:.0f}.csv"
         copy.write_text(path.read_text())

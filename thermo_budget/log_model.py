@@ -206,8 +206,9 @@ def logged_inputs(scenario: Scenario, log: MeasuredLog) -> LoggedInputs:
         engine = np.where(is_pull, "on", np.where(off, "off", "idle"))
         rpm = np.where(is_pull, pull_rpm, np.where(off, 0.0, wait.rpm if wait.engine == "idle" else pull_rpm))
         watts = np.where(off, 0.0, power)
-        off_in_idle = int(np.count_nonzero(off)) if wait.engine == "idle" else 0
-        powered_off = int(np.count_nonzero(idle)) if wait.engine == "off" else 0
+        timed = log.time_s > TIME_TOLERANCE_S          # a row at the session start closes no interval
+        off_in_idle = int(np.count_nonzero(off & timed)) if wait.engine == "idle" else 0
+        powered_off = int(np.count_nonzero(idle & timed)) if wait.engine == "off" else 0
         if off_in_idle:
             notes.append(f"{off_in_idle} wait intervals with 0 W logged are taken as engine off (the scenario's waits idle)")
         if powered_off:

@@ -13,12 +13,15 @@ import pytest
 
 from thermo_budget.cli import main
 from thermo_budget.live_forecast import forecast, planned_pull
-from thermo_budget.live_watch import JSON_KEYS, LiveWatch
+from thermo_budget.live_state import JSON_KEYS
+from thermo_budget.live_watch import LiveWatch
 from thermo_budget.network import NODE_NAMES, OIL
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
 
 from conftest import SCENARIO_DIR
-from live_logger import extra_mass_ready_s, hot_start_scenario, log_day
+from live_logger import ONE_SUBSTEP, extra_mass_ready_s, hot_start_scenario, log_day
+from thermo_budget.log_model import _scenario_pieces
+from thermo_budget.solver import integrate
 
 PULL_S, CYCLE_S = 30.0, 150.0       # the hot-start scenario's pull and pull + wait
 THIRD_PULL_END_S = 2 * CYCLE_S + PULL_S
@@ -104,6 +107,49 @@ def test_nan_reading_and_a_20_K_spike_leave_the_estimate_on_track(tmp_path):
     i = max(records)
     truth = truth_forecast(scenario, day, i, 3, day.time_s[i] - THIRD_PULL_END_S)
     assert abs(records[i].forecast.next_pull_ready_s - truth.next_pull_ready_s) <= 30.0
+
+
+def flagged_at_samples(scenario, steps, dt_s, closed: bool, seed=3):
+    """The truth read every dt_s s, with a pull flag as a logger samples its pull switch with the
+    temperature: 1 on the rows logged while the pull runs. closed: a row logged at the instant
+    the pull starts already says 1 (and the one at its end 0). Returns (lines, truth (M, k))."""
+    ends = np.cumsum([step.duration_s for step in steps])
+    starts = ends - [step.duration_s for step in steps]
+    times = np.arange(0.0, ends[-1] + 1e-9, dt_s)
+    pieces, _, _ = _scenario_pieces(list(steps), times)
+    trace = integrate(build_rig(scenario), pieces, scenario.start_K, resolution=ONE_SUBSTEP)
+    truth = trace.T_K[np.searchsorted(trace.time_s[:, 0], times - 1e-6), 0, :]
+    running = [any(step.is_pull and ((a <= t < b) if closed else (a < t <= b)) for step, a, b in zip(steps, starts, ends))
+               for t in times]
+    noise = np.random.default_rng(seed).normal(0.0, 0.3, times.size)
+    return (["time_s,oil_C,pull"] + [f"{t:.1f},{T - 273.15 + e:.3f},{int(r)}" for t, T, e, r in
+                                     zip(times, truth[:, OIL], noise, running)], truth)
+
+
+@pytest.mark.parametrize("closed", [True, False], ids=["flag set on the row where the pull starts",
+                                                       "flag set on the first row after it started"])
+def test_a_step_the_pull_flag_explains_is_never_a_spike(tmp_path, closed):
+    """A log every 10 s whose pull flag is the switch's state at each row: a pull may start or end
+    anywhere in the interval before the flag's edge, so the reading there lies up to 10 s of pull
+    (about 2 K) from what the flag's interval says. Those readings are taken, not rejected as spikes
+    (with the flag set on the row where the pull starts, the earlier filter rejected three of them
+    here); a real 20 K spike is still rejected."""
+    scenario = hot_start_scenario()
+    pull, wait = scenario.cycle
+    steps = [wait.with_duration(100.0), pull, wait.with_duration(120.0), pull, wait.with_duration(120.0), pull,
+             wait.with_duration(200.0)]
+    lines, truth = flagged_at_samples(scenario, steps, 10.0, closed)
+    cells = lines[60].split(",")                     # t = 590 s, in the last wait
+    cells[1] = f"{float(cells[1]) + 20.0:.3f}"
+    lines[60] = ",".join(cells)
+    path = tmp_path / "log.csv"
+    path.write_text("\n".join(lines) + "\n")
+    watch = LiveWatch(scenario, path)
+    state = watch.update()
+    rejected = [m for m in watch.take_messages() if "rejected as a spike" in m]
+    assert rejected == [f"reading {float(cells[1]):.2f} degC at t = 590 s rejected as a spike"]
+    assert watch.pulls_started == 3
+    assert abs(state.estimate_K[OIL] - truth[-1, OIL]) < 0.5
 
 
 def test_truncated_and_restarted_file_restarts_the_estimate_with_a_message(tmp_path):

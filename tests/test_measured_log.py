@@ -217,3 +217,18 @@ def test_bad_log_through_the_cli_exits_2_without_traceback(tmp_path, capsys, cas
     assert code == 2
     assert captured.err.startswith("error: ") and expected in captured.err
     assert captured.err.count("\n") == 1 and "Traceback" not in captured.err + captured.out
+
+
+def test_a_plain_long_log_reads_as_the_careful_reader_reads_it():
+    """A long log of plain numbers is read at once; the same log with one blank cell goes through
+    the row-by-row reader. Both give the same rows (bar the blank) and the same row count."""
+    rows = [f"{t},{20 + 0.01 * t:.3f},{int(t % 60 < 10)},{7000 if t % 60 < 10 else 0}" for t in range(0, 3000, 2)]
+    plain = read_log("time_s,oil_C,pull,power_W\n" + "\n".join(rows))
+    blank = list(rows)
+    blank[7] = blank[7].replace(blank[7].split(",")[1], "")
+    careful = read_log("time_s,oil_C,pull,power_W\n" + "\n".join(blank))
+    assert plain.n_rows == careful.n_rows == len(rows)
+    assert careful.n_skipped_cells == 1 and plain.n_skipped_cells == 0
+    assert np.array_equal(plain.time_s, careful.time_s) and np.array_equal(plain.pull, careful.pull)
+    assert np.array_equal(np.delete(plain.oil_K, 7), np.delete(careful.oil_K, 7))
+    assert np.isnan(careful.oil_K[7]) and np.array_equal(plain.power_W, careful.power_W)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import os
 
+import numpy as np
 import pytest
 from streamlit.testing.v1 import AppTest
 
@@ -94,3 +95,20 @@ def test_an_alarm_is_shown_as_a_banner(tmp_path):
     (tmp_path / "hot.csv").write_text("time_s,oil_C,pull,power_W\n" + rows)
     at = _live_app(tmp_path, "SI").run()
     assert not at.exception and any("limit" in e.value for e in at.error)
+
+
+def test_on_a_long_log_over_the_limit_the_section_says_how_long_to_cool(tmp_path):
+    """The first 6,220 s of the benchmark's day logged every second (6,221 rows), ending 10 s into
+    the break after four pulls pushed past the limit: the section answers at once and says in words
+    how long to cool and how many pulls then."""
+    import re
+
+    from thermo_budget.bench_live import day_plan, simulated_day
+    day = simulated_day(plan=day_plan()[:69])
+    rows = int(np.searchsorted(day.time_s, 6220.0)) + 1
+    (tmp_path / "day.csv").write_text("\n".join(day.lines(range(rows))) + "\n")
+    at = _live_app(tmp_path, "SI").run()
+    assert not at.exception
+    words = [m.value for m in at.markdown if "Over the limit" in m.value]
+    assert len(words) == 1 and re.search(r"Over the limit: cool for \d+ min \d+ s, then \d+ more pulls?<", words[0])
+    assert any("cool for" in e.value for e in at.error)

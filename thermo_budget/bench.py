@@ -10,6 +10,7 @@
    sweep (median of three runs each); `--startup` prints only these.
 4. report() with the uncertainty band, and the band's share of it (default scenario, and the same
    rig asked for 30 pulls, where every sizing answer is non-trivial).
+With --live, only the live watch over a ten-hour day logged every second (bench_live.py).
 5. The page's work after one input change (a new oil volume on the default scenario): the answers,
    the temperature chart and the design chart, as the page computes them, without Streamlit; with
    --page, also whole reruns of app.py in Streamlit's AppTest (no browser).
@@ -243,7 +244,12 @@ def main(argv=None):
     parser.add_argument("--startup", action="store_true", help="only the start-up times of whole processes")
     parser.add_argument("--browser", action="store_true",
                         help="also time the page in headless Chromium after each of 5 oil-volume changes")
+    parser.add_argument("--live", action="store_true",
+                        help="only the live watch over a simulated ten-hour day (thermo_budget.bench_live)")
     args = parser.parse_args(argv)
+    if args.live:
+        from .bench_live import main as live_main
+        return live_main()
     print(startup_line(startup_s()), flush=True)
     if args.startup:
         return

@@ -1,60 +1,41 @@
 """Watching a log live: the file follower, the log reader, the state estimate and the forecast wired
-together. `LiveWatch.update()` takes in what the logger has added and returns one forecast record.
+together. `LiveWatch.update()` reads what the logger has added and returns one `LiveState`.
+
+Only the new lines are read at each poll (with the header), and each row is taken into the filter
+once, so a poll costs what the logger added, not what the day holds. A row is taken for good once
+the row after it is in (the pull flag's edges look one row ahead); the latest row is worked out on
+a copy for each answer. Rows are therefore taken the same way whether the day is followed as it is
+written or read at once from its file: a watch restarted mid-day gives the same estimate.
 
 The heat input of each logged interval comes from the log's power_W or pull columns, read as the log
-fit reads them (`calibrate._log_pieces`). A log with neither has its pulls detected from the oil's
-rate of rise: an interval is (partly) a pull when the reading lies more than three standard
-deviations above what a wait would give.
+fit reads them (`log_model.logged_inputs`). A log with neither has its pulls detected from the oil's
+rate of rise (`state_estimate.LiveFilter.advance_detecting`).
 """
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import state_estimate as se
-from .log_model import _log_pieces, _reference_steps
 from .errors import ScenarioError
-from .live_forecast import Forecast, forecast
+from .live_forecast import forecast
+from .live_progress import Progress, ReadingHistory
+from .live_state import LiveState, state_text, temperature_text
 from .log_follower import LogFollower
+from .log_model import _reference_steps, logged_inputs
 from .measured_log import read_log
-from .network import NODE_NAMES, OIL
+from .network import OIL
 from .scenario import Scenario, build_rig, limit_K
-from .units import to_display, unit_label
+from .session import pump_flow_m3_s
+from .state_estimate import MEASUREMENT_SD_K, LiveFilter
 
 MAX_DROPPED_LINES = 1000
 SILENT_SENSOR_S = 60.0          # no oil reading for this long (and five intervals): an alarm
 MISFIT_ALARM = 9.0              # innovations' mean square this many times the expected: the model misses the rig
 NEAR_LIMIT_K = 2.0
-
-JSON_KEYS = ("time_s", "oil_C", "estimate_C", "next_pull_ready_s", "wait_s", "pulls_left", "in_pull",
-             "pull_ends_over_limit", "seconds_to_limit", "alarm")
-
-
-@dataclass
-class Record:
-    """One update: the latest reading, the estimate and the forecast. to_dict() has the JSON keys."""
-    time_s: float
-    oil_K: float | None
-    estimate_K: np.ndarray
-    estimate_sd_K: np.ndarray
-    in_pull: bool
-    forecast: Forecast
-    alarm: str | None
-    measured_time_s: np.ndarray = field(repr=False, default=None)
-    measured_oil_K: np.ndarray = field(repr=False, default=None)
-
-    def to_dict(self) -> dict:
-        f = self.forecast
-        return {"time_s": round(self.time_s, 3),
-                "oil_C": None if self.oil_K is None else round(self.oil_K - 273.15, 3),
-                "estimate_C": {name: round(float(T) - 273.15, 3) for name, T in zip(NODE_NAMES, self.estimate_K)},
-                "next_pull_ready_s": f.next_pull_ready_s, "wait_s": f.wait_s, "pulls_left": f.pulls_left,
-                "in_pull": self.in_pull,
-                "pull_ends_over_limit": f.pull_ends_over_limit if self.in_pull else False,
-                "seconds_to_limit": f.seconds_to_limit if self.in_pull else None,
-                "alarm": self.alarm}
+AMBIENT_TIME_CONSTANT_S = 600.0  # the logged ambient is followed as a running mean over about this long
+AMBIENT_STEP_K = 0.1            # ... and the rig's ambient changed when it has moved this far
+PARSE_LINES = 4096              # a long catch-up is read this many lines at a time (bounded memory)
 
 
 class LiveWatch:
@@ -68,25 +49,35 @@ class LiveWatch:
         self.limit_K, _ = limit_K(scenario)
         # The ready time and the pulls left at the scenario's confidence, where its band is on.
         self.confidence = scenario.uncertainty.confidence if scenario.uncertainty.spreads else None
+        pull, pull_rpm, pull_power, wait, _ = _reference_steps(scenario)
+        flow = self._flow
+        self.pull_input = (flow(pull_rpm), pull_power)
+        self.wait_input = (flow(wait.rpm) if wait.flowing else 0.0, wait.power_W if wait.flowing else 0.0)
         self.follower = LogFollower(path)
         self.messages: list[str] = []
         self._said: set = set()
         self._reset()
 
+    def _flow(self, rpm) -> float:
+        return float(pump_flow_m3_s(self.base_rig.displacement_m3, float(rpm), self.base_rig.volumetric_efficiency))
+
     def _reset(self):
-        self.lines: list[str] = []
-        self.estimate: se.Estimate | None = None
-        self.rows_done = self.raw_rows_done = 0
+        self.header, self.lines_read = None, 0
+        self.progress: Progress | None = None
+        self.latest: Progress | None = None
+        self.pending = None
         self.last_time_s = None
-        self.pulls_started = 0
-        self.in_pull = False
-        self.pull_start_s = 0.0
-        self.pull_end_s = 0.0
-        self.last_reading_s = None
-        self.last_oil_K = None
-        self.rig = self.base_rig
-        self.history_t: list[float] = []
-        self.history_T: list[float] = []
+        self.history = ReadingHistory()
+
+    # the latest answer's view of the pulls and the estimate
+    @property
+    def pulls_started(self) -> int:
+        return (self.latest or self.progress).pulls_started if (self.latest or self.progress) else 0
+
+    @property
+    def estimate(self):
+        state = self.latest or self.progress
+        return None if state is None else state.filter.estimate
 
     def _say(self, message: str, once: bool = True):
         if once and message in self._said:
@@ -100,47 +91,52 @@ class LiveWatch:
 
     # ------------------------------------------------------------------ reading
 
-    def update(self) -> Record | None:
-        """Read what the logger added; return a record if there are new readings, else None."""
+    def update(self) -> LiveState | None:
+        """Read what the logger added; return a state if there are new readings, else None."""
+        return self.state() if self.read() else None
+
+    def read(self) -> bool:
+        """Take in what the logger added; True when there are new readings to answer for."""
         poll = self.follower.poll()
         if poll.missing:
             self._say(f"waiting for {self.path} to appear")
-            return None
+            return False
         if poll.restart:
             self._say(f"{poll.restart}: the estimate starts again", once=False)
             self._reset()
-        if not poll.lines:
-            return None
-        self.lines += poll.lines
-        log = self._parse()
+        taken = False
+        for start in range(0, len(poll.lines), PARSE_LINES):
+            taken |= self._take_lines(poll.lines[start:start + PARSE_LINES])
+        return taken and self.progress is not None
+
+    def _take_lines(self, lines: list[str]) -> bool:
+        log = self._parse_new(lines)
         if log is None:
-            return None
-        if self.rows_done and not self._continues(log):
-            self._say("the log's time went backwards: a new session; the estimate starts again", once=False)
-            header, last = self._header_line(), self.last_time_s
-            self._reset()
-            self.lines = [header] + _from_step_back(header, poll.lines, last, self.sensor)
-            log = self._parse()
+            return False
+        if self.last_time_s is not None and log.time_s[0] <= self.last_time_s + 1e-6:
+            log = self._after_step_back(log, lines)
             if log is None:
-                return None
-        if log.time_s.size <= self.rows_done:
-            return None
+                return False
         for note in log.notes:
             if not note.startswith(("gap of", "rows were not")):
                 self._say(note)
         self._take_rows(log)
-        if self.estimate is None:
-            return None
-        return self._record(log)
+        return True
 
-    def _header_line(self) -> str:
-        return next((line for line in self.lines if line.strip() and not line.lstrip().startswith("#")), "")
-
-    def _parse(self):
-        """The session's lines read by the log reader; a line it refuses is dropped with a message."""
+    def _parse_new(self, lines: list[str]):
+        """The new lines read by the log reader with the file's header; a line it refuses is dropped
+        with a message naming its line in the file."""
+        first = self.lines_read + 1                # the file's line number of lines[0]
+        self.lines_read += len(lines)
+        if self.header is None:
+            j = next((j for j, line in enumerate(lines) if line.strip() and not line.lstrip().startswith("#")), None)
+            if j is None:
+                return None
+            self.header, lines, first = lines[j], lines[j + 1:], first + j + 1
+        lines, numbers = list(lines), list(range(first, first + len(lines)))
         for _ in range(MAX_DROPPED_LINES):
             try:
-                return read_log("\n".join(self.lines), self.sensor, str(self.path), require_heating=False)
+                return read_log("\n".join([self.header] + lines), self.sensor, str(self.path), require_heating=False)
             except ScenarioError as error:
                 if "no data rows" in str(error):
                     return None
@@ -148,126 +144,162 @@ class LiveWatch:
                 if not line or int(line.group(1)) < 2:
                     raise
                 number = int(line.group(1))
-                self._say(f"line {number} dropped: {error}", once=False)
-                del self.lines[number - 1]
+                in_file = numbers[number - 2]
+                self._say(f"line {in_file} dropped: " + str(error).replace(f"line {number}", f"line {in_file}"), once=False)
+                del lines[number - 2], numbers[number - 2]
         raise ScenarioError(str(self.path), "too many unreadable lines", "a log the reader can read")
 
-    def _continues(self, log) -> bool:
-        """The rows already taken are still the first rows, at the same times, and the new rows come
-        after them (one new row at an old time is let pass as a duplicate; more mean a step back)."""
-        t = log.time_s
-        later = np.count_nonzero(t > self.last_time_s + 1e-6)
-        return (t.size >= self.rows_done and abs(t[self.rows_done - 1] - self.last_time_s) < 1e-6
-                and np.count_nonzero(t <= self.last_time_s + 1e-6) == self.rows_done
-                and log.n_rows - self.raw_rows_done - later <= 1)
+    def _after_step_back(self, log, lines):
+        """New rows at or before the last one taken: a single repeat of the last row is dropped;
+        otherwise the logger has started a new session, and the estimate starts again from its
+        first row."""
+        old = np.count_nonzero(log.time_s <= self.last_time_s + 1e-6)
+        if old == 1 and abs(log.time_s[0] - self.last_time_s) < 1e-6:
+            return _rows(log, slice(1, None)) if log.time_s.size > 1 else None
+        self._say("the log's time went backwards: a new session; the estimate starts again", once=False)
+        header, last, read = self.header, self.last_time_s, self.lines_read
+        self._reset()
+        self.header, self.lines_read = header, read - len(lines)
+        return self._parse_new(_from_step_back(header, lines, last, self.sensor))
 
     # ------------------------------------------------------------------ estimating
 
-    def _ambient(self, log):
-        ambient = log.mean_ambient_K
-        if ambient is not None and abs(ambient - float(np.mean(self.rig.ambient_K))) > 0.05:
-            self.rig = self.base_rig.with_changes(ambient_K=ambient)
-
-    def _interval_steps(self, log, row: int):
-        """The steps of the interval that ends at `row`, and the fraction of it spent pulling."""
-        if log.has_heat_input:
-            part = replace(log, time_s=log.time_s[row - 1:row + 1],
-                           power_W=None if log.power_W is None else log.power_W[row - 1:row + 1],
-                           pull=None if log.pull is None else log.pull[row - 1:row + 1],
-                           oil_K=log.oil_K[row - 1:row + 1])
-            pieces, _, notes = _log_pieces(self.scenario, part)
-            for note in notes:
-                self._say(re.sub(r"^\d+ ", "", note))
-            step = pieces[-1]
-            return [step], float(step.is_pull)
-        pull, rpm, power, wait, _ = _reference_steps(self.scenario)
-        pull = replace(pull, duration_s=1.0, curve=None, rpm=rpm, power_W=power)
-        self._say("the log has no pull or power column: pulls are detected from the oil's rate of rise, "
-                  f"taken as the scenario's pull ({power:.0f} W)")
-        dt = float(log.time_s[row] - log.time_s[row - 1])
-        f = se.detected_pull_fraction(self.rig, self.estimate, float(log.oil_K[row]), pull.with_duration(dt),
-                                      wait.with_duration(dt), self.sensor, self.in_pull)
-        if f <= 0.0:
-            return [wait.with_duration(dt)], 0.0
-        if f >= 1.0 or (self.in_pull and f >= 0.5):       # a running pull ends only on a clear drop in the rise
-            return [pull.with_duration(dt)], 1.0
-        parts = [pull.with_duration(f * dt), wait.with_duration((1 - f) * dt)]
-        return (parts if self.in_pull else parts[::-1]), f
-
     def _take_rows(self, log):
-        self._ambient(log)
-        for row in range(self.rows_done, log.time_s.size):
-            t, reading = float(log.time_s[row]), float(log.oil_K[row])
-            if self.estimate is None:
+        """Each row of the new part of the log: the one before it is taken for good, it waits."""
+        flagged = log.has_heat_input
+        inputs = logged_inputs(self.scenario, log) if flagged else None
+        if inputs is not None:
+            for note in inputs.notes:
+                self._say(re.sub(r"^\d+ ", "", note))
+        else:
+            self._say("the log has no pull or power column: pulls are detected from the oil's rate of rise, "
+                      f"taken as the scenario's pull ({self.pull_input[1]:.0f} W)")
+        m = log.time_s.size
+        ambient = np.full(m, np.nan) if log.ambient_K is None else log.ambient_K
+        if flagged:
+            flows = np.where(inputs.engine != "off", pump_flow_m3_s(self.base_rig.displacement_m3, inputs.rpm,
+                                                                    self.base_rig.volumetric_efficiency), 0.0)
+            columns = zip(log.time_s.tolist(), log.oil_K.tolist(), inputs.is_pull.tolist(), inputs.power_W.tolist(),
+                          flows.tolist(), ambient.tolist())
+        else:
+            columns = zip(log.time_s.tolist(), log.oil_K.tolist(), [None] * m, [None] * m, [None] * m, ambient.tolist())
+        for row in columns:
+            t, reading = row[0], row[1]
+            self.last_time_s = t
+            if self.progress is None:
                 if np.isfinite(reading):
-                    self.estimate = se.initial_estimate(t, reading)
-                    self._mark_reading(t, reading)
+                    self._start(row)
                 continue
-            steps, fraction = self._interval_steps(log, row)
-            self._track_pulls(float(log.time_s[row - 1]), t, steps, fraction)
-            self.estimate = se.predict(self.rig, self.estimate, steps)
-            offset = se.sensor_offset_K(self.rig, self.estimate, steps[-1], self.sensor)
-            self.estimate, accepted = se.update(self.estimate, reading, offset)
-            if np.isfinite(reading):
-                self._mark_reading(t, reading)
-                if not accepted:
+            if self.pending is not None:
+                self._advance(self.progress, self.pending, row, final=True)
+            self.pending = row
+
+    def _start(self, row):
+        t, reading, is_pull, *_ = row
+        rig = self.base_rig
+        self.progress = Progress(LiveFilter(rig, t, reading, self.sensor), rig, bool(is_pull), t, reading,
+                                  self.pull_input[1])
+        self._ambient(self.progress, row[5], 0.0)
+        self.history.add(t, reading)
+        self.pending = None
+
+    def _ambient(self, p: Progress, ambient_K: float, dt: float):
+        if not np.isfinite(ambient_K):
+            return
+        p.ambient_K = ambient_K if p.ambient_K is None else (
+            p.ambient_K + (1.0 - np.exp(-dt / AMBIENT_TIME_CONSTANT_S)) * (ambient_K - p.ambient_K))
+        if abs(p.ambient_K - float(np.mean(p.rig.ambient_K))) > AMBIENT_STEP_K:
+            p.rig = self.base_rig.with_changes(ambient_K=p.ambient_K)
+            p.filter.set_rig(p.rig)
+
+    def _advance(self, p: Progress, row, after, final: bool):
+        """Take one row into p. after : the next row (None for the latest one); final: for good."""
+        t, reading, is_pull, power, flow, ambient = row
+        t0 = p.filter.time_s
+        dt = t - t0
+        p.spacing.append(dt)
+        self._ambient(p, ambient, dt)
+        if is_pull is None:
+            fraction, taken = p.filter.advance_detecting(t, self.wait_input, self.pull_input, reading, p.in_pull)
+        else:
+            next_pull = None if after is None else after[2]
+            at_edge = is_pull != p.last_is_pull or (next_pull is not None and next_pull != is_pull)
+            edge, pull_power = 0, 0.0
+            if at_edge:
+                pull_power = power if is_pull else (after[3] if next_pull else p.last_pull_power_W)
+                edge = -1 if is_pull else 1
+            taken = p.filter.advance(t, flow, power, reading, edge, pull_power, self.pull_input[0])
+            fraction = float(is_pull)
+            p.last_is_pull = is_pull
+            if is_pull:
+                p.last_pull_power_W = power
+        p.track_pulls(t0, t, fraction)
+        if np.isfinite(reading):
+            p.last_reading_s, p.last_oil_K = t, reading
+            if final:
+                self.history.add(t, reading)
+                if taken is False:
                     self._say(f"reading {reading - 273.15:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
-        self.rows_done, self.raw_rows_done = log.time_s.size, log.n_rows
-        self.last_time_s = float(log.time_s[-1])
-
-    def _mark_reading(self, t, reading):
-        self.last_reading_s, self.last_oil_K = t, reading
-        self.history_t.append(t)
-        self.history_T.append(reading)
-
-    def _track_pulls(self, t0, t1, steps, fraction):
-        pulling = fraction > 0
-        if pulling and not self.in_pull:
-            self.pulls_started += 1
-            self.pull_start_s = t1 - fraction * (t1 - t0)
-        if self.in_pull and not pulling:
-            self.pull_end_s = t0
-        if self.in_pull and pulling and fraction < 1.0:      # a pull ending inside the interval
-            self.pull_end_s, pulling = t0 + fraction * (t1 - t0), False
-        self.in_pull = pulling
 
     # ------------------------------------------------------------------ forecasting
 
-    def _record(self, log) -> Record:
-        now = self.last_time_s
-        X = self.estimate.mean_K
-        result = forecast(self.scenario, self.rig, self.limit_K, X, now, self.pulls_started, self.in_pull,
-                          pull_elapsed_s=now - self.pull_start_s,
-                          since_pull_end_s=now - (self.pull_end_s if self.pulls_started else float(log.time_s[0])),
-                          disturbance_W=self.estimate.established_disturbance_W, confidence=self.confidence)
-        latest = float(log.oil_K[-1])
-        return Record(time_s=now, oil_K=latest if np.isfinite(latest) else None, estimate_K=X.copy(),
-                      estimate_sd_K=self.estimate.sd_K, in_pull=self.in_pull, forecast=result,
-                      alarm=self._alarm(result, now, log), measured_time_s=np.array(self.history_t),
-                      measured_oil_K=np.array(self.history_T))
+    def state(self) -> LiveState:
+        """The answer for the latest row: it is taken on a copy of the estimate, then the forecast."""
+        latest = self.progress.copy()
+        if self.pending is not None:
+            self._advance(latest, self.pending, None, final=False)
+        self.latest = latest
+        now, reading = (self.pending[0], self.pending[1]) if self.pending is not None else (
+            latest.filter.time_s, latest.last_oil_K)
+        estimate = latest.filter.estimate
+        X = estimate.mean_K
+        result = forecast(self.scenario, latest.rig, self.limit_K, X, now, latest.pulls_started, latest.in_pull,
+                          pull_elapsed_s=now - latest.pull_start_s,
+                          since_pull_end_s=now - (latest.pull_end_s if latest.pulls_started else latest.first_time_s),
+                          disturbance_W=estimate.established_disturbance_W, confidence=self.confidence)
+        t, T = self.history.arrays([(now, reading)] if self.pending is not None and np.isfinite(reading) else [])
+        spacing = float(np.median(latest.spacing)) if latest.spacing else 0.0
+        return LiveState(time_s=now, oil_K=reading if np.isfinite(reading) else None, estimate_K=X.copy(),
+                         estimate_sd_K=estimate.sd_K, in_pull=latest.in_pull, over_limit=bool(X[OIL] > self.limit_K),
+                         forecast=result, alarm=self._alarm(result, now, latest, estimate, spacing),
+                         measured_time_s=t, measured_oil_K=T)
 
-    def _alarm(self, result: Forecast, now: float, log) -> str | None:
+    def _alarm(self, result, now: float, latest: Progress, estimate, spacing: float) -> str | None:
         u = self.scenario.units
-        limit = _temperature(self.limit_K, u)
-        oil = self.estimate.mean_K[OIL]
+        limit = temperature_text(self.limit_K, u)
+        oil = estimate.mean_K[OIL]
         if oil > self.limit_K:
-            return f"The oil is at {_temperature(oil, u)}, above its {limit} limit: stop pulling and let it cool."
-        if self.in_pull and result.pull_ends_over_limit:
+            wait = (f"cool for {_words(result.wait_s)} before the next pull" if result.wait_s is not None
+                    else "no wait is long enough for the next planned pull")
+            return f"The oil is at {temperature_text(oil, u)}, over its {limit} limit: stop pulling; {wait}."
+        if latest.in_pull and result.pull_ends_over_limit:
             return (f"This pull reaches the {limit} limit in {result.seconds_to_limit:.0f} s, before its planned end: "
                     f"lift off now.")
-        silent = now - (self.last_reading_s if self.last_reading_s is not None else now)
-        spacing = float(np.median(np.diff(log.time_s))) if log.time_s.size > 1 else 0.0
+        silent = now - latest.last_reading_s
         if silent > max(SILENT_SENSOR_S, 5 * spacing):
             return f"No oil reading for {silent:.0f} s: check the sensor; the forecast runs on the model alone."
         if result.next_pull_ready_s is None:
             return f"No wait is long enough for the next planned pull to end under the {limit} limit."
-        if self.estimate.misfit_scale > MISFIT_ALARM:
-            rms = np.sqrt(self.estimate.misfit_scale) * se.MEASUREMENT_SD_K
+        if estimate.misfit_scale > MISFIT_ALARM:
+            rms = np.sqrt(estimate.misfit_scale) * MEASUREMENT_SD_K
             return (f"The model misses this rig (readings about {rms:.1f} K from its predictions): keep a wider "
                     f"margin and calibrate it with fit.")
         if oil > self.limit_K - NEAR_LIMIT_K:
             return f"The oil is within {NEAR_LIMIT_K:.0f} K of its {limit} limit."
         return None
+
+
+def _words(seconds: float) -> str:
+    from .live_state import duration_text
+    return duration_text(seconds)
+
+
+def _rows(log, index):
+    """The rows `index` of a MeasuredLog."""
+    from dataclasses import replace
+    cut = {key: None if getattr(log, key) is None else getattr(log, key)[index]
+           for key in ("time_s", "oil_K", "ambient_K", "power_W", "pull")}
+    return replace(log, **cut)
 
 
 def _from_step_back(header: str, lines: list[str], last_time_s: float, sensor: str) -> list[str]:
@@ -281,41 +313,6 @@ def _from_step_back(header: str, lines: list[str], last_time_s: float, sensor: s
         if "time_s" in header.lower() and row.time_s.size and row.time_s[0] <= last_time_s + 1e-6:
             return lines[j:]
     return lines
-
-
-def _temperature(T_K: float, system: str) -> str:
-    return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
-
-
-def _duration(seconds: float) -> str:
-    """'2 min 10 s', '45 s', '1 h 5 min'."""
-    s = int(round(seconds))
-    if s >= 3600:
-        return f"{s // 3600} h {s % 3600 // 60} min"
-    return f"{s // 60} min {s % 60} s" if s >= 60 else f"{s} s"
-
-
-def ready_text(record: Record) -> str:
-    """'ready now', 'ready in 2 min 10 s' or 'no wait is long enough'."""
-    f = record.forecast
-    if f.wait_s is None:
-        return "no wait is long enough"
-    return "ready now" if f.wait_s <= 0 else f"ready in {_duration(f.wait_s)}"
-
-
-def record_text(record: Record, system: str) -> str:
-    """One line for the terminal, in the scenario's units."""
-    f = record.forecast
-    oil = "no reading" if record.oil_K is None else _temperature(record.oil_K, system)
-    hidden = ", ".join(f"{name} {_temperature(T, system)}" for name, T in zip(NODE_NAMES, record.estimate_K)
-                       if name != NODE_NAMES[OIL])
-    left = "all day" if f.pulls_left is None else str(f.pulls_left)
-    state = "pulling" if record.in_pull else "waiting"
-    line = (f"t={record.time_s:8.0f} s  oil {oil} ({hidden})  {state}  next pull {ready_text(record)}  "
-            f"pulls left {left}")
-    if record.in_pull and f.seconds_to_limit is not None:
-        line += f"  limit in {f.seconds_to_limit:.0f} s"
-    return line + (f"\n  ALARM: {record.alarm}" if record.alarm else "")
 
 
 def watch_command(args) -> int:
@@ -332,7 +329,6 @@ def watch_command(args) -> int:
 
 
 def _follow(watch: LiveWatch, scenario, args) -> int:
-    import json
     import sys
     import time
 
@@ -341,12 +337,12 @@ def _follow(watch: LiveWatch, scenario, args) -> int:
             print(f"note: {message}", file=sys.stderr if args.json else sys.stdout, flush=True)
 
     while True:
-        record = watch.update()
+        state = watch.update()
         say(watch.take_messages())
-        if record is not None:
-            print(json.dumps(record.to_dict()) if args.json else record_text(record, scenario.units), flush=True)
+        if state is not None:
+            print(state.to_json() if args.json else state_text(state, scenario.units), flush=True)
         if args.once:
-            if record is None:
+            if state is None:
                 from pathlib import Path
                 expected = "a log with at least one oil reading" if Path(args.log).exists() else "an existing CSV file"
                 raise ScenarioError("log", str(args.log), expected)

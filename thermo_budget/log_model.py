@@ -161,13 +161,31 @@ def _reference_steps(scenario: Scenario):
     return pull, rpm(pull), pull.mean_power_W(0.0, 1.0), wait, notes
 
 
-def _log_pieces(scenario: Scenario, log: MeasuredLog):
-    """Piecewise-constant steps between the log's rows, from its power_W and pull columns.
+@dataclass(frozen=True)
+class LoggedInputs:
+    """The heat input of each logged interval (the one that ends at each row), from the log's
+    power_W and pull columns: arrays (M,) of whether it was a pull, the absorbed power (W), the
+    engine state ("on" for a pull, "off" or "idle") and its speed (rev/min)."""
+    is_pull: np.ndarray
+    power_W: np.ndarray
+    engine: np.ndarray
+    rpm: np.ndarray
+    notes: tuple
 
-    The values on a row hold over the interval that ends at it (the convention of `run --csv`);
-    the first interval starts at the session start, t = 0. Without a pull column an interval is a
-    pull when its power lies above half-way between the scenario's largest wait load and its pull's
-    mean power. A wait with zero logged power is engine off; with power, the scenario's wait state.
+    def step(self, row: int, duration_s: float) -> Step:
+        """The interval that ends at `row` as a step of duration_s."""
+        return Step(kind="pull" if self.is_pull[row] else "wait", duration_s=duration_s, engine=str(self.engine[row]),
+                    power_W=float(self.power_W[row]), rpm=float(self.rpm[row]))
+
+
+def logged_inputs(scenario: Scenario, log: MeasuredLog) -> LoggedInputs:
+    """The heat input of every interval of a log with a power_W or pull column.
+
+    The values on a row hold over the interval that ends at it (the convention of `run --csv`).
+    Without a pull column an interval is a pull when its power lies above half-way between the
+    scenario's largest wait load and its pull's mean power. A wait with zero logged power is engine
+    off; with power, the scenario's wait state (turning at the pull speed if the scenario's waits are
+    engine off); without a power column, the scenario's wait as planned.
     """
     pull, pull_rpm, pull_power, wait, notes = _reference_steps(scenario)
     wait_power = wait.power_W if wait.engine == "idle" else 0.0
@@ -175,31 +193,39 @@ def _log_pieces(scenario: Scenario, log: MeasuredLog):
     if log.pull is None:
         notes.append(f"intervals with more than {threshold:.0f} W logged are pulls (half-way between the "
                      f"scenario's wait load and its pull power)")
+    m = log.time_s.size
+    power = None if log.power_W is None else np.asarray(log.power_W, dtype=float)
+    is_pull = np.asarray(log.pull, dtype=bool) if log.pull is not None else power > threshold
+    if power is None:
+        engine = np.where(is_pull, "on", wait.engine)
+        rpm = np.where(is_pull, pull_rpm, wait.rpm if wait.engine == "idle" else 0.0)
+        watts = np.where(is_pull, pull_power, wait_power)
+    else:
+        off = ~is_pull & (power == 0.0) & (not (wait.engine == "idle" and wait.power_W == 0.0))
+        idle = ~is_pull & ~off
+        engine = np.where(is_pull, "on", np.where(off, "off", "idle"))
+        rpm = np.where(is_pull, pull_rpm, np.where(off, 0.0, wait.rpm if wait.engine == "idle" else pull_rpm))
+        watts = np.where(off, 0.0, power)
+        timed = log.time_s > TIME_TOLERANCE_S          # a row at the session start closes no interval
+        off_in_idle = int(np.count_nonzero(off & timed)) if wait.engine == "idle" else 0
+        powered_off = int(np.count_nonzero(idle & timed)) if wait.engine == "off" else 0
+        if off_in_idle:
+            notes.append(f"{off_in_idle} wait intervals with 0 W logged are taken as engine off (the scenario's waits idle)")
+        if powered_off:
+            notes.append(f"{powered_off} wait intervals have power logged although the scenario's waits are engine off; "
+                         f"they are taken as turning at the pull speed, {pull_rpm:.0f} rpm")
+    return LoggedInputs(is_pull=is_pull, power_W=np.asarray(watts, dtype=float), engine=np.asarray(engine),
+                        rpm=np.asarray(rpm, dtype=float) * np.ones(m), notes=tuple(notes))
+
+
+def _log_pieces(scenario: Scenario, log: MeasuredLog):
+    """Piecewise-constant steps between the log's rows, from its power_W and pull columns
+    (`logged_inputs`); the first interval starts at the session start, t = 0."""
+    inputs = logged_inputs(scenario, log)
     cuts = _merged_cuts(np.concatenate([[0.0], log.time_s]))
     row_of_cut = np.searchsorted(log.time_s, cuts[1:] - TIME_TOLERANCE_S)
-    pieces, off_in_idle, powered_off = [], 0, 0
-    for (a, b), row in zip(zip(cuts[:-1], cuts[1:]), row_of_cut):
-        power = None if log.power_W is None else float(log.power_W[row])
-        is_pull = bool(log.pull[row]) if log.pull is not None else power > threshold
-        d = b - a
-        if is_pull:
-            pieces.append(Step(kind="pull", duration_s=d, engine="on",
-                               power_W=pull_power if power is None else power, rpm=pull_rpm))
-        elif power is None:
-            pieces.append(wait.with_duration(d))
-        elif power == 0.0 and not (wait.engine == "idle" and wait.power_W == 0.0):
-            off_in_idle += wait.engine == "idle"
-            pieces.append(Step(kind="wait", duration_s=d, engine="off"))
-        else:
-            idle_rpm = wait.rpm if wait.engine == "idle" else pull_rpm
-            powered_off += wait.engine == "off"
-            pieces.append(Step(kind="wait", duration_s=d, engine="idle", power_W=power, rpm=idle_rpm))
-    if off_in_idle:
-        notes.append(f"{off_in_idle} wait intervals with 0 W logged are taken as engine off (the scenario's waits idle)")
-    if powered_off:
-        notes.append(f"{powered_off} wait intervals have power logged although the scenario's waits are engine off; "
-                     f"they are taken as turning at the pull speed, {pull_rpm:.0f} rpm")
-    return pieces, cuts, notes
+    pieces = [inputs.step(row, b - a) for a, b, row in zip(cuts[:-1], cuts[1:], row_of_cut)]
+    return pieces, cuts, list(inputs.notes)
 
 
 def predict_log_K(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk", start_offset_K: float = 0.0) -> np.ndarray:

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import ScenarioError
+from .plain_log import plain_rows
 from .units import convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
@@ -146,7 +147,8 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
 
     skipped = 0
     times, values = [], {key: [] for key in ("oil", "ambient", "power", "pull")}
-    for (line_no, _), cells in zip(numbered[1:], rows[1:]):
+    fast = plain_rows(rows[1:], [n for n, _ in numbered[1:]], columns, len(names), MAX_LOG_SPAN_S)
+    for (line_no, _), cells in zip(numbered[1:], rows[1:] if fast is None else []):
         cells = cells + [""] * (len(names) - len(cells))
         time_cell = cells[columns["time"][1]].strip()
         if time_cell.lower() in MISSING_CELLS:
@@ -159,20 +161,24 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
             if key in columns:
                 name, index = columns[key]
                 values[key].append(_number(cells[index], source, line_no, name))
-    skipped += sum(int(np.count_nonzero(np.isnan(v))) for v in values.values() if v)
-    if not times:
+    if fast is not None:
+        line_numbers, time_s, values = fast
+    else:
+        line_numbers = [n for n, _ in times]
+    skipped += sum(int(np.count_nonzero(np.isnan(v))) for v in values.values() if len(v))
+    if not line_numbers:
         raise ScenarioError(source, "no data rows", f"at least {MIN_POINTS} rows with a time and an oil temperature")
 
-    time_s = _times_s(times, columns["time"][0], source)
+    if fast is None:
+        time_s = _times_s(times, columns["time"][0], source)
     oil_K = _to_kelvin(np.array(values["oil"]), columns["temperature"][0])
-    _check_range(oil_K, OIL_RANGE_C, columns["temperature"][0], source, [n for n, _ in times])
+    _check_range(oil_K, OIL_RANGE_C, columns["temperature"][0], source, line_numbers)
     ambient_K = None
     if "ambient" in columns:
         ambient_K = _to_kelvin(np.array(values["ambient"]), columns["ambient"][0])
-        _check_range(ambient_K, AMBIENT_RANGE_C, columns["ambient"][0], source, [n for n, _ in times])
+        _check_range(ambient_K, AMBIENT_RANGE_C, columns["ambient"][0], source, line_numbers)
     power_W = np.array(values["power"]) if "power" in columns else None
     pull = np.array(values["pull"]) if "pull" in columns else None
-    line_numbers = [n for n, _ in times]
     if power_W is not None:
         bad = np.nonzero((power_W < 0) | (power_W > MAX_POWER_W))[0]
         if bad.size:
@@ -205,7 +211,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
     gaps = np.diff(time_s)
     largest_gap = float(gaps.max()) if gaps.size else 0.0
     log = MeasuredLog(time_s=time_s, oil_K=series["oil"], ambient_K=series["ambient"], power_W=series["power"],
-                      pull=series["pull"], temperature_column=columns["temperature"][0], n_rows=len(times),
+                      pull=series["pull"], temperature_column=columns["temperature"][0], n_rows=len(line_numbers),
                       n_skipped_cells=skipped, n_merged_rows=merged, rows_reordered=reordered,
                       largest_gap_s=largest_gap, notes=tuple(notes))
     if require_heating:

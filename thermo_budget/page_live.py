@@ -16,7 +16,8 @@ import pandas as pd
 import streamlit as st
 
 from .errors import ScenarioError
-from .live_watch import LiveWatch, ready_text
+from .live_state import ready_text
+from .live_watch import LiveWatch
 from .network import NODE_NAMES
 from .scenario import load_scenario, read_toml_text
 from .units import to_display, unit_label
@@ -115,15 +116,18 @@ def _live_view(toml_text: str, system: str, path: str, sensor: str):
 
 
 def show_record(record, system: str, limit_K: float | None = None):
-    """The ready time large, the pulls left, the nodes, the alarm and the measured against the
-    forecast temperature, with the bulk limit (limit_K, where given) as a line, in the page's unit system."""
+    """The ready time in words, large ("ready in 2 min 10 s", or over the limit "over the limit: cool
+    for 9 min 40 s, then 1 more pull"), the pulls left, the nodes, the alarm and the measured
+    against the forecast temperature, with the bulk limit (limit_K, where given) as a line, in the
+    page's unit system. The measured readings come thinned from the watch (every one of the last
+    minutes, one in every few seconds before), so a day-long log draws quickly."""
     def temperature(T_K):
         return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
 
     if record.alarm:
         st.error(record.alarm, icon="🔥")
-    colour = "#1b7f3b" if record.forecast.wait_s == 0 else "#b35900"
-    st.markdown(f"<div style='font-size:3.2rem;font-weight:700;color:{colour};line-height:1.1'>"
+    colour = "#b00020" if record.over_limit else "#1b7f3b" if record.forecast.wait_s == 0 else "#b35900"
+    st.markdown(f"<div style='font-size:clamp(1.7rem,7vw,3.2rem);font-weight:700;color:{colour};line-height:1.1'>"
                 f"{ready_text(record).capitalize()}</div>", unsafe_allow_html=True)
     left = record.forecast.pulls_left
     columns = st.columns(2 + len(NODE_NAMES))

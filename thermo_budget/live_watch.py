@@ -27,6 +27,7 @@ MAX_DROPPED_LINES = 1000
 SILENT_SENSOR_S = 60.0          # no oil reading for this long (and five intervals): an alarm
 MISFIT_ALARM = 9.0              # innovations' mean square this many times the expected: the model misses the rig
 NEAR_LIMIT_K = 2.0
+MIN_INTERVAL_S, MAX_INTERVAL_S = 0.05, 3600.0    # watch --interval: a loggers' poll, not a busy loop or a day
 
 JSON_KEYS = ("time_s", "oil_C", "estimate_C", "next_pull_ready_s", "wait_s", "pulls_left", "in_pull",
              "pull_ends_over_limit", "seconds_to_limit", "alarm")
@@ -321,8 +322,9 @@ def record_text(record: Record, system: str) -> str:
 def watch_command(args) -> int:
     """`python -m thermo_budget watch SCENARIO LOG.csv [--sensor] [--once] [--json] [--interval]`."""
     from .scenario import load_scenario
-    if not args.interval > 0:
-        raise ScenarioError("--interval", args.interval, "a poll interval above 0 s")
+    if not MIN_INTERVAL_S <= args.interval <= MAX_INTERVAL_S:     # also refuses nan and inf
+        raise ScenarioError("--interval", args.interval,
+                            f"a poll interval from {MIN_INTERVAL_S:g} s to {MAX_INTERVAL_S:g} s")
     scenario = load_scenario(args.scenario)
     watch = LiveWatch(scenario, args.log, sensor=args.sensor)
     try:
@@ -332,9 +334,10 @@ def watch_command(args) -> int:
 
 
 def _follow(watch: LiveWatch, scenario, args) -> int:
-    import json
     import sys
     import time
+
+    from .output_files import json_text
 
     def say(messages):
         for message in messages:
@@ -344,7 +347,8 @@ def _follow(watch: LiveWatch, scenario, args) -> int:
         record = watch.update()
         say(watch.take_messages())
         if record is not None:
-            print(json.dumps(record.to_dict()) if args.json else record_text(record, scenario.units), flush=True)
+            print(json_text(record.to_dict(), non_finite="null") if args.json else record_text(record, scenario.units),
+                  flush=True)
         if args.once:
             if record is None:
                 from pathlib import Path

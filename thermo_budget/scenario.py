@@ -19,7 +19,8 @@ from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, defau
                         limit_K)  # (build_rig re-exported: the scenario's network)
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
-                             read_toml_bytes, read_toml_text, with_path)
+                             check_document_depth, read_toml_bytes, read_toml_text, temperature_unit_warnings,
+                             with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
 from .units import convert
 
@@ -36,6 +37,9 @@ MAX_SESSION_STEPS = 120
 # data sheets of mineral hydraulic oils of ISO VG 22-68 give about 190-240 degC (ASTM D92, open cup);
 # 180 degC is taken below that range on purpose, to be conservative.
 DEFAULT_FLASH_POINT_C = 180.0
+# The least mean power a pull may absorb, W: far below any engine on a brake (a pull of less heats
+# nothing the model could show, and its energy balance would be relative to almost no heat).
+MIN_PULL_POWER_W = 1.0
 
 @dataclass(frozen=True)
 class Reservoir:
@@ -102,6 +106,7 @@ class Scenario:
     flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
+    warnings: tuple = ()     # accepted but doubtful input, one line each (scenario_table.temperature_unit_warnings)
 
     @property
     def steps(self) -> list[Step]:
@@ -126,6 +131,7 @@ class Scenario:
 def load_scenario(path_or_dict) -> Scenario:
     """Read and validate a scenario from a TOML path, TOML text is not accepted here, or a dict."""
     if isinstance(path_or_dict, dict):
+        check_document_depth(path_or_dict)
         raw = copy.deepcopy(path_or_dict)
     else:
         path = Path(path_or_dict)
@@ -261,7 +267,7 @@ def _parse(raw: dict) -> Scenario:
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
-                        uncertainty=uncertainty)
+                        uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units))
     _check_consistency(scenario)
     return scenario
 
@@ -288,13 +294,15 @@ def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> S
             step = Step(kind="pull", duration_s=duration, engine="on",
                         curve=EngineCurve(rpm=tuple(speeds), power_W=tuple(power)),
                         rpm_start=rpm_start, rpm_end=rpm_end)
-            if step.mean_power_W(0.0, 1.0) <= 0.0:
+            if not step.mean_power_W(0.0, 1.0) >= MIN_PULL_POWER_W:
                 curve_key = "curve_torque" if "curve_torque" in raw else "curve_power"
                 raise ScenarioError(t.key(curve_key), raw[curve_key],
-                                    "a curve that absorbs some power between rpm_start and rpm_end")
+                                    f"a curve that absorbs at least {MIN_PULL_POWER_W:g} W on average between "
+                                    "rpm_start and rpm_end")
         else:
             step = Step(kind="pull", duration_s=duration, engine="on",
-                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
+                        power_W=t.quantity("power", "power", "W", minimum=MIN_PULL_POWER_W),
+                        rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
     else:
         engine = t.choice("engine", ("off", "idle"))
         if engine == "idle":

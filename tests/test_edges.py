@@ -431,3 +431,88 @@ def test_the_page_shows_the_warning():
 
     at = AppTest.from_function(app, default_timeout=30).run()
     assert not at.exception and [w.value for w in at.warning] == ["fluid.max_temperature = 176 ..."]
+# 10. a long planned day: accepted up to a bound on its work, integrated only until it is periodic
+
+def test_a_planned_day_of_1000_pulls_is_accepted():
+    raw = base_raw()
+    raw["session"]["repeat"] = 1000
+    scenario = load_scenario(raw)
+    assert sum(step.is_pull for step in scenario.steps) == 1000
+
+
+def test_a_session_past_its_work_bound_is_refused_naming_repeat():
+    raw = base_raw()
+    raw["session"]["steps"] = raw["session"]["steps"] * 6      # 6 x (1 + 2) sub-steps a cycle
+    raw["session"]["repeat"] = 1000
+    with pytest.raises(ScenarioError, match=r"session\.repeat: .*at most 15000 sub-steps.*at most 833 repeats"):
+        load_scenario(raw)
+
+
+@pytest.fixture(scope="module")
+def long_day():
+    """The base rig's cycle 400 times, integrated whole and as a long session."""
+    from thermo_budget import long_session
+    from thermo_budget.session import PLAN_RESOLUTION
+    raw = base_raw()
+    raw["session"]["repeat"] = 400
+    scenario = load_scenario(raw)
+    rig = build_rig(scenario)
+    whole = integrate(rig, scenario.steps, scenario.start_K, resolution=PLAN_RESOLUTION)
+    integrated_steps = []
+
+    def counting(rig, steps, *args, **kwargs):
+        integrated_steps.append(len(steps))
+        return integrate(rig, steps, *args, **kwargs)
+
+    original = long_session.integrate
+    long_session.integrate = counting
+    try:
+        settled = long_session.integrate_session(rig, scenario, scenario.start_K, resolution=PLAN_RESOLUTION)
+    finally:
+        long_session.integrate = original
+    return scenario, whole, settled, sum(integrated_steps)
+
+
+def test_a_long_session_is_the_whole_integration_to_a_millikelvin(long_day):
+    from thermo_budget.outcome import first_crossing_s, pulls_completed_under
+    scenario, whole, settled, _ = long_day
+    for name in ("time_s", "step_index", "pull_start_s", "pull_end_s", "power_W"):
+        np.testing.assert_array_equal(getattr(settled, name), getattr(whole, name), err_msg=name)
+    # PERIODIC_TOLERANCE_K at the end; at each chunk's seam a few mK for a sub-step or two (its first
+    # sub-step has no predictor to borrow, as for any block integrated on its own)
+    assert np.max(np.abs(settled.T_K[-1] - whole.T_K[-1])) < 2e-3
+    assert np.max(np.abs(settled.T_K - whole.T_K)) < 0.02 and np.max(np.abs(settled.return_K - whole.return_K)) < 0.02
+    limit = limit_K(scenario)[0]
+    assert pulls_completed_under(settled, limit)[0] == pulls_completed_under(whole, limit)[0]
+    np.testing.assert_allclose(first_crossing_s(settled, limit), first_crossing_s(whole, limit), atol=0.5)
+    # energy: in equal to the whole's; the balance closes to round-off
+    np.testing.assert_allclose(settled.energy_in_J, whole.energy_in_J, rtol=1e-12)
+    closure = settled.energy_in_J - settled.energy_lost_J - settled.energy_stored_J
+    assert np.all(np.abs(closure) <= 1e-9 * settled.energy_in_J)
+
+
+def test_a_long_session_integrates_only_until_it_is_periodic(long_day):
+    scenario, _, _, integrated_steps = long_day
+    assert integrated_steps < 0.6 * len(scenario.steps)     # the rest are the last cycle repeated
+
+
+def test_a_pull_s_extra_wait_searched_near_the_last_one_is_the_full_search_s():
+    """The ready-to-pull schedule searches each pull's extra wait first near the one before; the
+    answer passes and agrees with the full search to within that search's own bracket."""
+    from thermo_budget.planning import SEARCH_MARGIN_K
+    from thermo_budget.ready_schedule import extra_wait_s
+    from thermo_budget.outcome import peak_oil_K
+    from thermo_budget.session import PLAN_RESOLUTION
+    scenario = load_scenario(base_raw())
+    rig = build_rig(scenario)
+    limit = limit_K(scenario)[0]
+    pull, wait = scenario.cycle
+    X = np.full((1, 5), limit - 2.0)                                    # hot: the next pull needs a longer wait
+    full = extra_wait_s(scenario, rig, X, pull, wait, limit)
+    near = extra_wait_s(scenario, rig, X, pull, wait, limit, guess=1.1 * full)
+    far = extra_wait_s(scenario, rig, X, pull, wait, limit, guess=10.0 * full)     # out of range: the full search
+    assert full > 0 and far == full
+    assert abs(near - full) < 0.002 * full                    # both brackets are about 0.1 % wide here
+    for extra in (near, full):
+        trace = integrate(rig, [wait.with_duration(extra), pull], X, resolution=PLAN_RESOLUTION)
+        assert peak_oil_K(trace)[0] <= limit - SEARCH_MARGIN_K

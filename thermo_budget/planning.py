@@ -6,6 +6,7 @@ from dataclasses import fields
 
 import numpy as np
 
+from .long_session import integrate_session
 from .network import N_NODES, Rig, cooling_time_constant_s
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
@@ -49,8 +50,8 @@ def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
 def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
     """The planned session for n designs at the planning resolution (a Trace)."""
     durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    return integrate(rig, scenario.steps, scenario.start_K, n_designs=n, durations_s=durations,
-                     resolution=PLAN_RESOLUTION)
+    return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+                             resolution=PLAN_RESOLUTION)
 
 
 def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):

@@ -7,7 +7,7 @@ import numpy as np
 
 from .network import N_NODES, OIL
 from .outcome import limiting_peak_K, peak_oil_K
-from .planning import SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
+from .planning import GRID_POINTS, SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
@@ -39,14 +39,16 @@ def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
     oil = session.T_K[:, 0, OIL]
     line = session.return_K[:, 0]
     rows, planned_wait = [], 0.0
+    # the recorded points of each step, from the step indices (in order): one search, not one scan a step
+    firsts = np.searchsorted(session.step_index, np.arange(len(scenario.steps)), side="left")
+    ends = np.searchsorted(session.step_index, np.arange(len(scenario.steps)), side="right")
     for index, step in enumerate(scenario.steps):
         if not step.is_pull:
             planned_wait += step.duration_s
             continue
-        points = np.flatnonzero(session.step_index == index)
-        start = points[0] - 1
-        peak = float(oil[start:points[-1] + 1].max())
-        peak_return = float(line[start:points[-1] + 1].max())
+        start, end = firsts[index] - 1, ends[index]
+        peak = float(oil[start:end].max())
+        peak_return = float(line[start:end].max())
         if peak > limit - SEARCH_MARGIN_K or (return_limit is not None and peak_return > return_limit - SEARCH_MARGIN_K):
             return None
         rows.append({"index": len(rows) + 1, "start_s": round(float(session.time_s[start, 0]), 2),
@@ -75,13 +77,14 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
     t = 0.0
     rows = []
     off = Step(kind="wait", duration_s=1.0, engine="off")
+    extra = None
     for index, (waits, pull) in enumerate(_pull_and_wait_blocks(scenario), start=1):
         planned_wait = sum(step.duration_s for step in waits)
         if waits:
             trace = _run_steps(rig, waits, X)
             X, t = trace.final_K, t + planned_wait
         cool_step = waits[-1] if waits else off
-        extra = extra_wait_s(scenario, rig, X, pull, cool_step, limit)
+        extra = extra_wait_s(scenario, rig, X, pull, cool_step, limit, guess=extra)
         if extra is None:
             why = (f"the oil does not cool to the ready temperature during the wait (engine {cool_step.engine})"
                    if scenario.ready_temperature_K is not None else
@@ -103,9 +106,11 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
     return rows
 
 
-def extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) -> float | None:
+def extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float, guess: float | None = None) -> float | None:
     """Extra cooling (s) before `pull` so that its peak stays at or below the limit, or, in the
-    ready-temperature mode, until the oil has cooled to the ready temperature. None if impossible."""
+    ready-temperature mode, until the oil has cooled to the ready temperature. None if impossible.
+    guess : optional extra wait of the pull before (s); where it is positive, the search starts
+    near it (WARM_RANGE) and falls back to the full search when the answer is not in that range."""
     ready = scenario.ready_temperature_K
 
     def passes(extras):
@@ -118,8 +123,32 @@ def extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float) ->
             pulled &= after_wait <= ready + 1e-9
         return pulled
 
+    if guess is not None and guess > 0:
+        warm = _threshold_near(passes, guess)
+        if warm is not None:
+            return warm
     longest = 8.0 * time_constant_s(scenario)
     if not np.isfinite(longest):
         return 0.0 if passes(np.array([0.0]))[0] else None
     extra = batched_threshold(passes, 1.0, longest, floor=0.0)
     return None if np.isnan(extra) else extra
+
+
+# Where the pull before needed an extra wait, the next one's is searched first between these
+# fractions of it: a long day settles into waits that change little from pull to pull.
+WARM_RANGE = (0.8, 1.25)
+
+
+def _threshold_near(passes, guess: float) -> float | None:
+    """The smallest passing value, searched in two batches (GRID_POINTS candidates over WARM_RANGE
+    times guess, then GRID_POINTS inside the bracket found), or None where the range holds no
+    bracket (its lowest candidate passes, or none does). The answer passes, as batched_threshold's."""
+    grid = np.linspace(WARM_RANGE[0] * guess, WARM_RANGE[1] * guess, GRID_POINTS)
+    ok = passes(grid)
+    if not ok.any() or ok[0]:
+        return None
+    first = int(np.argmax(ok))
+    answer = float(grid[first])
+    finer = np.linspace(float(grid[first - 1]), answer, GRID_POINTS + 1)[1:-1]
+    ok = passes(finer)
+    return float(finer[int(np.argmax(ok))]) if ok.any() else answer

@@ -8,6 +8,7 @@ import numpy as np
 from .errors import ScenarioError
 from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
+from .long_session import integrate_session
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
 from .output_files import check_finite  # noqa: F401 (re-exported: report.check_finite)
 from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
@@ -31,7 +32,7 @@ def model_range_max_K(scenario: Scenario) -> float:
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
     """Integrate the planned session of a scenario (one design)."""
-    return integrate(build_rig(scenario), scenario.steps, scenario.start_K, resolution=resolution)
+    return integrate_session(build_rig(scenario), scenario, scenario.start_K, resolution=resolution)
 
 
 def _celsius(T_K) -> float:

@@ -516,3 +516,23 @@ def test_a_pull_s_extra_wait_searched_near_the_last_one_is_the_full_search_s():
     for extra in (near, full):
         trace = integrate(rig, [wait.with_duration(extra), pull], X, resolution=PLAN_RESOLUTION)
         assert peak_oil_K(trace)[0] <= limit - SEARCH_MARGIN_K
+
+
+def test_a_settled_schedule_repeats_its_last_cycle_as_the_pull_by_pull_search_would(monkeypatch):
+    """Once the pulls' start states repeat (to PERIODIC_TOLERANCE_K, with the contraction bound) and
+    their extra waits too, the schedule's later rows are its last cycle again: the same rows, to the
+    search's resolution, as searching every pull."""
+    from thermo_budget import ready_schedule as rs
+    scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": 60})  # over the limit from pull 41
+    repeated = []
+    original = rs._repeated_rows
+    monkeypatch.setattr(rs, "_repeated_rows", lambda rows, p, count: repeated.append(count) or original(rows, p, count))
+    settled = rs.ready_schedule(scenario, [])
+    assert repeated and repeated[0] >= 10                     # the last rows were copied, not searched
+    monkeypatch.setattr(rs, "_schedule_settled", lambda *args: False)
+    searched = rs.ready_schedule(scenario, [])
+    assert len(settled) == len(searched) == 60 and settled[-1]["extra_wait_s"] > 0
+    for a, b in zip(settled, searched):
+        assert a["index"] == b["index"]
+        assert abs(a["extra_wait_s"] - b["extra_wait_s"]) < 0.05 and abs(a["start_s"] - b["start_s"]) < 1.0
+        assert abs(a["start_C"] - b["start_C"]) < 0.002 and abs(a["peak_C"] - b["peak_C"]) < 0.002

@@ -27,11 +27,17 @@ PERIODIC_TOLERANCE_K = 1e-3     # what later cycles may still add to any node, a
 
 
 def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None, resolution: Resolution = Resolution(),
-                      tolerance_K: float = PERIODIC_TOLERANCE_K) -> Trace:
+                      tolerance_K: float = PERIODIC_TOLERANCE_K, decided=None) -> Trace:
     """The planned session (scenario.cycle repeated scenario.repeat times) for n designs, as
     solver.integrate would give it, with the cycles after the state has become periodic copied
     (see the module's docstring). durations_s : optional per-step durations of the whole session,
-    the same in every cycle (only the first cycle's are read)."""
+    the same in every cycle (only the first cycle's are read).
+
+    decided : optional function of a chunk's trace giving (N,) bool: designs whose answer the caller
+    already knows (e.g. a search's candidate past the limit), which need not settle. Their later
+    temperatures are then their last cycle repeated, not a prediction: only for a caller that reads
+    nothing of them but that they were decided (the first crossing, the pulls before it, a peak above
+    a threshold)."""
     cycle, repeat = list(scenario.cycle), int(scenario.repeat)
     per_cycle = None if durations_s is None else list(durations_s[:len(cycle)])
     if repeat <= LONG_SESSION_CYCLES:
@@ -40,6 +46,7 @@ def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None,
     pieces, done = [], 0
     X = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = 0.0
+    known = np.zeros(n_designs, bool)
     while done < repeat:
         cycles = min(CHUNK_CYCLES, repeat - done)
         piece = integrate(rig, cycle * cycles, X, n_designs=n_designs, start_time_s=t,
@@ -47,7 +54,9 @@ def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None,
         pieces.append((piece, done * len(cycle)))
         done += cycles
         X, t = piece.final_K, piece.time_s[-1]
-        if done < repeat and cycles >= 3 and _settled(piece, len(cycle), tolerance_K):
+        if decided is not None:
+            known |= np.asarray(decided(piece), bool)
+        if done < repeat and cycles >= 3 and _settled(piece, len(cycle), tolerance_K, known):
             pulls_per_cycle = sum(step.is_pull for step in cycle)
             pieces.append((_repeat_last_cycle(piece, len(cycle), pulls_per_cycle, repeat - done), done * len(cycle)))
             break
@@ -61,15 +70,16 @@ def _cycle_starts(trace: Trace, steps_per_cycle: int) -> np.ndarray:
     return np.append(first_steps - 1, trace.step_index.size - 1)
 
 
-def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> bool:
-    """Whether every design's cycle-start state can change by less than tolerance_K in all later
-    cycles: the last change d and the contraction rho of the last two give d rho / (1 - rho)."""
+def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float, known) -> bool:
+    """Whether every design not `known` (bool (N,)) has a cycle-start state that can change by less
+    than tolerance_K in all later cycles: the last change d and the contraction rho of the last two
+    give d rho / (1 - rho)."""
     starts = trace.T_K[_cycle_starts(trace, steps_per_cycle)]            # (cycles + 1, N, k)
     changes = np.max(np.abs(np.diff(starts[-3:], axis=0)), axis=2)       # (2, N): the last two cycles
     previous, last = changes
     rho = np.divide(last, previous, out=np.zeros_like(last), where=previous > 0)
     bound = np.where(last == 0.0, 0.0, np.where(rho < 1.0, last * rho / np.maximum(1.0 - rho, 1e-300), np.inf))
-    return bool(np.all(np.isfinite(starts[-1])) and np.all(bound + last < tolerance_K))
+    return bool(np.all(np.isfinite(starts[-1])) and np.all(known | (bound + last < tolerance_K)))
 
 
 def _repeat_last_cycle(trace: Trace, steps_per_cycle: int, pulls_per_cycle: int, copies: int) -> Trace:

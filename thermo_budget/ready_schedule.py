@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .long_session import PERIODIC_TOLERANCE_K
 from .network import N_NODES, OIL
 from .outcome import limiting_peak_K, peak_oil_K
 from .planning import GRID_POINTS, SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
@@ -78,7 +79,10 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
     rows = []
     off = Step(kind="wait", duration_s=1.0, engine="off")
     extra = None
-    for index, (waits, pull) in enumerate(_pull_and_wait_blocks(scenario), start=1):
+    blocks = _pull_and_wait_blocks(scenario)
+    per_cycle = sum(step.is_pull for step in scenario.cycle)
+    pull_starts = []       # the state at each pull's start (after its wait), K
+    for index, (waits, pull) in enumerate(blocks, start=1):
         planned_wait = sum(step.duration_s for step in waits)
         if waits:
             trace = _run_steps(rig, waits, X)
@@ -95,6 +99,7 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
             X = _run_steps(rig, [cool_step.with_duration(extra)], X).final_K
             t += extra
         start_C = float(X[0, OIL]) - 273.15
+        pull_starts.append(X[0].copy())
         trace = _run_steps(rig, [pull], X)
         peak_C = float(peak_oil_K(trace)[0]) - 273.15
         peak_return_C = float(trace.return_K[:, 0].max()) - 273.15
@@ -103,7 +108,36 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
                      "wait_before_s": round(planned_wait + extra, 2), "planned_wait_s": round(planned_wait, 2),
                      "extra_wait_s": round(extra, 2)})
         X, t = trace.final_K, t + pull.duration_s
+        if index < len(blocks) and _schedule_settled(pull_starts, rows, per_cycle):
+            return rows + _repeated_rows(rows, per_cycle, len(blocks) - index)
     return rows
+
+
+def _schedule_settled(pull_starts: list, rows: list, per_cycle: int, tolerance_K: float = PERIODIC_TOLERANCE_K) -> bool:
+    """Whether the schedule has become periodic: the last cycle's rows have the extra waits of the
+    cycle before, and the state at its pulls' start can change by less than tolerance_K in all later
+    cycles (the last change d and the contraction rho of the last two give d rho / (1 - rho), as for
+    a long session, long_session.py)."""
+    p = per_cycle
+    if len(pull_starts) < 3 * p or any(a["extra_wait_s"] != b["extra_wait_s"] for a, b in zip(rows[-p:], rows[-2 * p:-p])):
+        return False
+    last = max(float(np.max(np.abs(pull_starts[-1 - i] - pull_starts[-1 - i - p]))) for i in range(p))
+    before = max(float(np.max(np.abs(pull_starts[-1 - i - p] - pull_starts[-1 - i - 2 * p]))) for i in range(p))
+    if last == 0.0:
+        return True
+    rho = last / before if before > 0 else np.inf
+    return bool(rho < 1.0 and last + last * rho / (1.0 - rho) < tolerance_K)
+
+
+def _repeated_rows(rows: list, per_cycle: int, count: int) -> list:
+    """The next `count` rows of a periodic schedule: the last cycle's rows again, one cycle later each."""
+    period_s = rows[-1]["start_s"] - rows[-1 - per_cycle]["start_s"]
+    more = []
+    for j in range(count):
+        source = rows[len(rows) - per_cycle + j % per_cycle]
+        more.append({**source, "index": len(rows) + j + 1,
+                     "start_s": round(source["start_s"] + (j // per_cycle + 1) * period_s, 2)})
+    return more
 
 
 def extra_wait_s(scenario, rig, X, pull: Step, cool_step: Step, limit: float, guess: float | None = None) -> float | None:
@@ -140,15 +174,19 @@ WARM_RANGE = (0.8, 1.25)
 
 
 def _threshold_near(passes, guess: float) -> float | None:
-    """The smallest passing value, searched in two batches (GRID_POINTS candidates over WARM_RANGE
-    times guess, then GRID_POINTS inside the bracket found), or None where the range holds no
-    bracket (its lowest candidate passes, or none does). The answer passes, as batched_threshold's."""
-    grid = np.linspace(WARM_RANGE[0] * guess, WARM_RANGE[1] * guess, GRID_POINTS)
+    """The smallest passing value on a lattice, searched in two batches: the points of a lattice
+    of step 2^n (about GRID_POINTS of them) in WARM_RANGE times guess, then the 31 points of a lattice
+    32 times finer inside the bracket found. None where the range holds no bracket (its lowest
+    point passes, or none does). Being a lattice point, the answer depends on the state alone, not
+    on the guess (within one power of two), so a settled schedule repeats exactly; it passes, as
+    batched_threshold's."""
+    low, high = WARM_RANGE[0] * guess, WARM_RANGE[1] * guess
+    step = 2.0 ** np.floor(np.log2((high - low) / GRID_POINTS))
+    grid = step * np.arange(np.ceil(low / step), np.floor(high / step) + 1.0)
     ok = passes(grid)
     if not ok.any() or ok[0]:
         return None
     first = int(np.argmax(ok))
-    answer = float(grid[first])
-    finer = np.linspace(float(grid[first - 1]), answer, GRID_POINTS + 1)[1:-1]
+    finer = grid[first - 1] + step / 32.0 * np.arange(1.0, 32.0)
     ok = passes(finer)
-    return float(finer[int(np.argmax(ok))]) if ok.any() else answer
+    return float(finer[int(np.argmax(ok))]) if ok.any() else float(grid[first])

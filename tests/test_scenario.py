@@ -172,7 +172,7 @@ def test_temperature_below_absolute_zero_says_so(key):
 
 # ---------------------------------------------------------------- edges (issue 13)
 
-from thermo_budget.scenario import MAX_SESSION_STEPS  # noqa: E402
+from thermo_budget.scenario import MAX_SESSION_SUBSTEPS  # noqa: E402
 from thermo_budget.scenario_table import KEYS, MAX_NESTING, key_spec  # noqa: E402
 
 
@@ -259,10 +259,14 @@ def test_a_typo_gets_a_did_you_mean(change, expected):
     assert expected in _refusal(raw)
 
 
-def test_repeat_times_steps_is_capped_with_the_cap_quoted():
-    raw = set_path(base_raw(), "session.repeat", MAX_SESSION_STEPS // 2 + 1)
+def test_the_session_s_work_is_capped_with_the_cap_quoted():
+    # a cycle of three 12 s pulls and three 20-min waits is 3 x (1 + 6) = 21 sub-steps at the
+    # planning resolution: 1,000 repeats would be 21,000
+    raw = set_path(base_raw(), "session.steps", [{"kind": "pull", "duration": "12 s", "power": "9 kW", "rpm": 3400},
+                                                 {"kind": "wait", "duration": "20 min", "engine": "off"}] * 3)
+    raw["session"]["repeat"] = 1000
     message = _refusal(raw)
-    assert "session.repeat" in message and str(MAX_SESSION_STEPS) in message
+    assert "session.repeat" in message and str(MAX_SESSION_SUBSTEPS) in message and "at most 714 repeats" in message
 
 
 def test_deep_nesting_is_refused_before_the_toml_reader_recurses(tmp_path):

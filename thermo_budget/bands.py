@@ -12,13 +12,13 @@ from __future__ import annotations
 
 import numpy as np
 
+from .long_session import integrate_session
 from .network import OIL
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
 from .planning import (SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, sustainability, take_designs,
                        time_constant_s)
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
-from .solver import integrate
 from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
 
 N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: docs/method.md)
@@ -256,8 +256,8 @@ def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
     rig = sample_rig(build_rig(scenario, oil_volume_m3=volume, cooler_W_K=cooler), values, index=sample)
     durations = [step.duration_s if step.is_pull else np.where(keys == "min_wait_s", x, step.duration_s)
                  for step in scenario.steps]
-    trace = integrate(rig, scenario.steps, scenario.start_K, n_designs=x.size, durations_s=durations,
-                      resolution=PLAN_RESOLUTION)
+    trace = integrate_session(rig, scenario, scenario.start_K, n_designs=x.size, durations_s=durations,
+                              resolution=PLAN_RESOLUTION)
     return limiting_peak_K(trace, *limits_K(scenario))
 
 

@@ -44,7 +44,7 @@ def summary_text(result: dict) -> str:
              f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
              f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
              f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
-             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in",
+             f"  energy balance   {result['energy_balance_rel_error']:.1e} of the largest energy term (in, lost or stored)",
              f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at {_temp(60.0, u)} "
              f"(rate doubling per {_fmt(10.0, 'temperature_difference', u, 0)}; common practice, a relative figure)",
              f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
@@ -73,54 +73,41 @@ def summary_text(result: dict) -> str:
 
 def check_outputs(args, inputs: tuple, outputs: tuple) -> None:
     """Before any work: every output path (the options named in `outputs`) must be in an existing
-    folder, not a folder itself, not one of the input files (`inputs`, option names) and not
-    another output. Raises ScenarioError naming the option."""
-    seen = {}
-    for name in inputs:
-        path = Path(getattr(args, name))
-        if path.exists():
-            seen[path.resolve()] = name
-    for option in outputs:
-        value = getattr(args, option, None)
-        if not value:
-            continue
-        path = Path(value)
-        flag = "--" + option.replace("_", "-")
-        if not path.parent.is_dir():
-            raise ScenarioError(flag, value, f"a file in an existing folder ({path.parent} does not exist)")
-        if path.is_dir():
-            raise ScenarioError(flag, value, "a file name, not a folder")
-        resolved = path.resolve()
-        if resolved in seen:
-            raise ScenarioError(flag, value, f"a new file name, not the {seen[resolved]} file it would overwrite")
-        seen[resolved] = flag
+    folder, not a folder itself, not one of the input files (`inputs`, option names; compared by
+    device and inode, so a hard link counts) and not another output. Raises ScenarioError naming
+    the option."""
+    from .output_files import check_output_paths
+    check_output_paths({name: getattr(args, name) for name in inputs},
+                       {"--" + option.replace("_", "-"): getattr(args, option, None) for option in outputs})
 
 
 def _load(path):
+    from .output_files import print_warnings
     from .scenario import load_scenario
-    return load_scenario(path)
+    scenario = load_scenario(path)
+    print_warnings(scenario.warnings)
+    return scenario
 
 
 def _run(args) -> int:
+    from .output_files import json_text, save_figure, write_atomically
     from .report import report, simulate, trace_csv
     check_outputs(args, ("scenario",), ("csv", "plot"))
     scenario = _load(args.scenario)
     trace = simulate(scenario)
     result = report(scenario, trace)
     if args.csv:
-        Path(args.csv).write_text(trace_csv(trace), encoding="utf-8")
+        write_atomically(args.csv, trace_csv(trace))
     if args.plot:
         from .plots import plot_trace
-        plot_trace(scenario, trace).savefig(args.plot, dpi=120, bbox_inches="tight")
+        save_figure(plot_trace(scenario, trace), args.plot, dpi=120, bbox_inches="tight")
     hot = None
     if args.ambients is not None:
         from .hot_day import hot_day
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
         result["hot_day"] = hot.to_dict()
     if args.json:
-        from .report import check_finite
-        check_finite(result)
-        print(json.dumps(result, indent=2, allow_nan=False))
+        print(json_text(result, indent=2))
     else:
         print(summary_text(result))
         if hot is not None:
@@ -147,35 +134,42 @@ def _ambients(text: str, system: str):
     return from_display(np.linspace(start, stop, count), "temperature", system)
 
 
-def _grid(text: str, option: str):
-    import numpy as np
+def _grid_spec(text: str, option: str) -> tuple[float, float, int]:
+    """START:STOP:N read and checked, without building the grid (N may be any size here)."""
+    import math
     parts = text.split(":")
     try:
         if len(text) > 60 or len(parts) != 3:
             raise ValueError
         start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
-        if not (np.isfinite(start) and np.isfinite(stop)) or count < 1 or start < 0 or stop < start:
+        if not (math.isfinite(start) and math.isfinite(stop)) or count < 1 or start < 0 or stop < start:
             raise ValueError
     except (ValueError, IndexError):
         raise ScenarioError(option, text, "START:STOP:N with 0 <= START <= STOP and N >= 1") from None
-    return np.linspace(start, stop, count)
+    return start, stop, count
 
 
 def _sweep(args) -> int:
-    from .design_sweep import check_grid, sweep
+    import numpy as np
+
+    from .design_sweep import check_grid, check_grid_size, sweep
+    from .output_files import json_text, save_figure
     check_outputs(args, ("scenario",), ("plot",))
+    volume_spec = _grid_spec(args.oil_volumes, "--oil-volumes")
+    cooler_spec = _grid_spec(args.coolers, "--coolers")
     scenario = _load(args.scenario)
+    check_grid_size(scenario, volume_spec[2], cooler_spec[2])     # from the counts, before any array
     from .units import from_display
     # the grid in the scenario's units (L and W/K, or gal and BTU/hr/degF), in SI for the sweep
-    volumes = 1000.0 * from_display(_grid(args.oil_volumes, "--oil-volumes"), "volume", scenario.units)
-    coolers = from_display(_grid(args.coolers, "--coolers"), "conductance", scenario.units)
+    volumes = 1000.0 * from_display(np.linspace(*volume_spec), "volume", scenario.units)
+    coolers = from_display(np.linspace(*cooler_spec), "conductance", scenario.units)
     check_grid(volumes, coolers, ("--oil-volumes", args.oil_volumes), ("--coolers", args.coolers))
     result = sweep(scenario, volumes, coolers)
     if args.plot:
         from .plots import plot_design_chart
-        plot_design_chart(scenario, result).savefig(args.plot, dpi=120, bbox_inches="tight")
+        save_figure(plot_design_chart(scenario, result), args.plot, dpi=120, bbox_inches="tight")
     if args.json:
-        print(json.dumps(result.to_dict(), indent=2))
+        print(json_text(result.to_dict(), indent=2))
     else:
         print(result.summary_text(scenario.units))
     return 0

@@ -106,20 +106,26 @@ def check_grid(oil_volumes_L, coolers_W_per_K, volume_source=("oil_volumes_L", N
             raise ScenarioError(name, shown, f"values from {low:g} to {high:g} {unit}" + (" (above 0)" if low > 0 else ""))
 
 
+def check_grid_size(scenario: Scenario, n_volumes: int, n_coolers: int) -> None:
+    """Refuse a grid whose estimated memory passes MAX_SWEEP_BYTES, from the counts alone, before
+    any array of the grid is built."""
+    n_designs = int(n_volumes) * int(n_coolers)
+    need = estimated_sweep_bytes(scenario, n_designs)
+    if need > MAX_SWEEP_BYTES:
+        per_design = need / max(n_designs, 1)
+        raise ScenarioError("sweep", f"{n_volumes} x {n_coolers} = {n_designs} designs",
+                            f"a grid of at most {int(MAX_SWEEP_BYTES // per_design)} designs for this session "
+                            f"(estimated {per_design / 1024:.1f} kB each; this grid needs about {need / 2**20:.0f} MB, "
+                            f"the limit is {MAX_SWEEP_BYTES / 2**20:.0f} MB)")
+
+
 def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = MAX_PULLS) -> SweepResult:
     """Evaluate every (oil volume, cooler) pair of the grid in one batch (tank scaled geometrically).
     A grid whose estimated memory passes MAX_SWEEP_BYTES is refused with the estimate quoted."""
     volumes = np.asarray(oil_volumes_L, dtype=float)
     coolers = np.asarray(coolers_W_per_K, dtype=float)
     check_grid(volumes, coolers)
-    n_designs = volumes.size * coolers.size
-    need = estimated_sweep_bytes(scenario, n_designs)
-    if need > MAX_SWEEP_BYTES:
-        per_design = need / n_designs
-        raise ScenarioError("sweep", f"{volumes.size} x {coolers.size} = {n_designs} designs",
-                            f"a grid of at most {int(MAX_SWEEP_BYTES // per_design)} designs for this session "
-                            f"(estimated {per_design / 1024:.1f} kB each; this grid needs about {need / 2**20:.0f} MB, "
-                            f"the limit is {MAX_SWEEP_BYTES / 2**20:.0f} MB)")
+    check_grid_size(scenario, volumes.size, coolers.size)
     V, K = np.meshgrid(volumes, coolers, indexing="ij")
     rig = build_rig(scenario, oil_volume_m3=V.ravel() / 1000.0, cooler_W_K=K.ravel())
     n = V.size

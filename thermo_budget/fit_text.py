@@ -85,20 +85,20 @@ def fit_command(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
     from .calibrate import fit_log
     from .measured_log import log_file_text
-    from .report import check_finite
+    from .output_files import json_text, print_warnings, save_figure, write_atomically
     from .scenario import load_scenario
     scenario = load_scenario(args.scenario)
+    print_warnings(scenario.warnings)
     text = log_file_text(args.log)
     result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
                      source=str(args.log), strict=bool(getattr(args, "strict", False)),
                      fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
     if args.write:
-        Path(args.write).write_text(calibrated_toml(result, args.log), encoding="utf-8")
+        write_atomically(args.write, calibrated_toml(result, args.log))
     if args.plot:
         from .fit_plot import plot_fit
         figure = plot_fit(result)
-        figure.savefig(args.plot, dpi=120, bbox_inches="tight")
+        save_figure(figure, args.plot, dpi=120, bbox_inches="tight")
     answers = result.to_dict(include_series=False)
-    check_finite(answers)
-    print(json.dumps(answers, indent=2, allow_nan=False) if args.json else summary_text(result))
+    print(json_text(answers, indent=2) if args.json else summary_text(result))
     return 0

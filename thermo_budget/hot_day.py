@@ -14,6 +14,7 @@ import numpy as np
 
 from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, periodic_state, round_up,
                        take_designs)
+from .long_session import integrate_session
 from .network import N_NODES
 from .outcome import limiting_peak_K, pulls_completed_under
 from .scenario import Scenario, build_rig
@@ -109,7 +110,7 @@ def _coolers_needed(scenario: Scenario, ambients, starts, possible) -> np.ndarra
         index = np.repeat(np.arange(n), k)
         rig = take_designs(base, np.zeros(n * k, int)).with_changes(
             ambient_K=ambients[index], cooler_W_K=candidates.ravel())
-        trace = integrate(rig, scenario.steps, starts[index], n_designs=n * k, resolution=PLAN_RESOLUTION)
+        trace = integrate_session(rig, scenario, starts[index], n_designs=n * k, resolution=PLAN_RESOLUTION)
         return (limiting_peak_K(trace, limit, return_limit) <= limit - SEARCH_MARGIN_K).reshape(n, k)
 
     grid = np.concatenate([np.zeros((n, 1)), np.geomspace(1e-5 * largest, largest, GRID_POINTS).T], axis=1)

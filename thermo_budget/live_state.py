@@ -52,7 +52,7 @@ class LiveState:
 
     def to_json(self) -> str:
         """One JSON object with the keys JSON_KEYS, in that order."""
-        return json.dumps(self.to_dict())
+        return json.dumps(self.to_dict(), allow_nan=False)
 
 
 def duration_text(seconds: float) -> str:

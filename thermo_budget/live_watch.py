@@ -36,6 +36,7 @@ NEAR_LIMIT_K = 2.0
 AMBIENT_TIME_CONSTANT_S = 600.0  # the logged ambient is followed as a running mean over about this long
 AMBIENT_STEP_K = 0.1            # ... and the rig's ambient changed when it has moved this far
 PARSE_LINES = 4096              # a long catch-up is read this many lines at a time (bounded memory)
+MIN_INTERVAL_S, MAX_INTERVAL_S = 0.05, 3600.0    # watch --interval: a loggers' poll, not a busy loop or a day
 
 
 class LiveWatch:
@@ -318,8 +319,9 @@ def _from_step_back(header: str, lines: list[str], last_time_s: float, sensor: s
 def watch_command(args) -> int:
     """`python -m thermo_budget watch SCENARIO LOG.csv [--sensor] [--once] [--json] [--interval]`."""
     from .scenario import load_scenario
-    if not args.interval > 0:
-        raise ScenarioError("--interval", args.interval, "a poll interval above 0 s")
+    if not MIN_INTERVAL_S <= args.interval <= MAX_INTERVAL_S:     # also refuses nan and inf
+        raise ScenarioError("--interval", args.interval,
+                            f"a poll interval from {MIN_INTERVAL_S:g} s to {MAX_INTERVAL_S:g} s")
     scenario = load_scenario(args.scenario)
     watch = LiveWatch(scenario, args.log, sensor=args.sensor)
     try:
@@ -332,6 +334,8 @@ def _follow(watch: LiveWatch, scenario, args) -> int:
     import sys
     import time
 
+    from .output_files import json_text
+
     def say(messages):
         for message in messages:
             print(f"note: {message}", file=sys.stderr if args.json else sys.stdout, flush=True)
@@ -340,7 +344,7 @@ def _follow(watch: LiveWatch, scenario, args) -> int:
         state = watch.update()
         say(watch.take_messages())
         if state is not None:
-            print(state.to_json() if args.json else state_text(state, scenario.units), flush=True)
+            print(json_text(state.to_dict(), non_finite="null") if args.json else state_text(state, scenario.units), flush=True)
         if args.once:
             if state is None:
                 from pathlib import Path

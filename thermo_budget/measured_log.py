@@ -19,6 +19,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import re
 from dataclasses import dataclass, replace
 from datetime import datetime
 from pathlib import Path
@@ -38,6 +39,19 @@ MIN_POINTS = 10            # readings needed to fit two or three parameters and 
 MIN_REPORTED_GAP_S = 60.0  # a gap is noted when over this and ten times the median spacing
 MIN_RISE_K = 1.0           # the oil must rise this much above its first readings to count as heated
 MISSING_CELLS = {"", "nan", "na", "n/a", "null", "none", "-"}
+# A number cell: ASCII digits only (Python's float() would also read other scripts' digits, such
+# as full-width or Arabic-Indic ones, and underscores between digits).
+NUMBER_CELL = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?|[+-]?(?:inf|infinity|nan)",
+                         re.IGNORECASE)
+NUMBER_EXPECTED = "a number written with the digits 0-9 (a point for decimals, e.g. 20.5)"
+
+
+def ascii_float(text: str) -> float:
+    """A number cell as a float: ASCII digits, an optional point and exponent (NUMBER_CELL), else ValueError."""
+    text = text.strip()
+    if not NUMBER_CELL.fullmatch(text):
+        raise ValueError(f"not a number in ASCII digits: {text!r}")
+    return float(text)
 # Readings outside this range are taken as a wrong unit or a broken sensor, not as oil (the upper
 # bound is far above any hydraulic oil's flash point; common practice, no source).
 OIL_RANGE_C = (-60.0, 300.0)
@@ -271,10 +285,10 @@ def _number(cell: str, source: str, line_no: int, column: str) -> float:
     if text.lower() in MISSING_CELLS:
         return math.nan
     try:
-        value = float(text)
+        value = ascii_float(text)
     except ValueError:
         raise ScenarioError(f"{source} line {line_no}, column {column}", text,
-                            "a number, or a blank or NaN cell to skip") from None
+                            f"{NUMBER_EXPECTED}, or a blank or NaN cell to skip") from None
     if math.isinf(value):
         raise ScenarioError(f"{source} line {line_no}, column {column}", text, "a finite number")
     return value
@@ -286,10 +300,11 @@ def _times_s(times: list, column: str, source: str) -> np.ndarray:
         values = []
         for line_no, cell in times:
             try:
-                value = float(cell)
+                value = ascii_float(cell)
             except ValueError:
                 raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
-                                    "seconds from the session start as a number (for clock times name the column time)") from None
+                                    f"seconds from the session start as {NUMBER_EXPECTED} "
+                                    "(for clock times name the column time)") from None
             if not math.isfinite(value) or value < 0 or value > MAX_LOG_SPAN_S:
                 raise ScenarioError(f"{source} line {line_no}, column {column}", cell,
                                     f"seconds from the session start, zero or more and at most {MAX_LOG_SPAN_S:.0f} (12 h)")
@@ -298,7 +313,7 @@ def _times_s(times: list, column: str, source: str) -> np.ndarray:
     stamps = []
     for line_no, cell in times:
         try:
-            float(cell)
+            ascii_float(cell)
             numeric = True
         except ValueError:
             numeric = False

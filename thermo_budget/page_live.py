@@ -25,6 +25,7 @@ from .units import to_display, unit_label
 LOG_DIR_ENV = "THERMO_BUDGET_LOG_DIR"
 LOG_DIR_OPTION = "--log-dir"
 REFRESH_S = 3.0
+MAX_NAME_CHARS = 255      # of a typed log-file name
 
 
 def log_folder(argv=None, environ=None) -> Path | None:
@@ -54,15 +55,23 @@ def resolve_log_path(folder: Path, typed: str) -> Path:
     name = (typed or "").strip()
     if not name:
         raise ScenarioError("log file", typed, f"the name of a log file in {folder}")
+    if not name.isprintable() or len(name) > MAX_NAME_CHARS:
+        raise ScenarioError("log file", typed, f"a file name of at most {MAX_NAME_CHARS} printable characters "
+                                               "(no NUL byte, line break or other control character)")
     given = Path(name)
     if ".." in given.parts:
         raise ScenarioError("log file", typed, f"a file inside {folder}, without '..'")
-    root = Path(folder).resolve()
-    resolved = (given if given.is_absolute() else root / given).resolve()
-    if not resolved.is_relative_to(root) or resolved == root:
-        raise ScenarioError("log file", typed, f"a file inside {folder} (links that lead out are not followed)")
-    if resolved.exists() and not resolved.is_file():
-        raise ScenarioError("log file", typed, "a file, not a folder")
+    try:
+        root = Path(folder).resolve()
+        resolved = (given if given.is_absolute() else root / given).resolve()
+        if not resolved.is_relative_to(root) or resolved == root:
+            raise ScenarioError("log file", typed, f"a file inside {folder} (links that lead out are not followed)")
+        if resolved.exists() and not resolved.is_file():
+            raise ScenarioError("log file", typed, "a file, not a folder")
+    except (OSError, ValueError, RuntimeError) as error:     # a name the system refuses, a loop of links
+        if isinstance(error, ScenarioError):
+            raise
+        raise ScenarioError("log file", typed, f"a file name the system accepts ({error})") from None
     return resolved
 
 

@@ -34,6 +34,8 @@ def errors(page: PagePlan):
     if page.draft_error:
         st.error(f"That input was not applied: {page.draft_error}. The answers below are for the last inputs "
                  "that worked.")
+    for warning in page.scenario.warnings:     # accepted, but looks like a unit slip
+        st.warning(warning)
 
 
 def safety(page: PagePlan):

@@ -8,7 +8,7 @@ import numpy as np
 
 # Cells of nothing but digits, signs, decimal points and exponents: read by float() exactly as the
 # row-by-row reader reads them.
-_PLAIN_CELL = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
+_PLAIN_CELL = re.compile(r"[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?")   # ASCII digits only
 
 
 def plain_rows(rows: list, line_numbers: list, columns: dict, width: int, max_span_s: float):

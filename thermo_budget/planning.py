@@ -6,6 +6,7 @@ from dataclasses import fields
 
 import numpy as np
 
+from .long_session import integrate_session
 from .network import N_NODES, Rig, cooling_time_constant_s
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
@@ -49,8 +50,21 @@ def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
 def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
     """The planned session for n designs at the planning resolution (a Trace)."""
     durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    return integrate(rig, scenario.steps, scenario.start_K, n_designs=n, durations_s=durations,
-                     resolution=PLAN_RESOLUTION)
+    return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+                             resolution=PLAN_RESOLUTION)
+
+
+def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None) -> np.ndarray:
+    """Whether the planned session of each of n designs finishes with its peak (the limiting one,
+    as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches ask.
+    A design is followed only until that is decided (long_session.integrate_session's `decided`)."""
+    limits = limits_K(scenario)
+    threshold = limits[0] - SEARCH_MARGIN_K
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
+    trace = integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+                              resolution=PLAN_RESOLUTION,
+                              decided=lambda piece: limiting_peak_K(piece, *limits) > threshold)
+    return limiting_peak_K(trace, *limits) <= threshold
 
 
 def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):
@@ -259,12 +273,10 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     if not _waits_of(scenario):
         notes.append("The cycle has no wait step, so there is no wait to lengthen.")
         return None
-    limit, _ = limit_K(scenario)
     rig = build_rig(scenario, cooler_W_K=0.0)
 
     def passes(waits):
-        peak, _ = session_outcome(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size, wait_s=waits)
-        return peak <= limit - SEARCH_MARGIN_K
+        return finishes_under_limit(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size, wait_s=waits)
 
     tau = time_constant_s(scenario)
     wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
@@ -309,8 +321,7 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
                                    X0=_warm_start(seen, coolers), states=states)
             seen.append((coolers, *states[0]))
             return ok
-        peak, _ = session_outcome(scenario, rig, coolers.size)
-        return peak <= limit - SEARCH_MARGIN_K
+        return finishes_under_limit(scenario, rig, coolers.size)
 
     peak_power = max(step.peak_power_W() for step in scenario.cycle)
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
@@ -327,12 +338,10 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
 def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
     """Smallest oil volume (L at 15 degC) that completes the planned session with no cooler; the tank
     is scaled geometrically (same proportions and fill fraction)."""
-    limit, _ = limit_K(scenario)
     V0 = scenario.reservoir.oil_volume_m3
 
     def passes(volumes):
-        peak, _ = session_outcome(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
-        return peak <= limit - SEARCH_MARGIN_K
+        return finishes_under_limit(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
 
     volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
     if np.isnan(volume):

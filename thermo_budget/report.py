@@ -8,7 +8,9 @@ import numpy as np
 from .errors import ScenarioError
 from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
+from .long_session import integrate_session
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
+from .output_files import check_finite  # noqa: F401 (re-exported: report.check_finite)
 from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
@@ -30,7 +32,7 @@ def model_range_max_K(scenario: Scenario) -> float:
 
 def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> Trace:
     """Integrate the planned session of a scenario (one design)."""
-    return integrate(build_rig(scenario), scenario.steps, scenario.start_K, resolution=resolution)
+    return integrate_session(build_rig(scenario), scenario, scenario.start_K, resolution=resolution)
 
 
 def _celsius(T_K) -> float:
@@ -87,7 +89,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "energy_in_J": energy_in,
         "energy_lost_J": lost,
         "energy_stored_J": stored,
-        "energy_balance_rel_error": (energy_in - lost - stored) / energy_in,
+        "energy_balance_rel_error": energy_balance_rel_error(energy_in, lost, stored),
         "heat_capacity_J_per_K": capacity_by_body(capacities),
         "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
         "peak_pull_power_W": pump["peak_pull_power_W"],
@@ -171,16 +173,12 @@ def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> Non
     result["cautions"] = [caution] + others
 
 
-def check_finite(result, path: str = "") -> None:
-    """Every number in a result (nested dicts and lists) is finite, or ScenarioError names it."""
-    items = result.items() if isinstance(result, dict) else enumerate(result) if isinstance(result, list) else ()
-    for key, value in items:
-        where = f"{path}.{key}" if path and isinstance(key, str) else f"{path}[{key}]" if path else str(key)
-        if isinstance(value, float) and not math.isfinite(value):
-            raise ScenarioError("scenario", f"{where} = {value}",
-                                "inputs for which every answer is finite (one of the values above gave a "
-                                f"non-finite {where}; check its units)")
-        check_finite(value, where)
+def energy_balance_rel_error(energy_in_J: float, energy_lost_J: float, energy_stored_J: float) -> float:
+    """(heat in - heat lost - heat stored) relative to the largest of the three in magnitude: the
+    heat in for a session that starts at ambient, the heat lost or stored for one that starts warm,
+    so that it stays a round-off figure however little heat goes in (0 when nothing moves)."""
+    scale = max(abs(energy_in_J), abs(energy_lost_J), abs(energy_stored_J))
+    return (energy_in_J - energy_lost_J - energy_stored_J) / scale if scale > 0 else 0.0
 
 
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:

@@ -17,9 +17,10 @@ from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
                         limit_K)  # (build_rig re-exported: the scenario's network)
-from .session import EngineCurve, Step, shaft_power_W
+from .session import PLAN_RESOLUTION, EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
-                             read_toml_bytes, read_toml_text, with_path)
+                             check_document_depth, read_toml_bytes, read_toml_text, temperature_unit_warnings,
+                             with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
 from .units import convert
 
@@ -28,14 +29,19 @@ DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
 # Hose bore as a fraction of its outside diameter when not given (common practice, no source;
 # from memory of two-wire-braid hydraulic hose, e.g. 19 mm bore in 28-29 mm outside).
 DEFAULT_HOSE_BORE_FRACTION = 0.66
-# Steps in a planned session (repeat x steps of the cycle). The work of report() grows with it, most
-# with the pulls past the limit, whose ready-to-pull waits are searched one by one: measured on a
-# busy 2-core machine, 10 s for 100 pulls (200 steps) past the limit, 130 s for 2,000 steps.
-MAX_SESSION_STEPS = 120
+# The work of a planned session: its sub-steps at the planning resolution (repeat x those of one
+# cycle), which every search integrates. A session past LONG_SESSION_CYCLES cycles is integrated
+# only until it is periodic (long_session.py), so the work is bounded by the pulls it takes to
+# settle; this bound is on what a session may ask at most: 1,000 pulls with up to 15 sub-steps a
+# cycle (an engine-curve pull is 8, a wait of up to 12 min 6), e.g. a break-in day of 1,000 short pulls.
+MAX_SESSION_SUBSTEPS = 15000
 # Flash point assumed when fluid.flash_point is not given. From memory, not from a cited source:
 # data sheets of mineral hydraulic oils of ISO VG 22-68 give about 190-240 degC (ASTM D92, open cup);
 # 180 degC is taken below that range on purpose, to be conservative.
 DEFAULT_FLASH_POINT_C = 180.0
+# The least mean power a pull may absorb, W: far below any engine on a brake (a pull of less heats
+# nothing the model could show, and its energy balance would be relative to almost no heat).
+MIN_PULL_POWER_W = 1.0
 
 @dataclass(frozen=True)
 class Reservoir:
@@ -102,6 +108,7 @@ class Scenario:
     flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
+    warnings: tuple = ()     # accepted but doubtful input, one line each (scenario_table.temperature_unit_warnings)
 
     @property
     def steps(self) -> list[Step]:
@@ -126,6 +133,7 @@ class Scenario:
 def load_scenario(path_or_dict) -> Scenario:
     """Read and validate a scenario from a TOML path, TOML text is not accepted here, or a dict."""
     if isinstance(path_or_dict, dict):
+        check_document_depth(path_or_dict)
         raw = copy.deepcopy(path_or_dict)
     else:
         path = Path(path_or_dict)
@@ -241,10 +249,14 @@ def _parse(raw: dict) -> Scenario:
     raw_steps = s.get("steps")
     if not isinstance(raw_steps, list) or not raw_steps:
         raise ScenarioError("session.steps", raw_steps, "a list of [[session.steps]] tables")
-    if repeat * len(raw_steps) > MAX_SESSION_STEPS:
-        raise ScenarioError("session.repeat", repeat, f"at most {MAX_SESSION_STEPS} steps in the planned session "
-                            f"(repeat x {len(raw_steps)} steps of the cycle = {repeat * len(raw_steps)})")
+    if len(raw_steps) > MAX_SESSION_SUBSTEPS:
+        raise ScenarioError("session.steps", f"{len(raw_steps)} steps", f"a cycle of at most {MAX_SESSION_SUBSTEPS} steps")
     cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units) for i, step in enumerate(raw_steps))
+    per_cycle = sum(PLAN_RESOLUTION.substeps(step, step.duration_s) for step in cycle)
+    if repeat * per_cycle > MAX_SESSION_SUBSTEPS:
+        raise ScenarioError("session.repeat", repeat, f"a planned session of at most {MAX_SESSION_SUBSTEPS} sub-steps of "
+                            f"the integrator (repeat x {per_cycle} for this cycle = {repeat * per_cycle}; at most "
+                            f"{MAX_SESSION_SUBSTEPS // per_cycle} repeats)")
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
@@ -261,7 +273,7 @@ def _parse(raw: dict) -> Scenario:
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
-                        uncertainty=uncertainty)
+                        uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units))
     _check_consistency(scenario)
     return scenario
 
@@ -288,13 +300,15 @@ def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> S
             step = Step(kind="pull", duration_s=duration, engine="on",
                         curve=EngineCurve(rpm=tuple(speeds), power_W=tuple(power)),
                         rpm_start=rpm_start, rpm_end=rpm_end)
-            if step.mean_power_W(0.0, 1.0) <= 0.0:
+            if not step.mean_power_W(0.0, 1.0) >= MIN_PULL_POWER_W:
                 curve_key = "curve_torque" if "curve_torque" in raw else "curve_power"
                 raise ScenarioError(t.key(curve_key), raw[curve_key],
-                                    "a curve that absorbs some power between rpm_start and rpm_end")
+                                    f"a curve that absorbs at least {MIN_PULL_POWER_W:g} W on average between "
+                                    "rpm_start and rpm_end")
         else:
             step = Step(kind="pull", duration_s=duration, engine="on",
-                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
+                        power_W=t.quantity("power", "power", "W", minimum=MIN_PULL_POWER_W),
+                        rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
     else:
         engine = t.choice("engine", ("off", "idle"))
         if engine == "idle":

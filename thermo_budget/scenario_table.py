@@ -115,6 +115,14 @@ KIND_RANGES = {"temperature": (173.15, 673.15), "length": (1e-5, 100.0), "area":
                "conductance": (0.0, 1e5), "speed": (0.0, 100.0), "per_kelvin": (0.0, 0.01),
                "specific_heat": (100.0, 1e4), "thermal_conductivity": (0.0, 500.0)}
 
+# The usual range of each temperature key, degC (narrower than the plausible range above; invented
+# for a small-engine test stand, common practice, no source). A bare number outside it that would be
+# inside it read in the other unit system's degrees (degF for degC, or the reverse) is accepted but
+# warned about (`temperature_unit_warnings`): it looks like the other unit.
+USUAL_TEMPERATURE_C = {"ambient": (-20, 45), "fluid.max_temperature": (40, 120), "fluid.flash_point": (150, 320),
+                       "hardware.return_line_max_temperature": (60, 150), "session.start_temperature": (-20, 90),
+                       "session.ready_temperature": (20, 90)}
+
 _INDEX = re.compile(r"\[\d+\]")
 
 
@@ -199,7 +207,12 @@ class _Table:
         if not low <= si <= high:
             shown_range = (spec.range_text(self.system) if spec and spec.kind
                            else f"{low:g} to {high:g} {SI_UNIT[kind]}")
-            raise ScenarioError(key, value, f"a {kind.replace('_', ' ')} from {shown_range} (the plausible range)")
+            hint = ""
+            other = _other_unit_reading(value, self.system) if kind == "temperature" and not own_unit else None
+            if other is not None and low <= other[0] <= high:
+                hint = (f"; as {other[1]} it would be {convert(other[0], 'K', unit):.4g} {unit}: "
+                        f'write "{value:g} {other[1]}" if that is meant')
+            raise ScenarioError(key, value, f"a {kind.replace('_', ' ')} from {shown_range} (the plausible range){hint}")
         _check_bounds(key, value, si, minimum, above, maximum, kind, unit)
         return si
 
@@ -259,6 +272,41 @@ def _check_bounds(key, value, si, minimum, above, maximum, kind, unit):
         raise ScenarioError(key, value, f"at most {quoted(maximum)}")
 
 
+def _bare_temperature_units(system: str) -> tuple[str, str]:
+    """(the bare unit of temperatures in a file of `system`, the other system's)."""
+    return ("degF", "degC") if system == "US" else ("degC", "degF")
+
+
+def _other_unit_reading(value, system: str):
+    """(value read in the other unit system's degrees, K; that unit) for a bare number, else None."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(float(value)):
+        return None
+    other = _bare_temperature_units(system)[1]
+    return convert(float(value), other, "K"), other
+
+
+def temperature_unit_warnings(raw: dict, system: str) -> tuple[str, ...]:
+    """Warnings for the temperature keys of a checked document given as bare numbers that look like
+    the other unit system's degrees (USUAL_TEMPERATURE_C): accepted as written, but named."""
+    own = _bare_temperature_units(system)[0]
+    messages = []
+    for key, (low_C, high_C) in USUAL_TEMPERATURE_C.items():
+        table = raw
+        for part in key.split(".")[:-1]:
+            table = table.get(part) if isinstance(table, dict) else None
+        value = table.get(key.split(".")[-1]) if isinstance(table, dict) else None
+        other = _other_unit_reading(value, system)
+        if other is None:
+            continue
+        as_written_C, as_other_C = convert(float(value), own, "degC"), convert(other[0], "K", "degC")
+        if not low_C <= as_written_C <= high_C and low_C <= as_other_C <= high_C:
+            messages.append(f"{key} = {value:g} is read as {value:g} {own} (a bare number means {own} in "
+                            f"{'a US' if system == 'US' else 'an SI'} file), unusual for it; as {other[1]} it "
+                            f"would be {convert(as_other_C, 'degC', own):.4g} {own}: write \"{value:g} {other[1]}\" "
+                            f"if that is meant")
+    return tuple(messages)
+
+
 def with_path(raw: dict, path: str, value) -> dict:
     """A copy of the document raw with the key path "a.b" set to value (None removes the key)."""
     new = copy.deepcopy(raw)
@@ -284,6 +332,29 @@ def nesting_depth(text: str) -> int:
         elif char in "]}":
             depth = max(depth - 1, 0)
     return deepest
+
+
+def structure_depth(value, limit: int = MAX_NESTING) -> int:
+    """The nesting of dicts and lists inside a document (the document itself is 0, [session] 1, its
+    steps 2, a step 3), walked without recursion and counted no further than limit + 1, so that a
+    deep or self-containing dict is refused before anything recurses into it."""
+    deepest = 0
+    stack = [(value, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > limit:
+            return depth
+        deepest = max(deepest, depth)
+        children = node.values() if isinstance(node, dict) else node if isinstance(node, (list, tuple)) else ()
+        stack.extend((child, depth + 1) for child in children if isinstance(child, (dict, list, tuple)))
+    return deepest
+
+
+def check_document_depth(raw, source: str = "scenario") -> None:
+    """Refuse a document (a dict) nested deeper than MAX_NESTING, as the TOML reader refuses the text."""
+    if structure_depth(raw) > MAX_NESTING:
+        raise ScenarioError(source, f"tables and lists nested more than {MAX_NESTING} deep",
+                            f"a scenario with tables and arrays nested at most {MAX_NESTING} deep")
 
 
 def read_toml_text(text: str, source: str = "scenario") -> dict:

@@ -15,7 +15,7 @@ from .correlations import (Nu_combined_Churchill, confined_jet_circulation_veloc
                            Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
                            fin_efficiency_straight, h_radiation_grey, rayleigh)
 from .materials import HOSE_WALL
-from .still_paths import head_space_W_K
+from .still_paths import floor_W_K, head_space_W_K
 
 if TYPE_CHECKING:
     from .network import Rig
@@ -298,7 +298,7 @@ def air_paths_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None, T_oil_K=None)
     wall = (_series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.bottom_area_m2, h_bottom, half_wall)
             + dry_shell_W_K(rig, h_side, h_top))
     # Physics II: the floor under a tank that stands on it (0 where the bottom is open)
-    wall = wall + _series(rig.floor_area_m2, rig.floor_multiplier * rig.floor_h_W_m2K, half_wall)
+    wall = wall + floor_W_K(rig)
     hardware = rig.body_area_m2 * (m * h_body + h_rad[1])
     hose_area = parts["hose_area_m2"]
     hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / parts["hose_outer_W_K"])

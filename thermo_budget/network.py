@@ -27,7 +27,7 @@ from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, amb
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K, air_paths_W_K)
 from .oil import Oil
-from .still_paths import engine_off_link_W_K, loop_oil_links_W_K
+from .still_paths import engine_off_link_W_K, floor_W_K, loop_oil_links_W_K
 
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "LOOP_OIL", "air_paths_W_K", "loop_oil_node_mass_kg", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
@@ -36,7 +36,7 @@ __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "LOOP_OIL", "air_paths_W_K", "loop_
            "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
+           "passive_paths_W", "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
            "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
@@ -330,3 +330,15 @@ def passive_rejection_W(rig: Rig, T_K: float):
     dT = T_wall - rig.ambient_K
     return sum(air_paths_W_K(rig, T_wall, T_wall, T_wall, T_wall)) * dT
 
+
+
+def passive_paths_W(rig: Rig, T_K: float) -> dict:
+    """The steady heat loss of design 0 with the whole rig at T_K, engine off, no cooler, W, by path:
+    the tank's walls to the air (sides, bottom, dry shell and lid), the floor, the head space (oil
+    surface -> lid -> air), the metal bodies, the hoses."""
+    T = np.atleast_1d(np.asarray(T_K, dtype=float))
+    head, wall, bodies, hoses = (float(np.atleast_1d(g)[0]) for g in air_paths_W_K(rig, T, T, T, T))
+    floor = float(np.atleast_1d(floor_W_K(rig))[0])
+    dT = float(T[0] - np.atleast_1d(rig.ambient_K)[0])
+    return {"tank_to_air": (wall - floor) * dT, "floor": floor * dT, "head_space": head * dT,
+            "bodies": bodies * dT, "hoses": hoses * dT}

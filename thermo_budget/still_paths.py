@@ -108,17 +108,23 @@ def head_space_W_K(T_oil_K, T_air_K, lid_area_m2, gap_m, lid_emissivity, h_lid_o
 
 def floor_h_W_m2K(session_s, conductivity_W_mK=CONCRETE_CONDUCTIVITY_W_mK, diffusivity_m2_s=CONCRETE_DIFFUSIVITY_m2_s):
     """Coefficient of the floor under a tank that stands on it, W/(m^2 K): the floor as a
-    semi-infinite solid (correlations.h_semi_infinite_solid), at a quarter of the planned session.
+    semi-infinite solid (correlations.h_semi_infinite_solid) at the end of the planned session,
+    counted from its start (the floor at the air's temperature then), and at least FLOOR_MIN_ELAPSED_S.
 
-    Why a quarter: with the bottom's excess over the floor's start temperature held from the start
-    of the day, the heat the floor takes over a session of length tau is the integral of
-    k dT / sqrt(pi alpha t), 2 k dT sqrt(tau / (pi alpha)), which is h(tau/4) dT tau. A constant
-    coefficient, so that the network stays a function of its state (a periodic state, a ready
-    schedule and a resumed integration see the same floor). The bottom's excess really rises
-    through the session; for a ramp the same reasoning gives h(0.14 tau), 1.3 times more: so this
-    errs on the low side, towards a hotter tank. Concrete 1 h: 15.8 W/(m^2 K); 3 h: 9.1.
+    A constant coefficient, so that the network stays a function of its state (a periodic state, a
+    ready schedule and a resumed integration see the same floor). Why its value at the end: the
+    floor's coefficient only falls with time, so within the planned session this is its lowest,
+    and errs towards a hotter tank (with the bottom's excess held from the start, the heat the floor
+    takes over a session tau is 2 k dT sqrt(tau / (pi alpha)) = h(tau/4) dT tau, twice h(tau) dT tau).
+    Why at least an hour: the answers reach past the planned session (the pulls repeating the cycle
+    up to the limit, the all-day cadence), where the floor has soaked longer. For a whole day it
+    still overstates (8 h: 5.6 W/(m^2 K) against 15.8 at 1 h); the band's floor factor carries that.
+    Concrete: 1 h 15.8 W/(m^2 K), 3 h 9.1 (ENGINEERING.md: about 16 and 9).
     """
-    return h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, 0.25 * np.maximum(session_s, 60.0))
+    return h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, np.maximum(session_s, FLOOR_MIN_ELAPSED_S))
+
+
+FLOOR_MIN_ELAPSED_S = 3600.0
 
 
 # --- the wrappers that read a Rig --------------------------------------------------------------
@@ -144,3 +150,10 @@ def engine_off_link_W_K(rig: Rig):
     mounting, flange_link_W_K), times the engine-off multiplier. A metal path, so it is there with
     the engine running too, where it is small against the flowing oil's coupling."""
     return rig.engine_off_multiplier * rig.engine_off_coupling_W_K
+
+
+def floor_W_K(rig: Rig):
+    """Conductance tank wall -> floor, W/K: the floor's coefficient (times the floor multiplier, the
+    band's factor) over the bottom standing on it, in series with half the wall (0 where open)."""
+    h = rig.floor_multiplier * rig.floor_h_W_m2K
+    return rig.floor_area_m2 * h / (1.0 + h * rig.constants["half_wall_m2K_W"])

@@ -265,7 +265,7 @@ def test_designs_are_independent_in_a_batch(base_scenario):
 
 def test_long_engine_off_wait_cools_towards_ambient(base_scenario):
     rig = build_rig(base_scenario)
-    T0 = np.array([350.0, 340.0, 330.0, 320.0, 315.0])
+    T0 = np.array([350.0, 340.0, 330.0, 320.0, 315.0, 345.0])
     cool = Step(kind="wait", duration_s=48 * 3600.0, engine="off")
     trace = integrate(rig, [cool], T0)
     oil = trace.T_K[:, 0, OIL]

@@ -361,6 +361,12 @@ def test_return_jet_stirs_the_tank(rig):
     exit_ = float(Q[0] / (np.pi / 4 * rig.hose_inner_diameter_m**2))
     assert through < u < exit_
     assert u > 20 * through          # "far above the through-flow velocity"
+    # the confined jet's circulation (momentum flux over the tank's section across the jet), far
+    # below the free jet's centreline speed where it meets the far wall (Pope's B = 5.8; the former
+    # estimate): U / u_c = sqrt(A_0 / A) x / (5.8 d) = 0.26 over the 0.35 m length, section 0.25 m x 0.17 m
+    from thermo_budget.correlations import jet_centreline_velocity_Pope
+    far_wall = float(jet_centreline_velocity_Pope(exit_, rig.hose_inner_diameter_m, 0.35))
+    assert 0.2 * far_wall < u < 0.3 * far_wall
     T_oil, T_wall = np.array([330.0]), np.array([325.0])
     for h in (h_oil_side_W_m2K, h_oil_bottom_W_m2K):
         assert float(h(rig, T_oil, T_wall, Q)[0]) > 2 * float(h(rig, T_oil, T_wall, 0.0)[0])

@@ -72,6 +72,8 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "max_temperature_C": _celsius(scenario.max_temperature_K),
         "min_viscosity_temperature_C": _celsius(scenario.oil.temperature_at_viscosity_K(scenario.min_viscosity_cSt)),
         "ambient_C": _celsius(scenario.ambient_K),
+        "ambient_pressure_Pa": round(scenario.ambient_pressure_Pa, 1),
+        "relative_humidity": scenario.relative_humidity,
         "start_C": _celsius(trace.T_K[0, 0, OIL]),
         "peak_C": _celsius(peak_oil_K(trace)[0]),
         "end_C": _celsius(trace.T_K[-1, 0, OIL]),

@@ -143,7 +143,8 @@ def test_order_holds_and_the_plan_is_never_bolder_than_p50(name, path, busy_repo
 def test_busy_session_bands_spread_around_the_point(busy_report):
     for key in ("runs_before_limit", "min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L"):
         band = busy_report["bands"][key]
-        assert band["p10"] <= busy_report[key] <= band["p90"], key
+        upper = np.inf if band["p90"] is None else band["p90"]     # None: unbounded (no crossing in the count)
+        assert band["p10"] <= busy_report[key] <= upper, key
     assert busy_report["band_ranking"] and busy_report["band_advice"].startswith("The ")
     assert sum(row["share"] for row in busy_report["band_ranking"]) == pytest.approx(1.0, abs=1e-3)
 

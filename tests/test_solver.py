@@ -462,7 +462,9 @@ def test_adiabatic_rig_with_engine_off_waits_the_bodies_hold_back_little():
     # hardware 52 K behind the oil; now the metal bodies are less than 15 K behind it and the bulk
     # less than 5 K above the balance. Most of what is left is the hose rubber, which 10-s pulls cannot heat through
     # (measured when this test was written: bulk +4.1 K, bodies -6.9 K, hose -31 K from the balance;
-    # with the hose as two rings: bulk +3.2 K, bodies -7.6 K, hose liner -16 K, cover -20 K).
+    # with the hose as two rings: bulk +3.2 K, bodies -7.6 K, hose liner -16 K, cover -20 K; with the
+    # loop oil standing in the bodies and hoses as its own node: bulk +2.7 K, bodies -6.9 K, liner
+    # -9.7 K, cover -15.6 K, loop oil +4.2 K).
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)
     T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)

@@ -287,12 +287,15 @@ def _read_air(top: _Table) -> tuple[float, float]:
         raise ScenarioError("altitude", top.raw["altitude"], "either altitude or ambient_pressure, not both")
     if altitude is not None:
         pressure = standard_pressure_Pa(altitude)
-    humidity = top.get("relative_humidity", 0.0)
-    if isinstance(humidity, str) and humidity.strip().endswith("%"):
+    given = top.get("relative_humidity", 0.0)
+    humidity = given
+    if isinstance(given, str):
         try:
-            humidity = float(humidity.strip()[:-1]) / 100.0
+            humidity = float(given.strip().removesuffix("%")) / 100.0 if given.strip().endswith("%") else None
         except ValueError:
-            pass
+            humidity = None
+        if humidity is None:
+            raise ScenarioError("relative_humidity", given, 'a fraction from 0 to 1, or a percentage such as "40 %"')
     humidity = top.plain_number("relative_humidity", humidity, minimum=0.0, maximum=1.0)
     return (P_ATM_Pa if pressure is None else float(pressure)), float(humidity)
 

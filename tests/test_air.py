@@ -70,3 +70,60 @@ def test_the_shipped_table_is_what_coolprop_gives_today():
     np.testing.assert_array_equal(rows[:, 0], table["T_K"])
     for i, name in enumerate(("k_W_mK", "nu_m2_s", "Pr"), start=1):
         np.testing.assert_allclose(table[name], rows[:, i], rtol=1e-9)   # CoolProp, directly
+
+
+# --- air at the stand's altitude and humidity (CoolProp's humid-air functions) -------------------
+
+def _humid_air_direct(T_K, P_Pa, W):
+    """(k, nu, Pr) of humid air straight from CoolProp's HAPropsSI (density (1 + W) / Vha)."""
+    from CoolProp.HumidAirProp import HAPropsSI
+    k = HAPropsSI("K", "T", T_K, "P", P_Pa, "W", W)
+    mu = HAPropsSI("M", "T", T_K, "P", P_Pa, "W", W)
+    rho = (1.0 + W) / HAPropsSI("Vha", "T", T_K, "P", P_Pa, "W", W)
+    return k, mu / rho, mu * HAPropsSI("cp_ha", "T", T_K, "P", P_Pa, "W", W) / k
+
+
+def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
+    # A stand at 1,600 m with the air at 40 % relative humidity: the scenario's air properties (one
+    # table per scenario) against CoolProp directly, between the table's points; then the tank side's
+    # natural-convection coefficient against Churchill and Chu as the ht package writes it
+    # (ht.conv_free_immersed.Nu_vertical_plate_Churchill) on CoolProp's properties.
+    from CoolProp.HumidAirProp import HAPropsSI
+    from ht.conv_free_immersed import Nu_vertical_plate_Churchill
+    from thermo_budget.conductances import h_air_W_m2K
+    from thermo_budget.scenario import build_rig, load_scenario
+    from conftest import base_raw
+    raw = base_raw()
+    raw.update(altitude="1600 m", relative_humidity="40 %")
+    scenario = load_scenario(raw)
+    # ICAO standard atmosphere (ISO 2533): 83.5 kPa at 1,600 m
+    assert scenario.ambient_pressure_Pa == pytest.approx(83523.5, abs=1.0)
+    rig = build_rig(scenario)
+    P = scenario.ambient_pressure_Pa
+    W = HAPropsSI("W", "T", scenario.ambient_K, "P", P, "R", 0.4)
+    for T in (301.3, 317.9, 345.1):
+        k, nu, pr, beta = air_properties(T, rig.air_columns)
+        k_c, nu_c, pr_c = _humid_air_direct(T, P, W)
+        assert float(k) == pytest.approx(k_c, rel=2e-4)
+        assert float(nu) == pytest.approx(nu_c, rel=2e-4)
+        assert float(pr) == pytest.approx(pr_c, rel=2e-4)
+    # about 17 % less dense than at sea level (ENGINEERING.md: about 11 % per 1,000 m)
+    rho_here = (1.0 + W) / HAPropsSI("Vha", "T", 293.15, "P", P, "W", W)
+    assert 1.0 - rho_here / PropsSI("D", "T", 293.15, "P", P_ATM_Pa, "Air") == pytest.approx(0.17, abs=0.015)
+    # the side wall's coefficient: 0.3 m high, 40 K above the air
+    T_s, T_a, L = scenario.ambient_K + 40.0, scenario.ambient_K, 0.3
+    film = 0.5 * (T_s + T_a)
+    k_c, nu_c, pr_c = _humid_air_direct(film, P, W)
+    Gr = 9.80665 * (1.0 / film) * 40.0 * L**3 / nu_c**2
+    h_reference = Nu_vertical_plate_Churchill(pr_c, Gr) * k_c / L
+    h_model = float(h_air_W_m2K("vertical", L, T_s, T_a, air=air_properties(film, rig.air_columns)))
+    assert h_model == pytest.approx(h_reference, rel=1e-3)
+    # and weaker than at sea level in dry air, by roughly rho^(2/3) in this range (about 12 %)
+    h_sea = float(h_air_W_m2K("vertical", L, T_s, T_a))
+    assert 0.80 < h_model / h_sea < 0.93
+
+
+def test_standard_air_uses_the_shipped_table():
+    from thermo_budget.scenario import build_rig, load_scenario
+    from conftest import base_raw
+    assert build_rig(load_scenario(base_raw())).air_columns is None

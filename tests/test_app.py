@@ -289,6 +289,9 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
     assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
     assert any("(likely 9–10)" in line for line in card.details)
+    # an unbounded upper end (more than a tenth of the samples never reach the limit)
+    answers["bands"]["runs_before_limit"] = {"p10": runs - 6, "p50": runs, "p90": None}
+    assert pulls_card(answers, "SI").unit == f"pulls (likely {runs - 6} or more)"
 
 
 def test_name_edit_follows_into_the_titles_and_the_file(page):

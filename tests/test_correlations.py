@@ -235,3 +235,31 @@ def test_heated_box_incropera_duct_example():
     h_bottom = float(corr.Nu_horizontal_plate_hot_down_McAdams(Ra(0.375))) * k / 0.375
     q_per_m = (2 * 0.3 * h_side + 0.75 * (h_top + h_bottom)) * dT
     assert q_per_m == pytest.approx(246.0, rel=0.06)
+
+
+def test_horizontal_enclosure_heated_from_below_against_ht():
+    # Hollands (1984) multi-Prandtl form, as the ht package writes it (Nu_Nusselt_Rayleigh_Hollands,
+    # the VDI Heat Atlas' recommendation), over still, laminar-cell and turbulent layers of air and oil.
+    ht = pytest.importorskip("ht")
+    for pr in (0.71, 5.54, 300.0):
+        for Ra in (500.0, 1708.0, 3e3, 1e4, 1e5, 1e6, 1e7, 1e8):
+            expected = ht.Nu_Nusselt_Rayleigh_Hollands(pr, Ra / pr)
+            assert float(corr.Nu_horizontal_enclosure_Hollands(Ra, pr)) == pytest.approx(expected, rel=1e-10)
+    # ht's published example (water, Pr 5.54, Gr 3.21e8): 69.0267
+    assert float(corr.Nu_horizontal_enclosure_Hollands(5.54 * 3.21e8, 5.54)) == pytest.approx(69.02668649510, rel=1e-10)
+    # Hollands, Raithby and Konicek (1975) for air, Nu = 1 + 1.44 [1 - 1708/Ra]+ + [(Ra/5830)^(1/3) - 1]+,
+    # agrees within 8 % (the 1984 form adds a Prandtl correction and a transition term)
+    for Ra in (1e4, 1e5, 1e6):
+        old = 1 + 1.44 * (1 - 1708 / Ra) + max((Ra / 5830) ** (1 / 3) - 1, 0)
+        assert float(corr.Nu_horizontal_enclosure_Hollands(Ra, 0.71)) == pytest.approx(old, rel=0.08)
+
+
+def test_parallel_plates_radiation_limits():
+    # Incropera eq. 13.24: two black plates exchange as black bodies (eq. 1.7 with eps = 1); a black
+    # partner leaves the grey plate's own emissivity; a mirror (eps = 0) stops the exchange.
+    for T1, T2 in ((330.0, 310.0), (360.0, 295.0)):
+        black = float(corr.h_radiation_grey(1.0, T1, T2))
+        assert float(corr.h_radiation_parallel_plates(1.0, 1.0, T1, T2)) == pytest.approx(black, rel=1e-12)
+        assert float(corr.h_radiation_parallel_plates(0.6, 1.0, T1, T2)) == pytest.approx(0.6 * black, rel=1e-12)
+        assert float(corr.h_radiation_parallel_plates(0.9, 0.9, T1, T2)) == pytest.approx(black / (2 / 0.9 - 1), rel=1e-12)
+        assert float(corr.h_radiation_parallel_plates(0.0, 0.9, T1, T2)) == 0.0

@@ -44,7 +44,11 @@ def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share(defaul
 def test_the_band_in_words(default_scenario, default_report):
     r = default_report
     band = r["bands"]["runs_before_limit"]
-    assert pulls_phrase(r) == f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}-{band['p90']})"
+    # the default's P90 is unbounded since the band's four new factors (issue 23): more than a tenth
+    # of the samples never reach the limit
+    upper = "or more" if band["p90"] is None else f"-{band['p90']}"
+    assert pulls_phrase(r) == (f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}"
+                               f"{'' if band['p90'] is not None else ' '}{upper})")
     assert plan_phrase(r) == (f"plan {r['plan_at_confidence']['runs_before_limit']} pulls to stay under 80.0 °C "
                               f"with 90 % confidence")
     off = report(default_scenario.changed(uncertainty={"enabled": False}))
@@ -63,7 +67,9 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
     at.toggle(key="use_calibrated").set_value(True).run()
     assert not at.exception
     line = next(m.value for m in at.markdown if "Before the log" in m.value)
-    (b10, b90), (a10, a90) = [tuple(map(int, pair)) for pair in re.findall(r"likely (\d+)-(\d+)", line)]
+    # "likely 30-55", or "likely 30 or more" where the band's upper end is unbounded
+    (b10, b90), (a10, a90) = [(int(low), float(high) if high else float("inf"))
+                              for low, high in re.findall(r"likely (\d+)(?:-(\d+)| or more)", line)]
     assert a90 - a10 < b90 - b10
 
 
@@ -72,10 +78,12 @@ def test_the_pull_count_band_is_shown_once(default_page, default_report):
     what the range means and what to measure, without repeating them."""
     texts = [m.value for m in default_page.markdown]
     band = default_report["bands"]["runs_before_limit"]
-    shown = f"likely {band['p10']}–{band['p90']}"
+    # (an unbounded P90, the default's since the band's four new factors: "likely 30 or more")
+    shown = f"likely {band['p10']}–{band['p90']}" if band["p90"] is not None else f"likely {band['p10']} or more"
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
-    assert f"{band['p10']}-{band['p90']}" not in how_sure and "8 in 10" in how_sure
+    assert f"{band['p10']}-{band['p90']}" not in how_sure and f"{band['p10']} or more" not in how_sure
+    assert "8 in 10" in how_sure
 
 
 def test_the_table_of_bands_wraps_every_value_to_the_page(default_page, default_report):
@@ -85,5 +93,5 @@ def test_the_table_of_bands_wraps_every_value_to_the_page(default_page, default_
     r = default_report
     band = r["bands"]["runs_before_limit"]
     assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
-    assert f"<td>{band['p10']} to {band['p90']}</td>" in table
+    assert f"<td>{band['p10']} to {band['p90'] or 'no limit'}</td>" in table    # None: unbounded
     assert f"<td>{r['plan_at_confidence']['runs_before_limit']}</td>" in table

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 import thermo_budget
-from thermo_budget.network import HOSE, HOSE_COVER, N_NODES, OIL, heat_capacities_J_K
+from thermo_budget.network import HOSE, HOSE_COVER, LOOP_OIL, N_NODES, OIL, heat_capacities_J_K, passive_rejection_W
 from thermo_budget.outcome import first_crossing_s
 from thermo_budget.report import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
@@ -68,13 +68,15 @@ def test_heat_capacities_at_the_start_temperature(default_scenario, default_repo
     C = heat_capacities_J_K(rig, np.full((1, N_NODES), default_scenario.start_K))[0]
     caps = default_report["heat_capacity_J_per_K"]
     # one per body: the hose's two rings (liner and cover) summed, as the one hose node was
-    assert list(caps) == ["oil", "wall", "hardware", "hose"]
+    assert list(caps) == ["oil", "wall", "hardware", "loop oil", "hose"]
     assert caps["oil"] == pytest.approx(C[OIL], abs=0.01)
+    assert caps["loop oil"] == pytest.approx(C[LOOP_OIL], abs=0.01)
     assert caps["hose"] == pytest.approx(C[HOSE] + C[HOSE_COVER], abs=0.01)
     assert sum(caps.values()) == pytest.approx(C.sum(), abs=0.05)
-    # (18 L in the tank + about 0.8 L in the loop) x 872 kg/m^3 x Cragoe c_p at 20 degC
-    # (~1.87 kJ/(kg K)): about 31 kJ/K
-    assert 18.5e-3 * 872 * 1800 < caps["oil"] < 19.2e-3 * 872 * 1950
+    # 18 L in the tank x 872 kg/m^3 x Cragoe c_p at 20 degC (~1.87 kJ/(kg K)): about 29 kJ/K; the
+    # loop's 0.8-1 L (hoses' bore and bodies' passages) is its own node since the standing loop oil
+    assert 18e-3 * 872 * 1800 < caps["oil"] < 18e-3 * 872 * 1950
+    assert 0.6e-3 * 872 * 1800 < caps["loop oil"] < 1.1e-3 * 872 * 1950
     assert caps["hardware"] == pytest.approx(9 * 470.0)  # 9 kg steel, c = 470 J/(kg K) (materials table)
 
 

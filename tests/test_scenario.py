@@ -292,3 +292,38 @@ def test_a_long_bad_value_is_quoted_in_at_most_about_60_characters():
 
 def test_name_is_bounded_text():
     assert "name" in _refusal(set_path(base_raw(), "name", "n" * 5000))
+
+
+@pytest.mark.parametrize("changes, key", [
+    ({"relative_humidity": "40 percent"}, "relative_humidity"),
+    ({"relative_humidity": 1.4}, "relative_humidity"),
+    ({"altitude": "1600 m", "ambient_pressure": "0.83 bar"}, "altitude"),
+    ({"altitude": "16000 m"}, "altitude"),
+    ({"ambient_pressure": "3 bar"}, "ambient_pressure"),
+    ({"hardware": {"mounting": "welded"}}, "hardware.mounting"),
+    ({"hardware": {"engine_off_coupling": "-2 W/K"}}, "hardware.engine_off_coupling"),
+])
+def test_air_and_mounting_keys_refuse_bad_values_by_name(changes, key):
+    raw = base_raw()
+    for name, value in changes.items():
+        if isinstance(value, dict):
+            raw[name].update(value)
+        else:
+            raw[name] = value
+    with pytest.raises(ScenarioError) as error:
+        load_scenario(raw)
+    assert error.value.key == key
+
+
+def test_air_and_mounting_keys_are_read():
+    raw = base_raw()
+    raw.update(ambient_pressure="0.9 bar", relative_humidity=0.4)
+    raw["hardware"].update(mounting="on_tank")
+    s = load_scenario(raw)
+    assert s.ambient_pressure_Pa == pytest.approx(90000.0) and s.relative_humidity == 0.4
+    # on_tank: the flange's contact over one face of the bodies' cube at 1,000 W/(m^2 K) (still_paths)
+    side = (s.hardware.mass_kg / 7850.0) ** (1 / 3)
+    assert s.hardware.engine_off_coupling_W_K == pytest.approx(1000.0 * side**2)
+    raw["hardware"].update(engine_off_coupling="3 W/K")
+    assert load_scenario(raw).hardware.engine_off_coupling_W_K == 3.0
+    assert load_scenario(base_raw()).hardware.engine_off_coupling_W_K == 0.0     # apart: hoses only

@@ -111,3 +111,22 @@ def test_the_shipped_sobol_points_are_scipys():
     assert np.array_equal(from_table, sobol_normals_from_scipy(k, 128, SOBOL_SEED))
     more = standard_normals(model, 2 * SOBOL_TABLE_POINTS)
     assert np.array_equal(more[:128], from_table)
+
+
+def test_the_band_names_the_engine_off_link_the_floor_the_dry_shell_and_the_body_emissivity():
+    # Issue 23: each with its width and where it comes from.
+    keys = {f.key: f for f in FACTORS}
+    assert {"engine_off", "floor", "dry_shell", "body_emissivity"} <= set(keys)
+    # bare or cast bodies may be 0.1-0.6 where 0.95 is written: the two-sigma low end reaches 0.4
+    assert 0.95 / (1.0 + keys["body_emissivity"].width) ** 2 < 0.4
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml")
+    from thermo_budget import build_rig
+    base = build_rig(scenario)
+    rig = sample_rig(base, {"engine_off": np.array([0.5, 2.0]), "floor": np.array([0.5, 2.0]),
+                            "dry_shell": np.array([0.7, 1.3]), "body_emissivity": np.array([0.3, 3.0]),
+                            "emissivity": np.array([1.0, 1.0])})
+    np.testing.assert_allclose(rig.engine_off_multiplier, [0.5, 2.0])
+    np.testing.assert_allclose(rig.floor_multiplier, [0.5, 2.0])
+    np.testing.assert_allclose(rig.dry_shell_multiplier, [0.7, 1.3])
+    np.testing.assert_allclose(rig.hardware_emissivity, [0.3 * base.hardware_emissivity, 1.0])
+    np.testing.assert_allclose(rig.wall_emissivity, base.wall_emissivity)

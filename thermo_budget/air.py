@@ -1,9 +1,14 @@
-"""Air at atmospheric pressure: properties tabulated from CoolProp and interpolated.
+"""Air properties: tabulated from CoolProp and interpolated.
 
 The table (`data/air_1atm.csv`, 220-600 K every 2 K) is written from CoolProp by
 `python -m thermo_budget.make_air_table` and shipped with the package, so a run never loads
 CoolProp (seconds of start-up); tests/test_air.py regenerates it and checks it against CoolProp.
 The ODE right-hand side and the sweeps use np.interp on the table.
+
+Air at another pressure (a stand at altitude) or with water vapour: `air_columns` computes the same
+table once per scenario from CoolProp's humid-air functions (HAPropsSI), at the scenario's
+pressure and the humidity ratio of its ambient air at the given relative humidity; only then is
+CoolProp imported. Standard air (101325 Pa, dry) is the shipped table.
 """
 from __future__ import annotations
 
@@ -26,13 +31,14 @@ def air_table() -> dict[str, np.ndarray]:
     return {name: rows[:, i] for i, name in enumerate(TABLE_COLUMNS)}
 
 
-def air_properties(T_film_K):
+def air_properties(T_film_K, columns=None):
     """Air properties at the film temperature T_film_K (K), by linear interpolation in the table
-    (held at the table's ends outside it).
+    (held at the table's ends outside it). columns : the (3, rows) k, nu, Pr of another air on the
+    same temperatures (air_columns), or None for standard air (the shipped table).
 
     Returns (k W/(m K), nu m^2/s, Pr, beta 1/K); beta = 1/T for an ideal gas.
     """
-    columns = _stacked_columns()
+    columns = _stacked_columns() if columns is None else columns
     # fmin/fmax: a NaN film temperature reads the table's first row (the NaN stays in dT downstream)
     T = np.fmin(np.fmax(T_film_K, TABLE_T_K[0]), TABLE_T_K[-1])
     x = (T - TABLE_T_K[0]) / TABLE_STEP_K
@@ -48,3 +54,45 @@ def _stacked_columns() -> np.ndarray:
     """(3, rows) k, nu and Pr of the table, for one gather per lookup."""
     table = air_table()
     return np.stack([table["k_W_mK"], table["nu_m2_s"], table["Pr"]])
+
+
+def standard_pressure_Pa(altitude_m):
+    """Pressure of the standard atmosphere at an altitude, Pa: p = p0 (1 - 2.25577e-5 h)^5.25588, h in
+    m, to 11 km (ICAO Standard Atmosphere, ISO 2533:1975, troposphere).
+
+    >>> round(standard_pressure_Pa(1600.0))
+    83524
+    """
+    return P_ATM_Pa * (1.0 - 2.25577e-5 * altitude_m) ** 5.25588
+
+
+def is_standard_air(pressure_Pa: float, relative_humidity: float) -> bool:
+    """True where the shipped table holds: dry air at 101325 Pa."""
+    return pressure_Pa == P_ATM_Pa and relative_humidity == 0.0
+
+
+@lru_cache(maxsize=8)
+def air_columns(pressure_Pa: float, relative_humidity: float, ambient_K: float):
+    """(3, rows) k W/(m K), nu m^2/s and Pr of moist air on TABLE_T_K, or None for standard air.
+
+    CoolProp's humid-air functions (HAPropsSI, after Herrmann, Kretzschmar and Gatley 2009, ASHRAE
+    RP-1485): the humidity ratio W of the ambient air at relative_humidity (0 to 1) and ambient_K,
+    held as the air warms in the film (heating does not change W); then at each temperature of the
+    table k ("K"), the dynamic viscosity ("M"), the specific volume per kg of dry air ("Vha"; the
+    density is (1 + W) / Vha) and the specific heat per kg of humid air ("cp_ha"); Pr = mu cp / k.
+    Worked out once per scenario (build_rig), in about 0.3 s plus CoolProp's import.
+    """
+    if is_standard_air(pressure_Pa, relative_humidity):
+        return None
+    from CoolProp.HumidAirProp import HAPropsSI   # here: seconds of import, only for non-standard air
+    W = HAPropsSI("W", "T", ambient_K, "P", pressure_Pa, "R", relative_humidity) if relative_humidity > 0 else 0.0
+    columns = np.empty((3, TABLE_T_K.size))
+    for i, T in enumerate(TABLE_T_K):
+        T = float(T)
+        k = HAPropsSI("K", "T", T, "P", pressure_Pa, "W", W)
+        mu = HAPropsSI("M", "T", T, "P", pressure_Pa, "W", W)
+        rho = (1.0 + W) / HAPropsSI("Vha", "T", T, "P", pressure_Pa, "W", W)
+        cp = HAPropsSI("cp_ha", "T", T, "P", pressure_Pa, "W", W)
+        columns[:, i] = k, mu / rho, mu * cp / k
+    columns.setflags(write=False)
+    return columns

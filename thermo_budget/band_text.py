@@ -26,14 +26,17 @@ def _range(band, kind, scale, digits, system) -> str:
 
 
 def pulls_phrase(result: dict) -> str:
-    """'26 pulls before the limit (likely 21-34)', or the planned session's count where the cadence is
-    sustainable or uncounted."""
+    """'26 pulls before the limit (likely 21-34)' ('likely 21 or more' where more than a tenth of the
+    samples never reach the limit), or the planned session's count where the cadence is sustainable
+    or uncounted."""
     bands = result.get("bands") or {}
     key = "runs_before_limit" if result.get("runs_before_limit") is not None else "pulls_under_limit"
     band = bands.get(key)
     text = f"{result[key]} pulls" + (" before the limit" if key == "runs_before_limit" else " of the planned session under the limit")
     if band and band["p10"] is not None and band["p90"] is not None and band["p10"] != band["p90"]:
         text += f" (likely {band['p10']}-{band['p90']})"
+    elif band and band["p10"] is not None and band["p90"] is None:   # the upper tenth never reaches the limit
+        text += f" (likely {band['p10']} or more)"
     return text
 
 

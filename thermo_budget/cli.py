@@ -43,7 +43,9 @@ def summary_text(result: dict) -> str:
              f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
              f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
              f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
-             f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
+             f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}"
+             + (f" (the floor takes {100 * result['floor_share_of_tank_loss']:.0f} % of the tank's)"
+                if result.get("floor_share_of_tank_loss") else ""),
              f"  energy balance   {result['energy_balance_rel_error']:.1e} of the largest energy term (in, lost or stored)",
              f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at {_temp(60.0, u)} "
              f"(rate doubling per {_fmt(10.0, 'temperature_difference', u, 0)}; common practice, a relative figure)",

@@ -9,12 +9,13 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .air import air_properties
-from .correlations import (Nu_combined_Churchill, Nu_flat_plate_forced_Incropera,
+from .correlations import (Nu_combined_Churchill, confined_jet_circulation_velocity, Nu_flat_plate_forced_Incropera,
                            Nu_horizontal_cylinder_Churchill_Chu, Nu_horizontal_plate_hot_down_McAdams,
                            Nu_horizontal_plate_hot_up_McAdams, Nu_tube_Hausen_Gnielinski,
                            Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
-                           fin_efficiency_straight, h_radiation_grey, jet_centreline_velocity_Pope, rayleigh)
+                           fin_efficiency_straight, h_radiation_grey, rayleigh)
 from .materials import HOSE_WALL
+from .still_paths import floor_W_K, head_space_W_K
 
 if TYPE_CHECKING:
     from .network import Rig
@@ -82,18 +83,19 @@ def _with_forced_air(h_natural_W_m2K, air, air_speed_m_s, plate_length_m):
 def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
     """Oil velocity along the tank's wetted wall while the pump runs, m/s.
 
-    The return line discharges below the oil line as a round jet of the hose's bore; its centreline
-    velocity where it reaches the far wall (jet_throw_m away) is taken as the velocity of the
-    recirculation it drives along the walls (free round jet, Pope 2000, see
-    correlations.jet_centreline_velocity_Pope). This is an order-of-magnitude estimate: the jet is
-    confined, it may hit the wall obliquely or the free surface first, and at hydraulic oils'
-    viscosities it is often transitional. Never below the through-flow velocity Q / A_cross (the
-    former, deliberately low estimate), 0 with no flow.
+    The return line discharges below the oil line as a round jet of the hose's bore, u0 = Q / A_0.
+    In the closed tank its momentum flux M = rho u0^2 A_0 drives a circulation whose velocity scale
+    is sqrt(M / (rho A)), A the tank's wetted section across the jet (its width, or diameter, times
+    the fill height): correlations.confined_jet_circulation_velocity (Craya and Curtet; Becker,
+    Hottel and Williams 1963; jet-mixing times in tanks, Fossett and Prosser 1949, Grenville and
+    Tilton 1996). That speed, not the jet's centreline speed where it meets the far wall (Pope's free
+    jet, the former estimate, about 6.5 times higher on a 0.3 m tank), is what sweeps every wetted
+    wall. Never below the through-flow velocity Q / A_cross; 0 with no flow.
     """
     d = rig.hose_inner_diameter_m
-    u0 = volume_flow_m3_s / (0.25 * np.pi * d**2)
-    jet = jet_centreline_velocity_Pope(u0, d, rig.jet_throw_m)
-    return np.maximum(jet, volume_flow_m3_s / rig.tank_cross_section_m2)
+    nozzle = 0.25 * np.pi * d**2
+    circulation = confined_jet_circulation_velocity(volume_flow_m3_s / nozzle, nozzle, rig.jet_section_m2)
+    return np.maximum(circulation, volume_flow_m3_s / rig.tank_cross_section_m2)
 
 
 # The hose wall as two finite-volume rings (see hose_rings_m): the liner is this fraction of the
@@ -228,33 +230,50 @@ def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
     (correlations.fin_efficiency_straight), m = sqrt(h / (k t)) from the wall's own conductivity and
     thickness, L = dry side height + the lid's A/P (the lid is fed from its edges), and h the
     area-weighted outside coefficient (convection and radiation, each in series with half the wall).
-    The inside face is taken as adiabatic (the head space's exchange with the oil surface is left out).
+    The inside face is taken as adiabatic here; the head space's exchange from the oil surface through
+    the lid is its own path (air_paths_W_K, still_paths.head_space_W_K), and the two superpose.
+    Times the dry-shell multiplier (the band's factor).
     Steel of 2 mm: 1/m ~ 0.1 m, eta ~ 0.5 on a 0.2 m fin; polyethylene: 1/m ~ 1 cm, eta ~ 0.05.
     """
     parts = rig.constants
     half_wall = parts["half_wall_m2K_W"]
     shed = _series(rig.dry_side_area_m2, h_side_W_m2K, half_wall) + _series(rig.top_area_m2, h_top_W_m2K, half_wall)
     m = np.sqrt(shed / (parts["dry_area_m2"] * parts["wall_kt_W_K"]))
-    return fin_efficiency_straight(m, rig.dry_fin_length_m) * shed
+    return rig.dry_shell_multiplier * fin_efficiency_straight(m, rig.dry_fin_length_m) * shed
 
 
 def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
-    """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses), each convection (times
-    the multiplier) plus linearised radiation. T_hose_K is the hose cover's (the outer ring's)
-    temperature, the hoses' conductance is from the cover's centre; it defaults to T_hardware_K.
+    """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses); see air_paths_W_K (the
+    head space, from the oil, is left out here)."""
+    return air_paths_W_K(rig, T_wall_K, T_hardware_K, T_hose_K)[1:]
+
+
+def air_paths_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None, T_oil_K=None):
+    """Conductances to the surroundings, W/K: (oil through the head space and the lid, reservoir wall,
+    metal bodies, hoses), each convection (times the multiplier) plus linearised radiation.
+    T_hose_K is the hose cover's (the outer ring's) temperature, the hoses' conductance is from the
+    cover's centre; it defaults to T_hardware_K. T_oil_K defaults to T_wall_K.
 
     Wall: the wetted sides (vertical plates, Churchill-Chu) and the bottom (McAdams), each in series
-    with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K). Bodies: vertical
-    plates of body_length_m over body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series
-    with the conduction from the cover's centre to the outside face (hose_rings_m).
-    Evaluated together to share work: one air-property lookup for the three film temperatures, one
-    vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
-    and the bottom (same face, same temperature).
+    with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K); a bottom that
+    stands on the floor into the floor (rig.floor_h_W_m2K, still_paths.floor_h_W_m2K, times the floor
+    multiplier) in series with half the wall. Head space: still_paths.head_space_W_K, the lid's
+    outside coefficient in series with its whole wall. Bodies: vertical plates of body_length_m over
+    body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series with the conduction from the
+    cover's centre to the outside face (hose_rings_m).
+    Evaluated together to share work: one air-property lookup for the three film temperatures and
+    the head space's layer, one vertical-plate evaluation for the tank sides and the bodies, one
+    Rayleigh number for the top and the bottom (same face, same temperature).
     """
     T_a, m, speed, parts = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s, rig.constants
     T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
+    T_oil_K = T_wall_K if T_oil_K is None else T_oil_K
     T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
-    k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # rows: the wall's, the bodies' and the hoses' films
+    # rows: the wall's, the bodies' and the hoses' films; the head space's layer (oil to mid-lid)
+    films = np.empty((4, T_s.shape[1]))
+    films[:3] = 0.5 * (T_s + T_a)
+    films[3] = 0.75 * T_oil_K + 0.25 * T_a
+    k, nu, pr, beta = air_properties(films, rig.air_columns)
     dT = T_s - T_a
     h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
                                    like=T_s[0]), T_s, T_a)
@@ -278,10 +297,16 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     h_side, h_top, h_bottom = m * h_side + h_rad[0], m * h_top + h_rad[0], m * h_bottom + h_rad[0]
     wall = (_series(rig.wetted_side_area_m2, h_side, half_wall) + _series(rig.bottom_area_m2, h_bottom, half_wall)
             + dry_shell_W_K(rig, h_side, h_top))
+    # Physics II: the floor under a tank that stands on it (0 where the bottom is open)
+    wall = wall + floor_W_K(rig)
     hardware = rig.body_area_m2 * (m * h_body + h_rad[1])
     hose_area = parts["hose_area_m2"]
     hose = _series(hose_area, m * h_hose + h_rad[2], hose_area / parts["hose_outer_W_K"])
-    return wall, hardware, hose
+    # Physics II: the head space, oil surface -> lid -> air
+    h_lid_out = h_top / (1.0 + 2.0 * h_top * half_wall)
+    head = head_space_W_K(T_oil_K, T_a, rig.top_area_m2, rig.head_space_m, rig.wall_emissivity, h_lid_out,
+                          k[3], nu[3], pr[3], m)
+    return head, wall, hardware, hose
 
 
 def wall_to_ambient_W_K(rig: Rig, T_wall_K):
@@ -326,14 +351,15 @@ def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, c
       uncertainty).
     - Hoses: the tube correlation over the bore in series with the conduction from the bore to the
       liner's centre (the hose liner is the inner ring of the rubber, hose_rings_m).
-    Still (engine off): the bodies and the hose liner touch the tank's oil only through the oil standing
-    in the hoses: conduction along that column, half the hose length, nearly nothing each.
+    Still (engine off): 0. The bodies and the hose liner then exchange with the loop oil standing in
+    them, a node of its own (network.LOOP_OIL; still_paths.loop_oil_links_W_K), which touches the
+    tank's oil only along the standing columns.
     """
     D_i, L = rig.hose_inner_diameter_m, rig.hose_length_m
     nu, k_oil, _, _, pr = rig.oil.transport(T_oil_K) if oil_props is None else oil_props
-    still = k_oil * (0.25 * np.pi * D_i**2) / (0.5 * L)
     flowing = np.asarray(volume_flow_m3_s) > 0
     if not flowing.any():
+        still = np.zeros(np.shape(T_oil_K))
         return still, still
     parts = rig.constants
     D = _like(parts["tube_diameters_m"], np.atleast_1d(T_oil_K))
@@ -347,7 +373,7 @@ def loop_conductances_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, c
     UA_bodies = h_pump * rig.pump_wetted_area_m2 + h[1] * (rig.internal_area_m2 - rig.pump_wetted_area_m2)
     capacity_rate = np.maximum(mass_flow_kg_s * cp_J_kgK, 1e-30)
     G = capacity_rate * -np.expm1(-_rows(UA_bodies, UA_hose, like=D[0]) / capacity_rate)
-    return np.where(flowing, G[0], still), np.where(flowing, G[1], still)
+    return np.where(flowing, G[0], 0.0), np.where(flowing, G[1], 0.0)
 
 
 def oil_to_hardware_W_K(rig: Rig, T_oil_K, volume_flow_m3_s, mass_flow_kg_s, cp_J_kgK, oil_props=None):

@@ -252,3 +252,87 @@ def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m, B=5.8):
     0.696
     """
     return u0_m_s * np.minimum(1.0, B * diameter_m / np.maximum(distance_m, 1e-12))
+
+
+# The slowest mode of a still cylinder of fluid cooled at its wall (constant wall temperature):
+# T ~ J0(lambda_1 r / R) exp(-alpha lambda_1^2 t / R^2), lambda_1 = 2.4048 (first zero of J0). Its
+# mean temperature then decays as a lumped body with h = lambda_1^2 k / D over the wall, Nu_D = 5.783
+# (Carslaw and Jaeger, Conduction of Heat in Solids, 2nd ed., sec. 7.4; Incropera, 6th ed., sec. 5.6
+# and Table 5.1, the infinite cylinder's first eigenvalue, zeta_1 -> 2.4048 as Bi -> inf).
+NU_STILL_CYLINDER = 2.404825557695773 ** 2
+
+
+def Nu_horizontal_enclosure_Hollands(Ra, Pr):
+    """Horizontal fluid layer heated from below (cavity between two wide horizontal plates, the
+    lower one hotter), average Nusselt number on the gap; Ra on the gap and the plates' difference.
+
+    Hollands' multi-Prandtl form (Hollands 1984, Int. J. Heat Mass Transfer 27, 466-468, as the
+    VDI Heat Atlas, 2nd ed., 2010, recommends it), which reduces for air to Hollands, Raithby and
+    Konicek (1975, Int. J. Heat Mass Transfer 18, 879-884; Incropera, 6th ed., sec. 9.8):
+
+        Nu = 1 + [1 - 1708/Ra]^+ [k1 + 2 (Ra^(1/3)/k2)^(1 - ln(Ra^(1/3)/k2))]^+ + [(Ra/5803)^(1/3) - 1]^+
+        k1 = 1.44 / (1 + 0.018/Pr + 0.00136/Pr^2),  k2 = 75 exp(1.5 Pr^(-1/2)),  [x]^+ = max(x, 0).
+
+    Below Ra = 1708 the layer is still: Nu = 1, pure conduction k/gap. Valid to Ra ~ 1e8 and beyond
+    (the 1/3 law). The ht package's Nu_Nusselt_Rayleigh_Hollands is the same equation (test_correlations
+    checks against it); its published example, water Pr = 5.54, Gr = 3.21e8:
+
+    >>> round(float(Nu_horizontal_enclosure_Hollands(5.54 * 3.21e8, 5.54)), 4)
+    69.0267
+    >>> float(Nu_horizontal_enclosure_Hollands(1000.0, 0.71))
+    1.0
+    """
+    Ra = np.maximum(np.asarray(Ra, dtype=float), 1e-30)
+    k1 = 1.44 / (1.0 + 0.018 / Pr + 0.00136 / (Pr * Pr))
+    k2 = 75.0 * np.exp(1.5 / np.sqrt(Pr))
+    x = np.cbrt(Ra) / k2
+    middle = np.maximum(k1 + 2.0 * x ** (1.0 - np.log(x)), 0.0)
+    return 1.0 + np.maximum(1.0 - 1708.0 / Ra, 0.0) * middle + np.maximum(np.cbrt(Ra / 5803.0) - 1.0, 0.0)
+
+
+def h_radiation_parallel_plates(emissivity_1, emissivity_2, T1_K, T2_K):
+    """Linearised radiation between two large parallel grey plates, W/(m^2 K) of T1 - T2:
+    q'' = sigma (T1^4 - T2^4) / (1/eps_1 + 1/eps_2 - 1) (Incropera, 6th ed., eq. 13.24).
+
+    >>> round(float(h_radiation_parallel_plates(0.9, 0.9, 330.0, 310.0)), 3)
+    6.087
+    """
+    # 1 / (1/e1 + 1/e2 - 1) written as e1 e2 / (e1 + e2 - e1 e2), so that a black-out (e = 0) gives 0
+    exchange = emissivity_1 * emissivity_2 / np.maximum(emissivity_1 + emissivity_2 - emissivity_1 * emissivity_2, 1e-300)
+    return exchange * STEFAN_BOLTZMANN_W_m2K4 * (T1_K + T2_K) * (T1_K**2 + T2_K**2)
+
+
+def h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, time_s):
+    """Surface coefficient of a semi-infinite solid after a step change of its surface temperature,
+    W/(m^2 K): q''(t) = k (T_s - T_i) / sqrt(pi alpha t) (Carslaw and Jaeger, sec. 2.4; Incropera,
+    6th ed., eq. 5.58, case 1).
+
+    Concrete (Incropera Table A.3, stone mix: k = 1.4 W/(m K), rho = 2300 kg/m^3, c = 880 J/(kg K);
+    alpha = 6.92e-7 m^2/s) after one hour:
+
+    >>> round(float(h_semi_infinite_solid(1.4, 1.4 / (2300 * 880), 3600.0)), 1)
+    15.8
+    """
+    return conductivity_W_mK / np.sqrt(np.pi * diffusivity_m2_s * np.maximum(time_s, 1e-9))
+
+
+def confined_jet_circulation_velocity(u0_m_s, nozzle_area_m2, section_area_m2):
+    """Velocity scale of the circulation a round jet drives in a closed vessel, m/s:
+    U = sqrt(M / (rho A)) = u0 sqrt(A_0 / A), M = rho u0^2 A_0 the jet's momentum flux (conserved
+    along a free jet, Pope, Turbulent Flows, 2000, sec. 5.1) and A the vessel's section across the jet.
+
+    In a confined space the jet entrains more than the surroundings can supply and drives a
+    recirculation whose velocity scale is set by the jet's momentum over the section: the
+    Craya-Curtet parameter (Craya and Curtet 1955; Becker, Hottel and Williams 1963, "Mixing and flow
+    in ducted turbulent jets", 9th Symp. on Combustion) is the ratio of the mean velocity to exactly
+    this scale, and jet-mixing times in tanks scale as its inverse, t ~ T^2 / (u0 d) (Fossett and
+    Prosser 1949; Grenville and Tilton 1996, Trans IChemE 74A). The constant of order one is taken
+    as 1 (from memory of those papers: they give mixing times, not wall velocities, so the
+    oil-side factor of the band carries the rest).
+
+    A 19 mm jet at 3 m/s in a 0.3 m x 0.3 m section:
+
+    >>> round(float(confined_jet_circulation_velocity(3.0, 0.25 * np.pi * 0.019**2, 0.09)), 3)
+    0.168
+    """
+    return u0_m_s * np.sqrt(nozzle_area_m2 / np.maximum(section_area_m2, 1e-30))

@@ -1,13 +1,15 @@
-"""The lumped thermal network of a rig: five nodes and ambient air as the boundary.
+"""The lumped thermal network of a rig: six nodes and ambient air as the boundary.
 
     C_i(T) dT_i/dt = sum_j G_ij(T, flow) (T_j - T_i) + G_i,amb (T_amb - T_i) + Q_i
 
-Nodes (NODE_NAMES): the oil (the reservoir's and the loop's), the reservoir wall, the loop's metal
-bodies (pump, valve, manifold and fittings, wetted inside), and the hoses' wall (rubber and braid)
-as two rings: the liner (HOSE, the inner fifth of the wall, touched by the oil) and the cover
-(HOSE_COVER, the rest, to the air); see conductances.hose_rings_m for the rule and why.
+Nodes (NODE_NAMES): the tank's oil, the reservoir wall, the loop's metal bodies (pump, valve,
+manifold and fittings, wetted inside), the hoses' wall (rubber and braid) as two rings: the liner
+(HOSE, the inner fifth of the wall, touched by the oil) and the cover (HOSE_COVER, the rest, to the
+air; see conductances.hose_rings_m for the rule and why), and the loop's oil (LOOP_OIL, in the hoses
+and bodies; see still_paths for why it is a node of its own).
 Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
-a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE, HOSE_COVER.
+a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE, HOSE_COVER,
+LOOP_OIL.
 Where one temperature stands for the hose (a report's end_hose_C, the trace CSV's hose_C), it is
 the rubber's capacity-weighted mean (hose_mean_K), the temperature whose rise times the hose's
 capacity is the heat it holds, as the one hose node's was.
@@ -23,22 +25,23 @@ from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, amb
                            constant_parts, dry_shell_W_K, h_air_W_m2K, hose_ring_link_W_K, hose_rings_m,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
-                           stirring_velocity_m_s, wall_to_ambient_W_K)
+                           stirring_velocity_m_s, wall_to_ambient_W_K, air_paths_W_K)
 from .oil import Oil
+from .still_paths import engine_off_link_W_K, floor_W_K, loop_oil_links_W_K
 
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
-__all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
+__all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "LOOP_OIL", "air_paths_W_K", "loop_oil_node_mass_kg", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
            "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
            "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
+           "passive_paths_W", "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
            "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
-OIL, WALL, HARDWARE, HOSE, HOSE_COVER = 0, 1, 2, 3, 4
-NODE_NAMES = ("oil", "wall", "hardware", "hose liner", "hose cover")
+OIL, WALL, HARDWARE, HOSE, HOSE_COVER, LOOP_OIL = 0, 1, 2, 3, 4, 5
+NODE_NAMES = ("oil", "wall", "hardware", "hose liner", "hose cover", "loop oil")
 N_NODES = len(NODE_NAMES)
 HOSE_RINGS = (HOSE, HOSE_COVER)
 
@@ -99,7 +102,16 @@ class Rig:
     dry_side_area_m2: np.ndarray = 0.0       # the sides above the oil line
     dry_fin_length_m: np.ndarray = 0.0       # dry side height + the lid's A/P: the fin fed from the oil line
     dry_capacity_weight: np.ndarray = 1.0    # share of the dry shell's capacity in the wall node
-    jet_throw_m: np.ndarray = 0.3            # distance the return jet crosses to the far wall
+    jet_section_m2: np.ndarray = 0.09        # the tank's wetted section across the return jet
+    # Physics II: the paths without the pump, and the air (build_rig fills these)
+    engine_off_coupling_W_K: float = 0.0     # metal link bodies <-> tank wall (hardware.engine_off_coupling)
+    engine_off_multiplier: float = 1.0       # on the standing loop oil's paths and that link (a band factor)
+    floor_area_m2: np.ndarray = 0.0          # the bottom standing on the floor (0: open or none)
+    floor_h_W_m2K: float = 0.0               # the floor as a semi-infinite solid (still_paths.floor_h_W_m2K)
+    floor_multiplier: float = 1.0            # on the floor's coefficient (a band factor)
+    dry_shell_multiplier: float = 1.0        # on the dry shell's conductance (a band factor)
+    head_space_m: np.ndarray = 0.0           # gap from the oil line to the lid
+    air_columns: np.ndarray | None = None    # air.air_columns of the scenario's air; None: standard air
 
     def with_changes(self, **changes) -> "Rig":
         return replace(self, **changes)
@@ -144,20 +156,30 @@ def ambient_column(ambient_K):
 
 
 def oil_node_mass_kg(rig: Rig):
-    """Oil in the OIL node, kg: the reservoir's and the loop's (hoses, pump and valve). The loop oil
-    turns over in seconds while the pump runs, so it is at the bulk temperature whenever heat goes in."""
-    return rig.oil_mass_kg + rig.loop_oil_mass_kg
+    """Oil in the OIL node, kg: the reservoir's (the loop's is LOOP_OIL's, loop_oil_node_mass_kg)."""
+    return rig.oil_mass_kg
 
 
-def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndarray:
-    """Node heat capacities (N, N_NODES), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK,
-    if the caller has it already)."""
+# A floor under the loop oil's mass, so that a rig built without loop oil keeps a finite node.
+LOOP_OIL_MIN_KG = 1e-4
+
+
+def loop_oil_node_mass_kg(rig: Rig):
+    """Oil in the LOOP_OIL node, kg: in the hoses, pump and valve (at least LOOP_OIL_MIN_KG)."""
+    return np.maximum(rig.loop_oil_mass_kg, LOOP_OIL_MIN_KG)
+
+
+def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None, loop_cp_J_kgK=None) -> np.ndarray:
+    """Node heat capacities (N, N_NODES), J/K; the oils' follow Cragoe's c_p(T) (or oil_cp_J_kgK and
+    loop_cp_J_kgK, if the caller has them already)."""
     cp = rig.oil.specific_heat(T_K[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
+    loop_cp = rig.oil.specific_heat(T_K[:, LOOP_OIL]) if loop_cp_J_kgK is None else loop_cp_J_kgK
     C = np.empty((T_K.shape[0], N_NODES))
     C[:, OIL] = oil_node_mass_kg(rig) * cp
     C[:, WALL] = rig.wall_capacity_J_K
     C[:, HARDWARE] = rig.hardware_capacity_J_K
     C[:, HOSE], C[:, HOSE_COVER] = _hose_ring_capacities_J_K(rig)
+    C[:, LOOP_OIL] = loop_oil_node_mass_kg(rig) * loop_cp
     return _capacity_scale(rig) * C
 
 
@@ -181,7 +203,8 @@ def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
     liner = liner_C * (T_K[:, HOSE] - 273.15)
     cover = cover_C * (T_K[:, HOSE_COVER] - 273.15)
-    return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, n=T_K.shape[0])
+    loop = loop_oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, LOOP_OIL])
+    return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, loop, n=T_K.shape[0])
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
@@ -193,7 +216,8 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
     liner = H[:, HOSE] / liner_C + 273.15
     cover = H[:, HOSE_COVER] / cover_C + 273.15
-    return _columns(oil, wall, hardware, liner, cover, n=H.shape[0])
+    loop = rig.oil.temperature_from_enthalpy_K(H[:, LOOP_OIL] / loop_oil_node_mass_kg(rig))
+    return _columns(oil, wall, hardware, liner, cover, loop, n=H.shape[0])
 
 
 def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
@@ -221,8 +245,10 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     Q = per_design(inputs.volume_flow_m3_s, n)
     P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
     flowing = Q > 0
-    both = rig.oil.transport(_columns(T_oil, 0.5 * (T_oil + T_wall), n=n).T)   # bulk and wall film
+    # bulk, wall film and (Physics II) the loop oil
+    both = rig.oil.transport(_columns(T_oil, 0.5 * (T_oil + T_wall), T_K[:, LOOP_OIL], n=n).T)
     oil_props, film_props = tuple(p[0] for p in both), tuple(p[1] for p in both)
+    loop_k, loop_cp = both[1][2], both[2][2]
     cp, rho = oil_props[2], oil_props[3]
     mass_flow = rho * Q
     return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
@@ -230,28 +256,38 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
     G_ob = rig.hardware_coupling_multiplier * G_ob
-    G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER])
+    G_head, G_wa, G_ba, G_ha = air_paths_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER], T_oil)
+    # Physics II: the loop oil (stream-tied to the bulk, or standing in the bodies and hoses), and
+    # the metal link bodies <-> tank wall
+    G_ol, G_lb, G_lh = loop_oil_links_W_K(rig, flowing, mass_flow * cp, loop_k)
+    G_bw = engine_off_link_W_K(rig)
     G_lc = hose_ring_link_W_K(rig)
     G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
 
     L = np.zeros((n, N_NODES, N_NODES))
-    L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool
-    L[:, WALL, WALL] = G_ow + G_wa
-    L[:, HARDWARE, HARDWARE] = G_ob + G_ba
-    L[:, HOSE, HOSE] = G_oh + G_lc
+    L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool + G_head + G_ol          # Physics II: + G_head + G_ol
+    L[:, WALL, WALL] = G_ow + G_wa + G_bw                                 # Physics II: + G_bw
+    L[:, HARDWARE, HARDWARE] = G_ob + G_ba + G_lb + G_bw                  # Physics II: + G_lb + G_bw
+    L[:, HOSE, HOSE] = G_oh + G_lc + G_lh                                 # Physics II: + G_lh
     L[:, HOSE_COVER, HOSE_COVER] = G_lc + G_ha
+    L[:, LOOP_OIL, LOOP_OIL] = G_ol + G_lb + G_lh                         # Physics II
     L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
     L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_ob
     L[:, OIL, HOSE] = L[:, HOSE, OIL] = -G_oh
     L[:, HOSE, HOSE_COVER] = L[:, HOSE_COVER, HOSE] = -G_lc
-    g_amb = _columns(G_cool, G_wa, G_ba, 0.0, G_ha, n=n)
-    # The bodies and the hose liner see the mean loop oil temperature, bulk + half the return-line rise;
-    # the cooler sees the return line, bulk + the full rise.
+    L[:, OIL, LOOP_OIL] = L[:, LOOP_OIL, OIL] = -G_ol                     # Physics II
+    L[:, LOOP_OIL, HARDWARE] = L[:, HARDWARE, LOOP_OIL] = -G_lb           # Physics II
+    L[:, LOOP_OIL, HOSE] = L[:, HOSE, LOOP_OIL] = -G_lh                   # Physics II
+    L[:, HARDWARE, WALL] = L[:, WALL, HARDWARE] = -G_bw                   # Physics II
+    g_amb = _columns(G_cool + G_head, G_wa, G_ba, 0.0, G_ha, 0.0, n=n)     # Physics II: + G_head, loop oil 0
+    # The bodies, the hose liner and the loop oil see the mean loop oil temperature, bulk + half the
+    # return-line rise; the cooler sees the return line, bulk + the full rise.
     b = g_amb * ambient_column(T_a)
-    b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh) * return_rise
+    b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh + G_ol) * return_rise   # Physics II: + G_ol
     b[:, HARDWARE] += 0.5 * G_ob * return_rise
     b[:, HOSE] += 0.5 * G_oh * return_rise
-    return heat_capacities_J_K(rig, T_K, cp), L, b, g_amb, G_cool * return_rise
+    b[:, LOOP_OIL] += 0.5 * G_ol * return_rise                            # Physics II
+    return heat_capacities_J_K(rig, T_K, cp, loop_cp), L, b, g_amb, G_cool * return_rise
 
 
 def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
@@ -284,7 +320,7 @@ def cooling_time_constant_s(rig: Rig, T_K: float) -> float:
     T = np.full((1, N_NODES), float(T_K))
     C = float(np.sum(heat_capacities_J_K(rig, T)[0]))
     G = float(sum(np.atleast_1d(g)[0]
-                  for g in ambient_conductances_W_K(rig, T[:, WALL], T[:, HARDWARE], T[:, HOSE_COVER])))
+                  for g in air_paths_W_K(rig, T[:, WALL], T[:, HARDWARE], T[:, HOSE_COVER], T[:, OIL])))
     return C / G if G > 0 else float("inf")
 
 
@@ -292,5 +328,17 @@ def passive_rejection_W(rig: Rig, T_K: float):
     """Steady heat loss to ambient with the whole rig at T_K, engine off, no cooler, W."""
     T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))
     dT = T_wall - rig.ambient_K
-    return sum(ambient_conductances_W_K(rig, T_wall, T_wall, T_wall)) * dT
+    return sum(air_paths_W_K(rig, T_wall, T_wall, T_wall, T_wall)) * dT
 
+
+
+def passive_paths_W(rig: Rig, T_K: float) -> dict:
+    """The steady heat loss of design 0 with the whole rig at T_K, engine off, no cooler, W, by path:
+    the tank's walls to the air (sides, bottom, dry shell and lid), the floor, the head space (oil
+    surface -> lid -> air), the metal bodies, the hoses."""
+    T = np.atleast_1d(np.asarray(T_K, dtype=float))
+    head, wall, bodies, hoses = (float(np.atleast_1d(g)[0]) for g in air_paths_W_K(rig, T, T, T, T))
+    floor = float(np.atleast_1d(floor_W_K(rig))[0])
+    dT = float(T[0] - np.atleast_1d(rig.ambient_K)[0])
+    return {"tank_to_air": (wall - floor) * dT, "floor": floor * dT, "head_space": head * dT,
+            "bodies": bodies * dT, "hoses": hoses * dT}

@@ -140,5 +140,6 @@ def section(page: PagePlan):
             before = state.answers_for(st.session_state.good_toml)
             st.markdown(f"**Before the log:** {pulls_phrase(before)}.  **After it:** {pulls_phrase(answers)}.")
         st.caption("The range covers the uncertain inputs listed in docs/method.md (convection, the tank's "
-                   "stirring, the pump body's coupling, ambient, absorbed power, heat capacity, emissivity). "
+                   "stirring, the pump body's coupling, ambient, absorbed power, heat capacity, the tank's and the "
+                   "bodies' emissivity, the engine-off link, the floor, the dry shell). "
                    "It does not cover a wrong model of the rig or a sensor in the wrong place.")

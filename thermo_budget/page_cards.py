@@ -39,10 +39,13 @@ def _temperature(celsius: float, system: str) -> tuple[str, str]:
 
 
 def _band_text(band) -> str | None:
-    """"likely 22–31" from a band {"p10", "p50", "p90"} (None where there is none to show)."""
-    if not isinstance(band, dict) or band.get("p10") is None or band.get("p90") is None:
+    """"likely 22–31" from a band {"p10", "p50", "p90"} ("likely 22 or more" where its upper end is
+    unbounded; None where there is none to show)."""
+    if not isinstance(band, dict) or band.get("p10") is None:
         return None
     low, high = band["p10"], band["p90"]
+    if high is None:
+        return f"likely {low} or more"
     return None if low == high else f"likely {low}–{high}"   # a band of one value says nothing more
 
 

@@ -6,7 +6,8 @@ import math
 import numpy as np
 
 from .errors import ScenarioError
-from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
+from .network import (HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_paths_W,
+                      passive_rejection_W)
 from .headroom import headroom_at
 from .long_session import integrate_session
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
@@ -73,6 +74,8 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "max_temperature_C": _celsius(scenario.max_temperature_K),
         "min_viscosity_temperature_C": _celsius(scenario.oil.temperature_at_viscosity_K(scenario.min_viscosity_cSt)),
         "ambient_C": _celsius(scenario.ambient_K),
+        "ambient_pressure_Pa": round(scenario.ambient_pressure_Pa, 1),
+        "relative_humidity": scenario.relative_humidity,
         "start_C": _celsius(trace.T_K[0, 0, OIL]),
         "peak_C": _celsius(peak_oil_K(trace)[0]),
         "end_C": _celsius(trace.T_K[-1, 0, OIL]),
@@ -92,6 +95,7 @@ def session_report(scenario: Scenario, trace: Trace | None = None) -> dict:
         "energy_balance_rel_error": energy_balance_rel_error(energy_in, lost, stored),
         "heat_capacity_J_per_K": capacity_by_body(capacities),
         "passive_rejection_at_limit_W": round(float(passive_rejection_W(rig, limit)[0]), 2),
+        **_passive_shares(rig, limit),
         "peak_pull_power_W": pump["peak_pull_power_W"],
         "pump": {"flow_L_min": pump["flow_L_min"], "pressure_bar": pump["pressure_bar"], "rpm": pump["rpm"]},
         "oil_ageing_equivalent_h": round(ageing_equivalent_h(trace.time_s[:, 0], trace.T_K[:, 0, OIL]), 4),
@@ -200,6 +204,17 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     _caution_beyond_range(scenario, trace, result)
     check_finite(result)
     return result
+
+
+def _passive_shares(rig, limit_K: float) -> dict:
+    """The passive loss at the limit by path, as shares of the whole (passive_shares_at_limit), and the
+    floor's share of the tank's own loss (walls, floor and head space; floor_share_of_tank_loss,
+    0 for a tank that does not stand on the floor)."""
+    paths = passive_paths_W(rig, limit_K)
+    total = sum(paths.values())
+    tank = paths["tank_to_air"] + paths["floor"] + paths["head_space"]
+    return {"passive_shares_at_limit": {k: round(v / total, 4) if total > 0 else 0.0 for k, v in paths.items()},
+            "floor_share_of_tank_loss": round(paths["floor"] / tank, 4) if tank > 0 else 0.0}
 
 
 def capacity_by_body(capacities) -> dict:

@@ -5,9 +5,11 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .air import air_columns
 from .correlations import fin_efficiency_straight
 from .materials import HOSE_WALL, MATERIALS
 from .network import Rig
+from .still_paths import floor_h_W_m2K
 
 # Outside coefficient (convection + radiation) of a wall in still air at which the dry shell's share
 # of the wall node's capacity is weighed: about 10 W/(m^2 K) (common practice, no source; the
@@ -83,10 +85,10 @@ def build_rig(s: "Scenario", oil_volume_m3=None, cooler_W_K=None, convection_mul
     scale = (volume / res.oil_volume_m3) ** (1.0 / 3.0)
     if res.shape == "box":
         perimeter = 2.0 * (res.length_m + res.width_m)
-        plate = res.length_m
+        plate, across = res.length_m, res.width_m      # the return jet runs along the length
     else:
         perimeter = np.pi * res.diameter_m
-        plate = res.diameter_m
+        plate = across = res.diameter_m
     footprint = res.footprint_m2
     fill = res.oil_volume_m3 / footprint
     side_area = perimeter * res.height_m * scale**2
@@ -138,7 +140,12 @@ def build_rig(s: "Scenario", oil_volume_m3=None, cooler_W_K=None, convection_mul
         gear_pitch_diameter_m=gear_pitch_diameter_m(s.displacement_m3), passage_diameter_m=hw.hose_inner_diameter_m,
         passage_length_m=hw.passage_length_m,
         wetted_side_area_m2=wetted_side, wetted_bottom_area_m2=top_area, dry_side_area_m2=dry_side,
-        dry_fin_length_m=dry_fin_length, jet_throw_m=plate * scale)
+        dry_fin_length_m=dry_fin_length, jet_section_m2=across * fill_height * scale,
+        engine_off_coupling_W_K=hw.engine_off_coupling_W_K,
+        floor_area_m2=top_area if res.bottom == "floor" else np.zeros_like(top_area),
+        floor_h_W_m2K=float(floor_h_W_m2K(sum(step.duration_s for step in s.steps))),
+        head_space_m=np.maximum(height - fill_height, 0.0),
+        air_columns=air_columns(s.ambient_pressure_Pa, s.relative_humidity, s.ambient_K))
 
 
 def limit_K(s: "Scenario") -> tuple[float, str]:

@@ -6,18 +6,20 @@ raises ScenarioError naming the key path, the value and what was expected.
 from __future__ import annotations
 
 import copy
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
 import tomli_w
 
+from .air import P_ATM_Pa, standard_pressure_Pa
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
                         limit_K)  # (build_rig re-exported: the scenario's network)
 from .session import PLAN_RESOLUTION, EngineCurve, Step, shaft_power_W
+from .still_paths import flange_link_W_K
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              check_document_depth, read_toml_bytes, read_toml_text, temperature_unit_warnings,
                              with_path)
@@ -78,6 +80,8 @@ class Hardware:
     body_area_m2: float
     internal_area_m2: float       # wetted inside of the metal bodies
     passage_length_m: float       # one passage through a body (the side of the bodies' cube)
+    mounting: str = "apart"       # "apart" (joined to the tank by hoses only) or "on_tank" (pump bolted to it)
+    engine_off_coupling_W_K: float = 0.0   # metal link bodies <-> tank (default from the mounting)
 
 
 @dataclass(frozen=True)
@@ -109,6 +113,8 @@ class Scenario:
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
     warnings: tuple = ()     # accepted but doubtful input, one line each (scenario_table.temperature_unit_warnings)
+    ambient_pressure_Pa: float = P_ATM_Pa     # from ambient_pressure, or altitude by the standard atmosphere
+    relative_humidity: float = 0.0            # of the ambient air, 0 to 1 (0: dry, the shipped table)
 
     @property
     def steps(self) -> list[Step]:
@@ -159,6 +165,7 @@ def _parse(raw: dict) -> Scenario:
         if not isinstance(text, str) or len(text) > MAX_TEXT_CHARS:
             raise ScenarioError(key, text, f"a text string of at most {MAX_TEXT_CHARS} characters")
     ambient = top.quantity("ambient", "temperature", "degC", above=0.0)
+    pressure, humidity = _read_air(top)
 
     r = top.table("reservoir")
     shape = r.choice("shape", ("box", "cylinder"))
@@ -224,7 +231,11 @@ def _parse(raw: dict) -> Scenario:
                                                 minimum=0.0),
                         internal_area_m2=h.quantity("internal_area", "area", "m^2", default_internal_area_m2(
                             mass, metal_density, displacement, hose_id), above=0.0),
-                        passage_length_m=body_cube_side_m(mass, metal_density))
+                        passage_length_m=body_cube_side_m(mass, metal_density),
+                        mounting=h.choice("mounting", ("apart", "on_tank"), "apart"))
+    hardware = replace(hardware, engine_off_coupling_W_K=h.quantity(
+        "engine_off_coupling", "conductance", "W/K",
+        flange_link_W_K(hardware.mounting == "on_tank", hardware.passage_length_m), minimum=0.0))
     return_line_max = h.quantity("return_line_max_temperature", "temperature", "degC", None, above=0.0)
     if hardware.hose_length_m == 0.0:
         raise ScenarioError("hardware.hose_length", h.raw["hose_length"], "a positive length (the loop has hoses)")
@@ -273,9 +284,33 @@ def _parse(raw: dict) -> Scenario:
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
-                        uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units))
+                        uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units),
+                        ambient_pressure_Pa=pressure, relative_humidity=humidity)
     _check_consistency(scenario)
     return scenario
+
+
+def _read_air(top: _Table) -> tuple[float, float]:
+    """(pressure Pa, relative humidity 0-1) of the ambient air: ambient_pressure, or altitude through
+    the standard atmosphere (air.standard_pressure_Pa), not both; relative_humidity a fraction or a
+    percentage string ("40 %"). Standard air (101325 Pa, dry) when neither is given."""
+    pressure = top.quantity("ambient_pressure", "pressure", "bar", None, above=0.0)
+    altitude = top.quantity("altitude", "length", "m", None)
+    if pressure is not None and altitude is not None:
+        raise ScenarioError("altitude", top.raw["altitude"], "either altitude or ambient_pressure, not both")
+    if altitude is not None:
+        pressure = standard_pressure_Pa(altitude)
+    given = top.get("relative_humidity", 0.0)
+    humidity = given
+    if isinstance(given, str):
+        try:
+            humidity = float(given.strip().removesuffix("%")) / 100.0 if given.strip().endswith("%") else None
+        except ValueError:
+            humidity = None
+        if humidity is None:
+            raise ScenarioError("relative_humidity", given, 'a fraction from 0 to 1, or a percentage such as "40 %"')
+    humidity = top.plain_number("relative_humidity", humidity, minimum=0.0, maximum=1.0)
+    return (P_ATM_Pa if pressure is None else float(pressure)), float(humidity)
 
 
 def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> Step:

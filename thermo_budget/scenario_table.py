@@ -62,6 +62,9 @@ def _n(low, high, integer=False):
 # written with [] for the step index. A quantity key missing here gets the broad range of its kind.
 KEYS = {
     "ambient": _q("temperature", "degC", "degF", -40, 60),
+    "ambient_pressure": _q("pressure", "bar", "psi", 0.5, 1.1),
+    "altitude": _q("length", "m", "ft", -500, 5000),
+    "relative_humidity": _n(0, 1),
     "reservoir.oil_volume": _q("volume", "L", "gal", 0.1, 2000),
     "reservoir.length": _q("length", "m", "in", 0.02, 5),
     "reservoir.width": _q("length", "m", "in", 0.02, 5),
@@ -90,6 +93,7 @@ KEYS = {
     "hardware.body_area": _q("area", "m^2", "ft^2", 0, 10),
     "hardware.internal_area": _q("area", "m^2", "ft^2", 0.001, 5),
     "hardware.return_line_max_temperature": _q("temperature", "degC", "degF", 20, 250),
+    "hardware.engine_off_coupling": _q("conductance", "W/K", "BTU/hr/delta_degF", 0, 1000),
     "losses.convection_multiplier": _n(0, 10),
     "losses.capacity_multiplier": _n(0.01, 10),
     "losses.hardware_coupling_multiplier": _n(0.01, 100),

@@ -72,11 +72,38 @@ FACTORS = (
            "engineering judgement: oil volume read off a sight glass, hardware mass estimated, and the "
            "specific heat from Cragoe (NBS Misc. Publ. 97) for a generic mineral oil: a few % together", True,
            "the oil volume and the hardware's mass (a logged session with `fit` also measures it)"),
-    Factor("emissivity", "surface emissivity", "emissivity", "lognormal", 0.10,
-           "engineering judgement: the emissivity of painted or dirty metal is known to about 10 % "
-           "(capped at 1)", True, "the paint's emissivity from its data sheet"),
+    Factor("emissivity", "tank surface emissivity", "wall_emissivity", "lognormal", 0.10,
+           "engineering judgement: the emissivity of a painted or dirty tank (or a plastic one) is known to about "
+           "10 % (capped at 1)", True, "the paint's emissivity from its data sheet"),
+    Factor("body_emissivity", "pump and valve body emissivity", "hardware_emissivity", "lognormal", 0.60,
+           "emissivity tables (Incropera, 6th ed., Table A.11, from memory): painted 0.9-0.98, oxidised cast iron "
+           "0.6-0.7, machined cast iron and steel 0.2-0.4, bare aluminium 0.05-0.2 (anodised 0.8). Bare or cast "
+           "bodies may be 0.1-0.6 where 0.95 is written: one sigma x/÷ 1.6 (two sigma from 0.95 down to 0.37), "
+           "capped at 1; the width is engineering judgement", True,
+           "the bodies' finish (painted, cast, machined, bare aluminium) written as hardware.emissivity"),
+    Factor("engine_off", "engine-off link of the loop to the tank", "engine_off_multiplier", "lognormal",
+           FACTOR_OF_TWO,
+           "engineering judgement: the standing loop oil's conduction (Nu_D = 5.78 of still oil in a tube) is a "
+           "lower bound, natural convection in hot oil (Ra_D 1e4-1e5) may double it, and the bodies' metal link to "
+           "the tank (hardware.engine_off_coupling, a flange's contact with or without a gasket) is uncertain by a "
+           "factor of about two", True,
+           "thermocouples on the pump body and a hose during a long engine-off wait"),
+    Factor("floor", "floor under the tank", "floor_multiplier", "lognormal", FACTOR_OF_TWO,
+           "engineering judgement: the floor as a semi-infinite solid of concrete (k = 1.4 W/(m K), Incropera Table "
+           "A.3; dry to damp concrete about 0.9-1.8, from memory), taken at the end of the planned session (at least "
+           "1 h: 15.8 W/(m^2 K); 8 h gives 5.6), with perfect contact (a ribbed drum bottom, a mat or a pallet give "
+           "far less): a factor of about two; no effect on a tank that does not stand on the floor", True,
+           "a thermocouple under the tank's bottom, or the fit of a logged cool-down"),
+    Factor("dry_shell", "dry shell above the oil line (fin)", "dry_shell_multiplier", "lognormal", 0.30,
+           "engineering judgement: the dry sides and lid as a straight fin fed from the oil line (Incropera eq. 3.89) "
+           "idealise a uniform outside coefficient, a lid fed only from its edges, and welds and joints that conduct "
+           "less than the plate: 30 %", True,
+           "a thermocouple on the tank's side above the oil line and on the lid"),
 )
 FACTOR_BY_KEY = {f.key: f for f in FACTORS}
+# A fitted convection multiplier stands for the whole loss to the air on the logged day: the
+# emissivities' and the floor's priors are dropped with it.
+ABSORBED_BY_FITTED_CONVECTION = {"emissivity", "body_emissivity", "floor", "dry_shell"}
 
 
 @dataclass(frozen=True)
@@ -100,10 +127,10 @@ class UncertaintyModel:
     @property
     def active(self) -> tuple:
         """The factors that vary: width above 0, or fitted. A fitted convection multiplier stands for
-        the whole loss to the air on the logged day, radiation included, so the emissivity's prior
-        is dropped with it."""
+        the whole loss to the air on the logged day, radiation included, so the priors of the paths
+        it stands for (ABSORBED_BY_FITTED_CONVECTION) are dropped with it."""
         fitted = set(self.posterior.keys) if self.posterior else set()
-        absorbed = {"emissivity"} if "convection" in fitted else set()
+        absorbed = ABSORBED_BY_FITTED_CONVECTION if "convection" in fitted else set()
         return tuple(f for f in FACTORS if f.key in fitted or (self.widths[f.key] > 0 and f.key not in absorbed))
 
     @property
@@ -122,7 +149,7 @@ class UncertaintyModel:
         active = {f.key for f in self.active}
         for f in FACTORS:
             if f.key not in active:
-                absorbed = f.key == "emissivity" and "convection" in fitted
+                absorbed = f.key in ABSORBED_BY_FITTED_CONVECTION and "convection" in fitted
                 rows.append({"factor": f.key, "what": f.label, "distribution": "fixed (not sampled)", "sigma": "0",
                              "source": "absorbed by the fitted convection multiplier" if absorbed else f.source})
                 continue
@@ -262,9 +289,8 @@ def sample_rig(rig, values: dict, index=None):
         f = FACTOR_BY_KEY[key]
         if f.kind == "normal_K":
             changes["ambient_K"] = np.asarray(rig.ambient_K, dtype=float) + pick(v)
-        elif f.rig_field == "emissivity":
-            changes["wall_emissivity"] = np.minimum(rig.wall_emissivity * pick(v), 1.0)
-            changes["hardware_emissivity"] = np.minimum(rig.hardware_emissivity * pick(v), 1.0)
+        elif f.rig_field in ("wall_emissivity", "hardware_emissivity"):
+            changes[f.rig_field] = np.minimum(getattr(rig, f.rig_field) * pick(v), 1.0)
         else:
             changes[f.rig_field] = np.asarray(getattr(rig, f.rig_field), dtype=float) * pick(v)
     return rig.with_changes(**changes)

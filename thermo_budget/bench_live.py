@@ -14,7 +14,8 @@ Figures:
    (with the forecast).
 3. Memory: the peak Python allocation (tracemalloc) while one watch reads the day at once, for the
    first two hours and for the whole day (a bounded estimate grows only by its thinned chart).
-4. The log fit on the same day (`fit` as a whole process).
+4. The page's live section on the whole day in Streamlit's AppTest: its first run and a later one.
+5. The log fit on the same day (`fit` as a whole process).
 The machine's other work makes every figure noisy; they are wall-clock times.
 """
 from __future__ import annotations

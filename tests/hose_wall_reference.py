@@ -483,7 +483,7 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
 
-    from thermo_budget.report import TRACE_RESOLUTION
+    from thermo_budget.answers import TRACE_RESOLUTION
     from thermo_budget.scenario import build_rig, load_scenario
     from thermo_budget.solver import integrate
 

@@ -145,7 +145,7 @@ def test_impossible_inputs_are_refused_with_a_message(page):
 
 def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     from thermo_budget import load_scenario
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     from thermo_budget.scenario import read_toml_text
     number_input(page, "Oil in the tank").set_value(14.0).run()
     labels = [b.proto.label for b in page.get("download_button")]
@@ -179,7 +179,7 @@ def test_engine_curve_scenario_and_pull_mode_switch(page):
 def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.report import simulate, trace_csv
+    from thermo_budget.answers import simulate, trace_csv
     before = headline(page)
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
@@ -220,7 +220,7 @@ def _in(system: str, unit: str, value: float) -> float:
 def test_every_shown_figure_is_the_report_figure(scenario_file):
     from thermo_budget import load_scenario
     from thermo_budget.hot_day import hot_day
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
     at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
@@ -276,7 +276,7 @@ def test_return_line_stop_is_said_in_the_headline():
 def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     from thermo_budget.page_cards import pulls_card
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     answers = report(load_scenario(DEFAULT_SCENARIO))
     plain = pulls_card({key: value for key, value in answers.items()
                         if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
@@ -302,7 +302,7 @@ def test_name_edit_follows_into_the_titles_and_the_file(page):
     assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
     from thermo_budget.plots import plot_trace
     from thermo_budget import load_scenario
-    from thermo_budget.report import simulate
+    from thermo_budget.answers import simulate
     scenario = load_scenario(page.session_state["draft"])
     assert plot_trace(scenario, simulate(scenario)).axes[0].get_title(loc="left") == "Stand 2, bigger tank"
 

@@ -11,7 +11,7 @@ import pytest
 from thermo_budget import report
 from thermo_budget.errors import ScenarioError
 from thermo_budget.network import OIL
-from thermo_budget.report import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
+from thermo_budget.answers import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
 from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 

@@ -21,7 +21,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from thermo_budget.cli import main
-from thermo_budget.report import simulate, trace_rows
+from thermo_budget.answers import simulate, trace_rows
 from thermo_budget.scenario import load_scenario
 
 from conftest import base_raw

@@ -5,7 +5,7 @@ import pytest
 
 from thermo_budget import load_scenario
 from thermo_budget.headroom import headroom_at, hot_oil_volume_m3
-from thermo_budget.report import report
+from thermo_budget.answers import report
 
 
 def test_default_tank_at_the_limit_by_hand(default_scenario):

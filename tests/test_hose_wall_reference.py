@@ -28,7 +28,7 @@ from scipy.optimize import brentq
 
 from thermo_budget.materials import HOSE_WALL
 from thermo_budget.network import HARDWARE, N_NODES, OIL, WALL, hose_rings_m, node_enthalpy_J
-from thermo_budget.report import TRACE_RESOLUTION
+from thermo_budget.answers import TRACE_RESOLUTION
 from thermo_budget.scenario import build_rig, load_scenario
 from thermo_budget.solver import integrate
 

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from thermo_budget.hot_day import default_ambients_K, hot_day
-from thermo_budget.report import report
+from thermo_budget.answers import report
 from thermo_budget.scenario import load_scenario
 
 from conftest import SCENARIO_DIR

@@ -193,7 +193,7 @@ def watch_pulls(day, i) -> int:
 # --- the command line --------------------------------------------------------------------------------
 
 def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_state(capsys):
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     code = main(["watch", str(SCENARIO_DIR / "default.toml"), str(SCENARIO_DIR / "demo_log.csv"), "--once", "--json"])
     out = capsys.readouterr().out.strip().splitlines()
     assert code == 0 and len(out) == 1
@@ -229,7 +229,7 @@ def test_watch_once_text_and_bad_inputs(tmp_path, capsys):
 def test_a_return_line_sensor_is_read_with_the_return_rise(tmp_path):
     """The trace CSV of `run` read by its return_C column: the estimate of the bulk oil comes out
     at the bulk, not at the hotter return line."""
-    from thermo_budget.report import simulate, trace_csv
+    from thermo_budget.answers import simulate, trace_csv
     scenario = hot_start_scenario(**{"session.repeat": 2})
     trace = simulate(scenario)
     path = tmp_path / "trace.csv"

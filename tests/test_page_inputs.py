@@ -8,7 +8,7 @@ from hypothesis import strategies as st
 
 from thermo_budget import DEFAULT_SCENARIO, load_scenario
 from thermo_budget import page_inputs as pi
-from thermo_budget.report import report, simulate
+from thermo_budget.answers import report, simulate
 from thermo_budget.scenario import SCENARIO_DIR, read_toml_text
 
 

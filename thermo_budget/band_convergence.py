@@ -12,7 +12,7 @@ import argparse
 import numpy as np
 
 from .bands import order_statistic, sample_answers
-from .report import report
+from .answers import report
 from .scenario import DEFAULT_SCENARIO, load_scenario
 
 COUNTS = (16, 32, 64, 128, 256, 4096)

@@ -27,7 +27,7 @@ from scipy.linalg import expm
 
 from .network import N_NODES, OIL, Inputs, node_equations
 from .planning import session_outcome, take_designs
-from .report import report
+from .answers import report
 from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
 from .session import pump_flow_m3_s
 from .solver import propagate_linear
@@ -93,7 +93,7 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
     """Seconds the page spends, after the oil volume changes to a value not seen before, on (the
     answers, the temperature chart PNG, the design chart's sweep, the design chart PNG)."""
     from . import page_charts
-    from .report import simulate
+    from .answers import simulate
     changed = scenario.changed(**{"reservoir.oil_volume": f"{oil_volume_L} L"})
     text = changed.to_toml()
     start = time.perf_counter()
@@ -112,7 +112,7 @@ def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
     """(report() with the band, of it the band alone) s, best of `repeats` each."""
     from .bands import band_report
     from .planning import planning_answers
-    from .report import session_report, simulate
+    from .answers import session_report, simulate
     trace = simulate(scenario)
     point = session_report(scenario, trace)
     point.update(planning_answers(scenario))

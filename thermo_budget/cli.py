@@ -102,7 +102,7 @@ def _load(path):
 
 
 def _run(args) -> int:
-    from .report import report, simulate, trace_csv
+    from .answers import report, simulate, trace_csv
     check_outputs(args, ("scenario",), ("csv", "plot"))
     scenario = _load(args.scenario)
     trace = simulate(scenario)
@@ -118,7 +118,7 @@ def _run(args) -> int:
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
         result["hot_day"] = hot.to_dict()
     if args.json:
-        from .report import check_finite
+        from .answers import check_finite
         check_finite(result)
         print(json.dumps(result, indent=2, allow_nan=False))
     else:

@@ -85,7 +85,7 @@ def fit_command(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
     from .calibrate import fit_log
     from .measured_log import log_file_text
-    from .report import check_finite
+    from .answers import check_finite
     from .scenario import load_scenario
     scenario = load_scenario(args.scenario)
     text = log_file_text(args.log)

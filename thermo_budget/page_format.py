@@ -91,7 +91,7 @@ def shown_duration(seconds: float | None) -> str:
 def trace_csv_shown(trace, system: str) -> str:
     """The trace (design 0) as CSV in the page's units: time in s, temperatures and power in the
     display units of `system`; the column names carry the units."""
-    from .report import trace_rows
+    from .answers import trace_rows
     rows = trace_rows(trace)
     t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
     p_unit = QUANTITIES["power"][1][system]

@@ -17,7 +17,7 @@ import streamlit as st
 import thermo_budget as tb
 from . import page_charts, page_worker
 from .errors import ScenarioError
-from .report import report, simulate
+from .answers import report, simulate
 from .scenario import Scenario, load_scenario, read_toml_text
 
 try:  # the log-calibration feature is optional: the page hides its section without it

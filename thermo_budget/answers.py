@@ -1,4 +1,4 @@
-"""The answers for one scenario, as the dict that `run --json` prints."""
+"""The answers for one scenario (`report()`), as the dict that `run --json` prints."""
 from __future__ import annotations
 
 import math

@@ -351,11 +351,11 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
 def outer_air(rig, hose: HoseWall, n_cells: int):
     """The outer face to the air, for `simulate(outer=...)`: the package's coefficient of a horizontal
     cylinder (natural convection by Churchill and Chu, combined with the rig's air speed by Churchill
-    1977; conductances.h_air_W_m2K, held against worked examples in the package's tests) times the
+    1977; conductances.air_side_h_W_m2K, held against worked examples in the package's tests) times the
     rig's convection multiplier, plus grey
     radiation (Incropera eqs. 1.7-1.9), in series with the outer half of the outermost ring; the
     surface taken at the ring's temperature."""
-    from thermo_budget.conductances import h_air_W_m2K
+    from thermo_budget.conductances import air_side_h_W_m2K
     from thermo_budget.correlations import h_radiation_grey
     r_o = 0.5 * hose.outside_m
     centre = r_o - 0.5 * (r_o - 0.5 * hose.bore_m) / n_cells
@@ -365,8 +365,7 @@ def outer_air(rig, hose: HoseWall, n_cells: int):
 
     def coupling(T_surface_K):
         Ts = np.array([max(float(T_surface_K), T_air + 1e-3)])
-        h = float(np.asarray(rig.convection_multiplier) * h_air_W_m2K("cylinder", hose.outside_m, Ts, T_air,
-                                                                          rig.air_speed_m_s, hose.outside_m)[0]
+        h = float(np.asarray(rig.convection_multiplier) * air_side_h_W_m2K(rig, np.full((3, 1), Ts[0])).hose[0]
                   + h_radiation_grey(rig.hardware_emissivity, Ts, T_air)[0])
         return 1.0 / (1.0 / (h * area) + 1.0 / half_W_K), T_air
     return coupling

@@ -6,7 +6,7 @@ from thermo_budget.materials import HOSE_WALL
 from thermo_budget.correlations import cylinder_wall_conductance_W_K
 from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTION, N_NODES, NODE_NAMES, OIL, WALL,
                                    Inputs, cooler_W_K, hose_mean_K, hose_ring_link_W_K, hose_rings_m,
-                                   dry_shell_W_K, h_air_W_m2K, h_oil_bottom_W_m2K, h_oil_side_W_m2K,
+                                   air_side_h_W_m2K, dry_shell_W_K, h_oil_bottom_W_m2K, h_oil_side_W_m2K,
                                    hardware_to_ambient_W_K, heat_capacities_J_K, hose_to_ambient_W_K,
                                    loop_conductances_W_K, node_enthalpy_J, node_equations, oil_to_hardware_W_K,
                                    oil_to_hose_W_K, passive_rejection_W, return_line_rise_K,
@@ -179,24 +179,35 @@ def test_adiabatic_rig_has_no_path_to_ambient():
         assert np.all(g_amb == 0.0) and np.all(offset == 0.0)
 
 
-def test_hot_top_face_beats_hot_bottom_face():
+def _air_side(rig, T_surface_K, T_air_K=295.0, air_speed_m_s=0.0):
+    """The production air side (the one ambient_conductances_W_K uses) with every outer face at T_surface_K."""
+    still = rig.with_changes(ambient_K=T_air_K, air_speed_m_s=air_speed_m_s)
+    return air_side_h_W_m2K(still, np.full((3, 1), T_surface_K))
+
+
+def test_hot_top_face_beats_hot_bottom_face(rig):
     # McAdams: hot face up 0.54 Ra^1/4 vs hot face down 0.27 Ra^1/4 (Incropera eqs. 9.30, 9.32).
-    up = h_air_W_m2K("top", 0.1, 340.0, 295.0)
-    down = h_air_W_m2K("bottom", 0.1, 340.0, 295.0)
-    assert float(up) == pytest.approx(2.0 * float(down), rel=1e-9)
+    h = _air_side(rig, 340.0)
+    assert float(h.top[0]) == pytest.approx(2.0 * float(h.bottom[0]), rel=1e-9)
+    # and the other way round when the plate is colder than the air
+    cold = _air_side(rig, 280.0)
+    assert float(cold.bottom[0]) == pytest.approx(2.0 * float(cold.top[0]), rel=1e-9)
 
 
-def test_wind_never_lowers_the_air_side_coefficient():
-    for kind in ("vertical", "top", "bottom", "cylinder"):
-        still = float(h_air_W_m2K(kind, 0.3, 340.0, 295.0))
-        for speed in (0.5, 2.0, 8.0):
-            assert float(h_air_W_m2K(kind, 0.3, 340.0, 295.0, speed, 0.4)) >= still
+def test_wind_never_lowers_the_air_side_coefficient(rig):
+    still = _air_side(rig, 340.0)
+    for speed in (0.5, 2.0, 8.0):
+        windy = _air_side(rig, 340.0, air_speed_m_s=speed)
+        for face in still._fields:
+            assert float(getattr(windy, face)[0]) > float(getattr(still, face)[0]), (face, speed)
 
 
-def test_natural_convection_vertical_wall_order_of_magnitude():
-    # A 0.3 m hot wall 40 K above room air: h ~ 4-6 W/(m^2 K) (Incropera, ch. 9 examples;
-    # common practice, no source for the band).
-    assert 3.5 < float(h_air_W_m2K("vertical", 0.3, 333.15, 293.15)) < 6.5
+def test_natural_convection_vertical_wall_order_of_magnitude(rig):
+    # A hot tank side (the test rig's, 0.2-0.4 m tall) 40 K above room air: h ~ 4-6 W/(m^2 K)
+    # (Incropera, ch. 9 examples; common practice, no source for the band).
+    assert 0.2 <= float(np.ravel(rig.side_height_m)[0]) <= 0.4
+    h = _air_side(rig, 333.15, T_air_K=293.15)
+    assert 3.5 < float(h.side[0]) < 6.5
 
 
 def test_circulating_oil_transfers_more_than_still_oil(rig):

@@ -4,7 +4,7 @@ and the air, one function with a docstring saying what it stands for. Pure funct
 """
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -38,27 +38,6 @@ def _rows(*values, like=None) -> np.ndarray:
         out[i] = value
     return out
 
-
-
-def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None,
-                air=None):
-    """Convective coefficient to ambient air, W/(m^2 K), for one kind of surface: "vertical",
-    "cylinder" (horizontal), "top" or "bottom" (horizontal faces). Natural convection, combined with
-    a forced stream by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, when air_speed_m_s > 0.
-    air : optional (k, nu, Pr, beta) at the film temperature, to share between faces.
-    """
-    k, nu, pr, beta = air_properties(0.5 * (T_surface_K + T_ambient_K)) if air is None else air
-    dT = T_surface_K - T_ambient_K
-    Ra = rayleigh(beta, dT, length_m, nu, pr)
-    if kind == "vertical":
-        Nu = Nu_vertical_plate_Churchill_Chu(Ra, pr)
-    elif kind == "cylinder":
-        Nu = Nu_horizontal_cylinder_Churchill_Chu(Ra, pr)
-    else:
-        top, bottom = _Nu_top_and_bottom(Ra, dT)
-        Nu = top if kind == "top" else bottom
-    return _with_forced_air(Nu * k / length_m, (k, nu, pr), air_speed_m_s,
-                            length_m if plate_length_m is None else plate_length_m)
 
 
 def _Nu_top_and_bottom(Ra, dT):
@@ -238,27 +217,27 @@ def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
     return fin_efficiency_straight(m, rig.dry_fin_length_m) * shed
 
 
-def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
-    """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses), each convection (times
-    the multiplier) plus linearised radiation. T_hose_K is the hose cover's (the outer ring's)
-    temperature, the hoses' conductance is from the cover's centre; it defaults to T_hardware_K.
+class AirSide(NamedTuple):
+    """Convective coefficients to the air, W/(m^2 K), before the multiplier and without radiation."""
+    side: np.ndarray      # the tank's sides (vertical plates)
+    body: np.ndarray      # the metal bodies (vertical plates)
+    top: np.ndarray       # the lid (horizontal face, hot face up while hotter than the air)
+    bottom: np.ndarray    # the bottom (horizontal face, hot face down)
+    hose: np.ndarray      # the hoses (horizontal cylinders)
 
-    Wall: the wetted sides (vertical plates, Churchill-Chu) and the bottom (McAdams), each in series
-    with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K). Bodies: vertical
-    plates of body_length_m over body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series
-    with the conduction from the cover's centre to the outside face (hose_rings_m).
+
+def air_side_h_W_m2K(rig: Rig, T_surface_K) -> AirSide:
+    """The air side of every outer face, W/(m^2 K): natural convection (Churchill-Chu for the
+    vertical plates and the hoses, McAdams for the lid and the bottom), combined with the forced
+    stream of rig.air_speed_m_s by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, where it blows.
+    T_surface_K : (3, N) rows, the wall's, the bodies' and the hose cover's temperatures, K.
     Evaluated together to share work: one air-property lookup for the three film temperatures, one
     vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
     and the bottom (same face, same temperature).
     """
-    T_a, m, speed, parts = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s, rig.constants
-    T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
-    T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
+    T_a, speed, parts, T_s = rig.ambient_K, rig.air_speed_m_s, rig.constants, T_surface_K
     k, nu, pr, beta = air_properties(0.5 * (T_s + T_a))   # rows: the wall's, the bodies' and the hoses' films
     dT = T_s - T_a
-    h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
-                                   like=T_s[0]), T_s, T_a)
-
     vertical_length = _like(parts["vertical_lengths_m"], T_s[:2])
     forced_length = _like(parts["forced_lengths_m"], T_s[:2])
     Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta[:2], dT[:2], vertical_length, nu[:2], pr[:2]), pr[:2])
@@ -273,6 +252,26 @@ def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     D = rig.hose_outer_diameter_m
     Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[2], dT[2], D, nu[2], pr[2]), pr[2])
     h_hose = _with_forced_air(Nu_hose * k[2] / D, (k[2], nu[2], pr[2]), speed, D)
+    return AirSide(h_side, h_body, h_top, h_bottom, h_hose)
+
+
+def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
+    """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses), each convection (times
+    the multiplier) plus linearised radiation. T_hose_K is the hose cover's (the outer ring's)
+    temperature, the hoses' conductance is from the cover's centre; it defaults to T_hardware_K.
+
+    Wall: the wetted sides (vertical plates, Churchill-Chu) and the bottom (McAdams), each in series
+    with half the wall thickness; the dry sides and the lid as a fin (dry_shell_W_K). Bodies: vertical
+    plates of body_length_m over body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series
+    with the conduction from the cover's centre to the outside face (hose_rings_m). The air side of
+    every face: air_side_h_W_m2K.
+    """
+    T_a, m, parts = rig.ambient_K, rig.convection_multiplier, rig.constants
+    T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
+    T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
+    h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
+                                   like=T_s[0]), T_s, T_a)
+    h_side, h_body, h_top, h_bottom, h_hose = air_side_h_W_m2K(rig, T_s)
 
     half_wall = parts["half_wall_m2K_W"]
     h_side, h_top, h_bottom = m * h_side + h_rad[0], m * h_top + h_rad[0], m * h_bottom + h_rad[0]

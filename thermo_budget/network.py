@@ -20,7 +20,7 @@ from functools import cached_property
 import numpy as np
 
 from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K,
-                           constant_parts, dry_shell_W_K, h_air_W_m2K, hose_ring_link_W_K, hose_rings_m,
+                           air_side_h_W_m2K, constant_parts, dry_shell_W_K, hose_ring_link_W_K, hose_rings_m,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
@@ -30,7 +30,7 @@ from .oil import Oil
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
            "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
-           "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
+           "air_side_h_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
            "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",

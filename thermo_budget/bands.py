@@ -13,7 +13,7 @@ import numpy as np
 
 from .network import OIL
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import (SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, sustainability, take_designs,
+from .planning import (SEARCH_MARGIN_K, limits_K, round_up, runs_before_limit, session_trace, sustainability, take_designs,
                        time_constant_s)
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
@@ -306,7 +306,7 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
             continue
         v = order_statistic(values, confidence)
         digits = ROUND_DIGITS[key]      # rounded up, so that the planned size still suffices
-        plan[key] = max(0.0, float(np.ceil(v * 10**digits - 1e-9) / 10**digits)) if np.isfinite(v) else None
+        plan[key] = max(0.0, round_up(v, digits)) if np.isfinite(v) else None
     return plan
 
 

@@ -239,8 +239,9 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
 
 
 def round_up(value: float, digits: int) -> float:
-    """Round up, so that a rounded sizing answer still passes (the searches are monotone)."""
-    return float(np.ceil(value * 10**digits) / 10**digits)
+    """Round up to `digits` decimals, so that a rounded sizing answer still passes (the searches are
+    monotone). A value a float's noise above a round figure (1e-9 of the last digit) stays on it."""
+    return float(np.ceil(value * 10**digits - 1e-9) / 10**digits) + 0.0   # + 0.0: never -0.0
 
 
 def time_constant_s(scenario: Scenario) -> float:

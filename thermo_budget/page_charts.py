@@ -16,6 +16,7 @@ from .scenario import Scenario, build_rig, limit_K, load_scenario, read_toml_tex
 
 DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
 CHART_DPI = 90
+CHARTS_KEPT = 32   # design sweeps and hot days kept by the page (and its worker), by scenario text
 
 
 def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:

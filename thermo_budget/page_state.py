@@ -67,7 +67,7 @@ def _slow_charts() -> dict:
     return {}
 
 
-def _keep(key, future: Future, keep: int = 32):
+def _keep(key, future: Future, keep: int = page_charts.CHARTS_KEPT):
     futures = _slow_charts()
     while len(futures) >= keep:
         futures.pop(next(iter(futures)))

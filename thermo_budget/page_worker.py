@@ -40,7 +40,7 @@ class WorkerGone(RuntimeError):
     """The worker process ended before it answered."""
 
 
-KEEP = 32                       # design sweeps and hot days kept, by scenario text
+KEEP = page_charts.CHARTS_KEPT  # design sweeps and hot days kept, by scenario text
 _sweeps: dict = {}              # the design sweeps, oldest first
 _sweeps_lock = threading.Lock()
 

@@ -13,12 +13,12 @@ from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_co
 from .scenario import Scenario, build_rig, limit_K
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
 # Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
 # 2 cSt. Past the lower of the two the model's temperatures are not shown as answers.
-CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + 273.15
+CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + ZERO_CELSIUS_K
 D341_MIN_CST = 2.0
 BEYOND_RANGE_KEYS = ("peak_C", "end_C", "end_wall_C", "end_hardware_C", "peak_return_C")
 
@@ -34,7 +34,7 @@ def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> T
 
 
 def _celsius(T_K) -> float:
-    return round(float(T_K) - 273.15, 3)
+    return round(float(T_K) - ZERO_CELSIUS_K, 3)
 
 
 def pump_operating_point(scenario: Scenario) -> dict:
@@ -217,9 +217,9 @@ def trace_rows(trace: Trace, design: int = 0):
     power_W is the mean absorbed power over the interval that ends at the row; hose_C (the hose
     rubber's capacity-weighted mean over its two rings, Trace.hose_K) comes last so that readers of
     the older six columns keep working."""
-    T = trace.T_K[:, design, :] - 273.15
-    return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
-                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], trace.hose_K[:, design] - 273.15])
+    T = trace.T_K[:, design, :] - ZERO_CELSIUS_K
+    return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - ZERO_CELSIUS_K,
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], trace.hose_K[:, design] - ZERO_CELSIUS_K])
 
 
 TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C")

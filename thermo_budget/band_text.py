@@ -1,7 +1,7 @@
 """The band and the plan in words, in the scenario's units: for the command line's summary and the page."""
 from __future__ import annotations
 
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 # answer key -> (label, display kind, SI scale from the report's unit, digits)
 _SIZES = {"min_wait_s": ("minimum wait", None, 1.0, 0),
@@ -43,7 +43,7 @@ def plan_phrase(result: dict) -> str:
     key = "runs_before_limit" if result.get("runs_before_limit") is not None else "pulls_under_limit"
     if plan.get(key) is None:
         return ""
-    limit = f"{to_display(result['limit_C'] + 273.15, 'temperature', result['units']):.1f} " \
+    limit = f"{to_display(result['limit_C'] + ZERO_CELSIUS_K, 'temperature', result['units']):.1f} " \
             f"{unit_label('temperature', result['units'])}"
     return f"plan {plan[key]} pulls to stay under {limit} with {100 * result['confidence']:.0f} % confidence"
 
@@ -55,8 +55,8 @@ def summary_lines(result: dict) -> list[str]:
     u, c = result["units"], f"{100 * result['confidence']:.0f} %"
     lines = [f"  band (P10-P90)   {pulls_phrase(result)}; {plan_phrase(result)}"]
     peak = result["bands"]["peak_C"]
-    lines.append(f"  peak band        {_value(peak['p10'] + 273.15, 'temperature', 1.0, 1, u)} to "
-                 f"{_value(peak['p90'] + 273.15, 'temperature', 1.0, 1, u)}")
+    lines.append(f"  peak band        {_value(peak['p10'] + ZERO_CELSIUS_K, 'temperature', 1.0, 1, u)} to "
+                 f"{_value(peak['p90'] + ZERO_CELSIUS_K, 'temperature', 1.0, 1, u)}")
     for key, (label, kind, scale, digits) in _SIZES.items():
         if result.get(key) is None:
             continue

@@ -19,6 +19,7 @@ from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
 from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
+from .units import ZERO_CELSIUS_K
 
 N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: README)
 N_SIZING_SAMPLES = 32      # wait, cooler and oil volume (the first points of the same Sobol sequence)
@@ -70,12 +71,12 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     session = session_trace(scenario, rig, n_samples)
     crossing = first_crossing_s(session, *limits)
     out = {"z": z, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
-           "peak_C": peak_oil_K(session) - 273.15, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
+           "peak_C": peak_oil_K(session) - ZERO_CELSIUS_K, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
         out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,
                                                                          int(point["runs_before_limit"]),
                                                                          model.confidence)
-    oil = session.T_K[:, :, OIL] - 273.15
+    oil = session.T_K[:, :, OIL] - ZERO_CELSIUS_K
     out["envelope"] = {"time_s": np.round(session.time_s[:, 0], 2).tolist(),
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
                        "p50_C": np.round(np.quantile(oil, 0.5, axis=1), 3).tolist(),

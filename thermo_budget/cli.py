@@ -25,7 +25,8 @@ def _fmt(value_si, kind, system, digits=1):
 
 
 def _temp(celsius, system):
-    return "beyond the model's range" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
+    from .units import ZERO_CELSIUS_K
+    return "beyond the model's range" if celsius is None else _fmt(celsius + ZERO_CELSIUS_K, "temperature", system)
 
 
 def summary_text(result: dict) -> str:

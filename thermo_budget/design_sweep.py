@@ -11,7 +11,7 @@ from .outcome import peak_oil_K
 from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
 from .scenario import KEYS, Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION
-from .units import convert, to_display, unit_label
+from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
 
 # Memory of a sweep, measured with the default scenario (30 recorded points per design: about
 # 7.4 kB a design at 2,500 and 10,000 designs): a fixed part and a part per recorded point.
@@ -59,7 +59,7 @@ class SweepResult:
         def cooler(W_K):
             return f"{to_display(W_K, 'conductance', system):.1f} {unit_label('conductance', system)}"
 
-        limit = f"{to_display(self.limit_C + 273.15, 'temperature', system):.1f} {unit_label('temperature', system)}"
+        limit = f"{to_display(self.limit_C + ZERO_CELSIUS_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
         enough = self.pulls_under_limit >= self.pulls_planned
         lines = [f"{self.oil_volumes_L.size} oil volumes x {self.coolers_W_per_K.size} coolers; "
                  f"limit {limit}; planned session {self.pulls_planned} pulls",
@@ -131,6 +131,6 @@ def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = M
     runs = runs_before_limit(scenario, rig, n, sustainable, max_pulls, session=session)
     shape = V.shape
     return SweepResult(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs.reshape(shape),
-                       sustainable=sustainable.reshape(shape), peak_C=(peak_oil_K(session) - 273.15).reshape(shape),
+                       sustainable=sustainable.reshape(shape), peak_C=(peak_oil_K(session) - ZERO_CELSIUS_K).reshape(shape),
                        pulls_under_limit=under.reshape(shape), pulls_planned=len([s for s in scenario.steps if s.is_pull]),
-                       limit_C=limit - 273.15, max_pulls=max_pulls)
+                       limit_C=limit - ZERO_CELSIUS_K, max_pulls=max_pulls)

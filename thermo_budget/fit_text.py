@@ -5,7 +5,7 @@ import json
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 if TYPE_CHECKING:
     from .calibrate import FitResult
@@ -45,7 +45,7 @@ def summary_text(result: FitResult) -> str:
     lines += [f"  RMS residual          {diff(result.rms_K)} (largest {diff(result.max_abs_residual_K)}); "
               f"uncalibrated {diff(result.rms_uncalibrated_K)}",
               f"  sensor noise (est.)   {diff(result.noise_K)} from successive differences",
-              f"  ambient               {format_temperature(result.ambient_C + 273.15, u)} ({result.ambient_source})",
+              f"  ambient               {format_temperature(result.ambient_C + ZERO_CELSIUS_K, u)} ({result.ambient_source})",
               f"  cooling time constant {result.time_constant_s / 60:.0f} min"]
     if result.correlation is not None:
         lines.append(f"  correlation of the two multipliers {result.correlation:+.3f}")

@@ -21,7 +21,7 @@ from .log_follower import LogFollower
 from .measured_log import read_log
 from .network import NODE_NAMES, OIL
 from .scenario import Scenario, build_rig, limit_K
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 MAX_DROPPED_LINES = 1000
 SILENT_SENSOR_S = 60.0          # no oil reading for this long (and five intervals): an alarm
@@ -48,8 +48,8 @@ class Record:
     def to_dict(self) -> dict:
         f = self.forecast
         return {"time_s": round(self.time_s, 3),
-                "oil_C": None if self.oil_K is None else round(self.oil_K - 273.15, 3),
-                "estimate_C": {name: round(float(T) - 273.15, 3) for name, T in zip(NODE_NAMES, self.estimate_K)},
+                "oil_C": None if self.oil_K is None else round(self.oil_K - ZERO_CELSIUS_K, 3),
+                "estimate_C": {name: round(float(T) - ZERO_CELSIUS_K, 3) for name, T in zip(NODE_NAMES, self.estimate_K)},
                 "next_pull_ready_s": f.next_pull_ready_s, "wait_s": f.wait_s, "pulls_left": f.pulls_left,
                 "in_pull": self.in_pull,
                 "pull_ends_over_limit": f.pull_ends_over_limit if self.in_pull else False,
@@ -211,7 +211,7 @@ class LiveWatch:
             if np.isfinite(reading):
                 self._mark_reading(t, reading)
                 if not accepted:
-                    self._say(f"reading {reading - 273.15:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
+                    self._say(f"reading {reading - ZERO_CELSIUS_K:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
         self.rows_done, self.raw_rows_done = log.time_s.size, log.n_rows
         self.last_time_s = float(log.time_s[-1])
 

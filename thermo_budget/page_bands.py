@@ -15,6 +15,7 @@ from .page_charts import png_bytes, trace_chart_figure
 from .page_format import to_shown
 from .page_sections import html_table
 from .page_state import PagePlan
+from .units import ZERO_CELSIUS_K
 
 ENVELOPE_COLOUR = "#b5461f"
 
@@ -25,8 +26,8 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
     if envelope:
         ax = figure.axes[0]
         minutes = np.asarray(envelope["time_s"]) / 60.0
-        low = to_shown(np.asarray(envelope["p10_C"]) + 273.15, "temperature", system)
-        high = to_shown(np.asarray(envelope["p90_C"]) + 273.15, "temperature", system)
+        low = to_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, "temperature", system)
+        high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
         ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
                         label="bulk oil, likely range (P10-P90)")
         ax.legend(loc="lower right", fontsize=8, framealpha=0.9)

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 
 from .page_format import shown, shown_celsius, shown_duration
 from .planning import MAX_PULLS
+from .units import ZERO_CELSIUS_K
 
 LIMIT_NAMES = {"bulk": "the bulk oil's limit", "return_line": "the return line's limit (hoses and seals)"}
 
@@ -35,7 +36,7 @@ def _number(value_si: float, quantity: str, system: str, digits: int | None = No
 
 
 def _temperature(celsius: float, system: str) -> tuple[str, str]:
-    return _number(celsius + 273.15, "temperature", system)
+    return _number(celsius + ZERO_CELSIUS_K, "temperature", system)
 
 
 def _band_text(band) -> str | None:

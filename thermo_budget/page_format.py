@@ -9,7 +9,7 @@ import re
 
 import numpy as np
 
-from .units import SI_UNIT, UNIT_LABEL, convert
+from .units import SI_UNIT, UNIT_LABEL, ZERO_CELSIUS_K, convert
 
 SYSTEMS = ("SI", "US")
 SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
@@ -71,7 +71,7 @@ def shown(value_si: float | None, quantity: str, system: str, digits: int | None
 
 def shown_celsius(value_C: float | None, system: str) -> str:
     """A report temperature (degC) formatted in the page's system."""
-    return "n/a" if value_C is None else shown(value_C + 273.15, "temperature", system)
+    return "n/a" if value_C is None else shown(value_C + ZERO_CELSIUS_K, "temperature", system)
 
 
 def shown_duration(seconds: float | None) -> str:
@@ -96,7 +96,7 @@ def trace_csv_shown(trace, system: str) -> str:
     t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
     p_unit = QUANTITIES["power"][1][system]
     header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
-    columns = [rows[:, 0], *(to_shown(rows[:, i] + 273.15, "temperature", system) for i in range(1, 5)),
+    columns = [rows[:, 0], *(to_shown(rows[:, i] + ZERO_CELSIUS_K, "temperature", system) for i in range(1, 5)),
                to_shown(rows[:, 5], "power", system)]
     lines = [",".join(header)]
     lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
@@ -111,7 +111,7 @@ def note_in(note: str, system: str) -> str:
     def restate(match):
         value, unit = float(match.group(1)), match.group(2)
         if unit == "degC":
-            return shown(value + 273.15, "temperature", system)
+            return shown(value + ZERO_CELSIUS_K, "temperature", system)
         if unit == "W/K":
             return shown(value, "conductance", system)
         return shown(value / 1000.0, "oil_volume", system)

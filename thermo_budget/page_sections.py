@@ -10,7 +10,7 @@ import streamlit as st
 from . import page_inputs as pi
 from . import page_state as state
 from .page_state import PagePlan
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 
 @dataclass
@@ -93,9 +93,9 @@ def schedule_rows(answers: dict, system: str) -> tuple[list[str], list[list[str]
     header = ["pull", "starts at (min)", f"oil at start ({temp_unit})", f"bulk peak ({temp_unit})",
               f"return-line peak ({temp_unit})", "wait before (s)", "of it, extra (s)"]
     rows = [[str(row["index"]), f"{row['start_s'] / 60.0:.1f}",
-             f"{to_display(row['start_C'] + 273.15, 'temperature', system):.1f}",
-             f"{to_display(row['peak_C'] + 273.15, 'temperature', system):.1f}",
-             f"{to_display(row['peak_return_C'] + 273.15, 'temperature', system):.1f}" if "peak_return_C" in row else "",
+             f"{to_display(row['start_C'] + ZERO_CELSIUS_K, 'temperature', system):.1f}",
+             f"{to_display(row['peak_C'] + ZERO_CELSIUS_K, 'temperature', system):.1f}",
+             f"{to_display(row['peak_return_C'] + ZERO_CELSIUS_K, 'temperature', system):.1f}" if "peak_return_C" in row else "",
              f"{row['wait_before_s']:.0f}", f"{row['extra_wait_s']:.0f}"]
             for row in answers["schedule"]]
     return header, rows
@@ -172,7 +172,7 @@ def _draw_hot_day(page: PagePlan, place):
     left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")
     low, high = DEFAULT_RANGE_C
-    within = low <= page.scenario.ambient_K - 273.15 <= high
+    within = low <= page.scenario.ambient_K - ZERO_CELSIUS_K <= high
     span = (f"{pi.shown_celsius(low, system)} to {pi.shown_celsius(high, system)}" if within else
             f"your room ± {AROUND_K:.0f} K")
     left.caption(f"The same plan from {span}; the rig starts as much warmer as the air is. "

@@ -11,6 +11,7 @@ from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_comple
 from .scenario import Scenario, build_rig, limit_K
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
+from .units import ZERO_CELSIUS_K
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
@@ -358,7 +359,7 @@ def planning_answers(scenario: Scenario) -> dict:
     runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
     if sustainable:
         notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
-                     f"{steady_peak - 273.15:.1f} degC, below the {limit - 273.15:.1f} degC limit.")
+                     f"{steady_peak - ZERO_CELSIUS_K:.1f} degC, below the {limit - ZERO_CELSIUS_K:.1f} degC limit.")
     elif np.isnan(runs):
         notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
     # the planned session without a cooler: the session already run, where the scenario has none
@@ -376,7 +377,7 @@ def planning_answers(scenario: Scenario) -> dict:
     return {
         "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
         "sustainable": sustainable,
-        "steady_peak_C": round(steady_peak - 273.15, 3) if sustainable else None,
+        "steady_peak_C": round(steady_peak - ZERO_CELSIUS_K, 3) if sustainable else None,
         "min_wait_s": minimum_wait_s(scenario, notes),
         "cooler_needed": cooler_needed,
         "cooler_required_W_per_K": cooler,

@@ -21,7 +21,7 @@ from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              read_toml_bytes, read_toml_text, with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
-from .units import convert
+from .units import ZERO_CELSIUS_K, convert
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
 DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
@@ -99,7 +99,7 @@ class Scenario:
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
     hardware_coupling_multiplier: float = 1.0  # scales the oil -> metal bodies conductance (a log fit sets it)
     return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
-    flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
+    flash_point_K: float = DEFAULT_FLASH_POINT_C + ZERO_CELSIUS_K
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
 
@@ -259,7 +259,7 @@ def _parse(raw: dict) -> Scenario:
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
                         hardware_coupling_multiplier=coupling_multiplier,
                         return_line_max_temperature_K=return_line_max,
-                        flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
+                        flash_point_K=DEFAULT_FLASH_POINT_C + ZERO_CELSIUS_K if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
                         uncertainty=uncertainty)
     _check_consistency(scenario)

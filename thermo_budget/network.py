@@ -25,6 +25,7 @@ from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, amb
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
 from .oil import Oil
+from .units import ZERO_CELSIUS_K
 
 # The conductances live in conductances.py; they are re-exported here, the network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
@@ -176,11 +177,11 @@ def _capacity_scale(rig: Rig):
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     """Sensible enthalpy of each node (N, N_NODES), J, relative to 0 degC; its change is the heat stored."""
     oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
-    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
-    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
+    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - ZERO_CELSIUS_K)
+    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - ZERO_CELSIUS_K)
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = liner_C * (T_K[:, HOSE] - 273.15)
-    cover = cover_C * (T_K[:, HOSE_COVER] - 273.15)
+    liner = liner_C * (T_K[:, HOSE] - ZERO_CELSIUS_K)
+    cover = cover_C * (T_K[:, HOSE_COVER] - ZERO_CELSIUS_K)
     return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, n=T_K.shape[0])
 
 
@@ -188,11 +189,11 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
     H = H_J / _capacity_scale(rig)
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
-    wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
-    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
+    wall = H[:, WALL] / rig.wall_capacity_J_K + ZERO_CELSIUS_K
+    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + ZERO_CELSIUS_K
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = H[:, HOSE] / liner_C + 273.15
-    cover = H[:, HOSE_COVER] / cover_C + 273.15
+    liner = H[:, HOSE] / liner_C + ZERO_CELSIUS_K
+    cover = H[:, HOSE_COVER] / cover_C + ZERO_CELSIUS_K
     return _columns(oil, wall, hardware, liner, cover, n=H.shape[0])
 
 

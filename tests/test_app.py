@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pytest
 from streamlit.testing.v1 import AppTest
+from thermo_budget.units import ZERO_CELSIUS_K
 
 APP = str(Path(__file__).resolve().parent.parent / "app.py")
 TIMEOUT_S = 120
@@ -251,9 +252,9 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         # the hot day: each hotter ambient's pull count, as hot_day() gives it
         hot = hot_day(load_scenario(path))
         lines = next(m.value for m in at.markdown if m.value.startswith("Hotter than today")).splitlines()[1:]
-        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + 273.15 + 1e-9][:len(lines)]
+        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + ZERO_CELSIUS_K + 1e-9][:len(lines)]
         for line, i in zip(lines, hotter):
-            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
+            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - ZERO_CELSIUS_K))
             assert f"{int(hot.pulls[i])} pulls" in line
         # the schedule: each pull's bulk and return-line peak
         schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)

@@ -16,6 +16,7 @@ from thermo_budget.scenario import build_rig, limit_K, load_scenario
 from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 def all_finite(value) -> bool:
@@ -79,7 +80,7 @@ def test_the_eigen_solve_is_guarded_against_a_non_finite_system():
 
 def test_a_peak_within_the_oil_data_is_a_number(default_report, default_scenario):
     assert default_report["beyond_model_range"] is False
-    assert default_report["peak_C"] + 273.15 < model_range_max_K(default_scenario)
+    assert default_report["peak_C"] + ZERO_CELSIUS_K < model_range_max_K(default_scenario)
 
 
 def test_a_non_finite_answer_is_refused_naming_it():

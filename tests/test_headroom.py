@@ -6,6 +6,7 @@ import pytest
 from thermo_budget import load_scenario
 from thermo_budget.headroom import headroom_at, hot_oil_volume_m3
 from thermo_budget.answers import report
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 def test_default_tank_at_the_limit_by_hand(default_scenario):
@@ -31,6 +32,6 @@ def test_report_states_the_head_room_and_the_smallest_tank_has_room_to_spare(def
         assert answers["min_oil_volume_L"] is not None
         # the smallest oil volume, in its tank scaled to it, still leaves room at the limit
         assert answers["min_oil_volume_headroom_L"] > 0
-        smallest = headroom_at(scenario, answers["limit_C"] + 273.15, answers["min_oil_volume_L"] / 1000.0)
+        smallest = headroom_at(scenario, answers["limit_C"] + ZERO_CELSIUS_K, answers["min_oil_volume_L"] / 1000.0)
         # geometric scaling keeps the fraction of the tank left free
-        assert smallest.fraction == pytest.approx(headroom_at(scenario, answers["limit_C"] + 273.15).fraction, rel=1e-9)
+        assert smallest.fraction == pytest.approx(headroom_at(scenario, answers["limit_C"] + ZERO_CELSIUS_K).fraction, rel=1e-9)

@@ -10,6 +10,7 @@ from thermo_budget.answers import report
 from thermo_budget.scenario import load_scenario
 
 from conftest import SCENARIO_DIR
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 @pytest.mark.parametrize("name", ["default.toml", "us_units_fan.toml", "us_20hp_small_tank.toml"])
@@ -31,7 +32,7 @@ def test_hotter_never_gives_more_pulls_and_the_own_ambient_matches_the_report(na
 def test_batch_equals_separate_runs_and_default_range():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
     ambients = default_ambients_K(scenario)
-    assert ambients[0] == pytest.approx(273.15) and ambients[-1] == pytest.approx(318.15)
+    assert ambients[0] == pytest.approx(ZERO_CELSIUS_K) and ambients[-1] == pytest.approx(318.15)
     batch = hot_day(scenario, ambients[[2, 8]])
     for i, a in enumerate(ambients[[2, 8]]):
         alone = hot_day(scenario, [a])

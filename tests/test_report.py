@@ -11,6 +11,7 @@ from thermo_budget.answers import TRACE_COLUMNS, session_report, simulate, trace
 from thermo_budget.scenario import build_rig, limit_K, load_scenario
 
 from conftest import REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 # Exact unit factors
 PSI_PA = 6894.757293168
@@ -114,7 +115,7 @@ def test_peak_return_rise_matches_the_210_rule(us_scenario, us_trace):
     gpm = r["pump"]["flow_L_min"] / 1000.0 / GAL_M3
     rule_F = r["peak_pull_power_W"] * W_IN_BTU_PER_HR / (210.0 * gpm)
     assert rise_F == pytest.approx(rule_F, rel=0.15)
-    assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - 273.15, abs=1e-3)
+    assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - ZERO_CELSIUS_K, abs=1e-3)
 
 
 def test_pulls_under_limit_counts_until_the_first_crossing(crossing_scenario, crossing_trace):
@@ -151,7 +152,7 @@ def test_limit_reason_min_viscosity_in_the_report():
     s = load_scenario(raw)
     r = session_report(s)
     assert r["limit_reason"] == "min_viscosity"
-    assert r["limit_C"] == pytest.approx(s.oil.temperature_at_viscosity_K(16.0) - 273.15, abs=1e-3)
+    assert r["limit_C"] == pytest.approx(s.oil.temperature_at_viscosity_K(16.0) - ZERO_CELSIUS_K, abs=1e-3)
     assert r["limit_C"] < 80.0
 
 
@@ -168,7 +169,7 @@ def test_trace_csv_keeps_the_six_columns_and_adds_the_hose_last(default_scenario
     assert set(np.round(rows[1:, 5])) <= {7000.0, 150.0}      # pull and idle loads of the default rig
     np.testing.assert_allclose(rows, trace_rows(trace), rtol=1e-5, atol=1e-3)
     # hose_C: the rubber's capacity-weighted mean over its two rings (liner and cover)
-    np.testing.assert_allclose(rows[:, 6], trace.hose_K[:, 0] - 273.15, atol=1e-3)
+    np.testing.assert_allclose(rows[:, 6], trace.hose_K[:, 0] - ZERO_CELSIUS_K, atol=1e-3)
 
 
 def test_first_crossing_interpolates_between_points(crossing_trace, crossing_scenario):

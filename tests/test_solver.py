@@ -17,6 +17,7 @@ from thermo_budget.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS, base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 # --- analytic solutions -------------------------------------------------------------------------
@@ -204,7 +205,7 @@ def adiabatic_raw():
 def cragoe_enthalpy_J_kg(T_K, s):
     """Integral of Cragoe's c = (0.388 + 0.00045 t)/sqrt(s) Btu/(lb °F) in °F, from 32 °F, in J/kg
     (Cragoe, NBS Misc. Publ. 97; written out here independently of thermo_budget.oil)."""
-    t_F = (T_K - 273.15) * 1.8 + 32.0
+    t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     btu_per_lb = (0.388 * (t_F - 32.0) + 0.000225 * (t_F**2 - 32.0**2)) / np.sqrt(s)
     return btu_per_lb * 1055.05585262 / 0.45359237
 

@@ -5,7 +5,7 @@ It checks one claim of the lumped network (thermo_budget.network, nodes HOSE and
 an adiabatic rig with short pulls and engine-off waits, most of what the bulk oil ends above the
 single-temperature energy balance is heat that a real hose wall cannot yet have taken, because its
 conduction time t^2/alpha is minutes. The lumped network has the wall as two rings (the liner, the
-inner fifth of the thickness, and the cover; conductances.hose_rings_m; until it found one node at
+inner fifth of the thickness, and the cover; rig.hose_rings_m; until it found one node at
 mid-wall 38 % short, one node); here the wall is cut into n_cells rings.
 
 Physics (what each piece stands for, and its source):

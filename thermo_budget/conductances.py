@@ -1,10 +1,10 @@
 """The conductances of the network, W/K: each path between two bodies of a rig, or between a body
 and the air, one function with a docstring saying what it stands for. Pure functions of a `Rig`
-(network.py) and the temperatures, vectorised over designs.
+(rig.py) and the temperatures, vectorised over designs.
 """
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, NamedTuple
+from typing import NamedTuple
 
 import numpy as np
 
@@ -12,15 +12,9 @@ from .air import air_properties
 from .correlations import (Nu_combined_Churchill, Nu_flat_plate_forced_Incropera,
                            Nu_horizontal_cylinder_Churchill_Chu, Nu_horizontal_plate_hot_down_McAdams,
                            Nu_horizontal_plate_hot_up_McAdams, Nu_tube_Hausen_Gnielinski,
-                           Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
-                           fin_efficiency_straight, h_radiation_grey, jet_centreline_velocity_Pope, rayleigh)
-from .materials import HOSE_WALL
-
-if TYPE_CHECKING:
-    from .network import Rig
-
-# Rubber hose wall (recalled from memory: 0.2-0.3 W/(m K); see materials.HOSE_WALL).
-HOSE_WALL_CONDUCTIVITY_W_mK = HOSE_WALL["conductivity_W_mK"]
+                           Nu_vertical_plate_Churchill_Chu, fin_efficiency_straight, h_radiation_grey,
+                           jet_centreline_velocity_Pope, rayleigh)
+from .rig import Rig, rows as _rows
 
 
 def _like(rows, like):
@@ -28,16 +22,6 @@ def _like(rows, like):
     state many."""
     n = np.shape(like)[-1]
     return rows if rows.shape[-1] == n else np.broadcast_to(rows[:, :1], (rows.shape[0], n))
-
-
-def _rows(*values, like=None) -> np.ndarray:
-    """Floats or (N,) arrays as the rows of one (k, N) array; N from `like` or the first array."""
-    reference = next(v for v in values if np.ndim(v)) if like is None else like
-    out = np.empty((len(values), np.shape(reference)[0]))
-    for i, value in enumerate(values):
-        out[i] = value
-    return out
-
 
 
 def _Nu_top_and_bottom(Ra, dT):
@@ -73,76 +57,6 @@ def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
     u0 = volume_flow_m3_s / (0.25 * np.pi * d**2)
     jet = jet_centreline_velocity_Pope(u0, d, rig.jet_throw_m)
     return np.maximum(jet, volume_flow_m3_s / rig.tank_cross_section_m2)
-
-
-# The hose wall as two finite-volume rings (see hose_rings_m): the liner is this fraction of the
-# wall's thickness, next to the oil; the cover is the rest.
-HOSE_LINER_FRACTION = 0.2
-
-
-def hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m):
-    """The hose wall's two rings, radii in m: (bore face, liner/cover interface, outside face,
-    liner centre, cover centre).
-
-    Finite-volume rings (Incropera, 6th ed., ch. 5, in radial form): each node sits at its ring's
-    mid-radius and holds its ring's volume; neighbouring centres exchange 2 pi k L / ln(r_b / r_a)
-    (the shell conductance, eq. 3.27). The rule: the liner, the ring in contact with the oil, is the
-    inner HOSE_LINER_FRACTION (a fifth) of the wall thickness, the cover the rest.
-
-    Why a fifth: a pull touches the rubber for 10-30 s, and heat soaks into it about sqrt(alpha t)
-    deep, 0.9-1.5 mm with alpha = k / (rho c) = 7.5e-8 m^2/s (materials.HOSE_WALL), a fifth to a
-    third of a 4.8 mm wall, while the whole wall's conduction time t^2 / alpha is about 300 s. One node
-    at mid-wall (the former model) cannot take heat up in a 10-s contact. Against the wall resolved
-    into 40 rings (tests/hose_wall_reference.py, the adiabatic rig of tests/test_solver.py: 20 pulls
-    of 10 kW x 10 s with 30 s engine-off waits, inner face adiabatic while the engine is off), the heat
-    two rings take over the session, by the liner's share of the thickness (measured, one-way drive
-    by the four-node model's trace): 0.10: -8.6 %, 0.15: -6.0 %, 0.20: -6.5 %, 0.25: -8.1 %,
-    1/3: -11.7 %, 0.50 (equal rings): -19.3 %; one node at mid-wall: -38 %. The optimum is flat
-    between 0.15 and 0.2; a fifth is the round figure in it.
-    """
-    r_i, r_o = 0.5 * hose_inner_diameter_m, 0.5 * hose_outer_diameter_m
-    r_s = r_i + HOSE_LINER_FRACTION * (r_o - r_i)
-    return r_i, r_s, r_o, 0.5 * (r_i + r_s), 0.5 * (r_s + r_o)
-
-
-def hose_liner_share(hose_inner_diameter_m, hose_outer_diameter_m):
-    """The liner's share of the hose wall's volume (and so of its capacity): (r_s^2 - r_i^2) /
-    (r_o^2 - r_i^2), a little under HOSE_LINER_FRACTION (0.18 on a 0.66 bore ratio)."""
-    r_i, r_s, r_o, _, _ = hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m)
-    return (r_s**2 - r_i**2) / (r_o**2 - r_i**2)
-
-
-def constant_parts(rig: Rig) -> dict:
-    """Geometry-only parts of the conductances, to work out once per rig (Rig.constants): stacked
-    lengths, the wall's and the hose wall's conduction, areas. (Emissivities and multipliers may be
-    sampled per design by the uncertainty band, so they stay out of it.)"""
-    like = np.atleast_1d(rig.fill_height_m)
-    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    L = rig.hose_length_m
-    r_i, _, r_o, r_liner, r_cover = hose_rings_m(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m)
-    k_hose = HOSE_WALL_CONDUCTIVITY_W_mK
-    return {
-        "half_wall_m2K_W": half_wall,
-        # oil side: (sides, bottom) natural-convection lengths and forced-flow lengths
-        "bottom_ra_per_side_ra": (rig.top_length_m / rig.fill_height_m) ** 3,
-        "oil_forced_lengths_m": _rows(rig.fill_height_m, rig.plate_length_m, like=like),
-        "oil_lengths_m": _rows(rig.fill_height_m, rig.top_length_m, like=like),
-        # air side: rows (wall, bodies) of the vertical and forced lengths
-        "vertical_lengths_m": _rows(rig.side_height_m, rig.body_length_m, like=like),
-        "forced_lengths_m": _rows(rig.plate_length_m, rig.body_length_m, like=like),
-        "dry_area_m2": rig.dry_side_area_m2 + rig.top_area_m2,
-        "wall_kt_W_K": rig.wall_conductivity_W_mK * rig.wall_thickness_m,
-        # hoses: the rubber's two rings (hose_rings_m): bore face -> liner centre, liner centre ->
-        # cover centre, cover centre -> outside face; the liner's share of the capacity
-        "hose_area_m2": np.pi * rig.hose_outer_diameter_m * L,
-        "hose_inner_W_K": cylinder_wall_conductance_W_K(2 * r_i, 2 * r_liner, L, k_hose),
-        "hose_link_W_K": cylinder_wall_conductance_W_K(2 * r_liner, 2 * r_cover, L, k_hose),
-        "hose_outer_W_K": cylinder_wall_conductance_W_K(2 * r_cover, 2 * r_o, L, k_hose),
-        "hose_liner_share": hose_liner_share(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m),
-        # loop: rows (hose bore, passages) of the tube diameters and lengths
-        "tube_diameters_m": _rows(rig.hose_inner_diameter_m, rig.passage_diameter_m, like=like),
-        "tube_lengths_m": _rows(L, rig.passage_length_m, like=like),
-    }
 
 
 def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props=None):

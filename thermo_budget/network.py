@@ -5,7 +5,7 @@
 Nodes (NODE_NAMES): the oil (the reservoir's and the loop's), the reservoir wall, the loop's metal
 bodies (pump, valve, manifold and fittings, wetted inside), and the hoses' wall (rubber and braid)
 as two rings: the liner (HOSE, the inner fifth of the wall, touched by the oil) and the cover
-(HOSE_COVER, the rest, to the air); see conductances.hose_rings_m for the rule and why.
+(HOSE_COVER, the rest, to the air); see rig.hose_rings_m for the rule and why.
 Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
 a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE, HOSE_COVER.
 Where one temperature stands for the hose (a report's end_hose_C, the trace CSV's hose_C), it is
@@ -14,20 +14,19 @@ capacity is the heat it holds, as the one hose node's was.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
-from functools import cached_property
+from dataclasses import dataclass
 
 import numpy as np
 
-from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K,
-                           air_side_h_W_m2K, constant_parts, dry_shell_W_K, hose_ring_link_W_K, hose_rings_m,
+from .conductances import (ambient_conductances_W_K, air_side_h_W_m2K, dry_shell_W_K, hose_ring_link_W_K,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
-from .oil import Oil
+from .rig import HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, Rig, hose_rings_m
 from .units import ZERO_CELSIUS_K
 
-# The conductances live in conductances.py; they are re-exported here, the network's one door.
+# The Rig lives in rig.py and the conductances in conductances.py; they are re-exported here, the
+# network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
            "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
@@ -42,74 +41,6 @@ OIL, WALL, HARDWARE, HOSE, HOSE_COVER = 0, 1, 2, 3, 4
 NODE_NAMES = ("oil", "wall", "hardware", "hose liner", "hose cover")
 N_NODES = len(NODE_NAMES)
 HOSE_RINGS = (HOSE, HOSE_COVER)
-
-
-@dataclass(frozen=True)
-class Rig:
-    """A rig in SI units. Array-valued fields describe N designs at once (shape (N,))."""
-    oil: Oil
-    oil_mass_kg: np.ndarray
-    # reservoir outer faces (m^2) and their characteristic lengths (m)
-    side_area_m2: np.ndarray
-    side_height_m: np.ndarray
-    top_area_m2: np.ndarray
-    top_length_m: np.ndarray          # A/P of the top face
-    bottom_area_m2: np.ndarray        # 0 when the tank stands on the floor (adiabatic bottom)
-    plate_length_m: np.ndarray        # length along a forced air stream
-    wetted_area_m2: np.ndarray        # wetted sides + bottom (inside)
-    fill_height_m: np.ndarray
-    tank_cross_section_m2: np.ndarray
-    wall_thickness_m: float
-    wall_conductivity_W_mK: float
-    wall_capacity_J_K: np.ndarray
-    wall_emissivity: float
-    # loop hardware: metal bodies (pump, valve, manifold, fittings) and hoses
-    hardware_capacity_J_K: float      # the metal bodies
-    hose_length_m: float
-    hose_outer_diameter_m: float
-    hose_inner_diameter_m: float
-    body_area_m2: float               # pump, valve and fittings, outside
-    body_length_m: float
-    hardware_emissivity: float
-    # pump
-    displacement_m3: float
-    volumetric_efficiency: float
-    # surroundings and multipliers
-    ambient_K: float                         # a float, or one per design
-    air_speed_m_s: float = 0.0
-    convection_multiplier: float = 1.0       # air side; a float, or one per design
-    capacity_multiplier: float = 1.0         # a float, or one per design
-    # Multipliers on the inside of the rig and on the load, each a float or one per design (the
-    # uncertainty band samples them; 1 is the model as written).
-    oil_side_multiplier: float = 1.0         # the oil-side coefficient on the tank's wetted wall
-    hardware_coupling_multiplier: float = 1.0  # the conductance loop oil -> loop hardware
-    power_multiplier: float = 1.0            # the absorbed power of every step
-    # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
-    cooler_W_K: np.ndarray = 0.0
-    cooler_fan: str = "with_flow"
-    # The inside of the rig (build_rig fills these; the defaults describe a rig without them).
-    loop_oil_mass_kg: float = 0.0            # oil in the hoses, pump and valve (in the OIL node)
-    hose_capacity_J_K: float = 1.0           # hose rubber and braid, both rings (the liner's share: constants)
-    internal_area_m2: float = 0.0            # wetted inside of the metal bodies (pump chamber + passages)
-    pump_wetted_area_m2: float = 0.0         # the part of it in the pump's working chamber
-    gear_pitch_diameter_m: float = 0.04      # the pump's gears (taken as an external gear pump)
-    passage_diameter_m: float = 0.02         # their passages' bore
-    passage_length_m: float = 0.1            # length of one passage through a body
-    wetted_side_area_m2: np.ndarray = 0.0    # wetted part of the tank's sides (inside = outside)
-    wetted_bottom_area_m2: np.ndarray = 0.0  # the tank's bottom, inside (wetted even on the floor)
-    dry_side_area_m2: np.ndarray = 0.0       # the sides above the oil line
-    dry_fin_length_m: np.ndarray = 0.0       # dry side height + the lid's A/P: the fin fed from the oil line
-    dry_capacity_weight: np.ndarray = 1.0    # share of the dry shell's capacity in the wall node
-    jet_throw_m: np.ndarray = 0.3            # distance the return jet crosses to the far wall
-
-    def with_changes(self, **changes) -> "Rig":
-        return replace(self, **changes)
-
-    @cached_property
-    def constants(self) -> dict:
-        """The parts of the conductances that depend on the geometry only, worked out once per rig
-        (conductances.constant_parts); a changed rig is a new object and works them out again."""
-        return constant_parts(self)
 
 
 @dataclass(frozen=True)

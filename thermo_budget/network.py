@@ -22,7 +22,7 @@ from .conductances import (ambient_conductances_W_K, air_side_h_W_m2K, dry_shell
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K)
-from .rig import HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, Rig, hose_rings_m
+from .rig import HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, PerDesign, Rig, hose_rings_m
 from .units import ZERO_CELSIUS_K
 
 # The Rig lives in rig.py and the conductances in conductances.py; they are re-exported here, the
@@ -50,8 +50,8 @@ class Inputs:
     power_W : heat absorbed by the pump and valve, all into the oil.
     volume_flow_m3_s : pump delivery (0 with the engine off).
     """
-    power_W: np.ndarray
-    volume_flow_m3_s: np.ndarray
+    power_W: PerDesign
+    volume_flow_m3_s: PerDesign
 
 
 def _columns(*values, n=None) -> np.ndarray:

@@ -14,6 +14,8 @@ from .correlations import cylinder_wall_conductance_W_K
 from .materials import HOSE_WALL
 from .oil import Oil
 
+PerDesign = float | np.ndarray   # a float, the same for every design, or an array of shape (N,), one per design
+
 # Rubber hose wall (recalled from memory: 0.2-0.3 W/(m K); see materials.HOSE_WALL).
 HOSE_WALL_CONDUCTIVITY_W_mK = HOSE_WALL["conductivity_W_mK"]
 
@@ -100,61 +102,67 @@ def constant_parts(rig: Rig) -> dict:
 
 @dataclass(frozen=True)
 class Rig:
-    """A rig in SI units. Array-valued fields describe N designs at once (shape (N,))."""
+    """A rig in SI units. Every numeric field is `PerDesign`: a float (the same for every design) or
+    an array of shape (N,), one value per design, so that one integration serves N designs at once
+    (a design sweep varies the oil and the cooler, the uncertainty band the multipliers, the
+    emissivities and the ambient, the hot day the ambient). Defaults describe a rig without the
+    part (no cooler, no loop oil, the model as written)."""
+    # the fluid
     oil: Oil
-    oil_mass_kg: np.ndarray
-    # reservoir outer faces (m^2) and their characteristic lengths (m)
-    side_area_m2: np.ndarray
-    side_height_m: np.ndarray
-    top_area_m2: np.ndarray
-    top_length_m: np.ndarray          # A/P of the top face
-    bottom_area_m2: np.ndarray        # 0 when the tank stands on the floor (adiabatic bottom)
-    plate_length_m: np.ndarray        # length along a forced air stream
-    wetted_area_m2: np.ndarray        # wetted sides + bottom (inside)
-    fill_height_m: np.ndarray
-    tank_cross_section_m2: np.ndarray
-    wall_thickness_m: float
-    wall_conductivity_W_mK: float
-    wall_capacity_J_K: np.ndarray
-    wall_emissivity: float
-    # loop hardware: metal bodies (pump, valve, manifold, fittings) and hoses
-    hardware_capacity_J_K: float      # the metal bodies
-    hose_length_m: float
-    hose_outer_diameter_m: float
-    hose_inner_diameter_m: float
-    body_area_m2: float               # pump, valve and fittings, outside
-    body_length_m: float
-    hardware_emissivity: float
-    # pump
-    displacement_m3: float
-    volumetric_efficiency: float
-    # surroundings and multipliers
-    ambient_K: float                         # a float, or one per design
-    air_speed_m_s: float = 0.0
-    convection_multiplier: float = 1.0       # air side; a float, or one per design
-    capacity_multiplier: float = 1.0         # a float, or one per design
-    # Multipliers on the inside of the rig and on the load, each a float or one per design (the
-    # uncertainty band samples them; 1 is the model as written).
-    oil_side_multiplier: float = 1.0         # the oil-side coefficient on the tank's wetted wall
-    hardware_coupling_multiplier: float = 1.0  # the conductance loop oil -> loop hardware
-    power_multiplier: float = 1.0            # the absorbed power of every step
-    # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
-    cooler_W_K: np.ndarray = 0.0
+    oil_mass_kg: PerDesign                   # in the reservoir
+    # the reservoir's outer faces, m^2, and their characteristic lengths, m
+    side_area_m2: PerDesign
+    side_height_m: PerDesign
+    top_area_m2: PerDesign
+    top_length_m: PerDesign                  # A/P of the top face
+    bottom_area_m2: PerDesign                # 0 when the tank stands on the floor (adiabatic bottom)
+    plate_length_m: PerDesign                # length along a forced air stream
+    wetted_area_m2: PerDesign                # wetted sides + bottom (inside)
+    fill_height_m: PerDesign
+    tank_cross_section_m2: PerDesign
+    # the reservoir's wall
+    wall_thickness_m: PerDesign
+    wall_conductivity_W_mK: PerDesign
+    wall_capacity_J_K: PerDesign
+    wall_emissivity: PerDesign
+    # the loop's hardware: metal bodies (pump, valve, manifold, fittings) and hoses
+    hardware_capacity_J_K: PerDesign         # the metal bodies
+    hose_length_m: PerDesign
+    hose_outer_diameter_m: PerDesign
+    hose_inner_diameter_m: PerDesign
+    body_area_m2: PerDesign                  # pump, valve and fittings, outside
+    body_length_m: PerDesign
+    hardware_emissivity: PerDesign
+    # the pump
+    displacement_m3: PerDesign               # per revolution
+    volumetric_efficiency: PerDesign         # 0-1
+    # the surroundings
+    ambient_K: PerDesign
+    air_speed_m_s: PerDesign = 0.0
+    # multipliers on the model (1 is the model as written): the air side and the capacities (a fit
+    # of a log sets them), the inside of the rig and the load (the uncertainty band samples them)
+    convection_multiplier: PerDesign = 1.0
+    capacity_multiplier: PerDesign = 1.0
+    oil_side_multiplier: PerDesign = 1.0           # the oil-side coefficient on the tank's wetted wall
+    hardware_coupling_multiplier: PerDesign = 1.0  # the conductance loop oil -> loop hardware
+    power_multiplier: PerDesign = 1.0              # the absorbed power of every step
+    # an optional cooler: specific dissipation, W/K per K of ETD; its fan "with_flow" or "always"
+    cooler_W_K: PerDesign = 0.0
     cooler_fan: str = "with_flow"
-    # The inside of the rig (build_rig fills these; the defaults describe a rig without them).
-    loop_oil_mass_kg: float = 0.0            # oil in the hoses, pump and valve (in the OIL node)
-    hose_capacity_J_K: float = 1.0           # hose rubber and braid, both rings (the liner's share: constants)
-    internal_area_m2: float = 0.0            # wetted inside of the metal bodies (pump chamber + passages)
-    pump_wetted_area_m2: float = 0.0         # the part of it in the pump's working chamber
-    gear_pitch_diameter_m: float = 0.04      # the pump's gears (taken as an external gear pump)
-    passage_diameter_m: float = 0.02         # their passages' bore
-    passage_length_m: float = 0.1            # length of one passage through a body
-    wetted_side_area_m2: np.ndarray = 0.0    # wetted part of the tank's sides (inside = outside)
-    wetted_bottom_area_m2: np.ndarray = 0.0  # the tank's bottom, inside (wetted even on the floor)
-    dry_side_area_m2: np.ndarray = 0.0       # the sides above the oil line
-    dry_fin_length_m: np.ndarray = 0.0       # dry side height + the lid's A/P: the fin fed from the oil line
-    dry_capacity_weight: np.ndarray = 1.0    # share of the dry shell's capacity in the wall node
-    jet_throw_m: np.ndarray = 0.3            # distance the return jet crosses to the far wall
+    # the inside of the rig (build_rig fills these)
+    loop_oil_mass_kg: PerDesign = 0.0        # oil in the hoses, pump and valve (in the OIL node)
+    hose_capacity_J_K: PerDesign = 1.0       # hose rubber and braid, both rings (the liner's share: constants)
+    internal_area_m2: PerDesign = 0.0        # wetted inside of the metal bodies (pump chamber + passages)
+    pump_wetted_area_m2: PerDesign = 0.0     # the part of it in the pump's working chamber
+    gear_pitch_diameter_m: PerDesign = 0.04  # the pump's gears (taken as an external gear pump)
+    passage_diameter_m: PerDesign = 0.02     # their passages' bore
+    passage_length_m: PerDesign = 0.1        # length of one passage through a body
+    wetted_side_area_m2: PerDesign = 0.0     # wetted part of the tank's sides (inside = outside)
+    wetted_bottom_area_m2: PerDesign = 0.0   # the tank's bottom, inside (wetted even on the floor)
+    dry_side_area_m2: PerDesign = 0.0        # the sides above the oil line
+    dry_fin_length_m: PerDesign = 0.0        # dry side height + the lid's A/P: the fin fed from the oil line
+    dry_capacity_weight: PerDesign = 1.0     # share of the dry shell's capacity in the wall node
+    jet_throw_m: PerDesign = 0.3             # distance the return jet crosses to the far wall
 
     def with_changes(self, **changes) -> "Rig":
         return replace(self, **changes)

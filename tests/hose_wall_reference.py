@@ -483,7 +483,8 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     from test_solver import ADIABATIC_PULL, ENGINE_OFF_30S, _single_temperature_K, adiabatic_raw
 
     from thermo_budget.answers import TRACE_RESOLUTION
-    from thermo_budget.scenario import build_rig, load_scenario
+    from thermo_budget.scenario import load_scenario
+    from thermo_budget.rig_build import build_rig
     from thermo_budget.solver import integrate
 
     scenario = load_scenario(adiabatic_raw())

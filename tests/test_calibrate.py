@@ -20,7 +20,8 @@ from thermo_budget.errors import ScenarioError
 from thermo_budget.measured_log import read_log
 from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
 from thermo_budget.answers import simulate, trace_csv
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import Resolution, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate
 

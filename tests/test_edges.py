@@ -12,7 +12,8 @@ from thermo_budget import report
 from thermo_budget.errors import ScenarioError
 from thermo_budget.network import OIL
 from thermo_budget.answers import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, base_raw, set_path

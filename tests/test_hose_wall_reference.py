@@ -29,7 +29,8 @@ from scipy.optimize import brentq
 from thermo_budget.materials import HOSE_WALL
 from thermo_budget.network import HARDWARE, N_NODES, OIL, WALL, hose_rings_m, node_enthalpy_J
 from thermo_budget.answers import TRACE_RESOLUTION
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.solver import integrate
 
 import hose_wall_reference as ref

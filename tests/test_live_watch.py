@@ -15,7 +15,8 @@ from thermo_budget.cli import main
 from thermo_budget.live_forecast import forecast, planned_pull
 from thermo_budget.live_watch import JSON_KEYS, LiveWatch
 from thermo_budget.network import NODE_NAMES, OIL
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import SCENARIO_DIR
 from live_logger import extra_mass_ready_s, hot_start_scenario, log_day

@@ -11,8 +11,9 @@ from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTI
                                    loop_conductances_W_K, node_enthalpy_J, node_equations, oil_to_hardware_W_K,
                                    oil_to_hose_W_K, passive_rejection_W, return_line_rise_K,
                                    stirring_velocity_m_s, temperatures_from_enthalpy_K, wall_to_ambient_W_K)
-from thermo_budget.rig_build import default_internal_area_m2
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.hardware_defaults import default_internal_area_m2
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import pump_flow_m3_s
 
 from conftest import base_raw, set_path

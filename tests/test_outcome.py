@@ -8,7 +8,8 @@ import pytest
 from thermo_budget.outcome import limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
 from thermo_budget.planning import session_trace
 from thermo_budget.answers import report, simulate
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import SCENARIO_DIR, base_raw, set_path
 

@@ -8,7 +8,8 @@ import thermo_budget
 from thermo_budget.network import HOSE, HOSE_COVER, N_NODES, OIL, heat_capacities_J_K, passive_rejection_W
 from thermo_budget.outcome import first_crossing_s
 from thermo_budget.answers import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K

@@ -12,7 +12,8 @@ from scipy.optimize import brentq
 from thermo_budget.network import HARDWARE, HOSE, N_NODES, OIL, Inputs, heat_capacities_J_K, node_enthalpy_J, node_equations
 from thermo_budget.outcome import peak_oil_K, pulls_completed_under
 from thermo_budget.answers import TRACE_RESOLUTION, session_report
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate, propagate_linear
 

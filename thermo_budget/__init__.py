@@ -8,7 +8,7 @@ from importlib import import_module
 
 _WHERE = {"SweepResult": "design_sweep", "sweep": "design_sweep", "ScenarioError": "errors",
           "report": "answers", "simulate": "answers", "DEFAULT_SCENARIO": "scenario", "Scenario": "scenario",
-          "build_rig": "scenario", "limit_K": "scenario", "load_scenario": "scenario"}
+          "build_rig": "rig_build", "limit_K": "scenario", "load_scenario": "scenario"}
 
 __all__ = ["ScenarioError", "Scenario", "DEFAULT_SCENARIO", "load_scenario", "build_rig", "limit_K",
            "report", "simulate", "sweep", "SweepResult"]

@@ -10,7 +10,8 @@ from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_
 from .headroom import headroom_at
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
 from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
 from .units import ZERO_CELSIUS_K, to_display, unit_label

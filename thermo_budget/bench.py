@@ -28,7 +28,8 @@ from scipy.linalg import expm
 from .network import N_NODES, OIL, Inputs, node_equations
 from .planning import session_outcome, take_designs
 from .answers import report
-from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
+from .scenario import DEFAULT_SCENARIO, load_scenario
+from .rig_build import build_rig
 from .session import pump_flow_m3_s
 from .solver import propagate_linear
 from .design_sweep import sweep

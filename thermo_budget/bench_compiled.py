@@ -91,7 +91,8 @@ def main():
         print("numba is not installed (pip install numba): nothing measured")
         return
     from .network import N_NODES, Inputs, node_equations
-    from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
+    from .scenario import DEFAULT_SCENARIO, load_scenario
+    from .rig_build import build_rig
     from .solver import propagate_linear
     rig = build_rig(load_scenario(DEFAULT_SCENARIO))
     T = np.full((1, N_NODES), 330.0)

@@ -9,7 +9,8 @@ import numpy as np
 from .errors import ScenarioError
 from .outcome import peak_oil_K
 from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
-from .scenario import KEYS, Scenario, build_rig, limit_K
+from .scenario import KEYS, Scenario, limit_K
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
 

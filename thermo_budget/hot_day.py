@@ -16,7 +16,8 @@ from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, peri
                        take_designs)
 from .network import N_NODES
 from .outcome import limiting_peak_K, pulls_completed_under
-from .scenario import Scenario, build_rig
+from .scenario import Scenario
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
 from .units import ZERO_CELSIUS_K

@@ -20,7 +20,8 @@ from .live_forecast import Forecast, forecast
 from .log_follower import LogFollower
 from .measured_log import read_log
 from .network import NODE_NAMES, OIL
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 MAX_DROPPED_LINES = 1000

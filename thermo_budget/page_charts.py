@@ -12,7 +12,8 @@ from .network import passive_rejection_W
 from .planning import minimum_oil_volume_L, required_cooler_W_K
 from .plots import plot_design_chart, plot_hot_day, plot_trace
 from .answers import simulate
-from .scenario import Scenario, build_rig, limit_K, load_scenario, read_toml_text
+from .scenario import Scenario, limit_K, load_scenario, read_toml_text
+from .rig_build import build_rig
 
 DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
 CHART_DPI = 90

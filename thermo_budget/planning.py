@@ -8,7 +8,8 @@ import numpy as np
 
 from .network import N_NODES, Rig, cooling_time_constant_s
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
 from .units import ZERO_CELSIUS_K

@@ -15,7 +15,7 @@ from matplotlib.lines import Line2D  # noqa: E402
 from .network import OIL, WALL  # noqa: E402
 from .page_format import to_shown, unit_symbol  # noqa: E402
 from .scenario import limit_K  # noqa: E402
-from .units import ZERO_CELSIUS_K
+from .units import ZERO_CELSIUS_K  # noqa: E402
 
 OIL_COLOUR, RETURN_COLOUR, WALL_COLOUR, LIMIT_COLOUR = "#b5461f", "#e39b2d", "#4a6c8c", "#8b0000"
 PULL_SHADE = "#f2d7c9"

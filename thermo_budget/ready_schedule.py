@@ -8,7 +8,8 @@ import numpy as np
 from .network import N_NODES, OIL
 from .outcome import limiting_peak_K, peak_oil_K
 from .planning import SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
 from .units import ZERO_CELSIUS_K

@@ -15,8 +15,7 @@ import tomli_w
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
-from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
-                        limit_K)  # (build_rig re-exported: the scenario's network)
+from .hardware_defaults import body_cube_side_m, default_body_area_m2, default_internal_area_m2
 from .session import EngineCurve, Step, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              read_toml_bytes, read_toml_text, with_path)
@@ -323,6 +322,15 @@ def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> l
     if not isinstance(values, list) or len(values) != length:
         raise ScenarioError(t.key(name), values, f"a list of {length} values, one per curve_rpm entry")
     return [t.convert(f"{t.key(name)}[{i}]", v, kind, unit, minimum=0.0) for i, v in enumerate(values)]
+
+
+def limit_K(s: Scenario) -> tuple[float, str]:
+    """The effective fluid limit: the lower of max_temperature and the temperature at which the
+    viscosity falls to the pump's minimum. Returns (K, "max_temperature" | "min_viscosity")."""
+    at_viscosity = s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt)
+    if at_viscosity < s.max_temperature_K:
+        return at_viscosity, "min_viscosity"
+    return s.max_temperature_K, "max_temperature"
 
 
 def _temperature_text(T_K: float, system: str) -> str:

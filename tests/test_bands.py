@@ -7,8 +7,8 @@ import pytest
 
 from thermo_budget import build_rig, load_scenario, report
 from thermo_budget.bands import BAND_KEYS, SIZING_KEYS, sample_answers
-from thermo_budget.planning import planning_answers, runs_before_limit
-from thermo_budget.answers import session_report
+from thermo_budget.planning import runs_before_limit
+from thermo_budget.answers import planning_answers, session_report
 
 from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS
 

@@ -9,10 +9,13 @@ from .errors import ScenarioError
 from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
-from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
+from .outcome import first_crossing_s, limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
+from .planning import (MAX_PULLS, limits_K, minimum_oil_volume_L, minimum_wait_s, periodic_state, required_cooler_W_K,
+                       runs_before_limit, session_trace, sustainability)
+from .ready_schedule import ready_schedule
 from .scenario import Scenario, limit_K
 from .rig_build import build_rig
-from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
+from .session import PLAN_RESOLUTION, Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
 from .units import ZERO_CELSIUS_K, to_display, unit_label
 
@@ -121,7 +124,6 @@ def runs_stopped_by(scenario: Scenario, runs: int | None) -> str | None:
         return None
     if scenario.return_line_max_temperature_K is None:
         return "bulk"
-    from .session import PLAN_RESOLUTION
     per_cycle = sum(step.is_pull for step in scenario.cycle)
     cycles = -(-(runs + 1) // per_cycle)
     trace = integrate(build_rig(scenario), list(scenario.cycle) * cycles, scenario.start_K, resolution=PLAN_RESOLUTION)
@@ -184,10 +186,54 @@ def check_finite(result, path: str = "") -> None:
         check_finite(value, where)
 
 
+def planning_answers(scenario: Scenario) -> dict:
+    """The planning keys of `run --json`."""
+    notes: list[str] = []
+    rig = build_rig(scenario)
+    limit, reason = limit_K(scenario)
+    session = session_trace(scenario, rig, 1)
+    sustainable, steady_peak = sustainability(scenario, rig, 1)
+    sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
+    if sustainable and scenario.return_line_max_temperature_K is not None:
+        # the periodic peak above is in the limits' terms; the bulk oil's own peak over that cycle:
+        X, _, _ = periodic_state(scenario, rig, 1)
+        steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
+    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
+    if sustainable:
+        notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
+                     f"{steady_peak - ZERO_CELSIUS_K:.1f} degC, below the {limit - ZERO_CELSIUS_K:.1f} degC limit.")
+    elif np.isnan(runs):
+        notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
+    # the planned session without a cooler: the session already run, where the scenario has none
+    uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
+    cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
+    cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
+    if not cooler_needed:
+        notes.append("No cooler is needed for the planned session.")
+    cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
+    if cooler_sustained == 0.0:
+        notes.append("No cooler is needed for the cadence to go on all day.")
+    if scenario.cooler_W_K > 0:
+        notes.append(f"The cooler sizes are the total rating needed, in place of the scenario's "
+                     f"{scenario.cooler_W_K:.1f} W/K cooler; the minimum wait and oil volume assume no cooler.")
+    return {
+        "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
+        "sustainable": sustainable,
+        "steady_peak_C": round(steady_peak - ZERO_CELSIUS_K, 3) if sustainable else None,
+        "min_wait_s": minimum_wait_s(scenario, notes),
+        "cooler_needed": cooler_needed,
+        "cooler_required_W_per_K": cooler,
+        "cooler_required_sustained_W_per_K": cooler_sustained,
+        "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
+        "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
+        "schedule": ready_schedule(scenario, notes, session),
+        "notes": notes,
+    }
+
+
 def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     """Everything `run --json` prints: the session's thermal answers and the planning answers.
     trace : optional simulate(scenario) already computed."""
-    from .planning import planning_answers
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))

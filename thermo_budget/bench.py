@@ -112,8 +112,7 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
 def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
     """(report() with the band, of it the band alone) s, best of `repeats` each."""
     from .bands import band_report
-    from .planning import planning_answers
-    from .answers import session_report, simulate
+    from .answers import planning_answers, session_report, simulate
     trace = simulate(scenario)
     point = session_report(scenario, trace)
     point.update(planning_answers(scenario))

@@ -7,12 +7,11 @@ from dataclasses import fields
 import numpy as np
 
 from .network import N_NODES, Rig, cooling_time_constant_s
-from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
+from .outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
 from .scenario import Scenario, limit_K
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
-from .units import ZERO_CELSIUS_K
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 NEWTON_TOL_K = 1e-6
@@ -342,49 +341,3 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
         notes.append(f"Even {200 * V0 * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
         return None
     return round_up(volume * 1000.0, 4)
-
-
-def planning_answers(scenario: Scenario) -> dict:
-    """The planning keys of `run --json`."""
-    from .ready_schedule import ready_schedule
-    notes: list[str] = []
-    rig = build_rig(scenario)
-    limit, reason = limit_K(scenario)
-    session = session_trace(scenario, rig, 1)
-    sustainable, steady_peak = sustainability(scenario, rig, 1)
-    sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
-    if sustainable and scenario.return_line_max_temperature_K is not None:
-        # the periodic peak above is in the limits' terms; the bulk oil's own peak over that cycle:
-        X, _, _ = periodic_state(scenario, rig, 1)
-        steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
-    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
-    if sustainable:
-        notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
-                     f"{steady_peak - ZERO_CELSIUS_K:.1f} degC, below the {limit - ZERO_CELSIUS_K:.1f} degC limit.")
-    elif np.isnan(runs):
-        notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
-    # the planned session without a cooler: the session already run, where the scenario has none
-    uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
-    cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
-    cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
-    if not cooler_needed:
-        notes.append("No cooler is needed for the planned session.")
-    cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
-    if cooler_sustained == 0.0:
-        notes.append("No cooler is needed for the cadence to go on all day.")
-    if scenario.cooler_W_K > 0:
-        notes.append(f"The cooler sizes are the total rating needed, in place of the scenario's "
-                     f"{scenario.cooler_W_K:.1f} W/K cooler; the minimum wait and oil volume assume no cooler.")
-    return {
-        "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
-        "sustainable": sustainable,
-        "steady_peak_C": round(steady_peak - ZERO_CELSIUS_K, 3) if sustainable else None,
-        "min_wait_s": minimum_wait_s(scenario, notes),
-        "cooler_needed": cooler_needed,
-        "cooler_required_W_per_K": cooler,
-        "cooler_required_sustained_W_per_K": cooler_sustained,
-        "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
-        "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
-        "schedule": ready_schedule(scenario, notes, session),
-        "notes": notes,
-    }

@@ -18,7 +18,7 @@ from scipy import stats
 from scipy.optimize import least_squares
 
 from .errors import ScenarioError
-from .fit_text import calibrated_toml, fit_command, format_difference, format_temperature, summary_text
+from .display import format_difference, format_temperature
 from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
 from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
 from .measured_log import MeasuredLog, read_log
@@ -28,8 +28,7 @@ from .uncertainty import with_fit_posterior
 from .units import ZERO_CELSIUS_K
 
 # re-exported: the log's model and the fit's text live beside this module
-__all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "calibrated_toml", "fit_command", "fit_log",
-           "fit_measured_log", "log_model", "predict_log_K", "summary_text"]
+__all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "fit_log", "fit_measured_log", "log_model", "predict_log_K"]
 
 CONVECTION_BOUNDS = (0.01, 10.0)      # the scenario file accepts 0 to 10
 CAPACITY_BOUNDS = (0.05, 10.0)        # the scenario file accepts above 0 up to 10

@@ -25,8 +25,9 @@ def _fmt(value_si, kind, system, digits=1):
 
 
 def _temp(celsius, system):
+    from .display import format_temperature
     from .units import ZERO_CELSIUS_K
-    return "beyond the model's range" if celsius is None else _fmt(celsius + ZERO_CELSIUS_K, "temperature", system)
+    return "beyond the model's range" if celsius is None else format_temperature(celsius + ZERO_CELSIUS_K, system)
 
 
 def summary_text(result: dict) -> str:
@@ -183,9 +184,28 @@ def _sweep(args) -> int:
 
 
 def _fit(args) -> int:
-    from .fit_text import fit_command
+    """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
+    from .answers import check_finite
+    from .calibrate import fit_log
+    from .fit_text import calibrated_toml, summary_text
+    from .measured_log import log_file_text
+    from .scenario import load_scenario
     check_outputs(args, ("scenario", "log"), ("write", "plot"))
-    return fit_command(args)
+    scenario = load_scenario(args.scenario)
+    text = log_file_text(args.log)
+    result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
+                     source=str(args.log), strict=bool(getattr(args, "strict", False)),
+                     fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
+    if args.write:
+        Path(args.write).write_text(calibrated_toml(result, args.log), encoding="utf-8")
+    if args.plot:
+        from .fit_plot import plot_fit
+        figure = plot_fit(result)
+        figure.savefig(args.plot, dpi=120, bbox_inches="tight")
+    answers = result.to_dict(include_series=False)
+    check_finite(answers)
+    print(json.dumps(answers, indent=2, allow_nan=False) if args.json else summary_text(result))
+    return 0
 
 
 def _watch(args) -> int:

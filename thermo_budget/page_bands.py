@@ -8,11 +8,11 @@ import html
 import numpy as np
 import streamlit as st
 
-from . import page_format as pf
+from . import display as pf
 from . import page_state as state
 from .band_text import plan_phrase, pulls_phrase
 from .page_charts import png_bytes, trace_chart_figure
-from .page_format import to_shown
+from .display import to_shown
 from .page_sections import html_table
 from .page_state import PagePlan
 from .units import ZERO_CELSIUS_K

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .page_format import shown, shown_celsius, shown_duration
+from .display import shown, shown_celsius, shown_duration
 from .planning import MAX_PULLS
 from .units import ZERO_CELSIUS_K
 

@@ -13,7 +13,7 @@ from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.lines import Line2D  # noqa: E402
 
 from .network import OIL, WALL  # noqa: E402
-from .page_format import to_shown, unit_symbol  # noqa: E402
+from .display import to_shown, unit_symbol  # noqa: E402
 from .scenario import limit_K  # noqa: E402
 from .units import ZERO_CELSIUS_K  # noqa: E402
 

@@ -4,7 +4,8 @@ import numpy as np
 
 from thermo_budget import DEFAULT_SCENARIO, load_scenario, report
 from thermo_budget.band_text import plan_phrase, pulls_phrase
-from thermo_budget.page_bands import envelope_png, ranking_html
+from thermo_budget.page_bands import ranking_html
+from thermo_budget.page_charts import envelope_png
 from thermo_budget.answers import simulate
 
 from conftest import SCENARIO_DIR

@@ -1,38 +1,18 @@
 """The page's band: how sure the answers are (the likely range and the plan at the chosen confidence),
 what moves them most (a small chart), the band before and after a log fit, and the P10-P90 envelope
-on the temperature chart. Every figure comes from the report's band keys (bands.py)."""
+on the temperature chart (drawn by page_charts.envelope_png). Every figure comes from the report's band keys (bands.py)."""
 from __future__ import annotations
 
 import html
 
-import numpy as np
 import streamlit as st
 
 from . import display as pf
 from . import page_state as state
 from .band_text import plan_phrase, pulls_phrase
-from .page_charts import png_bytes, trace_chart_figure
-from .display import to_shown
+from .page_charts import ENVELOPE_COLOUR
 from .page_sections import html_table
 from .page_state import PagePlan
-from .units import ZERO_CELSIUS_K
-
-ENVELOPE_COLOUR = "#b5461f"
-
-
-def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
-    """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
-    figure = trace_chart_figure(toml_text, system, trace)
-    if envelope:
-        ax = figure.axes[0]
-        minutes = np.asarray(envelope["time_s"]) / 60.0
-        low = to_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, "temperature", system)
-        high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
-        ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
-                        label="bulk oil, likely range (P10-P90)")
-        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
-    return png_bytes(figure)
-
 
 RANKING_CSS = f"""<style>
 .tb-ranking {{ margin: 0.2rem 0 0.4rem 0; font-size: 0.82rem; }}

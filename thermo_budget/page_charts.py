@@ -8,12 +8,14 @@ import io
 
 import numpy as np
 
+from .display import to_shown
 from .network import passive_rejection_W
 from .planning import minimum_oil_volume_L, required_cooler_W_K
 from .plots import plot_design_chart, plot_hot_day, plot_trace
 from .answers import simulate
-from .scenario import Scenario, limit_K, load_scenario, read_toml_text
 from .rig_build import build_rig
+from .scenario import Scenario, limit_K, load_scenario, read_toml_text
+from .units import ZERO_CELSIUS_K
 
 DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
 CHART_DPI = 90
@@ -98,3 +100,20 @@ def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:
     from .hot_day import hot_day
     scenario = load_scenario(read_toml_text(toml_text))
     return png_bytes(plot_hot_day(scenario, hot_day(scenario) if hot is None else hot, system))
+
+
+ENVELOPE_COLOUR = "#b5461f"
+
+
+def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
+    """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
+    figure = trace_chart_figure(toml_text, system, trace)
+    if envelope:
+        ax = figure.axes[0]
+        minutes = np.asarray(envelope["time_s"]) / 60.0
+        low = to_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, "temperature", system)
+        high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
+        ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
+                        label="bulk oil, likely range (P10-P90)")
+        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+    return png_bytes(figure)

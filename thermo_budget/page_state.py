@@ -107,8 +107,7 @@ def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    from .page_bands import envelope_png   # the chart with the band's P10-P90 envelope
-    return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
+    return page_charts.envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
 
 
 @st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")

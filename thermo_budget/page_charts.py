@@ -9,15 +9,12 @@ import io
 import numpy as np
 
 from .display import to_shown
-from .network import passive_rejection_W
-from .planning import minimum_oil_volume_L, required_cooler_W_K
+from .design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
 from .plots import plot_design_chart, plot_hot_day, plot_trace
 from .answers import simulate
-from .rig_build import build_rig
-from .scenario import Scenario, limit_K, load_scenario, read_toml_text
+from .scenario import load_scenario, read_toml_text
 from .units import ZERO_CELSIUS_K
 
-DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
 CHART_DPI = 90
 CHARTS_KEPT = 32   # design sweeps and hot days kept by the page (and its worker), by scenario text
 
@@ -26,42 +23,6 @@ def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
     buffer = io.BytesIO()
     figure.savefig(buffer, format="png", dpi=dpi)
     return buffer.getvalue()
-
-
-def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_sustained_W_K: float | None,
-                n_volumes: int = DESIGN_VOLUMES, n_coolers: int = DESIGN_COOLERS):
-    """Oil volumes (L) and cooler sizes (W/K) for the design chart.
-
-    Volumes run from a quarter to three times the current oil, below the smallest reservoir that
-    finishes the session (0.8 x) and past it (1.3 x) where the quarter and the three times do not. Coolers run from none to 2.5 x the all-day
-    cooler (which is at least the session's cooler), and past 1.5 x the rig's own cooler; where no
-    cooler can sustain the cadence, to three times the rig's own passive loss at the limit.
-    """
-    volume_L = scenario.oil_volume_L
-    top_L = max(3.0 * volume_L, 1.3 * (min_oil_volume_L or 0.0))
-    bottom_L = min(0.25 * volume_L, 0.8 * (min_oil_volume_L or volume_L))
-    volumes = np.linspace(bottom_L, top_L, n_volumes)
-    sizes = [1.5 * scenario.cooler_W_K]
-    if cooler_sustained_W_K:
-        sizes.append(2.5 * cooler_sustained_W_K)
-    else:
-        limit, _ = limit_K(scenario)
-        passive_W = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0])
-        sizes.append(3.0 * passive_W / max(limit - scenario.ambient_K, 1e-9))
-    coolers = np.linspace(0.0, max(max(sizes), 1.0), n_coolers)
-    return volumes, coolers
-
-
-def design_axes(scenario: Scenario, answers: dict | None = None, n_volumes: int = DESIGN_VOLUMES,
-                n_coolers: int = DESIGN_COOLERS):
-    """design_grid with the two sizing answers it needs: taken from `answers` (the scenario's
-    report) where given, else worked out here by the report's own searches."""
-    if answers is None:
-        notes: list[str] = []
-        answers = {"cooler_required_sustained_W_per_K": required_cooler_W_K(scenario, notes, sustained=True),
-                   "min_oil_volume_L": minimum_oil_volume_L(scenario, notes)}
-    return design_grid(scenario, answers["min_oil_volume_L"], answers["cooler_required_sustained_W_per_K"],
-                       n_volumes, n_coolers)
 
 
 def design_sweep(toml_text: str, answers: dict | None = None):

@@ -182,3 +182,13 @@ REQUIRED_JSON_KEYS = ["limit_C", "limit_reason", "start_C", "peak_C", "end_C", "
                       "pulls_planned", "pulls_under_limit", "time_to_limit_s", "energy_in_J", "energy_lost_J",
                       "energy_stored_J", "energy_balance_rel_error", "heat_capacity_J_per_K",
                       "passive_rejection_at_limit_W", "peak_pull_power_W", "pump"]
+
+
+def load_tool(name: str):
+    """A developer tool of tools/ (outside the installed package), loaded from its file."""
+    import importlib.util
+    path = Path(__file__).resolve().parents[1] / "tools" / f"{name}.py"
+    spec = importlib.util.spec_from_file_location(f"tools_{name}", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module

@@ -174,7 +174,7 @@ BAD_INPUTS = [
 def default_report(default_scenario):
     """thermo_budget.report on the default scenario, computed once (it runs the planning searches)."""
     import thermo_budget
-    return thermo_budget.report(default_scenario)
+    return thermo_budget.report(default_scenario).to_json()
 
 
 # Keys `run --json` must contain (issue 2)

@@ -153,7 +153,7 @@ def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     assert labels == ["Scenario (.toml)", "Trace (.csv)", "Temperature chart (.png)", "Design chart (.png)"]
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
-    again = report(load_scenario(read_toml_text(text)))
+    again = report(load_scenario(read_toml_text(text))).to_json()
     assert str(again["runs_before_limit"]) == headline(page)
 
 
@@ -226,7 +226,7 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
     at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
     assert not at.exception and not at.error
-    answers = report(load_scenario(path))
+    answers = report(load_scenario(path)).to_json()
     for system in ("SI", "US"):
         if at.session_state["system"] != system:
             at.radio(key="system").set_value(system).run()
@@ -278,14 +278,16 @@ def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     from thermo_budget.page_cards import pulls_card
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.answers import report
+    from dataclasses import replace
+    from thermo_budget.results import Band
     answers = report(load_scenario(DEFAULT_SCENARIO))
-    plain = pulls_card({key: value for key, value in answers.items()
-                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
+    plain = pulls_card(replace(answers, band=Band(bands={}, confidence=0.9, plan_at_confidence={})), "SI")
     assert "likely" not in plain.unit
-    runs = answers["runs_before_limit"]                     # the card shows the point answer
-    answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
-                          "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}, "uncertainty": {"samples": 128}}
+    runs = answers.runs_before_limit                     # the card shows the point answer
+    answers = replace(answers, band=Band(bands={"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
+                                                "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
+                                         confidence=0.9, plan_at_confidence={"runs_before_limit": runs - 6},
+                                         uncertainty={"samples": 128}))
     card = pulls_card(answers, "SI")
     assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
     assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details

@@ -20,13 +20,13 @@ def default():
 
 @pytest.fixture(scope="module")
 def default_report(default):
-    return report(default)
+    return report(default).to_json()
 
 
 @pytest.fixture(scope="module")
 def busy_report(default):
     """45 pulls asked for: more than fit, so the wait, the cooler and the volume are all non-trivial."""
-    return report(default.changed(**{"session.repeat": 45}))
+    return report(default.changed(**{"session.repeat": 45})).to_json()
 
 
 def _width(band):
@@ -40,7 +40,7 @@ def _width(band):
                                    {"convection": "0 %", "oil_side": "0 %", "coupling": "0 %", "ambient": "0 K",
                                     "power": "0 %", "capacity": "0 %", "emissivity": "0 %"}])
 def test_off_every_band_collapses_to_the_point_and_points_are_unchanged(default, default_report, table):
-    off = report(default.changed(uncertainty=table))
+    off = report(default.changed(uncertainty=table)).to_json()
     today = session_report(default)
     today.update(planning_answers(default))
     for key, value in today.items():
@@ -92,7 +92,7 @@ def test_band_covers_the_truth_about_80_percent_of_the_time(default, default_rep
 def test_widening_the_inputs_never_narrows_the_band(default):
     widths = []
     for scale in (0.25, 0.5, 1.0, 2.0):
-        r = report(dataclasses.replace(default, uncertainty=default.uncertainty.widened(scale)))
+        r = report(dataclasses.replace(default, uncertainty=default.uncertainty.widened(scale))).to_json()
         widths.append([_width(r["bands"][key]) for key in ("runs_before_limit", "peak_C", "min_oil_volume_L")])
     widths = np.array(widths)
     assert np.all(np.diff(widths, axis=0) >= 0), widths
@@ -102,8 +102,8 @@ def test_a_log_fit_narrows_the_band(default, default_report):
     from thermo_budget.calibrate import fit_log
     result = fit_log(default, (SCENARIO_DIR / "demo_log.csv").read_text())
     calibrated = result.calibrated_scenario
-    after = report(calibrated)
-    prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None}))
+    after = report(calibrated).to_json()
+    prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None})).to_json()
     for key in ("runs_before_limit", "peak_C", "min_oil_volume_L"):
         assert _width(after["bands"][key]) < _width(default_report["bands"][key]), key
         assert _width(after["bands"][key]) <= _width(prior_only["bands"][key]), key
@@ -117,7 +117,7 @@ def _reports():
 
 @pytest.mark.parametrize("name, path", list(_reports()))
 def test_order_holds_and_the_plan_is_never_bolder_than_p50(name, path, busy_report):
-    r = busy_report if path is None else report(load_scenario(path))
+    r = busy_report if path is None else report(load_scenario(path)).to_json()
     for key in BAND_KEYS:
         band = r["bands"][key]
         assert (band is None) == (r[key] is None), key
@@ -146,7 +146,7 @@ def test_busy_session_bands_spread_around_the_point(busy_report):
 
 def test_plan_keeps_the_session_under_the_limit_in_the_chosen_fraction(default):
     """Re-run: the planned oil volume at 0.9 finishes the session in at least 90 % of the samples."""
-    r = report(default)
+    r = report(default).to_json()
     volume_L = r["plan_at_confidence"]["min_oil_volume_L"]
     samples = sample_answers(default, r)
     assert np.mean(samples["min_oil_volume_L"] <= volume_L) >= 0.9

@@ -37,7 +37,7 @@ def plastic_tank_40kW():
 
 
 def test_40kW_into_a_10L_plastic_tank_reports_with_a_caution():
-    result = report(plastic_tank_40kW())
+    result = report(plastic_tank_40kW()).to_json()
     assert all_finite(result)
     assert result["beyond_model_range"] is True
     assert all(result[key] is None for key in BEYOND_RANGE_KEYS)
@@ -50,7 +50,7 @@ def test_a_30000_s_pull_on_the_default_scenario_reports():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
     steps = [dict(step, duration="30000 s") if step["kind"] == "pull" else step
              for step in scenario.raw["session"]["steps"]]
-    result = report(scenario.changed(**{"session.steps": steps}))
+    result = report(scenario.changed(**{"session.steps": steps})).to_json()
     assert all_finite(result) and result["beyond_model_range"] and result["pulls_under_limit"] == 0
 
 
@@ -130,6 +130,6 @@ def test_500_random_plausible_rigs_report_without_an_exception():
             refused += 1     # e.g. a limit the oil's viscosity sets below a hot ambient
             continue
         trace = simulate(scenario)
-        result = report(scenario, trace)
+        result = report(scenario, trace).to_json()
         assert all_finite(result), raw
     assert refused < 50

@@ -26,7 +26,7 @@ def test_expansion_is_linear_from_15_degC():
 def test_report_states_the_head_room_and_the_smallest_tank_has_room_to_spare(default_scenario):
     from conftest import SCENARIO_DIR
     for scenario in (default_scenario, load_scenario(SCENARIO_DIR / "us_units_fan.toml")):
-        answers = report(scenario)
+        answers = report(scenario).to_json()
         assert answers["headroom_at_limit_L"] > 0 and answers["headroom_at_limit_m"] > 0
         assert answers["headroom_at_peak_L"] >= answers["headroom_at_limit_L"] - 1e-9 or answers["peak_C"] > answers["limit_C"]
         assert answers["min_oil_volume_L"] is not None

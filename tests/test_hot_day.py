@@ -23,7 +23,7 @@ def test_hotter_never_gives_more_pulls_and_the_own_ambient_matches_the_report(na
     coolers = np.where(np.isnan(day.cooler_W_per_K), 1e12, day.cooler_W_per_K)   # none can: larger than any
     assert np.all(np.diff(coolers) >= -1e-3)                      # hotter: never a smaller cooler
     own = int(np.flatnonzero(ambients == scenario.ambient_K)[0])
-    answers = report(scenario)
+    answers = report(scenario).to_json()
     if answers["runs_before_limit"] is not None and answers["runs_before_limit"] <= day.max_pulls:
         assert day.pulls[own] == answers["runs_before_limit"]
     assert day.cooler_W_per_K[own] == pytest.approx(answers["cooler_required_W_per_K"], rel=0.02, abs=0.01)

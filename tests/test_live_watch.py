@@ -205,7 +205,7 @@ def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_stat
     estimate = record["estimate_C"]
     scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{
         "session.start_temperature": f"{estimate['oil']} degC", "ambient": "17.5 degC"})
-    answers = report(scenario)
+    answers = report(scenario).to_json()
     assert record["wait_s"] == answers["schedule"][0]["extra_wait_s"] == 0.0
     # the watch gives its answers at the scenario's confidence (0.9 here), as run's plan does
     assert answers["confidence"] == 0.9

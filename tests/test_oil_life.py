@@ -35,4 +35,4 @@ def test_rate_grows_with_temperature_and_the_report_carries_it(default_scenario)
     duration_h = trace.time_s[-1, 0] / 3600.0
     # the default session stays between 20 and 53 degC, so it ages less than its own length at 60 degC
     assert ageing_rate(293.15) * duration_h < hours < duration_h
-    assert report(default_scenario, trace)["oil_ageing_equivalent_h"] == pytest.approx(hours, abs=1e-4)
+    assert report(default_scenario, trace).to_json()["oil_ageing_equivalent_h"] == pytest.approx(hours, abs=1e-4)

@@ -13,7 +13,7 @@ from conftest import SCENARIO_DIR
 
 def test_the_envelope_chart_is_a_png_with_the_band_drawn():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
-    r = report(scenario)
+    r = report(scenario).to_json()
     text = scenario.to_toml()
     with_band = envelope_png(text, "SI", simulate(scenario), r["band_envelope"])
     without = envelope_png(text, "SI", simulate(scenario), None)
@@ -22,7 +22,7 @@ def test_the_envelope_chart_is_a_png_with_the_band_drawn():
 
 def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share():
     import re
-    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    r = report(load_scenario(SCENARIO_DIR / "default.toml")).to_json()
     rows = [(row["what"], row["share"]) for row in r["band_ranking"]]
     chart = ranking_html(rows, r["band_ranking"][0]["of"])
     widths = [float(w) for w in re.findall(r'style="width:([0-9.]+)%"', chart)]
@@ -35,13 +35,13 @@ def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share():
 
 def test_the_band_in_words():
     r = report(load_scenario(SCENARIO_DIR / "default.toml"))
-    band = r["bands"]["runs_before_limit"]
-    assert pulls_phrase(r) == f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}-{band['p90']})"
-    assert plan_phrase(r) == (f"plan {r['plan_at_confidence']['runs_before_limit']} pulls to stay under 80.0 °C "
+    band = r.band.bands["runs_before_limit"]
+    assert pulls_phrase(r) == f"{r.runs_before_limit} pulls before the limit (likely {band['p10']}-{band['p90']})"
+    assert plan_phrase(r) == (f"plan {r.band.plan_at_confidence['runs_before_limit']} pulls to stay under 80.0 °C "
                               f"with 90 % confidence")
     off = report(load_scenario(SCENARIO_DIR / "default.toml").changed(uncertainty={"enabled": False}))
-    assert pulls_phrase(off) == f"{off['runs_before_limit']} pulls before the limit"
-    assert np.isfinite(r["confidence"])
+    assert pulls_phrase(off) == f"{off.runs_before_limit} pulls before the limit"
+    assert np.isfinite(r.band.confidence)
 
 
 def test_the_page_shows_the_band_before_and_after_a_log_fit():
@@ -70,7 +70,7 @@ def test_the_pull_count_band_is_shown_once():
     at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
     assert not at.exception
     texts = [m.value for m in at.markdown]
-    band = report(load_scenario(DEFAULT_SCENARIO))["bands"]["runs_before_limit"]
+    band = report(load_scenario(DEFAULT_SCENARIO)).to_json()["bands"]["runs_before_limit"]
     shown = f"likely {band['p10']}–{band['p90']}"
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
@@ -86,7 +86,7 @@ def test_the_table_of_bands_wraps_every_value_to_the_page():
     at = AppTest.from_file(str(repo / "app.py"), default_timeout=300).run()
     assert not at.exception
     table = next(m.value for m in at.markdown if "tb-bands" in m.value)
-    r = report(load_scenario(SCENARIO_DIR / "default.toml"))
+    r = report(load_scenario(SCENARIO_DIR / "default.toml")).to_json()
     band = r["bands"]["runs_before_limit"]
     assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
     assert f"<td>{band['p10']} to {band['p90']}</td>" in table

@@ -21,8 +21,8 @@ def test_design_axes_bracket_the_rig_and_the_answers(default):
     assert [a.tolist() for a in design_sweep.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]
     assert volumes.size == page_charts.DESIGN_VOLUMES and coolers.size == page_charts.DESIGN_COOLERS
     assert volumes[0] < default.oil_volume_L < volumes[-1]
-    assert volumes[0] < answers["min_oil_volume_L"] < volumes[-1]
-    assert coolers[0] == 0.0 and coolers[-1] > answers["cooler_required_sustained_W_per_K"]
+    assert volumes[0] < answers.min_oil_volume_L < volumes[-1]
+    assert coolers[0] == 0.0 and coolers[-1] > answers.cooler_required_sustained_W_per_K
 
 
 def test_design_grid_reaches_past_the_smallest_tank_and_the_own_cooler(default):
@@ -33,7 +33,7 @@ def test_design_grid_reaches_past_the_smallest_tank_and_the_own_cooler(default):
 
 
 def test_design_grid_without_an_all_day_cooler_uses_the_passive_loss(default):
-    answers = report(default)
+    answers = report(default).to_json()
     _, coolers = design_sweep.design_grid(default, None, None)
     passive_W_K = answers["passive_rejection_at_limit_W"] / (answers["limit_C"] - answers["ambient_C"])
     assert coolers[-1] == pytest.approx(3.0 * passive_W_K, rel=1e-3)

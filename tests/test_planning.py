@@ -22,7 +22,7 @@ def busy():
 
 @pytest.fixture(scope="module")
 def busy_report(busy):
-    return report(busy)
+    return report(busy).to_json()
 
 
 def _with_waits(scenario, wait_s):
@@ -34,7 +34,7 @@ def _with_waits(scenario, wait_s):
 
 
 def _finishes(scenario):
-    r = report(scenario)
+    r = report(scenario).to_json()
     return r["pulls_under_limit"] == r["pulls_planned"] and r["peak_C"] <= r["limit_C"]
 
 
@@ -62,8 +62,8 @@ def test_required_cooler_rerun(busy, busy_report):
 def test_sustained_cooler_rerun(busy, busy_report):
     cooler = busy_report["cooler_required_sustained_W_per_K"]
     assert cooler >= busy_report["cooler_required_W_per_K"]
-    assert report(busy.changed(**{"cooler.specific_dissipation": f"{cooler} W/K"}))["sustainable"] is True
-    assert report(busy.changed(**{"cooler.specific_dissipation": f"{0.85 * cooler} W/K"}))["sustainable"] is False
+    assert report(busy.changed(**{"cooler.specific_dissipation": f"{cooler} W/K"})).to_json()["sustainable"] is True
+    assert report(busy.changed(**{"cooler.specific_dissipation": f"{0.85 * cooler} W/K"})).to_json()["sustainable"] is False
 
 
 def _scaled_tank(scenario, volume_L):
@@ -99,7 +99,7 @@ def test_ready_temperature_schedule_waits_until_cool():
     raw = copy.deepcopy(load_scenario(DEFAULT_SCENARIO).raw)
     raw["session"]["ready_temperature"] = "40 degC"
     raw["session"]["steps"][1] = {"kind": "wait", "duration": "3 min", "engine": "off"}
-    rows = report(load_scenario(raw))["schedule"]
+    rows = report(load_scenario(raw)).to_json()["schedule"]
     assert len(rows) == raw["session"]["repeat"]
     later = [row for row in rows if row["index"] > 1]
     assert all(row["start_C"] <= 40.0 + 1e-6 for row in later)
@@ -108,7 +108,7 @@ def test_ready_temperature_schedule_waits_until_cool():
 
 def test_ready_temperature_out_of_reach_is_explained():
     """Idling with a parasitic load (150 W), the oil settles above 25 degC: the schedule says so."""
-    r = report(load_scenario(DEFAULT_SCENARIO).changed(**{"session.ready_temperature": "25 degC"}))
+    r = report(load_scenario(DEFAULT_SCENARIO).changed(**{"session.ready_temperature": "25 degC"})).to_json()
     assert len(r["schedule"]) < r["pulls_planned"]
     assert any("does not cool to the ready temperature" in note for note in r["notes"])
 
@@ -116,7 +116,7 @@ def test_ready_temperature_out_of_reach_is_explained():
 def test_sustainability_agrees_with_brute_force():
     """Periodic state by Newton against 400 cycles simulated one after another."""
     scenario = load_scenario(DEFAULT_SCENARIO).changed(**{"cooler.specific_dissipation": "8 W/K"})
-    r = report(scenario)
+    r = report(scenario).to_json()
     assert r["sustainable"] is True
     rig = build_rig(scenario)
     trace = integrate(rig, list(scenario.cycle) * 400, scenario.start_K)

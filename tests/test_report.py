@@ -1,5 +1,6 @@
 """The report dict (what `run --json` prints): its keys, its meaning, and rules of the trade."""
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -189,12 +190,36 @@ def test_an_absurd_peak_gets_a_caution_and_a_sane_one_none(default_report):
     raw = base_raw()
     set_path(raw, "reservoir.oil_volume", "4 L")
     raw["session"]["steps"][0]["power"] = "60 kW"       # 60 kW pulls into 4 L of oil
-    answers = thermo_budget.report(load_scenario(raw))
+    answers = thermo_budget.report(load_scenario(raw)).to_json()
     # past the assumed 180 degC flash point, and past the oil data: a caution in place of a peak (issue 13)
     assert answers["peak_C"] is None and answers["beyond_model_range"]
     assert any("flash point" in text and "assumed" in text for text in answers["cautions"])
     set_path(raw, "fluid.flash_point", "240 degC")       # a stated flash point above the peak
-    stated = thermo_budget.report(load_scenario(raw))
+    stated = thermo_budget.report(load_scenario(raw)).to_json()
     assert stated["flash_point_C"] == 240.0 and stated["flash_point_given"]
     if stated["peak_return_C"] is not None and stated["peak_return_C"] < 240.0:
         assert any("above 100 degC" in text for text in stated["cautions"])
+
+
+# The keys `run --json` prints, in their order, as the release before the result objects printed
+# them (tests/data/report_json_keys.json): Report.to_json() must write the same, on every shipped
+# scenario; a new key is added to the list on purpose, never by accident.
+JSON_KEYS = json.loads((Path(__file__).parent / "data" / "report_json_keys.json").read_text(encoding="utf-8"))
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in SCENARIO_DIR.glob("*.toml")))
+def test_report_json_has_the_committed_keys_in_order(name):
+    from thermo_budget.results import Report
+    result = thermo_budget.report(load_scenario(SCENARIO_DIR / name))
+    assert isinstance(result, Report)
+    keys = result.to_json()
+    assert list(keys) == JSON_KEYS["report"]
+    assert list(keys["heat_capacity_J_per_K"]) == JSON_KEYS["heat_capacity_J_per_K"]
+    assert list(keys["pump"]) == JSON_KEYS["pump"] and list(keys["oil"]) == JSON_KEYS["oil"]
+    assert all(list(row) == JSON_KEYS["schedule_row"] for row in keys["schedule"] or [])
+    assert list(keys["bands"]) == JSON_KEYS["answers_with_a_band"]
+    assert list(keys["plan_at_confidence"]) == JSON_KEYS["plan_at_confidence"]
+    # the attributes the page and the command line read are the JSON's values
+    assert result.peak_C == keys["peak_C"] and result.pump.flow_L_min == keys["pump"]["flow_L_min"]
+    assert result.band.plan_at_confidence == keys["plan_at_confidence"] and result.band.advice == keys["band_advice"]
+    json.dumps(keys, allow_nan=False)   # plain JSON types only

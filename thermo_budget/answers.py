@@ -5,6 +5,8 @@ import math
 
 import numpy as np
 
+from .band_text import advice_sentence
+from .report_text import COOLER_RATING_MODEL, beyond_range_caution, cautions
 from .errors import ScenarioError
 from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
@@ -14,10 +16,11 @@ from .planning import (MAX_PULLS, limits_K, minimum_oil_volume_L, minimum_wait_s
                        runs_before_limit, session_trace, sustainability)
 from .ready_schedule import ready_schedule
 from .scenario import Scenario, limit_K
+from .results import Report
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
-from .units import ZERO_CELSIUS_K, to_display, unit_label
+from .units import ZERO_CELSIUS_K
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
 # Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
@@ -131,26 +134,6 @@ def runs_stopped_by(scenario: Scenario, runs: int | None) -> str | None:
     return limit_crossed_first(trace, limit, scenario.return_line_max_temperature_K)[0]
 
 
-def cautions(scenario: Scenario, result: dict) -> list[str]:
-    """Plain-words warnings where the predicted oil is hotter than a rig should see."""
-    found = []
-    peak, peak_return, flash = result["peak_C"], result["peak_return_C"], result["flash_point_C"]
-    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
-    if peak_return >= flash or peak >= flash:
-        found.append(f"The oil passes its flash point: the return line peaks at {peak_return:.1f} degC against a "
-                     f"flash point of {flash:.1f} degC ({where}). Oil mist can ignite. Do not run this session.")
-    elif peak > 100.0:
-        found.append(f"The bulk oil peaks at {peak:.1f} degC, above 100 degC: past what mineral hydraulic oil, "
-                     "its seals and hoses are usually rated for, water in it boils and it ages fast. Check the "
-                     "inputs; if they are right, do not run this session without a cooler or more oil.")
-    elif peak_return >= flash - 30.0:
-        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, less than 30 K below the flash point "
-                     f"({flash:.1f} degC, {where}).")
-    if result["headroom_at_peak_L"] <= 0.0:
-        found.append("The hot oil overfills the tank at the predicted peak.")
-    return found
-
-
 def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> None:
     """Where the bulk oil passes the range of the oil data, the session's temperatures become None
     and a caution (first of the cautions, in place of those that quote the peak) says why, in place
@@ -158,18 +141,9 @@ def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> Non
     ceiling = model_range_max_K(scenario)
     if float(peak_oil_K(trace)[0]) <= ceiling and np.all(np.isfinite(trace.T_K)):
         return
-    def temp(T_K):
-        return f"{to_display(T_K, 'temperature', scenario.units):.0f} {unit_label('temperature', scenario.units)}"
-    shown, limit = temp(ceiling), limit_K(scenario)[0]
     result.update({key: None for key in BEYOND_RANGE_KEYS}, beyond_model_range=True)
-    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
     hottest = max(float(peak_oil_K(trace)[0]), float(np.nanmax(trace.return_K[:, 0])))
-    flash = (f" and past its flash point ({temp(scenario.flash_point_K)}, {where}): oil mist can ignite"
-             if hottest >= scenario.flash_point_K else "")
-    caution = (f"In the planned session the bulk oil would pass {shown}, beyond the range where the model's "
-               f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures "
-               f"are not given. It is far past the fluid limit ({temp(limit)}){flash} long before that: do not "
-               f"run this session.")
+    caution = beyond_range_caution(scenario, ceiling, limit_K(scenario)[0], hottest >= scenario.flash_point_K)
     others = [c for c in result.get("cautions", []) if "peaks at" not in c and "flash point" not in c]
     result["cautions"] = [caution] + others
 
@@ -224,15 +198,15 @@ def planning_answers(scenario: Scenario) -> dict:
         "cooler_needed": cooler_needed,
         "cooler_required_W_per_K": cooler,
         "cooler_required_sustained_W_per_K": cooler_sustained,
-        "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
+        "cooler_rating_model": COOLER_RATING_MODEL,
         "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
         "schedule": ready_schedule(scenario, notes, session),
         "notes": notes,
     }
 
 
-def report(scenario: Scenario, trace: Trace | None = None) -> dict:
-    """Everything `run --json` prints: the session's thermal answers and the planning answers.
+def report(scenario: Scenario, trace: Trace | None = None) -> Report:
+    """Everything `run --json` prints (`Report.to_json()`): the session's thermal answers, the planning answers and the band.
     trace : optional simulate(scenario) already computed."""
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
@@ -246,9 +220,11 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     result["cautions"] = cautions(scenario, result)
     from .bands import band_report
     result.update(band_report(scenario, result))
+    ranking = result["band_ranking"]
+    result["band_advice"] = advice_sentence(ranking, ranking[0]["of"]) if ranking else ""
     _caution_beyond_range(scenario, trace, result)
     check_finite(result)
-    return result
+    return Report.from_json(result)
 
 
 def capacity_by_body(capacities) -> dict:

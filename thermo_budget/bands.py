@@ -18,7 +18,7 @@ from .planning import (SEARCH_MARGIN_K, limits_K, round_up, runs_before_limit, s
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
-from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
+from .uncertainty import factor_values, sample_rig, standard_normals
 from .units import ZERO_CELSIUS_K
 
 N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: README)
@@ -35,12 +35,13 @@ ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_requ
 
 
 def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES) -> dict:
-    """The band keys of `run --json` for a scenario whose point answers are `point` (report())."""
+    """The band keys of `run --json` for a scenario whose point answers are `point` (report()), all
+    but its advice in words (band_text.advice_sentence, from the ranking)."""
     model = scenario.uncertainty
     if not model.spreads:
         bands = {key: _collapsed(point.get(key)) for key in BAND_KEYS}
         return {"bands": bands, "confidence": model.confidence, "plan_at_confidence": _plan_of_point(point),
-                "band_ranking": [], "band_advice": "", "band_envelope": None,
+                "band_ranking": [], "band_envelope": None,
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
@@ -53,7 +54,7 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
         row["of"] = of_what
     return {"bands": bands, "confidence": model.confidence,
             "plan_at_confidence": plan_at_confidence(samples, point, model.confidence),
-            "band_ranking": ranking, "band_advice": advice_sentence(ranking, of_what),
+            "band_ranking": ranking,
             "band_envelope": samples["envelope"],
             "uncertainty": {"enabled": True, "samples": n_samples, "sizing_samples": n_sizing,
                             "factors": model.table()}}
@@ -330,20 +331,3 @@ def spread_ranking(z: np.ndarray, answer: np.ndarray, factors) -> list[dict]:
     for row in rows:
         row["r2"] = round(r2, 3)
     return rows
-
-
-def advice_sentence(ranking: list[dict], of_what: str = "the pull count") -> str:
-    """What to measure first: the inputs that together explain at least 60 % of the spread."""
-    if not ranking:
-        return ""
-    top, total = [], 0.0
-    for row in ranking:
-        top.append(row)
-        total += row["share"]
-        if total >= 0.6 or len(top) == 3:
-            break
-    names = [FACTOR_BY_KEY[row["factor"]].label for row in top]
-    what = names[0] if len(names) == 1 else ", the ".join(names[:-1]) + " and the " + names[-1]
-    verb = "explains" if len(names) == 1 else "explain"
-    measures = "; ".join(row["measure"] for row in top)
-    return f"The {what} {verb} {100 * total:.0f} % of the spread in {of_what}: measure first {measures}."

@@ -13,8 +13,12 @@ import json
 import os
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .errors import ScenarioError, shown
+
+if TYPE_CHECKING:
+    from .results import Report
 
 
 def _fmt(value_si, kind, system, digits=1):
@@ -30,46 +34,45 @@ def _temp(celsius, system):
     return "beyond the model's range" if celsius is None else format_temperature(celsius + ZERO_CELSIUS_K, system)
 
 
-def summary_text(result: dict) -> str:
+def summary_text(result: Report) -> str:
     """A short readable summary of a report, in the scenario's units."""
-    u = result["units"]
-    lines = [f"{result['name'] or 'scenario'}",
-             f"  fluid limit      {_temp(result['limit_C'], u)} (set by {result['limit_reason'].replace('_', ' ')})",
-             f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
-             f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
-             f"end {_temp(result['end_C'], u)}",
-             f"  return line peak {_temp(result['peak_return_C'], u)}"
-             + (f" (limit {_temp(result['return_line_limit_C'], u)})" if result.get("return_line_limit_C") is not None else ""),
-             "  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
-                                      else f"{result['time_to_limit_s'] / 60:.1f} min"),
-             f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
-             f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
-             f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
-             f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}",
-             f"  energy balance   {result['energy_balance_rel_error']:.1e} of heat in",
-             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at {_temp(60.0, u)} "
+    u = result.units
+    lines = [f"{result.name or 'scenario'}",
+             f"  fluid limit      {_temp(result.limit_C, u)} (set by {result.limit_reason.replace('_', ' ')})",
+             f"  pulls under limit {result.pulls_under_limit} of {result.pulls_planned} planned",
+             f"  bulk oil         start {_temp(result.start_C, u)}, peak {_temp(result.peak_C, u)}, "
+             f"end {_temp(result.end_C, u)}",
+             f"  return line peak {_temp(result.peak_return_C, u)}"
+             + (f" (limit {_temp(result.return_line_limit_C, u)})" if result.return_line_limit_C is not None else ""),
+             "  time to limit    " + ("not reached" if result.time_to_limit_s is None
+                                      else f"{result.time_to_limit_s / 60:.1f} min"),
+             f"  pump at peak     {_fmt(result.pump.flow_L_min / 60000, 'flow', u)}, "
+             f"{_fmt(result.pump.pressure_bar * 1e5, 'pressure', u, 0)}, "
+             f"{_fmt(result.peak_pull_power_W, 'power', u, 2)}",
+             f"  passive loss at limit {_fmt(result.passive_rejection_at_limit_W, 'power', u, 3)}",
+             f"  energy balance   {result.energy_balance_rel_error:.1e} of heat in",
+             f"  oil ageing       {result.oil_ageing_equivalent_h:.2f} h equivalent at {_temp(60.0, u)} "
              f"(rate doubling per {_fmt(10.0, 'temperature_difference', u, 0)}; common practice, a relative figure)",
-             f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
-             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3 if u == 'SI' else 2)})"]
-    if "runs_before_limit" in result:
-        runs = result["runs_before_limit"]
-        lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
-                                                                   else ("more than can be counted" if runs is None else str(runs))),
-                  "  steady peak      " + (_temp(result["steady_peak_C"], u) if result["sustainable"] else "none (not sustainable)"),
-                  "  minimum wait     " + ("impossible" if result["min_wait_s"] is None else f"{result['min_wait_s']:.0f} s"),
-                  "  cooler           " + ("not needed" if not result["cooler_needed"] else
-                                            ("no rating suffices" if result["cooler_required_W_per_K"] is None else
-                                             f"needed: {_fmt(result['cooler_required_W_per_K'], 'conductance', u, 1)}")),
-                  "  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
-                                                      else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
-                  "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
-                                               else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
-        if result.get("runs_stopped_by") == "return_line":
-            lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
-        from .band_text import summary_lines
-        lines += summary_lines(result)
-        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
-        lines += [f"  note: {note}" for note in result.get("notes", [])]
+             f"  head room at limit {_fmt(result.headroom_at_limit_L / 1000, 'volume', u, 2)} above the oil "
+             f"({_fmt(result.headroom_at_limit_m, 'length', u, 3 if u == 'SI' else 2)})"]
+    runs = result.runs_before_limit
+    lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result.sustainable
+                                                               else ("more than can be counted" if runs is None else str(runs))),
+              "  steady peak      " + (_temp(result.steady_peak_C, u) if result.sustainable else "none (not sustainable)"),
+              "  minimum wait     " + ("impossible" if result.min_wait_s is None else f"{result.min_wait_s:.0f} s"),
+              "  cooler           " + ("not needed" if not result.cooler_needed else
+                                        ("no rating suffices" if result.cooler_required_W_per_K is None else
+                                         f"needed: {_fmt(result.cooler_required_W_per_K, 'conductance', u, 1)}")),
+              "  cooler for all-day cadence " + ("none suffices" if result.cooler_required_sustained_W_per_K is None
+                                                  else _fmt(result.cooler_required_sustained_W_per_K, "conductance", u, 1)),
+              "  smallest oil volume " + ("impossible" if result.min_oil_volume_L is None
+                                           else _fmt(result.min_oil_volume_L / 1000, "volume", u, 2))]
+    if result.runs_stopped_by == "return_line":
+        lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
+    from .band_text import summary_lines
+    lines += summary_lines(result)
+    lines += [f"  CAUTION: {text}" for text in result.cautions]
+    lines += [f"  note: {note}" for note in result.notes]
     return "\n".join(lines)
 
 
@@ -118,11 +121,13 @@ def _run(args) -> int:
     if args.ambients is not None:
         from .hot_day import hot_day
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
-        result["hot_day"] = hot.to_dict()
     if args.json:
         from .answers import check_finite
-        check_finite(result)
-        print(json.dumps(result, indent=2, allow_nan=False))
+        keys = result.to_json()
+        if hot is not None:
+            keys["hot_day"] = hot.to_dict()
+        check_finite(keys)
+        print(json.dumps(keys, indent=2, allow_nan=False))
     else:
         print(summary_text(result))
         if hot is not None:

@@ -12,6 +12,7 @@ from .network import passive_rejection_W
 from .planning import (MAX_PULLS, minimum_oil_volume_L, periodic_state, required_cooler_W_K, runs_before_limit,
                        session_outcome, session_trace)
 from .scenario import KEYS, Scenario, limit_K
+from .results import Report
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
@@ -183,13 +184,13 @@ def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_susta
     return volumes, coolers
 
 
-def design_axes(scenario: Scenario, answers: dict | None = None, n_volumes: int = DESIGN_VOLUMES,
+def design_axes(scenario: Scenario, answers: Report | None = None, n_volumes: int = DESIGN_VOLUMES,
                 n_coolers: int = DESIGN_COOLERS):
     """design_grid with the two sizing answers it needs: taken from `answers` (the scenario's
     report) where given, else worked out here by the report's own searches."""
     if answers is None:
         notes: list[str] = []
-        answers = {"cooler_required_sustained_W_per_K": required_cooler_W_K(scenario, notes, sustained=True),
-                   "min_oil_volume_L": minimum_oil_volume_L(scenario, notes)}
-    return design_grid(scenario, answers["min_oil_volume_L"], answers["cooler_required_sustained_W_per_K"],
+        return design_grid(scenario, minimum_oil_volume_L(scenario, notes),
+                           required_cooler_W_K(scenario, notes, sustained=True), n_volumes, n_coolers)
+    return design_grid(scenario, answers.min_oil_volume_L, answers.cooler_required_sustained_W_per_K,
                        n_volumes, n_coolers)

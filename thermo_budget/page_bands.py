@@ -13,6 +13,7 @@ from .band_text import plan_phrase, pulls_phrase
 from .page_charts import ENVELOPE_COLOUR
 from .page_sections import html_table
 from .page_state import PagePlan
+from .results import Report
 
 RANKING_CSS = f"""<style>
 .tb-ranking {{ margin: 0.2rem 0 0.4rem 0; font-size: 0.82rem; }}
@@ -53,9 +54,9 @@ def _likely(band, quantity, system, scale=1.0) -> str:
     return f"{one(band['p10'])} to {one(band['p90'])}"
 
 
-def _table(answers: dict, system: str) -> list[dict]:
-    bands, plan = answers["bands"], answers["plan_at_confidence"]
-    c = f"plan ({100 * answers['confidence']:.0f} %)"
+def _table(answers: Report, system: str) -> list[dict]:
+    bands, plan = answers.band.bands, answers.band.plan_at_confidence
+    c = f"plan ({100 * answers.band.confidence:.0f} %)"
 
     def row(what, key, quantity, scale=1.0):
         def one(v):
@@ -68,7 +69,7 @@ def _table(answers: dict, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model": one(answers[key]) if answers[key] is not None else "n/a",
+        return {"answer": what, "model": one(getattr(answers, key)) if getattr(answers, key) is not None else "n/a",
                 "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
@@ -88,16 +89,14 @@ def section(page: PagePlan):
     and plan where its card does not show them), then the table of every answer's band and plan, and
     the band before and after a log fit."""
     answers, system = page.answers, page.system
-    if "bands" not in answers:
-        return
-    if not answers["uncertainty"].get("samples"):
+    if not (answers.band.uncertainty or {}).get("samples"):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
-    advice = f" {answers['band_advice']}" if answers["band_advice"] else ""
-    if answers["runs_before_limit"] is not None:   # the pull-count card shows the band and the plan already
+    advice = f" {answers.band.advice}" if answers.band.advice else ""
+    if answers.runs_before_limit is not None:   # the pull-count card shows the band and the plan already
         st.markdown(f"**How sure:** the likely range beside a figure is where 8 in 10 of the rigs the uncertainty "
                     f"model allows fall; the plan keeps the session under the limit in "
-                    f"{100 * answers['confidence']:.0f} % of them.{advice}")
+                    f"{100 * answers.band.confidence:.0f} % of them.{advice}")
     else:
         plan = plan_phrase(answers)
         st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") + advice)
@@ -108,10 +107,10 @@ def section(page: PagePlan):
         left.markdown(html_table(list(rows[0]), [list(row.values()) for row in rows], "tb-bands", words_first=True),
                       unsafe_allow_html=True)
         left.caption(f"Likely: from P10 to P90, i.e. 8 in 10 of the rigs the uncertainty model allows fall in the range "
-                     f"({answers['uncertainty']['samples']} quasi-random samples). The plan keeps the session "
-                     f"under the limit in {100 * answers['confidence']:.0f} % of them. The model's own figure "
+                     f"({answers.band.uncertainty['samples']} quasi-random samples). The plan keeps the session "
+                     f"under the limit in {100 * answers.band.confidence:.0f} % of them. The model's own figure "
                      f"is the one above the range.")
-        ranking = answers["band_ranking"]
+        ranking = answers.band.ranking
         if ranking:
             right.markdown(ranking_html([(row["what"], row["share"]) for row in ranking], ranking[0]["of"]),
                            unsafe_allow_html=True)

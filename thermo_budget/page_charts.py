@@ -11,6 +11,7 @@ import numpy as np
 from .display import to_shown
 from .design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
 from .plots import plot_design_chart, plot_hot_day, plot_trace
+from .results import Report
 from .answers import simulate
 from .scenario import load_scenario, read_toml_text
 from .units import ZERO_CELSIUS_K
@@ -25,7 +26,7 @@ def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
     return buffer.getvalue()
 
 
-def design_sweep(toml_text: str, answers: dict | None = None):
+def design_sweep(toml_text: str, answers: Report | None = None):
     """The design chart's sweep (pulls before the limit over oil volume x cooler size) of the
     scenario in `toml_text`; answers: its report, if known. It does not depend on the unit system,
     so a page can keep it and redraw only the chart when the units change. Counting stops at four
@@ -37,7 +38,7 @@ def design_sweep(toml_text: str, answers: dict | None = None):
     return sweep(scenario, volumes, coolers, max_pulls=max(4 * planned, 40))
 
 
-def design_chart_png(toml_text: str, system: str, answers: dict | None = None, result=None) -> bytes:
+def design_chart_png(toml_text: str, system: str, answers: Report | None = None, result=None) -> bytes:
     """The design chart of the scenario in `toml_text`, drawn in the units of `system`.
     result: its design_sweep, if already known (else worked out here)."""
     scenario = load_scenario(read_toml_text(toml_text))

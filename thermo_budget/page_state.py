@@ -17,6 +17,7 @@ import streamlit as st
 import thermo_budget as tb
 from . import page_charts, page_worker
 from .errors import ScenarioError
+from .results import Report
 from .answers import report, simulate
 from .scenario import Scenario, load_scenario, read_toml_text
 
@@ -38,7 +39,7 @@ def trace_for(toml_text: str):
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
-def answers_for(toml_text: str) -> dict:
+def answers_for(toml_text: str) -> Report:
     return report(scenario_of(toml_text), trace_for(toml_text))
 
 
@@ -107,7 +108,7 @@ def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    return page_charts.envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
+    return page_charts.envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).band.envelope)
 
 
 @st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
@@ -224,7 +225,7 @@ class PagePlan:
     """
     scenario: Scenario
     toml_text: str
-    answers: dict
+    answers: Report
     system: str
     calibrated: bool
     fit: object | None

@@ -36,7 +36,7 @@ def main(argv=None):
     parser.add_argument("scenario", nargs="?", default=str(DEFAULT_SCENARIO))
     args = parser.parse_args(argv)
     scenario = load_scenario(args.scenario)
-    point = report(scenario.changed(**{"uncertainty.enabled": False}))
+    point = report(scenario.changed(**{"uncertainty.enabled": False})).to_json()   # the point answers' keys
     print(f"{scenario.name}: point answers {point['runs_before_limit']} pulls before the limit, "
           f"peak {point['peak_C']} degC, smallest oil volume {point['min_oil_volume_L']} L")
     print("| samples | pulls before the limit | peak °C | sizing samples | smallest oil volume L |")

@@ -33,7 +33,7 @@ __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS"
            "air_side_h_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
+           "passive_rejection_W", "per_design", "return_line_rise_K", "return_rise_K", "stirring_velocity_m_s",
            "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
@@ -157,7 +157,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     oil_props, film_props = tuple(p[0] for p in both), tuple(p[1] for p in both)
     cp, rho = oil_props[2], oil_props[3]
     mass_flow = rho * Q
-    return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
+    return_rise = return_rise_K(P, mass_flow * cp, flowing)
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
@@ -203,11 +203,17 @@ def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
     return running
 
 
+def return_rise_K(power_W, capacity_rate_W_K, flowing):
+    """Return-line oil temperature minus bulk, K: the pull's heat carried by the loop's stream,
+    P / (m_dot c_p); 0 with no flow. The one formula node_equations and return_line_rise_K share."""
+    return np.where(flowing, power_W / np.maximum(capacity_rate_W_K, 1e-30), 0.0)
+
+
 def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
-    """Return-line oil temperature minus bulk: P / (m_dot c_p), K; 0 with no flow."""
+    """Return-line oil temperature minus bulk at bulk temperature T_oil_K, K (return_rise_K)."""
     Q = np.asarray(inputs.volume_flow_m3_s, dtype=float)
     capacity_rate = rig.oil.density_kg_m3(T_oil_K) * Q * rig.oil.specific_heat(T_oil_K)
-    return np.where(Q > 0, inputs.power_W / np.maximum(capacity_rate, 1e-30), 0.0)
+    return return_rise_K(inputs.power_W, capacity_rate, Q > 0)
 
 
 def cooling_time_constant_s(rig: Rig, T_K: float) -> float:

@@ -6,7 +6,7 @@ import math
 import numpy as np
 
 from .band_text import advice_sentence
-from .report_text import COOLER_RATING_MODEL, beyond_range_caution, cautions
+from .report_text import COOLER_RATING_MODEL, beyond_range_caution, cautions, note_words
 from .errors import ScenarioError
 from .network import HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_rejection_W
 from .headroom import headroom_at
@@ -162,7 +162,7 @@ def check_finite(result, path: str = "") -> None:
 
 def planning_answers(scenario: Scenario) -> dict:
     """The planning keys of `run --json`."""
-    notes: list[str] = []
+    notes: list[tuple[str, dict]] = []   # (code, values), worded by report_text.note_words
     rig = build_rig(scenario)
     limit, reason = limit_K(scenario)
     session = session_trace(scenario, rig, 1)
@@ -174,22 +174,20 @@ def planning_answers(scenario: Scenario) -> dict:
         steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
     runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
     if sustainable:
-        notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
-                     f"{steady_peak - ZERO_CELSIUS_K:.1f} degC, below the {limit - ZERO_CELSIUS_K:.1f} degC limit.")
+        notes.append(("sustainable", {"steady_peak_C": steady_peak - ZERO_CELSIUS_K, "limit_C": limit - ZERO_CELSIUS_K}))
     elif np.isnan(runs):
-        notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
+        notes.append(("uncounted", {"max_pulls": MAX_PULLS}))
     # the planned session without a cooler: the session already run, where the scenario has none
     uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
     cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
     cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
     if not cooler_needed:
-        notes.append("No cooler is needed for the planned session.")
+        notes.append(("no_cooler_needed", {}))
     cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
     if cooler_sustained == 0.0:
-        notes.append("No cooler is needed for the cadence to go on all day.")
+        notes.append(("no_cooler_needed_all_day", {}))
     if scenario.cooler_W_K > 0:
-        notes.append(f"The cooler sizes are the total rating needed, in place of the scenario's "
-                     f"{scenario.cooler_W_K:.1f} W/K cooler; the minimum wait and oil volume assume no cooler.")
+        notes.append(("cooler_fitted", {"cooler_W_K": scenario.cooler_W_K}))
     return {
         "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
         "sustainable": sustainable,
@@ -201,7 +199,7 @@ def planning_answers(scenario: Scenario) -> dict:
         "cooler_rating_model": COOLER_RATING_MODEL,
         "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
         "schedule": ready_schedule(scenario, notes, session),
-        "notes": notes,
+        "notes": [note_words(code, values) for code, values in notes],
     }
 
 

@@ -257,9 +257,10 @@ def _waits_of(scenario: Scenario) -> list[float]:
 
 def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     """Shortest uniform wait (every wait step) that lets the planned session finish under the limit,
-    with no cooler. None where no wait can do it."""
+    with no cooler. None where no wait can do it. notes : gets the facts worth a note, as (code,
+    values) pairs that report_text.note_words words."""
     if not _waits_of(scenario):
-        notes.append("The cycle has no wait step, so there is no wait to lengthen.")
+        notes.append(("no_wait_step", {}))
         return None
     limit, _ = limit_K(scenario)
     rig = build_rig(scenario, cooler_W_K=0.0)
@@ -271,10 +272,9 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     tau = time_constant_s(scenario)
     wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
     if wait == 0.0:
-        notes.append("No wait is needed: even back-to-back pulls stay under the limit.")
+        notes.append(("no_wait_needed", {}))
     elif np.isnan(wait):
-        notes.append("No wait is long enough without a cooler: the pulls of one cycle already cross the "
-                     "limit from a cooled-down start. Shorten the pulls, add oil or fit a cooler.")
+        notes.append(("no_wait_suffices", {}))
         return None
     return round_up(wait, 2)
 
@@ -318,10 +318,7 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
     cooler = batched_threshold(passes, 1e-5 * largest, largest, floor=0.0)
     if np.isnan(cooler):
-        what = "sustain the cadence" if sustained else "finish the planned session"
-        notes.append(f"No cooler up to {largest:.0f} W/K can {what}: with the oil flow of this pump the cooler "
-                     "cannot take the heat out fast enough during a pull (its duty is capped at the oil's "
-                     "capacity rate m_dot c_p). Shorten the pulls or add oil.")
+        notes.append(("no_cooler_suffices", {"largest_W_K": largest, "sustained": sustained}))
         return None
     return round_up(cooler, 3)
 
@@ -338,6 +335,6 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
 
     volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
     if np.isnan(volume):
-        notes.append(f"Even {200 * V0 * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
+        notes.append(("no_oil_volume_suffices", {"largest_L": 200 * V0 * 1000}))
         return None
     return round_up(volume * 1000.0, 4)

@@ -85,10 +85,8 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
         cool_step = waits[-1] if waits else off
         extra = extra_wait_s(scenario, rig, X, pull, cool_step, limit)
         if extra is None:
-            why = (f"the oil does not cool to the ready temperature during the wait (engine {cool_step.engine})"
-                   if scenario.ready_temperature_K is not None else
-                   f"it would cross the limit even after a long wait (engine {cool_step.engine})")
-            notes.append(f"Pull {index} cannot be scheduled: {why}; the schedule stops before it.")
+            notes.append(("pull_not_scheduled", {"index": index, "engine": cool_step.engine,
+                                                 "ready_temperature": scenario.ready_temperature_K is not None}))
             break
         if extra > 0:
             X = _run_steps(rig, [cool_step.with_duration(extra)], X).final_K

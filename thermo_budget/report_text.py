@@ -48,3 +48,45 @@ def beyond_range_caution(scenario: Scenario, ceiling_K: float, limit_K: float, p
             f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures "
             f"are not given. It is far past the fluid limit ({temp(limit_K)}){flash} long before that: do not "
             f"run this session.")
+
+
+def _no_cooler_suffices(largest_W_K: float, sustained: bool) -> str:
+    what = "sustain the cadence" if sustained else "finish the planned session"
+    return (f"No cooler up to {largest_W_K:.0f} W/K can {what}: with the oil flow of this pump the cooler "
+            "cannot take the heat out fast enough during a pull (its duty is capped at the oil's "
+            "capacity rate m_dot c_p). Shorten the pulls or add oil.")
+
+
+def _pull_not_scheduled(index: int, engine: str, ready_temperature: bool) -> str:
+    why = (f"the oil does not cool to the ready temperature during the wait (engine {engine})" if ready_temperature
+           else f"it would cross the limit even after a long wait (engine {engine})")
+    return f"Pull {index} cannot be scheduled: {why}; the schedule stops before it."
+
+
+# The planning answers' notes: what the searches found (planning.py, ready_schedule.py,
+# answers.planning_answers give a code and its values), in words.
+_NOTES = {
+    "sustainable": lambda steady_peak_C, limit_C: (
+        f"The cadence can go on all day: it settles to a periodic state peaking at {steady_peak_C:.1f} degC, "
+        f"below the {limit_C:.1f} degC limit."),
+    "uncounted": lambda max_pulls: (
+        f"No pull crosses the limit within {max_pulls} pulls, but the cadence does not settle below it."),
+    "no_cooler_needed": lambda: "No cooler is needed for the planned session.",
+    "no_cooler_needed_all_day": lambda: "No cooler is needed for the cadence to go on all day.",
+    "cooler_fitted": lambda cooler_W_K: (
+        f"The cooler sizes are the total rating needed, in place of the scenario's {cooler_W_K:.1f} W/K cooler; "
+        "the minimum wait and oil volume assume no cooler."),
+    "no_wait_step": lambda: "The cycle has no wait step, so there is no wait to lengthen.",
+    "no_wait_needed": lambda: "No wait is needed: even back-to-back pulls stay under the limit.",
+    "no_wait_suffices": lambda: ("No wait is long enough without a cooler: the pulls of one cycle already cross the "
+                                 "limit from a cooled-down start. Shorten the pulls, add oil or fit a cooler."),
+    "no_cooler_suffices": _no_cooler_suffices,
+    "no_oil_volume_suffices": lambda largest_L: (
+        f"Even {largest_L:.0f} L of oil in a tank of the same shape would not finish the session."),
+    "pull_not_scheduled": _pull_not_scheduled,
+}
+
+
+def note_words(code: str, values: dict) -> str:
+    """One note of the planning answers in words, from its code and values (SI, degC)."""
+    return _NOTES[code](**values)

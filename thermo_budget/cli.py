@@ -125,7 +125,7 @@ def _run(args) -> int:
         from .answers import check_finite
         keys = result.to_json()
         if hot is not None:
-            keys["hot_day"] = hot.to_dict()
+            keys["hot_day"] = hot.to_json()
         check_finite(keys)
         print(json.dumps(keys, indent=2, allow_nan=False))
     else:
@@ -182,7 +182,7 @@ def _sweep(args) -> int:
         from .plots import plot_design_chart
         plot_design_chart(scenario, result).savefig(args.plot, dpi=120, bbox_inches="tight")
     if args.json:
-        print(json.dumps(result.to_dict(), indent=2))
+        print(json.dumps(result.to_json(), indent=2))
     else:
         print(result.summary_text(scenario.units))
     return 0

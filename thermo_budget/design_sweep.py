@@ -24,7 +24,7 @@ SWEEP_BYTES_PER_POINT = 200
 MAX_SWEEP_BYTES = 256 * 2**20
 
 
-@dataclass
+@dataclass(frozen=True)
 class SweepResult:
     """Grid results, arrays of shape (V, K): V oil volumes (L at 15 degC) by K coolers (W/K of ETD).
 
@@ -44,7 +44,7 @@ class SweepResult:
     limit_C: float
     max_pulls: int
 
-    def to_dict(self) -> dict:
+    def to_json(self) -> dict:
         runs = [[None if np.isnan(v) else int(v) for v in row] for row in self.runs_before_limit]
         return {"oil_volumes_L": self.oil_volumes_L.round(6).tolist(),
                 "coolers_W_per_K": self.coolers_W_per_K.round(6).tolist(),

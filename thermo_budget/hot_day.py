@@ -27,7 +27,7 @@ DEFAULT_STEP_K = 5.0
 AROUND_K = 15.0                 # otherwise the scenario's ambient +/- this
 
 
-@dataclass
+@dataclass(frozen=True)
 class HotDay:
     """Answers per ambient, arrays of shape (A,).
 
@@ -41,7 +41,7 @@ class HotDay:
     cooler_W_per_K: np.ndarray
     max_pulls: int
 
-    def to_dict(self) -> dict:
+    def to_json(self) -> dict:
         return {"ambient_C": [round(float(a) - ZERO_CELSIUS_K, 2) for a in self.ambients_K],
                 "pulls_before_limit": [None if np.isnan(p) else int(p) for p in self.pulls],
                 "all_day": [bool(a) for a in self.all_day],

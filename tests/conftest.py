@@ -196,7 +196,7 @@ BAD_INPUTS = [
 def default_report(default_scenario):
     """thermo_budget.report on the default scenario, computed once (it runs the planning searches)."""
     import thermo_budget
-    return thermo_budget.report(default_scenario)
+    return thermo_budget.report(default_scenario).to_json()
 
 
 @pytest.fixture(scope="session")
@@ -218,7 +218,7 @@ def busy_scenario(default_scenario):
 def busy_report(busy_scenario):
     """thermo_budget.report on the busy scenario, computed once (tests/test_bands.py, tests/test_planning.py)."""
     import thermo_budget
-    return thermo_budget.report(busy_scenario)
+    return thermo_budget.report(busy_scenario).to_json()
 
 
 # Keys `run --json` must contain (issue 2)
@@ -260,3 +260,13 @@ def _adiabatic_steps():
 
 # 10 kW x 10 s pulls and 30 s engine-off waits (invented)
 ADIABATIC_PULL, ENGINE_OFF_30S = _adiabatic_steps()
+
+
+def load_tool(name: str):
+    """A developer tool of tools/ (outside the installed package), loaded from its file."""
+    import importlib.util
+    path = Path(__file__).resolve().parents[1] / "tools" / f"{name}.py"
+    spec = importlib.util.spec_from_file_location(f"tools_{name}", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module

@@ -5,7 +5,7 @@ It checks one claim of the lumped network (thermo_budget.network, nodes HOSE and
 an adiabatic rig with short pulls and engine-off waits, most of what the bulk oil ends above the
 single-temperature energy balance is heat that a real hose wall cannot yet have taken, because its
 conduction time t^2/alpha is minutes. The lumped network has the wall as two rings (the liner, the
-inner fifth of the thickness, and the cover; conductances.hose_rings_m; until it found one node at
+inner fifth of the thickness, and the cover; rig.hose_rings_m; until it found one node at
 mid-wall 38 % short, one node); here the wall is cut into n_cells rings.
 
 Physics (what each piece stands for, and its source):
@@ -356,7 +356,8 @@ def outer_air(rig, hose: HoseWall, n_cells: int):
     whose hose conductance is that coefficient over the outside area in series with the rubber from
     the cover's centre), in series with the outer half of the outermost ring; the surface taken at
     the ring's temperature."""
-    from thermo_budget.conductances import ambient_conductances_W_K, hose_rings_m
+    from thermo_budget.conductances import ambient_conductances_W_K
+    from thermo_budget.rig import hose_rings_m
     from thermo_budget.correlations import cylinder_wall_conductance_W_K
     from thermo_budget.materials import HOSE_WALL
     r_o = 0.5 * hose.outside_m
@@ -489,8 +490,9 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K
 
-    from thermo_budget.report import TRACE_RESOLUTION
-    from thermo_budget.scenario import build_rig, load_scenario
+    from thermo_budget.answers import TRACE_RESOLUTION
+    from thermo_budget.scenario import load_scenario
+    from thermo_budget.rig_build import build_rig
     from thermo_budget.solver import integrate
 
     scenario = load_scenario(adiabatic_raw())

@@ -11,9 +11,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from thermo_budget.network import OIL, Inputs, NODE_NAMES, node_equations
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import Resolution, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate, propagate_linear
+from thermo_budget.units import ZERO_CELSIUS_K
 
 from conftest import SCENARIO_DIR
 
@@ -53,7 +55,7 @@ class LoggedDay:
     def lines(self, header="time_s,oil_C,pull,power_W", columns=("pull", "power")):
         out = []
         for i in range(self.time_s.size):
-            cells = [f"{self.time_s[i]:.1f}", f"{self.reading_K[i] - 273.15:.3f}"]
+            cells = [f"{self.time_s[i]:.1f}", f"{self.reading_K[i] - ZERO_CELSIUS_K:.3f}"]
             if "pull" in columns:
                 cells.append(str(int(self.pull[i])))
             if "power" in columns:

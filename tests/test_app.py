@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pytest
 from streamlit.testing.v1 import AppTest
+from thermo_budget.units import ZERO_CELSIUS_K
 
 APP = str(Path(__file__).resolve().parent.parent / "app.py")
 TIMEOUT_S = 120
@@ -145,14 +146,14 @@ def test_impossible_inputs_are_refused_with_a_message(page):
 
 def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     from thermo_budget import load_scenario
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     from thermo_budget.scenario import read_toml_text
     number_input(page, "Oil in the tank").set_value(14.0).run()
     labels = [b.proto.label for b in page.get("download_button")]
     assert labels == ["Scenario (.toml)", "Trace (.csv)", "Temperature chart (.png)", "Design chart (.png)"]
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
-    again = report(load_scenario(read_toml_text(text)))
+    again = report(load_scenario(read_toml_text(text))).to_json()
     assert str(again["runs_before_limit"]) == headline(page)
 
 
@@ -179,7 +180,7 @@ def test_engine_curve_scenario_and_pull_mode_switch(page):
 def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.report import simulate, trace_csv
+    from thermo_budget.answers import simulate, trace_csv
     before = headline(page)
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
@@ -220,12 +221,12 @@ def _in(system: str, unit: str, value: float) -> float:
 def test_every_shown_figure_is_the_report_figure(scenario_file):
     from thermo_budget import load_scenario
     from thermo_budget.hot_day import hot_day
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
     at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
     assert not at.exception and not at.error
-    answers = report(load_scenario(path))
+    answers = report(load_scenario(path)).to_json()
     for system in ("SI", "US"):
         if at.session_state["system"] != system:
             at.radio(key="system").set_value(system).run()
@@ -251,9 +252,9 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         # the hot day: each hotter ambient's pull count, as hot_day() gives it
         hot = hot_day(load_scenario(path))
         lines = next(m.value for m in at.markdown if m.value.startswith("Hotter than today")).splitlines()[1:]
-        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + 273.15 + 1e-9][:len(lines)]
+        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + ZERO_CELSIUS_K + 1e-9][:len(lines)]
         for line, i in zip(lines, hotter):
-            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
+            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - ZERO_CELSIUS_K))
             assert f"{int(hot.pulls[i])} pulls" in line
         # the schedule: each pull's bulk and return-line peak
         schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
@@ -276,15 +277,17 @@ def test_return_line_stop_is_said_in_the_headline():
 def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
     from thermo_budget.page_cards import pulls_card
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
+    from dataclasses import replace
+    from thermo_budget.results import Band
     answers = report(load_scenario(DEFAULT_SCENARIO))
-    plain = pulls_card({key: value for key, value in answers.items()
-                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
+    plain = pulls_card(replace(answers, band=Band(bands={}, confidence=0.9, plan_at_confidence={})), "SI")
     assert "likely" not in plain.unit
-    runs = answers["runs_before_limit"]                     # the card shows the point answer
-    answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
-                          "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}, "uncertainty": {"samples": 128}}
+    runs = answers.runs_before_limit                     # the card shows the point answer
+    answers = replace(answers, band=Band(bands={"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
+                                                "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
+                                         confidence=0.9, plan_at_confidence={"runs_before_limit": runs - 6},
+                                         uncertainty={"samples": 128}))
     card = pulls_card(answers, "SI")
     assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
     assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
@@ -305,7 +308,7 @@ def test_name_edit_follows_into_the_titles_and_the_file(page):
     assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
     from thermo_budget.plots import plot_trace
     from thermo_budget import load_scenario
-    from thermo_budget.report import simulate
+    from thermo_budget.answers import simulate
     scenario = load_scenario(page.session_state["draft"])
     assert plot_trace(scenario, simulate(scenario)).axes[0].get_title(loc="left") == "Stand 2, bigger tank"
 

@@ -7,10 +7,10 @@ import pytest
 
 from thermo_budget import build_rig, load_scenario, report
 from thermo_budget.bands import BAND_KEYS, SIZING_KEYS, sample_answers
-from thermo_budget.planning import planning_answers, runs_before_limit
-from thermo_budget.report import session_report
+from thermo_budget.planning import runs_before_limit
+from thermo_budget.answers import planning_answers, session_report
 
-from conftest import SCENARIO_DIR, SHIPPED_SCENARIOS
+from conftest import SHIPPED_SCENARIOS
 
 
 @pytest.fixture(scope="module")
@@ -30,7 +30,7 @@ def _width(band):
                                     "power": "0 %", "capacity": "0 %", "emissivity": "0 %", "body_emissivity": "0 %",
                                     "engine_off": "0 %", "floor": "0 %", "dry_shell": "0 %"}])
 def test_off_every_band_collapses_to_the_point_and_points_are_unchanged(default, default_report, table):
-    off = report(default.changed(uncertainty=table))
+    off = report(default.changed(uncertainty=table)).to_json()
     today = session_report(default)
     today.update(planning_answers(default))
     for key, value in today.items():
@@ -84,7 +84,7 @@ def test_band_covers_the_truth_about_80_percent_of_the_time(default, default_rep
 def test_widening_the_inputs_never_narrows_the_band(default):
     widths = []
     for scale in (0.25, 0.5, 1.0, 2.0):
-        r = report(dataclasses.replace(default, uncertainty=default.uncertainty.widened(scale)))
+        r = report(dataclasses.replace(default, uncertainty=default.uncertainty.widened(scale))).to_json()
         widths.append([_width(r["bands"][key]) for key in ("runs_before_limit", "peak_C", "min_oil_volume_L")])
     widths = np.array(widths)
     # compared pairwise, not by np.diff: an unbounded band stays unbounded (inf >= inf; inf - inf is nan)
@@ -94,8 +94,8 @@ def test_widening_the_inputs_never_narrows_the_band(default):
 def test_a_log_fit_narrows_the_band(default, default_report, demo_log_fit):
     result = demo_log_fit
     calibrated = result.calibrated_scenario
-    after = report(calibrated)
-    prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None}))
+    after = report(calibrated).to_json()
+    prior_only = report(result.calibrated_scenario.changed(**{"uncertainty.posterior": None})).to_json()
     for key in ("runs_before_limit", "peak_C", "min_oil_volume_L"):
         assert _width(after["bands"][key]) < _width(default_report["bands"][key]), key
         assert _width(after["bands"][key]) <= _width(prior_only["bands"][key]), key
@@ -109,7 +109,7 @@ def _reports():
 
 @pytest.mark.parametrize("name, path", list(_reports()))
 def test_order_holds_and_the_plan_is_never_bolder_than_p50(name, path, busy_report):
-    r = busy_report if path is None else report(load_scenario(path))
+    r = busy_report if path is None else report(load_scenario(path)).to_json()
     for key in BAND_KEYS:
         band = r["bands"][key]
         assert (band is None) == (r[key] is None), key

@@ -154,8 +154,8 @@ def _screenshot(page, path: Path):
 
 def _expected_pulls(path) -> str:
     from thermo_budget import load_scenario
-    from thermo_budget.report import report
-    return str(report(load_scenario(path))["runs_before_limit"])
+    from thermo_budget.answers import report
+    return str(report(load_scenario(path)).to_json()["runs_before_limit"])
 
 
 def _long_values_rig(folder: Path) -> Path:

@@ -13,12 +13,14 @@ from thermo_budget import report
 from thermo_budget.errors import ScenarioError
 from thermo_budget.network import OIL
 from thermo_budget.outcome import pulls_completed_under
-from thermo_budget.report import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.answers import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
+from thermo_budget.rig_build import build_rig
+from thermo_budget.scenario import limit_K, load_scenario
 from thermo_budget.session import PLAN_RESOLUTION
 from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 def all_finite(value) -> bool:
@@ -38,7 +40,7 @@ def plastic_tank_40kW():
 
 
 def test_40kW_into_a_10L_plastic_tank_reports_with_a_caution():
-    result = report(plastic_tank_40kW())
+    result = report(plastic_tank_40kW()).to_json()
     assert all_finite(result)
     assert result["beyond_model_range"] is True
     assert all(result[key] is None for key in BEYOND_RANGE_KEYS)
@@ -51,7 +53,7 @@ def test_a_30000_s_pull_on_the_default_scenario_reports():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
     steps = [dict(step, duration="30000 s") if step["kind"] == "pull" else step
              for step in scenario.raw["session"]["steps"]]
-    result = report(scenario.changed(**{"session.steps": steps}))
+    result = report(scenario.changed(**{"session.steps": steps})).to_json()
     assert all_finite(result) and result["beyond_model_range"] and result["pulls_under_limit"] == 0
 
 
@@ -82,7 +84,7 @@ def test_the_eigen_solve_is_guarded_against_a_non_finite_system():
 
 def test_a_peak_within_the_oil_data_is_a_number(default_report, default_scenario):
     assert default_report["beyond_model_range"] is False
-    assert default_report["peak_C"] + 273.15 < model_range_max_K(default_scenario)
+    assert default_report["peak_C"] + ZERO_CELSIUS_K < model_range_max_K(default_scenario)
 
 
 def test_a_non_finite_answer_is_refused_naming_it():
@@ -184,7 +186,7 @@ def test_500_random_plausible_rigs_report_without_an_exception():
     scenarios, refused = _random_scenarios(500)
     for raw, scenario in scenarios:
         trace = simulate(scenario)
-        result = report(scenario, trace)
+        result = report(scenario, trace).to_json()
         assert all_finite(result), raw
     assert refused < 50
 
@@ -318,7 +320,6 @@ def test_the_live_page_shows_our_message_for_a_nul_byte(tmp_path):
     from streamlit.testing.v1 import AppTest
 
     def app(folder_name):
-        from pathlib import Path
 
         from thermo_budget.page_live import live_section
         from thermo_budget.scenario import DEFAULT_SCENARIO

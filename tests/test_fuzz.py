@@ -23,10 +23,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from thermo_budget.cli import main
-from thermo_budget.report import simulate, trace_rows
+from thermo_budget.answers import simulate, trace_rows
 from thermo_budget.scenario import load_scenario
 
 from conftest import base_raw
+from thermo_budget.units import ZERO_CELSIUS_K
 
 QUICK_EXAMPLES = int(os.environ.get("THERMO_FUZZ_EXAMPLES", "25"))
 HEAVY_EXAMPLES = int(os.environ.get("THERMO_FUZZ_EXAMPLES", "500"))
@@ -233,7 +234,7 @@ def mutated_log_text(draw) -> str:
             j = draw(st.integers(0, len(rows) - 1))
             rows[i], rows[j] = rows[j], rows[i]
         elif action == "scale":   # the readings in another unit
-            factor, offset = draw(st.sampled_from([(1.8, 32.0), (1.0, 273.15), (1e6, 0.0), (-1.0, 0.0)]))
+            factor, offset = draw(st.sampled_from([(1.8, 32.0), (1.0, ZERO_CELSIUS_K), (1e6, 0.0), (-1.0, 0.0)]))
             for row in rows:
                 try:
                     row[1] = f"{float(row[1]) * factor + offset:.3f}"

@@ -5,7 +5,8 @@ import pytest
 
 from thermo_budget import load_scenario
 from thermo_budget.headroom import headroom_at, hot_oil_volume_m3
-from thermo_budget.report import report
+from thermo_budget.answers import report
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 def test_default_tank_at_the_limit_by_hand(default_scenario):
@@ -25,12 +26,12 @@ def test_expansion_is_linear_from_15_degC():
 def test_report_states_the_head_room_and_the_smallest_tank_has_room_to_spare(default_scenario):
     from conftest import SCENARIO_DIR
     for scenario in (default_scenario, load_scenario(SCENARIO_DIR / "us_units_fan.toml")):
-        answers = report(scenario)
+        answers = report(scenario).to_json()
         assert answers["headroom_at_limit_L"] > 0 and answers["headroom_at_limit_m"] > 0
         assert answers["headroom_at_peak_L"] >= answers["headroom_at_limit_L"] - 1e-9 or answers["peak_C"] > answers["limit_C"]
         assert answers["min_oil_volume_L"] is not None
         # the smallest oil volume, in its tank scaled to it, still leaves room at the limit
         assert answers["min_oil_volume_headroom_L"] > 0
-        smallest = headroom_at(scenario, answers["limit_C"] + 273.15, answers["min_oil_volume_L"] / 1000.0)
+        smallest = headroom_at(scenario, answers["limit_C"] + ZERO_CELSIUS_K, answers["min_oil_volume_L"] / 1000.0)
         # geometric scaling keeps the fraction of the tank left free
-        assert smallest.fraction == pytest.approx(headroom_at(scenario, answers["limit_C"] + 273.15).fraction, rel=1e-9)
+        assert smallest.fraction == pytest.approx(headroom_at(scenario, answers["limit_C"] + ZERO_CELSIUS_K).fraction, rel=1e-9)

@@ -5,7 +5,7 @@ Issue 10 asks that on the adiabatic rig with the rig's own engine-off waits (20 
 above it (4.1 K with the former one-node hose) and claims most of that is real: a ~5 mm rubber wall
 conducts in minutes and is touched by moving oil for 200 s. These tests check the claim against
 radial finite-volume conduction through the wall; they found the one-node hose 38 % short of the
-resolved wall's heat, which is why the hose is now two rings (conductances.hose_rings_m). Sources beside each number:
+resolved wall's heat, which is why the hose is now two rings (rig.hose_rings_m). Sources beside each number:
 - conduction in a cylinder and the finite-volume (theta) method: Incropera, Fundamentals of Heat and
   Mass Transfer, 6th ed., eq. 3.27 and ch. 5 (sec. 5.10);
 - semi-infinite solid with a constant surface temperature, heat taken 2 k dT sqrt(t / (pi alpha))
@@ -28,8 +28,9 @@ from scipy.optimize import brentq
 
 from thermo_budget.materials import HOSE_WALL
 from thermo_budget.network import HARDWARE, N_NODES, OIL, WALL, hose_rings_m, node_enthalpy_J
-from thermo_budget.report import TRACE_RESOLUTION
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.answers import TRACE_RESOLUTION
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.solver import integrate
 
 import hose_wall_reference as ref
@@ -130,7 +131,7 @@ def test_halving_the_rings_or_the_time_step_changes_the_heat_by_less_than_1_perc
 
 
 def test_two_rings_are_the_lumped_nodes(session_a):
-    # With the model's two rings (conductances.hose_rings_m: the liner the inner fifth of the wall)
+    # With the model's two rings (rig.hose_rings_m: the liner the inner fifth of the wall)
     # the reference has the lumped nodes' structure (each ring's capacity at its mid-radius, the
     # shell conductances between); with ht's coefficient in place of the package's it takes within
     # 5 % of the lumped nodes' heat (measured: 2.7 %; the former one-node hose against one ring:

@@ -6,10 +6,11 @@ import numpy as np
 import pytest
 
 from thermo_budget.hot_day import default_ambients_K, hot_day
-from thermo_budget.report import report
+from thermo_budget.answers import report
 from thermo_budget.scenario import load_scenario
 
 from conftest import SCENARIO_DIR
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 @pytest.mark.parametrize("name", ["default.toml", "us_units_fan.toml", "us_20hp_small_tank.toml"])
@@ -22,7 +23,7 @@ def test_hotter_never_gives_more_pulls_and_the_own_ambient_matches_the_report(na
     coolers = np.where(np.isnan(day.cooler_W_per_K), 1e12, day.cooler_W_per_K)   # none can: larger than any
     assert np.all(np.diff(coolers) >= -1e-3)                      # hotter: never a smaller cooler
     own = int(np.flatnonzero(ambients == scenario.ambient_K)[0])
-    answers = report(scenario)
+    answers = report(scenario).to_json()
     if answers["runs_before_limit"] is not None and answers["runs_before_limit"] <= day.max_pulls:
         assert day.pulls[own] == answers["runs_before_limit"]
     assert day.cooler_W_per_K[own] == pytest.approx(answers["cooler_required_W_per_K"], rel=0.02, abs=0.01)
@@ -31,7 +32,7 @@ def test_hotter_never_gives_more_pulls_and_the_own_ambient_matches_the_report(na
 def test_batch_equals_separate_runs_and_default_range():
     scenario = load_scenario(SCENARIO_DIR / "default.toml")
     ambients = default_ambients_K(scenario)
-    assert ambients[0] == pytest.approx(273.15) and ambients[-1] == pytest.approx(318.15)
+    assert ambients[0] == pytest.approx(ZERO_CELSIUS_K) and ambients[-1] == pytest.approx(318.15)
     batch = hot_day(scenario, ambients[[2, 8]])
     for i, a in enumerate(ambients[[2, 8]]):
         alone = hot_day(scenario, [a])

@@ -1,9 +1,9 @@
 """A whole test day watched live: ten hours logged every second (36,001 rows), made by our own model
-with 0.3 K of noise (thermo_budget.bench_live.simulated_day, the benchmark's day), checked against
+with 0.3 K of noise (tools/bench_live.py's simulated_day, the benchmark's day), checked against
 a reference integrated independently here (scipy's solve_ivp on the same network equations).
 
 The day is made once per session. Speed is measured by the benchmark (`python -m
-thermo_budget.bench --live`), not here. The scenario's uncertainty band is off here, so the ready
+tools/bench.py --live`), not here. The scenario's uncertainty band is off here, so the ready
 time is the model's own, and re-running the model with it is a check of it.
 """
 from __future__ import annotations
@@ -14,7 +14,9 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from thermo_budget.bench_live import day_plan, day_scenario, simulated_day
+from conftest import load_tool
+
+day_plan, day_scenario, simulated_day = (getattr(load_tool("bench_live"), name) for name in ("day_plan", "day_scenario", "simulated_day"))
 from thermo_budget.live_forecast import OFF, planned_pull
 from thermo_budget.live_watch import LiveWatch
 from thermo_budget.network import OIL, Inputs, node_equations

@@ -16,7 +16,9 @@ from thermo_budget.live_forecast import forecast, planned_pull
 from thermo_budget.live_state import JSON_KEYS
 from thermo_budget.live_watch import LiveWatch
 from thermo_budget.network import NODE_NAMES, OIL
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
+from thermo_budget.units import ZERO_CELSIUS_K
 
 from conftest import SCENARIO_DIR
 from live_logger import ONE_SUBSTEP, extra_mass_ready_s, hot_start_scenario, log_day
@@ -239,7 +241,7 @@ def watch_pulls(day, i) -> int:
 # --- the command line --------------------------------------------------------------------------------
 
 def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_state(capsys):
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     code = main(["watch", str(SCENARIO_DIR / "default.toml"), str(SCENARIO_DIR / "demo_log.csv"), "--once", "--json"])
     out = capsys.readouterr().out.strip().splitlines()
     assert code == 0 and len(out) == 1
@@ -256,10 +258,10 @@ def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_stat
     estimate = record["estimate_C"]
     here = load_scenario(SCENARIO_DIR / "default.toml").changed(ambient="17.5 degC")
     rig = build_rig(here)
-    heat = node_enthalpy_J(rig, np.array([[estimate[name] + 273.15 for name in NODE_NAMES]])).sum()
+    heat = node_enthalpy_J(rig, np.array([[estimate[name] + ZERO_CELSIUS_K for name in NODE_NAMES]])).sum()
     T_one = brentq(lambda T: node_enthalpy_J(rig, np.full((1, N_NODES), T)).sum() - heat, 250.0, 400.0)
-    scenario = here.changed(**{"session.start_temperature": f"{T_one - 273.15:.3f} degC"})
-    answers = report(scenario)
+    scenario = here.changed(**{"session.start_temperature": f"{T_one - ZERO_CELSIUS_K:.3f} degC"})
+    answers = report(scenario).to_json()
     assert record["wait_s"] == answers["schedule"][0]["extra_wait_s"] == 0.0
     # the watch gives its answers at the scenario's confidence (0.9 here), as run's plan does
     assert answers["confidence"] == 0.9
@@ -284,7 +286,7 @@ def test_watch_once_text_and_bad_inputs(tmp_path, capsys):
 def test_a_return_line_sensor_is_read_with_the_return_rise(tmp_path):
     """The trace CSV of `run` read by its return_C column: the estimate of the bulk oil comes out
     at the bulk, not at the hotter return line."""
-    from thermo_budget.report import simulate, trace_csv
+    from thermo_budget.answers import simulate, trace_csv
     scenario = hot_start_scenario(**{"session.repeat": 2})
     trace = simulate(scenario)
     path = tmp_path / "trace.csv"

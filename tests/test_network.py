@@ -12,11 +12,13 @@ from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTI
                                    loop_conductances_W_K, node_enthalpy_J, node_equations, oil_to_hardware_W_K,
                                    oil_to_hose_W_K, passive_rejection_W, return_line_rise_K,
                                    stirring_velocity_m_s, temperatures_from_enthalpy_K, wall_to_ambient_W_K)
-from thermo_budget.rig_build import default_internal_area_m2
-from thermo_budget.scenario import build_rig, load_scenario
+from thermo_budget.hardware_defaults import default_internal_area_m2
+from thermo_budget.scenario import load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import pump_flow_m3_s
 
 from conftest import base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 # Exact unit factors
 W_IN_BTU_PER_HR = 3600.0 / 1055.05585262      # 1 W in BTU/hr (IT Btu)
@@ -156,7 +158,7 @@ def test_passive_rejection_zero_at_ambient_and_rising(rig):
 def test_return_line_rise_matches_the_210_rule(rig, power_W, rpm, T_C):
     # BTU/hr = gpm x 210 x dT(degF) for hydraulic oil (common practice, no source): within 15 %.
     inputs = flowing_inputs(rig, power_W, rpm)
-    rise_K = float(return_line_rise_K(rig, np.array([T_C + 273.15]), inputs)[0])
+    rise_K = float(return_line_rise_K(rig, np.array([T_C + ZERO_CELSIUS_K]), inputs)[0])
     gpm = float(inputs.volume_flow_m3_s[0]) * 60.0 / GAL_M3
     rule_dT_F = power_W * W_IN_BTU_PER_HR / (gpm * 210.0)
     assert rise_K * 1.8 == pytest.approx(rule_dT_F, rel=0.15)

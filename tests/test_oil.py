@@ -7,6 +7,7 @@ from thermo_budget.errors import ScenarioError
 from thermo_budget.oil import (T40_K, T100_K, Oil, cragoe_conductivity_W_mK, cragoe_specific_heat_J_kgK,
                                iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt, viscosity_index_d2270,
                                walther_coefficients, walther_temperature_K, walther_viscosity_cSt)
+from thermo_budget.units import ZERO_CELSIUS_K
 
 # Exact unit factors (International Table Btu, international inch, foot and pound).
 BTU_J = 1055.05585262
@@ -19,7 +20,7 @@ BTU_IN_PER_H_FT2_F = BTU_J * INCH_M / (3600.0 * FOOT_M**2 * RANKINE_K)       # W
 
 
 def kelvin_from_F(t_F):
-    return (t_F - 32.0) * RANKINE_K + 273.15
+    return (t_F - 32.0) * RANKINE_K + ZERO_CELSIUS_K
 
 
 # --- ISO 3448 -----------------------------------------------------------------------------------
@@ -186,7 +187,7 @@ def test_enthalpy_is_the_integral_of_specific_heat():
     dT = 1e-3
     slope = (oil.specific_enthalpy_J_kg(T + dT) - oil.specific_enthalpy_J_kg(T - dT)) / (2 * dT)
     np.testing.assert_allclose(slope, oil.specific_heat(T), rtol=1e-7)
-    assert oil.specific_enthalpy_J_kg(273.15) == pytest.approx(0.0, abs=1e-9)
+    assert oil.specific_enthalpy_J_kg(ZERO_CELSIUS_K) == pytest.approx(0.0, abs=1e-9)
     np.testing.assert_allclose(oil.temperature_from_enthalpy_K(oil.specific_enthalpy_J_kg(T)), T, rtol=1e-12)
 
 

@@ -7,8 +7,9 @@ import pytest
 
 from thermo_budget.outcome import limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
 from thermo_budget.planning import session_trace
-from thermo_budget.report import report, simulate
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.answers import report, simulate
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import SCENARIO_DIR, base_raw, set_path
 
@@ -37,12 +38,12 @@ def test_limiting_peak_is_the_bulk_peak_without_a_return_limit(plain):
 
 
 def test_return_line_limit_between_the_two_peaks_stops_the_count_first(plain):
-    base = report(plain)
+    base = report(plain).to_json()
     assert base["session_stopped_by"] in (None, "bulk") and base["runs_stopped_by"] == "bulk"
     # a return-line limit below the return-line peak but above the bulk peak of the planned session
     celsius = round(0.5 * (base["peak_C"] + base["peak_return_C"]), 1)
     limited = _with_return_limit(plain, celsius)
-    answers = report(limited)
+    answers = report(limited).to_json()
     assert answers["return_line_limit_C"] == pytest.approx(celsius)
     assert answers["session_stopped_by"] == "return_line"
     assert answers["pulls_under_limit"] < base["pulls_under_limit"] or base["pulls_under_limit"] < base["pulls_planned"]
@@ -66,9 +67,9 @@ def test_the_count_is_the_pulls_before_the_return_line_crosses(plain):
 
 
 def test_sizing_answers_keep_the_return_line_under_its_limit(plain):
-    base = report(plain)
+    base = report(plain).to_json()
     limited = _with_return_limit(plain, round(base["peak_return_C"] - 3.0, 1))
-    answers = report(limited)
+    answers = report(limited).to_json()
     return_limit = limited.return_line_max_temperature_K
     limit, _ = limit_K(limited)
     # re-run with every wait at the minimum wait: both oils stay under their limits
@@ -89,7 +90,7 @@ def test_sizing_answers_keep_the_return_line_under_its_limit(plain):
 
 
 def test_shipped_us_rig_stops_at_its_hoses():
-    answers = report(load_scenario(SCENARIO_DIR / "us_20hp_small_tank.toml"))
+    answers = report(load_scenario(SCENARIO_DIR / "us_20hp_small_tank.toml")).to_json()
     assert answers["runs_stopped_by"] == "return_line"
     assert answers["peak_return_C"] > answers["peak_C"]
 

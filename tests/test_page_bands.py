@@ -5,8 +5,9 @@ import pytest
 
 from thermo_budget import report
 from thermo_budget.band_text import plan_phrase, pulls_phrase
-from thermo_budget.page_bands import envelope_png, ranking_html
-from thermo_budget.report import simulate
+from thermo_budget.page_bands import ranking_html
+from thermo_budget.page_charts import envelope_png
+from thermo_budget.answers import simulate
 
 from conftest import REPO
 
@@ -41,19 +42,19 @@ def test_the_ranking_chart_has_a_bar_per_input_in_proportion_to_its_share(defaul
     assert "<script" not in ranking_html([("<script>x</script>", 0.5)])   # labels are escaped
 
 
-def test_the_band_in_words(default_scenario, default_report):
-    r = default_report
-    band = r["bands"]["runs_before_limit"]
+def test_the_band_in_words(default_scenario):
+    r = report(default_scenario)
+    band = r.band.bands["runs_before_limit"]
     # the default's P90 is unbounded since the band's four new factors (issue 23): more than a tenth
     # of the samples never reach the limit
     upper = "or more" if band["p90"] is None else f"-{band['p90']}"
-    assert pulls_phrase(r) == (f"{r['runs_before_limit']} pulls before the limit (likely {band['p10']}"
+    assert pulls_phrase(r) == (f"{r.runs_before_limit} pulls before the limit (likely {band['p10']}"
                                f"{'' if band['p90'] is not None else ' '}{upper})")
-    assert plan_phrase(r) == (f"plan {r['plan_at_confidence']['runs_before_limit']} pulls to stay under 80.0 °C "
+    assert plan_phrase(r) == (f"plan {r.band.plan_at_confidence['runs_before_limit']} pulls to stay under 80.0 °C "
                               f"with 90 % confidence")
     off = report(default_scenario.changed(uncertainty={"enabled": False}))
-    assert pulls_phrase(off) == f"{off['runs_before_limit']} pulls before the limit"
-    assert np.isfinite(r["confidence"])
+    assert pulls_phrase(off) == f"{off.runs_before_limit} pulls before the limit"
+    assert np.isfinite(r.band.confidence)
 
 
 def test_the_page_shows_the_band_before_and_after_a_log_fit():

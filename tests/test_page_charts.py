@@ -8,7 +8,7 @@ import matplotlib.image
 import numpy as np
 import pytest
 
-from thermo_budget import page_charts
+from thermo_budget import design_sweep, page_charts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -20,16 +20,16 @@ def default(default_scenario):
 
 def test_design_axes_bracket_the_rig_and_the_answers(default, default_report):
     answers = default_report
-    volumes, coolers = page_charts.design_axes(default)
-    assert [a.tolist() for a in page_charts.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]
+    volumes, coolers = design_sweep.design_axes(default)
+    assert [a.tolist() for a in design_sweep.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]
     assert volumes.size == page_charts.DESIGN_VOLUMES and coolers.size == page_charts.DESIGN_COOLERS
     assert volumes[0] < default.oil_volume_L < volumes[-1]
-    assert volumes[0] < answers["min_oil_volume_L"] < volumes[-1]
-    assert coolers[0] == 0.0 and coolers[-1] > answers["cooler_required_sustained_W_per_K"]
+    assert volumes[0] < answers.min_oil_volume_L < volumes[-1]
+    assert coolers[0] == 0.0 and coolers[-1] > answers.cooler_required_sustained_W_per_K
 
 
 def test_design_grid_reaches_past_the_smallest_tank_and_the_own_cooler(default):
-    volumes, coolers = page_charts.design_grid(default.changed(**{"cooler.specific_dissipation": "40 W/K"}),
+    volumes, coolers = design_sweep.design_grid(default.changed(**{"cooler.specific_dissipation": "40 W/K"}),
                                                min_oil_volume_L=100.0, cooler_sustained_W_K=2.0)
     assert volumes[-1] == pytest.approx(130.0)
     assert coolers[-1] == pytest.approx(60.0)
@@ -37,7 +37,7 @@ def test_design_grid_reaches_past_the_smallest_tank_and_the_own_cooler(default):
 
 def test_design_grid_without_an_all_day_cooler_uses_the_passive_loss(default, default_report):
     answers = default_report
-    _, coolers = page_charts.design_grid(default, None, None)
+    _, coolers = design_sweep.design_grid(default, None, None)
     passive_W_K = answers["passive_rejection_at_limit_W"] / (answers["limit_C"] - answers["ambient_C"])
     assert coolers[-1] == pytest.approx(3.0 * passive_W_K, rel=1e-3)
 

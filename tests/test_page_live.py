@@ -103,7 +103,8 @@ def test_on_a_long_log_over_the_limit_the_section_says_how_long_to_cool(tmp_path
     how long to cool and how many pulls then."""
     import re
 
-    from thermo_budget.bench_live import day_plan, simulated_day
+    from conftest import load_tool
+    day_plan, simulated_day = load_tool("bench_live").day_plan, load_tool("bench_live").simulated_day
     day = simulated_day(plan=day_plan()[:69])
     rows = int(np.searchsorted(day.time_s, 6220.0)) + 1
     (tmp_path / "day.csv").write_text("\n".join(day.lines(range(rows))) + "\n")

@@ -82,6 +82,6 @@ def test_charts_drawn_in_the_page_are_kept_and_use_its_answers():
     assert kept.done() and kept.result() is drawn
     assert page_state.slow_charts(text, "SI") is drawn
     # the report's sizing answers give the grid the worker's own searches give
-    from thermo_budget.page_charts import design_axes
+    from thermo_budget.design_sweep import design_axes
     for given, searched in zip(design_axes(scenario, report(scenario)), design_axes(scenario)):
         np.testing.assert_array_equal(given, searched)

@@ -12,6 +12,7 @@ from thermo_budget.network import OIL
 from thermo_budget.planning import batched_threshold, planning_answers, session_outcome
 from thermo_budget.report import session_report
 from thermo_budget.solver import integrate
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 @pytest.fixture(scope="module")
@@ -123,7 +124,7 @@ def test_sustainability_agrees_with_brute_force():
     rig = build_rig(scenario)
     trace = integrate(rig, list(scenario.cycle) * 400, scenario.start_K)
     last_cycle = trace.step_index >= trace.step_index.max() - len(scenario.cycle) + 1
-    brute_peak_C = trace.T_K[last_cycle, 0, OIL].max() - 273.15
+    brute_peak_C = trace.T_K[last_cycle, 0, OIL].max() - ZERO_CELSIUS_K
     assert abs(brute_peak_C - r["steady_peak_C"]) < 0.05
 
 

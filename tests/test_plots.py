@@ -9,7 +9,7 @@ import pytest
 from matplotlib.figure import Figure
 
 from thermo_budget.plots import plot_design_chart, plot_trace
-from thermo_budget.report import simulate
+from thermo_budget.answers import simulate
 
 
 @pytest.fixture(scope="module")

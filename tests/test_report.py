@@ -1,16 +1,19 @@
 """The report dict (what `run --json` prints): its keys, its meaning, and rules of the trade."""
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 import thermo_budget
-from thermo_budget.network import HOSE, HOSE_COVER, LOOP_OIL, N_NODES, OIL, heat_capacities_J_K, passive_rejection_W
+from thermo_budget.network import HOSE, HOSE_COVER, LOOP_OIL, N_NODES, OIL, heat_capacities_J_K
 from thermo_budget.outcome import first_crossing_s
-from thermo_budget.report import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.answers import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, set_path
+from thermo_budget.units import ZERO_CELSIUS_K
 
 # Exact unit factors
 PSI_PA = 6894.757293168
@@ -43,7 +46,8 @@ def crossing_trace(crossing_scenario):
 
 
 def test_report_is_the_public_api_and_has_every_key(default_report):
-    assert callable(thermo_budget.report)
+    import thermo_budget.answers  # the submodule is named apart from the function it exports
+    assert thermo_budget.report is thermo_budget.answers.report
     for key in REQUIRED_JSON_KEYS:
         assert key in default_report, key
     assert set(default_report["heat_capacity_J_per_K"]) >= {"oil", "wall", "hardware"}
@@ -164,7 +168,7 @@ def test_peak_return_rise_matches_the_210_rule(us_scenario, us_trace):
     gpm = r["pump"]["flow_L_min"] / 1000.0 / GAL_M3
     rule_F = r["peak_pull_power_W"] * W_IN_BTU_PER_HR / (210.0 * gpm)
     assert rise_F == pytest.approx(rule_F, rel=0.15)
-    assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - 273.15, abs=1e-3)
+    assert r["peak_return_C"] == pytest.approx(us_trace.return_K[i, 0] - ZERO_CELSIUS_K, abs=1e-3)
 
 
 def test_pulls_under_limit_counts_until_the_first_crossing(crossing_scenario, crossing_trace):
@@ -201,7 +205,7 @@ def test_limit_reason_min_viscosity_in_the_report():
     s = load_scenario(raw)
     r = session_report(s)
     assert r["limit_reason"] == "min_viscosity"
-    assert r["limit_C"] == pytest.approx(s.oil.temperature_at_viscosity_K(16.0) - 273.15, abs=1e-3)
+    assert r["limit_C"] == pytest.approx(s.oil.temperature_at_viscosity_K(16.0) - ZERO_CELSIUS_K, abs=1e-3)
     assert r["limit_C"] < 80.0
 
 
@@ -218,7 +222,7 @@ def test_trace_csv_keeps_the_six_columns_and_adds_the_hose_last(default_scenario
     assert set(np.round(rows[1:, 5])) <= {7000.0, 150.0}      # pull and idle loads of the default rig
     np.testing.assert_allclose(rows, trace_rows(trace), rtol=1e-5, atol=1e-3)
     # hose_C: the rubber's capacity-weighted mean over its two rings (liner and cover)
-    np.testing.assert_allclose(rows[:, 6], trace.hose_K[:, 0] - 273.15, atol=1e-3)
+    np.testing.assert_allclose(rows[:, 6], trace.hose_K[:, 0] - ZERO_CELSIUS_K, atol=1e-3)
 
 
 def test_first_crossing_interpolates_between_points(crossing_trace, crossing_scenario):
@@ -237,12 +241,36 @@ def test_an_absurd_peak_gets_a_caution_and_a_sane_one_none(default_report):
     raw = base_raw()
     set_path(raw, "reservoir.oil_volume", "4 L")
     raw["session"]["steps"][0]["power"] = "60 kW"       # 60 kW pulls into 4 L of oil
-    answers = thermo_budget.report(load_scenario(raw))
+    answers = thermo_budget.report(load_scenario(raw)).to_json()
     # past the assumed 180 degC flash point, and past the oil data: a caution in place of a peak (issue 13)
     assert answers["peak_C"] is None and answers["beyond_model_range"]
     assert any("flash point" in text and "assumed" in text for text in answers["cautions"])
     set_path(raw, "fluid.flash_point", "240 degC")       # a stated flash point above the peak
-    stated = thermo_budget.report(load_scenario(raw))
+    stated = thermo_budget.report(load_scenario(raw)).to_json()
     assert stated["flash_point_C"] == 240.0 and stated["flash_point_given"]
     if stated["peak_return_C"] is not None and stated["peak_return_C"] < 240.0:
         assert any("above 100 degC" in text for text in stated["cautions"])
+
+
+# The keys `run --json` prints, in their order, as the release before the result objects printed
+# them (tests/data/report_json_keys.json): Report.to_json() must write the same, on every shipped
+# scenario; a new key is added to the list on purpose, never by accident.
+JSON_KEYS = json.loads((Path(__file__).parent / "data" / "report_json_keys.json").read_text(encoding="utf-8"))
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in SCENARIO_DIR.glob("*.toml")))
+def test_report_json_has_the_committed_keys_in_order(name):
+    from thermo_budget.results import Report
+    result = thermo_budget.report(load_scenario(SCENARIO_DIR / name))
+    assert isinstance(result, Report)
+    keys = result.to_json()
+    assert list(keys) == JSON_KEYS["report"]
+    assert list(keys["heat_capacity_J_per_K"]) == JSON_KEYS["heat_capacity_J_per_K"]
+    assert list(keys["pump"]) == JSON_KEYS["pump"] and list(keys["oil"]) == JSON_KEYS["oil"]
+    assert all(list(row) == JSON_KEYS["schedule_row"] for row in keys["schedule"] or [])
+    assert list(keys["bands"]) == JSON_KEYS["answers_with_a_band"]
+    assert list(keys["plan_at_confidence"]) == JSON_KEYS["plan_at_confidence"]
+    # the attributes the page and the command line read are the JSON's values
+    assert result.peak_C == keys["peak_C"] and result.pump.flow_L_min == keys["pump"]["flow_L_min"]
+    assert result.band.plan_at_confidence == keys["plan_at_confidence"] and result.band.advice == keys["band_advice"]
+    json.dumps(keys, allow_nan=False)   # plain JSON types only

@@ -4,7 +4,8 @@ import pytest
 import tomllib
 
 from thermo_budget.errors import ScenarioError
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 
 from conftest import BAD_INPUTS, SHIPPED_SCENARIOS, bad_scenario_path, base_raw, set_path
 

@@ -13,13 +13,15 @@ from thermo_budget.network import (HARDWARE, HOSE, LOOP_OIL, N_NODES, OIL, Input
                                    node_enthalpy_J, node_equations, oil_to_wall_W_K)
 from thermo_budget.still_paths import engine_off_link_W_K, loop_oil_links_W_K
 from thermo_budget.outcome import peak_oil_K, pulls_completed_under
-from thermo_budget.report import TRACE_RESOLUTION, session_report
-from thermo_budget.scenario import build_rig, limit_K, load_scenario
+from thermo_budget.answers import TRACE_RESOLUTION, session_report
+from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.rig_build import build_rig
 from thermo_budget.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
 from thermo_budget.solver import integrate, propagate_linear
 
 from conftest import (ADIABATIC_PULL, ENGINE_OFF_30S, SCENARIO_DIR, SHIPPED_SCENARIOS, adiabatic_raw, base_raw,
                       set_path, single_temperature_K)
+from thermo_budget.units import ZERO_CELSIUS_K
 
 
 # --- analytic solutions -------------------------------------------------------------------------
@@ -201,7 +203,7 @@ def test_energy_balance_closes_at_planning_resolution(path):
 def cragoe_enthalpy_J_kg(T_K, s):
     """Integral of Cragoe's c = (0.388 + 0.00045 t)/sqrt(s) Btu/(lb °F) in °F, from 32 °F, in J/kg
     (Cragoe, NBS Misc. Publ. 97; written out here independently of thermo_budget.oil)."""
-    t_F = (T_K - 273.15) * 1.8 + 32.0
+    t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     btu_per_lb = (0.388 * (t_F - 32.0) + 0.000225 * (t_F**2 - 32.0**2)) / np.sqrt(s)
     return btu_per_lb * 1055.05585262 / 0.45359237
 
@@ -527,7 +529,7 @@ def test_engine_off_end_state_matches_an_independent_reference_and_its_excess_ne
     set_path(raw, "hardware.mounting", mounting)
     scenario = load_scenario(raw)
     rig = build_rig(scenario)
-    T_eq = _single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
+    T_eq = single_temperature_K(rig, scenario.start_K, 20 * 10 * 10000.0)
     session = [ADIABATIC_PULL, ENGINE_OFF_30S] * 19 + [ADIABATIC_PULL]
     after_pulls = integrate(rig, session, scenario.start_K, resolution=TRACE_RESOLUTION).final_K[0]
     excess = []

@@ -8,7 +8,7 @@ from thermo_budget.errors import ScenarioError
 from thermo_budget.uncertainty import (FACTORS, UncertaintyModel, factor_values, posterior_from_fit, read_uncertainty,
                                        sample_rig, standard_normals)
 
-from conftest import SCENARIO_DIR, base_raw
+from conftest import SCENARIO_DIR, base_raw, load_tool
 
 
 def test_every_factor_names_its_source_and_judgements_say_so():
@@ -101,7 +101,7 @@ def test_posterior_from_the_demo_log_fit(demo_log_fit):
 def test_the_shipped_sobol_points_are_scipys():
     # the table the package reads (make_sobol_table) against scipy.stats.qmc.Sobol and norm.ppf, the
     # source; and more points than the table holds still come from scipy, continuing the same sequence
-    from thermo_budget.make_sobol_table import main as check_table
+    check_table = load_tool("make_sobol_table").main
     from thermo_budget.uncertainty import (SOBOL_SEED, SOBOL_TABLE_POINTS, UncertaintyModel,
                                            sobol_normals_from_scipy, standard_normals)
     assert check_table(["--check"]) == 0

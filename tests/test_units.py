@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from thermo_budget.units import UREG, affine_conversion, convert, to_display
+from thermo_budget.units import UREG, ZERO_CELSIUS_K, affine_conversion, convert, to_display
 
 
 @pytest.mark.parametrize("from_unit,to_unit", [
@@ -27,6 +27,9 @@ def test_defined_values_of_us_units():
     # 32 degF is the ice point, 273.15 K; 212 degF is 373.15 K (definition of the Fahrenheit scale)
     assert to_display(273.15, "temperature", "US") == pytest.approx(32.0, abs=1e-9)
     assert to_display(373.15, "temperature", "US") == pytest.approx(212.0, abs=1e-9)
+    # 0 degC = 273.15 K exactly (NIST SP 811, 4.2.1.1): the one constant every conversion uses
+    assert ZERO_CELSIUS_K == 273.15
+    assert convert(0.0, "degC", "K") == 273.15
     # 1 BTU/(hr degF) = 0.5275 W/K (International Table BTU: 1055.056 J / 3600 s x 1.8)
     assert convert(1.0, "BTU/hr/delta_degF", "W/K") == pytest.approx(0.527527, rel=1e-5)
 

@@ -1,7 +1,7 @@
 """Air properties: tabulated from CoolProp and interpolated.
 
 The table (`data/air_1atm.csv`, 220-600 K every 2 K) is written from CoolProp by
-`python -m thermo_budget.make_air_table` and shipped with the package, so a run never loads
+`python tools/make_air_table.py` and shipped with the package, so a run never loads
 CoolProp (seconds of start-up); tests/test_air.py regenerates it and checks it against CoolProp.
 The ODE right-hand side and the sweeps use np.interp on the table.
 

@@ -15,11 +15,12 @@ import numpy as np
 from .long_session import integrate_session
 from .network import OIL
 from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import (SEARCH_MARGIN_K, limits_K, runs_before_limit, session_trace, sustainability, take_designs,
+from .planning import (SEARCH_MARGIN_K, limits_K, round_up, runs_before_limit, session_trace, sustainability, take_designs,
                        time_constant_s)
 from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
-from .uncertainty import FACTOR_BY_KEY, factor_values, sample_rig, standard_normals
+from .uncertainty import factor_values, sample_rig, standard_normals
+from .units import ZERO_CELSIUS_K
 
 N_SAMPLES = 128            # pull count, peak, time to limit, envelope (convergence: docs/method.md)
 N_SIZING_SAMPLES = 32      # wait, cooler and oil volume (the first points of the same Sobol sequence)
@@ -35,12 +36,13 @@ ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_requ
 
 
 def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES) -> dict:
-    """The band keys of `run --json` for a scenario whose point answers are `point` (report())."""
+    """The band keys of `run --json` for a scenario whose point answers are `point` (report()), all
+    but its advice in words (band_text.advice_sentence, from the ranking)."""
     model = scenario.uncertainty
     if not model.spreads:
         bands = {key: _collapsed(point.get(key)) for key in BAND_KEYS}
         return {"bands": bands, "confidence": model.confidence, "plan_at_confidence": _plan_of_point(point),
-                "band_ranking": [], "band_advice": "", "band_envelope": None,
+                "band_ranking": [], "band_envelope": None,
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
@@ -53,7 +55,7 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
         row["of"] = of_what
     return {"bands": bands, "confidence": model.confidence,
             "plan_at_confidence": plan_at_confidence(samples, point, model.confidence),
-            "band_ranking": ranking, "band_advice": advice_sentence(ranking, of_what),
+            "band_ranking": ranking,
             "band_envelope": samples["envelope"],
             "uncertainty": {"enabled": True, "samples": n_samples, "sizing_samples": n_sizing,
                             "factors": model.table()}}
@@ -71,12 +73,12 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     session = session_trace(scenario, rig, n_samples)
     crossing = first_crossing_s(session, *limits)
     out = {"z": z, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
-           "peak_C": peak_oil_K(session) - 273.15, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
+           "peak_C": peak_oil_K(session) - ZERO_CELSIUS_K, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
         out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,
                                                                          int(point["runs_before_limit"]),
                                                                          model.confidence)
-    oil = session.T_K[:, :, OIL] - 273.15
+    oil = session.T_K[:, :, OIL] - ZERO_CELSIUS_K
     out["envelope"] = {"time_s": np.round(session.time_s[:, 0], 2).tolist(),
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
                        "p50_C": np.round(np.quantile(oil, 0.5, axis=1), 3).tolist(),
@@ -307,7 +309,7 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
             continue
         v = order_statistic(values, confidence)
         digits = ROUND_DIGITS[key]      # rounded up, so that the planned size still suffices
-        plan[key] = max(0.0, float(np.ceil(v * 10**digits - 1e-9) / 10**digits)) if np.isfinite(v) else None
+        plan[key] = max(0.0, round_up(v, digits)) if np.isfinite(v) else None
     return plan
 
 
@@ -330,20 +332,3 @@ def spread_ranking(z: np.ndarray, answer: np.ndarray, factors) -> list[dict]:
     for row in rows:
         row["r2"] = round(r2, 3)
     return rows
-
-
-def advice_sentence(ranking: list[dict], of_what: str = "the pull count") -> str:
-    """What to measure first: the inputs that together explain at least 60 % of the spread."""
-    if not ranking:
-        return ""
-    top, total = [], 0.0
-    for row in ranking:
-        top.append(row)
-        total += row["share"]
-        if total >= 0.6 or len(top) == 3:
-            break
-    names = [FACTOR_BY_KEY[row["factor"]].label for row in top]
-    what = names[0] if len(names) == 1 else ", the ".join(names[:-1]) + " and the " + names[-1]
-    verb = "explains" if len(names) == 1 else "explain"
-    measures = "; ".join(row["measure"] for row in top)
-    return f"The {what} {verb} {100 * total:.0f} % of the spread in {of_what}: measure first {measures}."

@@ -18,17 +18,17 @@ from scipy import stats
 from scipy.optimize import least_squares
 
 from .errors import ScenarioError
-from .fit_text import calibrated_toml, fit_command, format_difference, format_temperature, summary_text
+from .display import format_difference, format_temperature
 from .log_checks import plausibility_warnings, refuse_implausible, thin_for_fit
 from .log_model import FIT_RESOLUTION, LogModel, log_model, predict_log_K
 from .measured_log import MeasuredLog, read_log
 from .network import cooling_time_constant_s
 from .scenario import Scenario, limit_K
 from .uncertainty import with_fit_posterior
+from .units import ZERO_CELSIUS_K
 
 # re-exported: the log's model and the fit's text live beside this module
-__all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "calibrated_toml", "fit_command", "fit_log",
-           "fit_measured_log", "log_model", "predict_log_K", "summary_text"]
+__all__ = ["FIT_RESOLUTION", "FitResult", "LogModel", "fit_log", "fit_measured_log", "log_model", "predict_log_K"]
 
 CONVECTION_BOUNDS = (0.01, 10.0)      # the scenario file accepts 0 to 10
 CAPACITY_BOUNDS = (0.05, 10.0)        # the scenario file accepts above 0 up to 10
@@ -111,9 +111,9 @@ class FitResult:
         }
         if include_series:
             result["series"] = {"time_s": self.time_s.round(3).tolist(),
-                                "measured_C": (self.measured_K - 273.15).round(4).tolist(),
-                                "fitted_C": (self.fitted_K - 273.15).round(4).tolist(),
-                                "uncalibrated_C": (self.uncalibrated_K - 273.15).round(4).tolist()}
+                                "measured_C": (self.measured_K - ZERO_CELSIUS_K).round(4).tolist(),
+                                "fitted_C": (self.fitted_K - ZERO_CELSIUS_K).round(4).tolist(),
+                                "uncalibrated_C": (self.uncalibrated_K - ZERO_CELSIUS_K).round(4).tolist()}
         return result
 
 
@@ -216,7 +216,7 @@ def fit_measured_log(scenario: Scenario, log: MeasuredLog, sensor: str = "bulk",
         rms_uncalibrated_K=float(np.sqrt(np.mean((uncalibrated - measured) ** 2))), noise_K=noise,
         residual_lag1_autocorrelation=lag1, n_points=int(n), n_parameters=n_par,
         n_skipped_cells=log.n_skipped_cells, n_merged_rows=log.n_merged_rows,
-        ambient_C=model.ambient_K - 273.15, ambient_source=model.ambient_source, heat_input=model.heat_input,
+        ambient_C=model.ambient_K - ZERO_CELSIUS_K, ambient_source=model.ambient_source, heat_input=model.heat_input,
         time_constant_s=tau, converged=bool(solution.success), warnings=warnings, notes=notes,
         time_s=log.time_s[used], measured_K=measured, fitted_K=fitted, uncalibrated_K=uncalibrated,
         calibrated_scenario=calibrated, hardware_coupling_multiplier=coupling)

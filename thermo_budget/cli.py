@@ -9,12 +9,15 @@ from __future__ import annotations
 
 import argparse
 import errno
-import json
 import os
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .errors import ScenarioError, shown
+
+if TYPE_CHECKING:
+    from .results import Report
 
 
 def _fmt(value_si, kind, system, digits=1):
@@ -25,51 +28,52 @@ def _fmt(value_si, kind, system, digits=1):
 
 
 def _temp(celsius, system):
-    return "beyond the model's range" if celsius is None else _fmt(celsius + 273.15, "temperature", system)
+    from .display import format_temperature
+    from .units import ZERO_CELSIUS_K
+    return "beyond the model's range" if celsius is None else format_temperature(celsius + ZERO_CELSIUS_K, system)
 
 
-def summary_text(result: dict) -> str:
+def summary_text(result: Report) -> str:
     """A short readable summary of a report, in the scenario's units."""
-    u = result["units"]
-    lines = [f"{result['name'] or 'scenario'}",
-             f"  fluid limit      {_temp(result['limit_C'], u)} (set by {result['limit_reason'].replace('_', ' ')})",
-             f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
-             f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "
-             f"end {_temp(result['end_C'], u)}",
-             f"  return line peak {_temp(result['peak_return_C'], u)}"
-             + (f" (limit {_temp(result['return_line_limit_C'], u)})" if result.get("return_line_limit_C") is not None else ""),
-             "  time to limit    " + ("not reached" if result["time_to_limit_s"] is None
-                                      else f"{result['time_to_limit_s'] / 60:.1f} min"),
-             f"  pump at peak     {_fmt(result['pump']['flow_L_min'] / 60000, 'flow', u)}, "
-             f"{_fmt(result['pump']['pressure_bar'] * 1e5, 'pressure', u, 0)}, "
-             f"{_fmt(result['peak_pull_power_W'], 'power', u, 2)}",
-             f"  passive loss at limit {_fmt(result['passive_rejection_at_limit_W'], 'power', u, 3)}"
-             + (f" (the floor takes {100 * result['floor_share_of_tank_loss']:.0f} % of the tank's)"
-                if result.get("floor_share_of_tank_loss") else ""),
-             f"  energy balance   {result['energy_balance_rel_error']:.1e} of the largest energy term (in, lost or stored)",
-             f"  oil ageing       {result['oil_ageing_equivalent_h']:.2f} h equivalent at {_temp(60.0, u)} "
+    u = result.units
+    lines = [f"{result.name or 'scenario'}",
+             f"  fluid limit      {_temp(result.limit_C, u)} (set by {result.limit_reason.replace('_', ' ')})",
+             f"  pulls under limit {result.pulls_under_limit} of {result.pulls_planned} planned",
+             f"  bulk oil         start {_temp(result.start_C, u)}, peak {_temp(result.peak_C, u)}, "
+             f"end {_temp(result.end_C, u)}",
+             f"  return line peak {_temp(result.peak_return_C, u)}"
+             + (f" (limit {_temp(result.return_line_limit_C, u)})" if result.return_line_limit_C is not None else ""),
+             "  time to limit    " + ("not reached" if result.time_to_limit_s is None
+                                      else f"{result.time_to_limit_s / 60:.1f} min"),
+             f"  pump at peak     {_fmt(result.pump.flow_L_min / 60000, 'flow', u)}, "
+             f"{_fmt(result.pump.pressure_bar * 1e5, 'pressure', u, 0)}, "
+             f"{_fmt(result.peak_pull_power_W, 'power', u, 2)}",
+             f"  passive loss at limit {_fmt(result.passive_rejection_at_limit_W, 'power', u, 3)}"
+             + (f" (the floor takes {100 * result.floor_share_of_tank_loss:.0f} % of the tank's)"
+                if result.floor_share_of_tank_loss else ""),
+             f"  energy balance   {result.energy_balance_rel_error:.1e} of the largest energy term (in, lost or stored)",
+             f"  oil ageing       {result.oil_ageing_equivalent_h:.2f} h equivalent at {_temp(60.0, u)} "
              f"(rate doubling per {_fmt(10.0, 'temperature_difference', u, 0)}; common practice, a relative figure)",
-             f"  head room at limit {_fmt(result['headroom_at_limit_L'] / 1000, 'volume', u, 2)} above the oil "
-             f"({_fmt(result['headroom_at_limit_m'], 'length', u, 3 if u == 'SI' else 2)})"]
-    if "runs_before_limit" in result:
-        runs = result["runs_before_limit"]
-        lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result["sustainable"]
-                                                                   else ("more than can be counted" if runs is None else str(runs))),
-                  "  steady peak      " + (_temp(result["steady_peak_C"], u) if result["sustainable"] else "none (not sustainable)"),
-                  "  minimum wait     " + ("impossible" if result["min_wait_s"] is None else f"{result['min_wait_s']:.0f} s"),
-                  "  cooler           " + ("not needed" if not result["cooler_needed"] else
-                                            ("no rating suffices" if result["cooler_required_W_per_K"] is None else
-                                             f"needed: {_fmt(result['cooler_required_W_per_K'], 'conductance', u, 1)}")),
-                  "  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
-                                                      else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
-                  "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
-                                               else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
-        if result.get("runs_stopped_by") == "return_line":
-            lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
-        from .band_text import summary_lines
-        lines += summary_lines(result)
-        lines += [f"  CAUTION: {text}" for text in result.get("cautions", [])]
-        lines += [f"  note: {note}" for note in result.get("notes", [])]
+             f"  head room at limit {_fmt(result.headroom_at_limit_L / 1000, 'volume', u, 2)} above the oil "
+             f"({_fmt(result.headroom_at_limit_m, 'length', u, 3 if u == 'SI' else 2)})"]
+    runs = result.runs_before_limit
+    lines += ["  pulls before limit, repeating the cycle: " + ("unlimited (sustainable)" if result.sustainable
+                                                               else ("more than can be counted" if runs is None else str(runs))),
+              "  steady peak      " + (_temp(result.steady_peak_C, u) if result.sustainable else "none (not sustainable)"),
+              "  minimum wait     " + ("impossible" if result.min_wait_s is None else f"{result.min_wait_s:.0f} s"),
+              "  cooler           " + ("not needed" if not result.cooler_needed else
+                                        ("no rating suffices" if result.cooler_required_W_per_K is None else
+                                         f"needed: {_fmt(result.cooler_required_W_per_K, 'conductance', u, 1)}")),
+              "  cooler for all-day cadence " + ("none suffices" if result.cooler_required_sustained_W_per_K is None
+                                                  else _fmt(result.cooler_required_sustained_W_per_K, "conductance", u, 1)),
+              "  smallest oil volume " + ("impossible" if result.min_oil_volume_L is None
+                                           else _fmt(result.min_oil_volume_L / 1000, "volume", u, 2))]
+    if result.runs_stopped_by == "return_line":
+        lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
+    from .band_text import summary_lines
+    lines += summary_lines(result)
+    lines += [f"  CAUTION: {text}" for text in result.cautions]
+    lines += [f"  note: {note}" for note in result.notes]
     return "\n".join(lines)
 
 
@@ -93,7 +97,7 @@ def _load(path):
 
 def _run(args) -> int:
     from .output_files import json_text, save_figure, write_atomically
-    from .report import report, simulate, trace_csv
+    from .answers import report, simulate, trace_csv
     check_outputs(args, ("scenario",), ("csv", "plot"))
     scenario = _load(args.scenario)
     trace = simulate(scenario)
@@ -107,9 +111,13 @@ def _run(args) -> int:
     if args.ambients is not None:
         from .hot_day import hot_day
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
-        result["hot_day"] = hot.to_dict()
     if args.json:
-        print(json_text(result, indent=2))
+        from .answers import check_finite
+        keys = result.to_json()
+        if hot is not None:
+            keys["hot_day"] = hot.to_json()
+        check_finite(keys)
+        print(json_text(keys, indent=2))
     else:
         print(summary_text(result))
         if hot is not None:
@@ -171,16 +179,35 @@ def _sweep(args) -> int:
         from .plots import plot_design_chart
         save_figure(plot_design_chart(scenario, result), args.plot, dpi=120, bbox_inches="tight")
     if args.json:
-        print(json_text(result.to_dict(), indent=2))
+        print(json_text(result.to_json(), indent=2))
     else:
         print(result.summary_text(scenario.units))
     return 0
 
 
 def _fit(args) -> int:
-    from .fit_text import fit_command
+    """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
+    from .calibrate import fit_log
+    from .fit_text import calibrated_toml, summary_text
+    from .measured_log import log_file_text
+    from .output_files import json_text, print_warnings, save_figure, write_atomically
+    from .scenario import load_scenario
     check_outputs(args, ("scenario", "log"), ("write", "plot"))
-    return fit_command(args)
+    scenario = load_scenario(args.scenario)
+    print_warnings(scenario.warnings)
+    text = log_file_text(args.log)
+    result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
+                     source=str(args.log), strict=bool(getattr(args, "strict", False)),
+                     fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
+    if args.write:
+        write_atomically(args.write, calibrated_toml(result, args.log))
+    if args.plot:
+        from .fit_plot import plot_fit
+        figure = plot_fit(result)
+        save_figure(figure, args.plot, dpi=120, bbox_inches="tight")
+    answers = result.to_dict(include_series=False)
+    print(json_text(answers, indent=2) if args.json else summary_text(result))
+    return 0
 
 
 def _watch(args) -> int:

@@ -1,10 +1,10 @@
 """The conductances of the network, W/K: each path between two bodies of a rig, or between a body
 and the air, one function with a docstring saying what it stands for. Pure functions of a `Rig`
-(network.py) and the temperatures, vectorised over designs.
+(rig.py) and the temperatures, vectorised over designs.
 """
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import NamedTuple
 
 import numpy as np
 
@@ -12,16 +12,9 @@ from .air import air_properties
 from .correlations import (Nu_combined_Churchill, confined_jet_circulation_velocity, Nu_flat_plate_forced_Incropera,
                            Nu_horizontal_cylinder_Churchill_Chu, Nu_horizontal_plate_hot_down_McAdams,
                            Nu_horizontal_plate_hot_up_McAdams, Nu_tube_Hausen_Gnielinski,
-                           Nu_vertical_plate_Churchill_Chu, cylinder_wall_conductance_W_K,
-                           fin_efficiency_straight, h_radiation_grey, rayleigh)
-from .materials import HOSE_WALL
+                           Nu_vertical_plate_Churchill_Chu, fin_efficiency_straight, h_radiation_grey, rayleigh)
+from .rig import Rig, rows as _rows
 from .still_paths import floor_W_K, head_space_W_K
-
-if TYPE_CHECKING:
-    from .network import Rig
-
-# Rubber hose wall (recalled from memory: 0.2-0.3 W/(m K); see materials.HOSE_WALL).
-HOSE_WALL_CONDUCTIVITY_W_mK = HOSE_WALL["conductivity_W_mK"]
 
 
 def _like(rows, like):
@@ -29,37 +22,6 @@ def _like(rows, like):
     state many."""
     n = np.shape(like)[-1]
     return rows if rows.shape[-1] == n else np.broadcast_to(rows[:, :1], (rows.shape[0], n))
-
-
-def _rows(*values, like=None) -> np.ndarray:
-    """Floats or (N,) arrays as the rows of one (k, N) array; N from `like` or the first array."""
-    reference = next(v for v in values if np.ndim(v)) if like is None else like
-    out = np.empty((len(values), np.shape(reference)[0]))
-    for i, value in enumerate(values):
-        out[i] = value
-    return out
-
-
-
-def h_air_W_m2K(kind: str, length_m, T_surface_K, T_ambient_K, air_speed_m_s=0.0, plate_length_m=None,
-                air=None):
-    """Convective coefficient to ambient air, W/(m^2 K), for one kind of surface: "vertical",
-    "cylinder" (horizontal), "top" or "bottom" (horizontal faces). Natural convection, combined with
-    a forced stream by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, when air_speed_m_s > 0.
-    air : optional (k, nu, Pr, beta) at the film temperature, to share between faces.
-    """
-    k, nu, pr, beta = air_properties(0.5 * (T_surface_K + T_ambient_K)) if air is None else air
-    dT = T_surface_K - T_ambient_K
-    Ra = rayleigh(beta, dT, length_m, nu, pr)
-    if kind == "vertical":
-        Nu = Nu_vertical_plate_Churchill_Chu(Ra, pr)
-    elif kind == "cylinder":
-        Nu = Nu_horizontal_cylinder_Churchill_Chu(Ra, pr)
-    else:
-        top, bottom = _Nu_top_and_bottom(Ra, dT)
-        Nu = top if kind == "top" else bottom
-    return _with_forced_air(Nu * k / length_m, (k, nu, pr), air_speed_m_s,
-                            length_m if plate_length_m is None else plate_length_m)
 
 
 def _Nu_top_and_bottom(Ra, dT):
@@ -96,76 +58,6 @@ def stirring_velocity_m_s(rig: Rig, volume_flow_m3_s):
     nozzle = 0.25 * np.pi * d**2
     circulation = confined_jet_circulation_velocity(volume_flow_m3_s / nozzle, nozzle, rig.jet_section_m2)
     return np.maximum(circulation, volume_flow_m3_s / rig.tank_cross_section_m2)
-
-
-# The hose wall as two finite-volume rings (see hose_rings_m): the liner is this fraction of the
-# wall's thickness, next to the oil; the cover is the rest.
-HOSE_LINER_FRACTION = 0.2
-
-
-def hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m):
-    """The hose wall's two rings, radii in m: (bore face, liner/cover interface, outside face,
-    liner centre, cover centre).
-
-    Finite-volume rings (Incropera, 6th ed., ch. 5, in radial form): each node sits at its ring's
-    mid-radius and holds its ring's volume; neighbouring centres exchange 2 pi k L / ln(r_b / r_a)
-    (the shell conductance, eq. 3.27). The rule: the liner, the ring in contact with the oil, is the
-    inner HOSE_LINER_FRACTION (a fifth) of the wall thickness, the cover the rest.
-
-    Why a fifth: a pull touches the rubber for 10-30 s, and heat soaks into it about sqrt(alpha t)
-    deep, 0.9-1.5 mm with alpha = k / (rho c) = 7.5e-8 m^2/s (materials.HOSE_WALL), a fifth to a
-    third of a 4.8 mm wall, while the whole wall's conduction time t^2 / alpha is about 300 s. One node
-    at mid-wall (the former model) cannot take heat up in a 10-s contact. Against the wall resolved
-    into 40 rings (tests/hose_wall_reference.py, the adiabatic rig of tests/test_solver.py: 20 pulls
-    of 10 kW x 10 s with 30 s engine-off waits, inner face adiabatic while the engine is off), the heat
-    two rings take over the session, by the liner's share of the thickness (measured, one-way drive
-    by the four-node model's trace): 0.10: -8.6 %, 0.15: -6.0 %, 0.20: -6.5 %, 0.25: -8.1 %,
-    1/3: -11.7 %, 0.50 (equal rings): -19.3 %; one node at mid-wall: -38 %. The optimum is flat
-    between 0.15 and 0.2; a fifth is the round figure in it.
-    """
-    r_i, r_o = 0.5 * hose_inner_diameter_m, 0.5 * hose_outer_diameter_m
-    r_s = r_i + HOSE_LINER_FRACTION * (r_o - r_i)
-    return r_i, r_s, r_o, 0.5 * (r_i + r_s), 0.5 * (r_s + r_o)
-
-
-def hose_liner_share(hose_inner_diameter_m, hose_outer_diameter_m):
-    """The liner's share of the hose wall's volume (and so of its capacity): (r_s^2 - r_i^2) /
-    (r_o^2 - r_i^2), a little under HOSE_LINER_FRACTION (0.18 on a 0.66 bore ratio)."""
-    r_i, r_s, r_o, _, _ = hose_rings_m(hose_inner_diameter_m, hose_outer_diameter_m)
-    return (r_s**2 - r_i**2) / (r_o**2 - r_i**2)
-
-
-def constant_parts(rig: Rig) -> dict:
-    """Geometry-only parts of the conductances, to work out once per rig (Rig.constants): stacked
-    lengths, the wall's and the hose wall's conduction, areas. (Emissivities and multipliers may be
-    sampled per design by the uncertainty band, so they stay out of it.)"""
-    like = np.atleast_1d(rig.fill_height_m)
-    half_wall = 0.5 * rig.wall_thickness_m / rig.wall_conductivity_W_mK
-    L = rig.hose_length_m
-    r_i, _, r_o, r_liner, r_cover = hose_rings_m(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m)
-    k_hose = HOSE_WALL_CONDUCTIVITY_W_mK
-    return {
-        "half_wall_m2K_W": half_wall,
-        # oil side: (sides, bottom) natural-convection lengths and forced-flow lengths
-        "bottom_ra_per_side_ra": (rig.top_length_m / rig.fill_height_m) ** 3,
-        "oil_forced_lengths_m": _rows(rig.fill_height_m, rig.plate_length_m, like=like),
-        "oil_lengths_m": _rows(rig.fill_height_m, rig.top_length_m, like=like),
-        # air side: rows (wall, bodies) of the vertical and forced lengths
-        "vertical_lengths_m": _rows(rig.side_height_m, rig.body_length_m, like=like),
-        "forced_lengths_m": _rows(rig.plate_length_m, rig.body_length_m, like=like),
-        "dry_area_m2": rig.dry_side_area_m2 + rig.top_area_m2,
-        "wall_kt_W_K": rig.wall_conductivity_W_mK * rig.wall_thickness_m,
-        # hoses: the rubber's two rings (hose_rings_m): bore face -> liner centre, liner centre ->
-        # cover centre, cover centre -> outside face; the liner's share of the capacity
-        "hose_area_m2": np.pi * rig.hose_outer_diameter_m * L,
-        "hose_inner_W_K": cylinder_wall_conductance_W_K(2 * r_i, 2 * r_liner, L, k_hose),
-        "hose_link_W_K": cylinder_wall_conductance_W_K(2 * r_liner, 2 * r_cover, L, k_hose),
-        "hose_outer_W_K": cylinder_wall_conductance_W_K(2 * r_cover, 2 * r_o, L, k_hose),
-        "hose_liner_share": hose_liner_share(rig.hose_inner_diameter_m, rig.hose_outer_diameter_m),
-        # loop: rows (hose bore, passages) of the tube diameters and lengths
-        "tube_diameters_m": _rows(rig.hose_inner_diameter_m, rig.passage_diameter_m, like=like),
-        "tube_lengths_m": _rows(L, rig.passage_length_m, like=like),
-    }
 
 
 def _oil_side_coefficients(rig: Rig, T_oil_K, T_wall_K, volume_flow_m3_s, film_props=None):
@@ -242,6 +134,46 @@ def dry_shell_W_K(rig: Rig, h_side_W_m2K, h_top_W_m2K):
     return rig.dry_shell_multiplier * fin_efficiency_straight(m, rig.dry_fin_length_m) * shed
 
 
+class AirSide(NamedTuple):
+    """Convective coefficients to the air, W/(m^2 K), before the multiplier and without radiation."""
+    side: np.ndarray      # the tank's sides (vertical plates)
+    body: np.ndarray      # the metal bodies (vertical plates)
+    top: np.ndarray       # the lid (horizontal face, hot face up while hotter than the air)
+    bottom: np.ndarray    # the bottom (horizontal face, hot face down)
+    hose: np.ndarray      # the hoses (horizontal cylinders)
+
+
+def air_side_h_W_m2K(rig: Rig, T_surface_K, air=None) -> AirSide:
+    """The air side of every outer face, W/(m^2 K): natural convection (Churchill-Chu for the
+    vertical plates and the hoses, McAdams for the lid and the bottom), combined with the forced
+    stream of rig.air_speed_m_s by Churchill (1977), Nu^3 = Nu_F^3 + Nu_N^3, where it blows.
+    T_surface_K : (3, N) rows, the wall's, the bodies' and the hose cover's temperatures, K.
+    air : the (k, nu, Pr, beta) rows at the three films where the caller has looked them up already
+    (air_paths_W_K, which looks up the head space's layer with them), else None.
+    Evaluated together to share work: one air-property lookup for the three film temperatures, one
+    vertical-plate evaluation for the tank sides and the bodies, one Rayleigh number for the top
+    and the bottom (same face, same temperature).
+    """
+    T_a, speed, parts, T_s = rig.ambient_K, rig.air_speed_m_s, rig.constants, T_surface_K
+    k, nu, pr, beta = air_properties(0.5 * (T_s + T_a), rig.air_columns) if air is None else air
+    dT = T_s - T_a
+    vertical_length = _like(parts["vertical_lengths_m"], T_s[:2])
+    forced_length = _like(parts["forced_lengths_m"], T_s[:2])
+    Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta[:2], dT[:2], vertical_length, nu[:2], pr[:2]), pr[:2])
+    h_side, h_body = _with_forced_air(Nu_vertical * k[:2] / vertical_length, (k[:2], nu[:2], pr[:2]), speed,
+                                      forced_length)
+
+    air_w = (k[0], nu[0], pr[0])
+    Nu_top, Nu_bottom = _Nu_top_and_bottom(rayleigh(beta[0], dT[0], rig.top_length_m, nu[0], pr[0]), dT[0])
+    h_top = _with_forced_air(Nu_top * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
+    h_bottom = _with_forced_air(Nu_bottom * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
+
+    D = rig.hose_outer_diameter_m
+    Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[2], dT[2], D, nu[2], pr[2]), pr[2])
+    h_hose = _with_forced_air(Nu_hose * k[2] / D, (k[2], nu[2], pr[2]), speed, D)
+    return AirSide(h_side, h_body, h_top, h_bottom, h_hose)
+
+
 def ambient_conductances_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None):
     """Conductances to the air, W/K: (reservoir wall, metal bodies, hoses); see air_paths_W_K (the
     head space, from the oil, is left out here)."""
@@ -260,12 +192,10 @@ def air_paths_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None, T_oil_K=None)
     multiplier) in series with half the wall. Head space: still_paths.head_space_W_K, the lid's
     outside coefficient in series with its whole wall. Bodies: vertical plates of body_length_m over
     body_area_m2. Hoses: horizontal cylinders (Churchill-Chu) in series with the conduction from the
-    cover's centre to the outside face (hose_rings_m).
-    Evaluated together to share work: one air-property lookup for the three film temperatures and
-    the head space's layer, one vertical-plate evaluation for the tank sides and the bodies, one
-    Rayleigh number for the top and the bottom (same face, same temperature).
+    cover's centre to the outside face (hose_rings_m). The air side of every face: air_side_h_W_m2K,
+    with one air-property lookup for its three films and the head space's layer.
     """
-    T_a, m, speed, parts = rig.ambient_K, rig.convection_multiplier, rig.air_speed_m_s, rig.constants
+    T_a, m, parts = rig.ambient_K, rig.convection_multiplier, rig.constants
     T_hose_K = T_hardware_K if T_hose_K is None else T_hose_K
     T_oil_K = T_wall_K if T_oil_K is None else T_oil_K
     T_s = _rows(T_wall_K, T_hardware_K, T_hose_K, like=np.atleast_1d(T_wall_K))
@@ -274,24 +204,9 @@ def air_paths_W_K(rig: Rig, T_wall_K, T_hardware_K, T_hose_K=None, T_oil_K=None)
     films[:3] = 0.5 * (T_s + T_a)
     films[3] = 0.75 * T_oil_K + 0.25 * T_a
     k, nu, pr, beta = air_properties(films, rig.air_columns)
-    dT = T_s - T_a
     h_rad = h_radiation_grey(_rows(rig.wall_emissivity, rig.hardware_emissivity, rig.hardware_emissivity,
                                    like=T_s[0]), T_s, T_a)
-
-    vertical_length = _like(parts["vertical_lengths_m"], T_s[:2])
-    forced_length = _like(parts["forced_lengths_m"], T_s[:2])
-    Nu_vertical = Nu_vertical_plate_Churchill_Chu(rayleigh(beta[:2], dT[:2], vertical_length, nu[:2], pr[:2]), pr[:2])
-    h_side, h_body = _with_forced_air(Nu_vertical * k[:2] / vertical_length, (k[:2], nu[:2], pr[:2]), speed,
-                                      forced_length)
-
-    air_w = (k[0], nu[0], pr[0])
-    Nu_top, Nu_bottom = _Nu_top_and_bottom(rayleigh(beta[0], dT[0], rig.top_length_m, nu[0], pr[0]), dT[0])
-    h_top = _with_forced_air(Nu_top * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
-    h_bottom = _with_forced_air(Nu_bottom * k[0] / rig.top_length_m, air_w, speed, rig.plate_length_m)
-
-    D = rig.hose_outer_diameter_m
-    Nu_hose = Nu_horizontal_cylinder_Churchill_Chu(rayleigh(beta[2], dT[2], D, nu[2], pr[2]), pr[2])
-    h_hose = _with_forced_air(Nu_hose * k[2] / D, (k[2], nu[2], pr[2]), speed, D)
+    h_side, h_body, h_top, h_bottom, h_hose = air_side_h_W_m2K(rig, T_s, (k[:3], nu[:3], pr[:3], beta[:3]))
 
     half_wall = parts["half_wall_m2K_W"]
     h_side, h_top, h_bottom = m * h_side + h_rad[0], m * h_top + h_rad[0], m * h_bottom + h_rad[0]

@@ -8,10 +8,14 @@ import numpy as np
 
 from .errors import ScenarioError
 from .outcome import peak_oil_K
-from .planning import MAX_PULLS, periodic_state, runs_before_limit, session_outcome, session_trace
-from .scenario import KEYS, Scenario, build_rig, limit_K
+from .network import passive_rejection_W
+from .planning import (MAX_PULLS, minimum_oil_volume_L, periodic_state, required_cooler_W_K, runs_before_limit,
+                       session_outcome, session_trace)
+from .scenario import KEYS, Scenario, limit_K
+from .results import Report
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
-from .units import convert, to_display, unit_label
+from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
 
 # Memory of a sweep, measured with the default scenario (30 recorded points per design: about
 # 7.4 kB a design at 2,500 and 10,000 designs): a fixed part and a part per recorded point.
@@ -20,7 +24,7 @@ SWEEP_BYTES_PER_POINT = 200
 MAX_SWEEP_BYTES = 256 * 2**20
 
 
-@dataclass
+@dataclass(frozen=True)
 class SweepResult:
     """Grid results, arrays of shape (V, K): V oil volumes (L at 15 degC) by K coolers (W/K of ETD).
 
@@ -40,7 +44,7 @@ class SweepResult:
     limit_C: float
     max_pulls: int
 
-    def to_dict(self) -> dict:
+    def to_json(self) -> dict:
         runs = [[None if np.isnan(v) else int(v) for v in row] for row in self.runs_before_limit]
         return {"oil_volumes_L": self.oil_volumes_L.round(6).tolist(),
                 "coolers_W_per_K": self.coolers_W_per_K.round(6).tolist(),
@@ -59,7 +63,7 @@ class SweepResult:
         def cooler(W_K):
             return f"{to_display(W_K, 'conductance', system):.1f} {unit_label('conductance', system)}"
 
-        limit = f"{to_display(self.limit_C + 273.15, 'temperature', system):.1f} {unit_label('temperature', system)}"
+        limit = f"{to_display(self.limit_C + ZERO_CELSIUS_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
         enough = self.pulls_under_limit >= self.pulls_planned
         lines = [f"{self.oil_volumes_L.size} oil volumes x {self.coolers_W_per_K.size} coolers; "
                  f"limit {limit}; planned session {self.pulls_planned} pulls",
@@ -137,6 +141,62 @@ def sweep(scenario: Scenario, oil_volumes_L, coolers_W_per_K, max_pulls: int = M
     runs = runs_before_limit(scenario, rig, n, sustainable, max_pulls, session=session)
     shape = V.shape
     return SweepResult(oil_volumes_L=volumes, coolers_W_per_K=coolers, runs_before_limit=runs.reshape(shape),
-                       sustainable=sustainable.reshape(shape), peak_C=(peak_oil_K(session) - 273.15).reshape(shape),
+                       sustainable=sustainable.reshape(shape), peak_C=(peak_oil_K(session) - ZERO_CELSIUS_K).reshape(shape),
                        pulls_under_limit=under.reshape(shape), pulls_planned=len([s for s in scenario.steps if s.is_pull]),
-                       limit_C=limit - 273.15, max_pulls=max_pulls)
+                       limit_C=limit - ZERO_CELSIUS_K, max_pulls=max_pulls)
+
+
+# The design chart's grid (planning policy: where on the two axes the answers show). The grid is
+# a view, not an answer: each factor is chosen so that the chart holds the rig as it is and the
+# sizing answers with room on both sides of each (a choice of ours, no source).
+DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's grid: 100 rigs, about 1 s on one core
+SMALLEST_VOLUME_SHARE = 0.25   # the grid starts at a quarter of the rig's oil: far enough down to show
+                               # the pull count falling away
+LARGEST_VOLUME_MULTIPLE = 3.0  # and reaches three times it: a reservoir three times larger is the
+                               # largest change a stand usually makes before it buys a cooler
+BELOW_MIN_VOLUME = 0.8         # the smallest oil that finishes the session sits inside the grid, with
+PAST_MIN_VOLUME = 1.3          # 20 % below and 30 % above it, so that the edge where the session stops
+                               # fitting is seen from both sides
+PAST_OWN_COOLER = 1.5          # the rig's own cooler sits at two thirds of the cooler axis or below
+PAST_SUSTAINED_COOLER = 2.5    # the all-day cooler at 40 % of it: the margin above it is visible
+PASSIVE_LOSS_MULTIPLE = 3.0    # where no cooler sustains the cadence, the axis runs to a cooler of three
+                               # times the rig's own passive loss at the limit (W/K), where the pull
+                               # count has visibly grown, so the chart shows what a cooler buys
+
+
+def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_sustained_W_K: float | None,
+                n_volumes: int = DESIGN_VOLUMES, n_coolers: int = DESIGN_COOLERS):
+    """Oil volumes (L) and cooler sizes (W/K) for the design chart (see the factors above).
+
+    Volumes run from SMALLEST_VOLUME_SHARE to LARGEST_VOLUME_MULTIPLE times the current oil, and
+    further where needed to hold the smallest reservoir that finishes the session between
+    BELOW_MIN_VOLUME and PAST_MIN_VOLUME times it. Coolers run from none to PAST_SUSTAINED_COOLER times
+    the all-day cooler (which is at least the session's cooler) and past PAST_OWN_COOLER times the
+    rig's own cooler; where no cooler can sustain the cadence, to PASSIVE_LOSS_MULTIPLE times the rig's
+    own passive loss at the limit per kelvin above the air.
+    """
+    volume_L = scenario.oil_volume_L
+    top_L = max(LARGEST_VOLUME_MULTIPLE * volume_L, PAST_MIN_VOLUME * (min_oil_volume_L or 0.0))
+    bottom_L = min(SMALLEST_VOLUME_SHARE * volume_L, BELOW_MIN_VOLUME * (min_oil_volume_L or volume_L))
+    volumes = np.linspace(bottom_L, top_L, n_volumes)
+    sizes = [PAST_OWN_COOLER * scenario.cooler_W_K]
+    if cooler_sustained_W_K:
+        sizes.append(PAST_SUSTAINED_COOLER * cooler_sustained_W_K)
+    else:
+        limit, _ = limit_K(scenario)
+        passive_W = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0])
+        sizes.append(PASSIVE_LOSS_MULTIPLE * passive_W / max(limit - scenario.ambient_K, 1e-9))
+    coolers = np.linspace(0.0, max(max(sizes), 1.0), n_coolers)
+    return volumes, coolers
+
+
+def design_axes(scenario: Scenario, answers: Report | None = None, n_volumes: int = DESIGN_VOLUMES,
+                n_coolers: int = DESIGN_COOLERS):
+    """design_grid with the two sizing answers it needs: taken from `answers` (the scenario's
+    report) where given, else worked out here by the report's own searches."""
+    if answers is None:
+        notes: list[str] = []
+        return design_grid(scenario, minimum_oil_volume_L(scenario, notes),
+                           required_cooler_W_K(scenario, notes, sustained=True), n_volumes, n_coolers)
+    return design_grid(scenario, answers.min_oil_volume_L, answers.cooler_required_sustained_W_per_K,
+                       n_volumes, n_coolers)

@@ -1,26 +1,14 @@
-"""The fit's words: its summary, the calibrated scenario's TOML and the `fit` command."""
+"""The fit's words: its summary and the calibrated scenario's TOML."""
 from __future__ import annotations
 
-import json
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from .units import to_display, unit_label
+from .display import format_difference, format_temperature
+from .units import ZERO_CELSIUS_K
 
 if TYPE_CHECKING:
     from .calibrate import FitResult
-
-
-def format_temperature(T_K: float, system: str) -> str:
-    """A temperature in the display unit of "SI" or "US", e.g. '47.3 °C'."""
-    return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
-
-
-def format_difference(dT_K: float, system: str) -> str:
-    """A temperature difference: '0.31 K', or '0.56 °F (0.31 K)' in US units."""
-    if system == "SI":
-        return f"{dT_K:.2f} K"
-    return f"{to_display(dT_K, 'temperature_difference', system):.2f} {unit_label('temperature_difference', system)} ({dT_K:.2f} K)"
 
 
 def summary_text(result: FitResult) -> str:
@@ -45,7 +33,7 @@ def summary_text(result: FitResult) -> str:
     lines += [f"  RMS residual          {diff(result.rms_K)} (largest {diff(result.max_abs_residual_K)}); "
               f"uncalibrated {diff(result.rms_uncalibrated_K)}",
               f"  sensor noise (est.)   {diff(result.noise_K)} from successive differences",
-              f"  ambient               {format_temperature(result.ambient_C + 273.15, u)} ({result.ambient_source})",
+              f"  ambient               {format_temperature(result.ambient_C + ZERO_CELSIUS_K, u)} ({result.ambient_source})",
               f"  cooling time constant {result.time_constant_s / 60:.0f} min"]
     if result.correlation is not None:
         lines.append(f"  correlation of the two multipliers {result.correlation:+.3f}")
@@ -79,26 +67,3 @@ def toml_string(text: str) -> str:
 def toml_comment(text: str) -> str:
     """One TOML comment line; control characters in text are escaped, so it cannot start a table."""
     return "# " + "".join(c if c.isprintable() else repr(c)[1:-1] for c in text) + "\n"
-
-
-def fit_command(args) -> int:
-    """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
-    from .calibrate import fit_log
-    from .measured_log import log_file_text
-    from .output_files import json_text, print_warnings, save_figure, write_atomically
-    from .scenario import load_scenario
-    scenario = load_scenario(args.scenario)
-    print_warnings(scenario.warnings)
-    text = log_file_text(args.log)
-    result = fit_log(scenario, text, sensor=args.sensor, fit_start_offset=bool(getattr(args, "fit_start_offset", False)),
-                     source=str(args.log), strict=bool(getattr(args, "strict", False)),
-                     fit_hardware_coupling=bool(getattr(args, "fit_hardware_coupling", False)))
-    if args.write:
-        write_atomically(args.write, calibrated_toml(result, args.log))
-    if args.plot:
-        from .fit_plot import plot_fit
-        figure = plot_fit(result)
-        save_figure(figure, args.plot, dpi=120, bbox_inches="tight")
-    answers = result.to_dict(include_series=False)
-    print(json_text(answers, indent=2) if args.json else summary_text(result))
-    return 0

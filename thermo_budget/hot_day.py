@@ -17,16 +17,18 @@ from .planning import (GRID_POINTS, GRID_ROUNDS, SEARCH_MARGIN_K, limits_K, peri
 from .long_session import integrate_session
 from .network import N_NODES
 from .outcome import limiting_peak_K, pulls_completed_under
-from .scenario import Scenario, build_rig
+from .scenario import Scenario
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .solver import integrate
+from .units import ZERO_CELSIUS_K
 
 DEFAULT_RANGE_C = (0.0, 45.0)   # the ambients shown when the scenario's own lies within them
 DEFAULT_STEP_K = 5.0
 AROUND_K = 15.0                 # otherwise the scenario's ambient +/- this
 
 
-@dataclass
+@dataclass(frozen=True)
 class HotDay:
     """Answers per ambient, arrays of shape (A,).
 
@@ -40,8 +42,8 @@ class HotDay:
     cooler_W_per_K: np.ndarray
     max_pulls: int
 
-    def to_dict(self) -> dict:
-        return {"ambient_C": [round(float(a) - 273.15, 2) for a in self.ambients_K],
+    def to_json(self) -> dict:
+        return {"ambient_C": [round(float(a) - ZERO_CELSIUS_K, 2) for a in self.ambients_K],
                 "pulls_before_limit": [None if np.isnan(p) else int(p) for p in self.pulls],
                 "all_day": [bool(a) for a in self.all_day],
                 "cooler_required_W_per_K": [None if np.isnan(c) else round(float(c), 3) for c in self.cooler_W_per_K],
@@ -64,8 +66,8 @@ class HotDay:
 def default_ambients_K(scenario: Scenario) -> np.ndarray:
     """0 to 45 degC in steps of 5 K, or the scenario's ambient +/- 15 K where it lies outside."""
     low, high = DEFAULT_RANGE_C
-    if low <= scenario.ambient_K - 273.15 <= high:
-        return np.arange(low, high + 0.5 * DEFAULT_STEP_K, DEFAULT_STEP_K) + 273.15
+    if low <= scenario.ambient_K - ZERO_CELSIUS_K <= high:
+        return np.arange(low, high + 0.5 * DEFAULT_STEP_K, DEFAULT_STEP_K) + ZERO_CELSIUS_K
     return scenario.ambient_K + np.arange(-AROUND_K, AROUND_K + 0.5 * DEFAULT_STEP_K, DEFAULT_STEP_K)
 
 

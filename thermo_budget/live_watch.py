@@ -25,9 +25,11 @@ from .log_follower import LogFollower
 from .log_model import _reference_steps, logged_inputs
 from .measured_log import read_log
 from .network import OIL
-from .scenario import Scenario, build_rig, limit_K
+from .rig_build import build_rig
+from .scenario import Scenario, limit_K
 from .session import pump_flow_m3_s
 from .state_estimate import MEASUREMENT_SD_K, LiveFilter
+from .units import ZERO_CELSIUS_K
 
 MAX_DROPPED_LINES = 1000
 SILENT_SENSOR_S = 60.0          # no oil reading for this long (and five intervals): an alarm
@@ -240,7 +242,7 @@ class LiveWatch:
             if final:
                 self.history.add(t, reading)
                 if taken is False:
-                    self._say(f"reading {reading - 273.15:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
+                    self._say(f"reading {reading - ZERO_CELSIUS_K:.2f} degC at t = {t:.0f} s rejected as a spike", once=False)
 
     # ------------------------------------------------------------------ forecasting
 

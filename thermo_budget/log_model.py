@@ -12,10 +12,11 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from .errors import ScenarioError
-from .fit_text import format_temperature
+from .display import format_temperature
 from .measured_log import MeasuredLog
 from .network import N_NODES, OIL
-from .scenario import Scenario, build_rig
+from .scenario import Scenario
+from .rig_build import build_rig
 from .session import Resolution, Step
 from .solver import integrate
 

@@ -28,7 +28,7 @@ import numpy as np
 
 from .errors import ScenarioError
 from .plain_log import plain_rows
-from .units import convert
+from .units import ZERO_CELSIUS_K, convert
 
 MAX_LOG_BYTES = 20 * 1024 * 1024
 MAX_LOG_ROWS = 200_000     # reading 200,000 rows takes about 2 s; a day logged every 0.5 s
@@ -341,11 +341,11 @@ def _to_kelvin(values: np.ndarray, column: str) -> np.ndarray:
 
 
 def _check_range(values_K, range_C, column, source, line_numbers):
-    low, high = range_C[0] + 273.15, range_C[1] + 273.15
+    low, high = range_C[0] + ZERO_CELSIUS_K, range_C[1] + ZERO_CELSIUS_K
     bad = np.nonzero(np.isfinite(values_K) & ((values_K < low) | (values_K > high)))[0]
     if bad.size:
         i = bad[0]
-        raise ScenarioError(f"{source} line {line_numbers[i]}, column {column}", f"{values_K[i] - 273.15:.2f} degC",
+        raise ScenarioError(f"{source} line {line_numbers[i]}, column {column}", f"{values_K[i] - ZERO_CELSIUS_K:.2f} degC",
                             f"a temperature between {range_C[0]:g} and {range_C[1]:g} degC (check the unit in the header)")
 
 

@@ -16,27 +16,27 @@ capacity is the heat it holds, as the one hose node's was.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
-from functools import cached_property
+from dataclasses import dataclass
 
 import numpy as np
 
-from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K,
-                           constant_parts, dry_shell_W_K, h_air_W_m2K, hose_ring_link_W_K, hose_rings_m,
+from .conductances import (ambient_conductances_W_K, air_side_h_W_m2K, dry_shell_W_K, hose_ring_link_W_K,
                            h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
                            loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
                            stirring_velocity_m_s, wall_to_ambient_W_K, air_paths_W_K)
-from .oil import Oil
+from .rig import HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, PerDesign, Rig, hose_rings_m
 from .still_paths import engine_off_link_W_K, floor_W_K, loop_oil_links_W_K
+from .units import ZERO_CELSIUS_K
 
-# The conductances live in conductances.py; they are re-exported here, the network's one door.
+# The Rig lives in rig.py and the conductances in conductances.py; they are re-exported here, the
+# network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "LOOP_OIL", "air_paths_W_K", "loop_oil_node_mass_kg", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
            "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
-           "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
+           "air_side_h_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
            "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
            "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_paths_W", "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
+           "passive_paths_W", "passive_rejection_W", "per_design", "return_line_rise_K", "return_rise_K", "stirring_velocity_m_s",
            "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
@@ -47,91 +47,14 @@ HOSE_RINGS = (HOSE, HOSE_COVER)
 
 
 @dataclass(frozen=True)
-class Rig:
-    """A rig in SI units. Array-valued fields describe N designs at once (shape (N,))."""
-    oil: Oil
-    oil_mass_kg: np.ndarray
-    # reservoir outer faces (m^2) and their characteristic lengths (m)
-    side_area_m2: np.ndarray
-    side_height_m: np.ndarray
-    top_area_m2: np.ndarray
-    top_length_m: np.ndarray          # A/P of the top face
-    bottom_area_m2: np.ndarray        # 0 when the tank stands on the floor (adiabatic bottom)
-    plate_length_m: np.ndarray        # length along a forced air stream
-    wetted_area_m2: np.ndarray        # wetted sides + bottom (inside)
-    fill_height_m: np.ndarray
-    tank_cross_section_m2: np.ndarray
-    wall_thickness_m: float
-    wall_conductivity_W_mK: float
-    wall_capacity_J_K: np.ndarray
-    wall_emissivity: float
-    # loop hardware: metal bodies (pump, valve, manifold, fittings) and hoses
-    hardware_capacity_J_K: float      # the metal bodies
-    hose_length_m: float
-    hose_outer_diameter_m: float
-    hose_inner_diameter_m: float
-    body_area_m2: float               # pump, valve and fittings, outside
-    body_length_m: float
-    hardware_emissivity: float
-    # pump
-    displacement_m3: float
-    volumetric_efficiency: float
-    # surroundings and multipliers
-    ambient_K: float                         # a float, or one per design
-    air_speed_m_s: float = 0.0
-    convection_multiplier: float = 1.0       # air side; a float, or one per design
-    capacity_multiplier: float = 1.0         # a float, or one per design
-    # Multipliers on the inside of the rig and on the load, each a float or one per design (the
-    # uncertainty band samples them; 1 is the model as written).
-    oil_side_multiplier: float = 1.0         # the oil-side coefficient on the tank's wetted wall
-    hardware_coupling_multiplier: float = 1.0  # the conductance loop oil -> loop hardware
-    power_multiplier: float = 1.0            # the absorbed power of every step
-    # optional cooler: specific dissipation W/K per K of ETD; fan "with_flow" or "always"
-    cooler_W_K: np.ndarray = 0.0
-    cooler_fan: str = "with_flow"
-    # The inside of the rig (build_rig fills these; the defaults describe a rig without them).
-    loop_oil_mass_kg: float = 0.0            # oil in the hoses, pump and valve (in the OIL node)
-    hose_capacity_J_K: float = 1.0           # hose rubber and braid, both rings (the liner's share: constants)
-    internal_area_m2: float = 0.0            # wetted inside of the metal bodies (pump chamber + passages)
-    pump_wetted_area_m2: float = 0.0         # the part of it in the pump's working chamber
-    gear_pitch_diameter_m: float = 0.04      # the pump's gears (taken as an external gear pump)
-    passage_diameter_m: float = 0.02         # their passages' bore
-    passage_length_m: float = 0.1            # length of one passage through a body
-    wetted_side_area_m2: np.ndarray = 0.0    # wetted part of the tank's sides (inside = outside)
-    wetted_bottom_area_m2: np.ndarray = 0.0  # the tank's bottom, inside (wetted even on the floor)
-    dry_side_area_m2: np.ndarray = 0.0       # the sides above the oil line
-    dry_fin_length_m: np.ndarray = 0.0       # dry side height + the lid's A/P: the fin fed from the oil line
-    dry_capacity_weight: np.ndarray = 1.0    # share of the dry shell's capacity in the wall node
-    jet_section_m2: np.ndarray = 0.09        # the tank's wetted section across the return jet
-    # Physics II: the paths without the pump, and the air (build_rig fills these)
-    engine_off_coupling_W_K: float = 0.0     # metal link bodies <-> tank wall (hardware.engine_off_coupling)
-    engine_off_multiplier: float = 1.0       # on the standing loop oil's paths and that link (a band factor)
-    floor_area_m2: np.ndarray = 0.0          # the bottom standing on the floor (0: open or none)
-    floor_h_W_m2K: float = 0.0               # the floor as a semi-infinite solid (still_paths.floor_h_W_m2K)
-    floor_multiplier: float = 1.0            # on the floor's coefficient (a band factor)
-    dry_shell_multiplier: float = 1.0        # on the dry shell's conductance (a band factor)
-    head_space_m: np.ndarray = 0.0           # gap from the oil line to the lid
-    air_columns: np.ndarray | None = None    # air.air_columns of the scenario's air; None: standard air
-
-    def with_changes(self, **changes) -> "Rig":
-        return replace(self, **changes)
-
-    @cached_property
-    def constants(self) -> dict:
-        """The parts of the conductances that depend on the geometry only, worked out once per rig
-        (conductances.constant_parts); a changed rig is a new object and works them out again."""
-        return constant_parts(self)
-
-
-@dataclass(frozen=True)
 class Inputs:
     """Inputs held constant over one sub-step. Arrays of shape (N,) or floats.
 
     power_W : heat absorbed by the pump and valve, all into the oil.
     volume_flow_m3_s : pump delivery (0 with the engine off).
     """
-    power_W: np.ndarray
-    volume_flow_m3_s: np.ndarray
+    power_W: PerDesign
+    volume_flow_m3_s: PerDesign
 
 
 def _columns(*values, n=None) -> np.ndarray:
@@ -198,11 +121,11 @@ def _capacity_scale(rig: Rig):
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     """Sensible enthalpy of each node (N, N_NODES), J, relative to 0 degC; its change is the heat stored."""
     oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
-    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
-    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
+    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - ZERO_CELSIUS_K)
+    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - ZERO_CELSIUS_K)
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = liner_C * (T_K[:, HOSE] - 273.15)
-    cover = cover_C * (T_K[:, HOSE_COVER] - 273.15)
+    liner = liner_C * (T_K[:, HOSE] - ZERO_CELSIUS_K)
+    cover = cover_C * (T_K[:, HOSE_COVER] - ZERO_CELSIUS_K)
     loop = loop_oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, LOOP_OIL])
     return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, loop, n=T_K.shape[0])
 
@@ -211,11 +134,11 @@ def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
     H = H_J / _capacity_scale(rig)
     oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
-    wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
-    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
+    wall = H[:, WALL] / rig.wall_capacity_J_K + ZERO_CELSIUS_K
+    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + ZERO_CELSIUS_K
     liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = H[:, HOSE] / liner_C + 273.15
-    cover = H[:, HOSE_COVER] / cover_C + 273.15
+    liner = H[:, HOSE] / liner_C + ZERO_CELSIUS_K
+    cover = H[:, HOSE_COVER] / cover_C + ZERO_CELSIUS_K
     loop = rig.oil.temperature_from_enthalpy_K(H[:, LOOP_OIL] / loop_oil_node_mass_kg(rig))
     return _columns(oil, wall, hardware, liner, cover, loop, n=H.shape[0])
 
@@ -251,7 +174,7 @@ def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
     loop_k, loop_cp = both[1][2], both[2][2]
     cp, rho = oil_props[2], oil_props[3]
     mass_flow = rho * Q
-    return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
+    return_rise = return_rise_K(P, mass_flow * cp, flowing)
 
     G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
     G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
@@ -307,11 +230,17 @@ def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
     return running
 
 
+def return_rise_K(power_W, capacity_rate_W_K, flowing):
+    """Return-line oil temperature minus bulk, K: the pull's heat carried by the loop's stream,
+    P / (m_dot c_p); 0 with no flow. The one formula node_equations and return_line_rise_K share."""
+    return np.where(flowing, power_W / np.maximum(capacity_rate_W_K, 1e-30), 0.0)
+
+
 def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
-    """Return-line oil temperature minus bulk: P / (m_dot c_p), K; 0 with no flow."""
+    """Return-line oil temperature minus bulk at bulk temperature T_oil_K, K (return_rise_K)."""
     Q = np.asarray(inputs.volume_flow_m3_s, dtype=float)
     capacity_rate = rig.oil.density_kg_m3(T_oil_K) * Q * rig.oil.specific_heat(T_oil_K)
-    return np.where(Q > 0, inputs.power_W / np.maximum(capacity_rate, 1e-30), 0.0)
+    return return_rise_K(inputs.power_W, capacity_rate, Q > 0)
 
 
 def cooling_time_constant_s(rig: Rig, T_K: float) -> float:

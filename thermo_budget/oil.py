@@ -10,6 +10,7 @@ from functools import cached_property
 import numpy as np
 
 from .errors import ScenarioError
+from .units import ZERO_CELSIUS_K
 
 T40_K = 313.15
 T100_K = 373.15
@@ -113,7 +114,7 @@ def cragoe_specific_heat_J_kgK(T_K, specific_gravity_60F: float):
 
     Valid for petroleum oils, 0-400 °F, s = 0.75-0.96. Returns J/(kg K).
     """
-    t_F = (T_K - 273.15) * 1.8 + 32.0
+    t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     return (0.388 + 0.00045 * t_F) / np.sqrt(specific_gravity_60F) * BTU_PER_LB_F_IN_J_KGK
 
 
@@ -122,7 +123,7 @@ def cragoe_conductivity_W_mK(T_K, specific_gravity_60F: float):
 
     t in °F, s the specific gravity at 60 °F. Valid for petroleum oils, 32-400 °F. Returns W/(m K).
     """
-    t_F = (T_K - 273.15) * 1.8 + 32.0
+    t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     return 0.813 / specific_gravity_60F * (1.0 - 0.0003 * (t_F - 32.0)) * BTU_IN_PER_HR_FT2_F_IN_W_MK
 
 
@@ -171,26 +172,26 @@ class Oil:
         """(a, b) of c_p = a + b (T - 273.15 K), J/(kg K) and J/(kg K^2); Cragoe is linear in t."""
         if self.specific_heat_J_kgK is not None:
             return float(self.specific_heat_J_kgK), 0.0
-        c0 = float(cragoe_specific_heat_J_kgK(273.15, self.specific_gravity_60F))
+        c0 = float(cragoe_specific_heat_J_kgK(ZERO_CELSIUS_K, self.specific_gravity_60F))
         c1 = float(cragoe_specific_heat_J_kgK(274.15, self.specific_gravity_60F)) - c0
         return c0, c1
 
     def specific_heat(self, T_K):
         a, b = self.cp_coefficients
-        return a + b * (np.asarray(T_K) - 273.15)
+        return a + b * (np.asarray(T_K) - ZERO_CELSIUS_K)
 
     def specific_enthalpy_J_kg(self, T_K):
         """Sensible enthalpy (J/kg) relative to 0 degC: the integral of c_p."""
         a, b = self.cp_coefficients
-        t = np.asarray(T_K) - 273.15
+        t = np.asarray(T_K) - ZERO_CELSIUS_K
         return a * t + 0.5 * b * t * t
 
     def temperature_from_enthalpy_K(self, h_J_kg):
         """Inverse of specific_enthalpy_J_kg."""
         a, b = self.cp_coefficients
         if b == 0.0:
-            return np.asarray(h_J_kg) / a + 273.15
-        return (-a + np.sqrt(a * a + 2.0 * b * np.asarray(h_J_kg))) / b + 273.15
+            return np.asarray(h_J_kg) / a + ZERO_CELSIUS_K
+        return (-a + np.sqrt(a * a + 2.0 * b * np.asarray(h_J_kg))) / b + ZERO_CELSIUS_K
 
     def conductivity(self, T_K):
         if self.conductivity_W_mK is not None:

@@ -17,6 +17,7 @@ Its limits, said wherever the figure is shown:
 from __future__ import annotations
 
 import numpy as np
+from .units import ZERO_CELSIUS_K
 
 AGEING_REFERENCE_C = 60.0       # equivalent hours are counted at this temperature
 AGEING_DOUBLING_K = 10.0        # the rate doubles per this rise (common practice, no source)
@@ -27,7 +28,7 @@ AGEING_RULE = ("oxidation rate doubles per 10 K (common practice, no single sour
 def ageing_rate(T_K, reference_C: float = AGEING_REFERENCE_C, doubling_K: float = AGEING_DOUBLING_K):
     """Oxidation rate relative to the rate at reference_C: 2 ** ((T - T_ref) / doubling_K).
     T_K : float or array, K."""
-    return np.exp2((np.asarray(T_K, dtype=float) - 273.15 - reference_C) / doubling_K)
+    return np.exp2((np.asarray(T_K, dtype=float) - ZERO_CELSIUS_K - reference_C) / doubling_K)
 
 
 def ageing_equivalent_h(time_s, T_K, reference_C: float = AGEING_REFERENCE_C,

@@ -1,37 +1,19 @@
 """The page's band: how sure the answers are (the likely range and the plan at the chosen confidence),
 what moves them most (a small chart), the band before and after a log fit, and the P10-P90 envelope
-on the temperature chart. Every figure comes from the report's band keys (bands.py)."""
+on the temperature chart (drawn by page_charts.envelope_png). Every figure comes from the report's band keys (bands.py)."""
 from __future__ import annotations
 
 import html
 
-import numpy as np
 import streamlit as st
 
-from . import page_format as pf
+from . import display as pf
 from . import page_state as state
 from .band_text import plan_phrase, pulls_phrase
-from .page_charts import png_bytes, trace_chart_figure
-from .page_format import to_shown
+from .page_charts import ENVELOPE_COLOUR
 from .page_sections import html_table
 from .page_state import PagePlan
-
-ENVELOPE_COLOUR = "#b5461f"
-
-
-def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
-    """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
-    figure = trace_chart_figure(toml_text, system, trace)
-    if envelope:
-        ax = figure.axes[0]
-        minutes = np.asarray(envelope["time_s"]) / 60.0
-        low = to_shown(np.asarray(envelope["p10_C"]) + 273.15, "temperature", system)
-        high = to_shown(np.asarray(envelope["p90_C"]) + 273.15, "temperature", system)
-        ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
-                        label="bulk oil, likely range (P10-P90)")
-        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
-    return png_bytes(figure)
-
+from .results import Report
 
 RANKING_CSS = f"""<style>
 .tb-ranking {{ margin: 0.2rem 0 0.4rem 0; font-size: 0.82rem; }}
@@ -72,9 +54,9 @@ def _likely(band, quantity, system, scale=1.0) -> str:
     return f"{one(band['p10'])} to {one(band['p90'])}"
 
 
-def _table(answers: dict, system: str) -> list[dict]:
-    bands, plan = answers["bands"], answers["plan_at_confidence"]
-    c = f"plan ({100 * answers['confidence']:.0f} %)"
+def _table(answers: Report, system: str) -> list[dict]:
+    bands, plan = answers.band.bands, answers.band.plan_at_confidence
+    c = f"plan ({100 * answers.band.confidence:.0f} %)"
 
     def row(what, key, quantity, scale=1.0):
         def one(v):
@@ -87,7 +69,7 @@ def _table(answers: dict, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model": one(answers[key]) if answers[key] is not None else "n/a",
+        return {"answer": what, "model": one(getattr(answers, key)) if getattr(answers, key) is not None else "n/a",
                 "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
@@ -107,16 +89,14 @@ def section(page: PagePlan):
     and plan where its card does not show them), then the table of every answer's band and plan, and
     the band before and after a log fit."""
     answers, system = page.answers, page.system
-    if "bands" not in answers:
-        return
-    if not answers["uncertainty"].get("samples"):
+    if not (answers.band.uncertainty or {}).get("samples"):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
-    advice = f" {answers['band_advice']}" if answers["band_advice"] else ""
-    if answers["runs_before_limit"] is not None:   # the pull-count card shows the band and the plan already
+    advice = f" {answers.band.advice}" if answers.band.advice else ""
+    if answers.runs_before_limit is not None:   # the pull-count card shows the band and the plan already
         st.markdown(f"**How sure:** the likely range beside a figure is where 8 in 10 of the rigs the uncertainty "
                     f"model allows fall; the plan keeps the session under the limit in "
-                    f"{100 * answers['confidence']:.0f} % of them.{advice}")
+                    f"{100 * answers.band.confidence:.0f} % of them.{advice}")
     else:
         plan = plan_phrase(answers)
         st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") + advice)
@@ -127,10 +107,10 @@ def section(page: PagePlan):
         left.markdown(html_table(list(rows[0]), [list(row.values()) for row in rows], "tb-bands", words_first=True),
                       unsafe_allow_html=True)
         left.caption(f"Likely: from P10 to P90, i.e. 8 in 10 of the rigs the uncertainty model allows fall in the range "
-                     f"({answers['uncertainty']['samples']} quasi-random samples). The plan keeps the session "
-                     f"under the limit in {100 * answers['confidence']:.0f} % of them. The model's own figure "
+                     f"({answers.band.uncertainty['samples']} quasi-random samples). The plan keeps the session "
+                     f"under the limit in {100 * answers.band.confidence:.0f} % of them. The model's own figure "
                      f"is the one above the range.")
-        ranking = answers["band_ranking"]
+        ranking = answers.band.ranking
         if ranking:
             right.markdown(ranking_html([(row["what"], row["share"]) for row in ranking], ranking[0]["of"]),
                            unsafe_allow_html=True)

@@ -8,14 +8,16 @@ import io
 
 import numpy as np
 
-from .network import passive_rejection_W
-from .planning import minimum_oil_volume_L, required_cooler_W_K
+from .display import to_shown
+from .design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
 from .plots import plot_design_chart, plot_hot_day, plot_trace
-from .report import simulate
-from .scenario import Scenario, build_rig, limit_K, load_scenario, read_toml_text
+from .results import Report
+from .answers import simulate
+from .scenario import load_scenario, read_toml_text
+from .units import ZERO_CELSIUS_K
 
-DESIGN_VOLUMES, DESIGN_COOLERS = 10, 10   # the page's design grid
 CHART_DPI = 90
+CHARTS_KEPT = 32   # design sweeps and hot days kept by the page (and its worker), by scenario text
 
 
 def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
@@ -24,43 +26,7 @@ def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
     return buffer.getvalue()
 
 
-def design_grid(scenario: Scenario, min_oil_volume_L: float | None, cooler_sustained_W_K: float | None,
-                n_volumes: int = DESIGN_VOLUMES, n_coolers: int = DESIGN_COOLERS):
-    """Oil volumes (L) and cooler sizes (W/K) for the design chart.
-
-    Volumes run from a quarter to three times the current oil, below the smallest reservoir that
-    finishes the session (0.8 x) and past it (1.3 x) where the quarter and the three times do not. Coolers run from none to 2.5 x the all-day
-    cooler (which is at least the session's cooler), and past 1.5 x the rig's own cooler; where no
-    cooler can sustain the cadence, to three times the rig's own passive loss at the limit.
-    """
-    volume_L = scenario.oil_volume_L
-    top_L = max(3.0 * volume_L, 1.3 * (min_oil_volume_L or 0.0))
-    bottom_L = min(0.25 * volume_L, 0.8 * (min_oil_volume_L or volume_L))
-    volumes = np.linspace(bottom_L, top_L, n_volumes)
-    sizes = [1.5 * scenario.cooler_W_K]
-    if cooler_sustained_W_K:
-        sizes.append(2.5 * cooler_sustained_W_K)
-    else:
-        limit, _ = limit_K(scenario)
-        passive_W = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0])
-        sizes.append(3.0 * passive_W / max(limit - scenario.ambient_K, 1e-9))
-    coolers = np.linspace(0.0, max(max(sizes), 1.0), n_coolers)
-    return volumes, coolers
-
-
-def design_axes(scenario: Scenario, answers: dict | None = None, n_volumes: int = DESIGN_VOLUMES,
-                n_coolers: int = DESIGN_COOLERS):
-    """design_grid with the two sizing answers it needs: taken from `answers` (the scenario's
-    report) where given, else worked out here by the report's own searches."""
-    if answers is None:
-        notes: list[str] = []
-        answers = {"cooler_required_sustained_W_per_K": required_cooler_W_K(scenario, notes, sustained=True),
-                   "min_oil_volume_L": minimum_oil_volume_L(scenario, notes)}
-    return design_grid(scenario, answers["min_oil_volume_L"], answers["cooler_required_sustained_W_per_K"],
-                       n_volumes, n_coolers)
-
-
-def design_sweep(toml_text: str, answers: dict | None = None):
+def design_sweep(toml_text: str, answers: Report | None = None):
     """The design chart's sweep (pulls before the limit over oil volume x cooler size) of the
     scenario in `toml_text`; answers: its report, if known. It does not depend on the unit system,
     so a page can keep it and redraw only the chart when the units change. Counting stops at four
@@ -72,7 +38,7 @@ def design_sweep(toml_text: str, answers: dict | None = None):
     return sweep(scenario, volumes, coolers, max_pulls=max(4 * planned, 40))
 
 
-def design_chart_png(toml_text: str, system: str, answers: dict | None = None, result=None) -> bytes:
+def design_chart_png(toml_text: str, system: str, answers: Report | None = None, result=None) -> bytes:
     """The design chart of the scenario in `toml_text`, drawn in the units of `system`.
     result: its design_sweep, if already known (else worked out here)."""
     scenario = load_scenario(read_toml_text(toml_text))
@@ -96,3 +62,20 @@ def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:
     from .hot_day import hot_day
     scenario = load_scenario(read_toml_text(toml_text))
     return png_bytes(plot_hot_day(scenario, hot_day(scenario) if hot is None else hot, system))
+
+
+ENVELOPE_COLOUR = "#b5461f"
+
+
+def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
+    """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
+    figure = trace_chart_figure(toml_text, system, trace)
+    if envelope:
+        ax = figure.axes[0]
+        minutes = np.asarray(envelope["time_s"]) / 60.0
+        low = to_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, "temperature", system)
+        high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
+        ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
+                        label="bulk oil, likely range (P10-P90)")
+        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+    return png_bytes(figure)

@@ -8,7 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .errors import ScenarioError
-from .page_format import QUANTITIES, quantity_text, to_shown, unit_symbol
+from .display import QUANTITIES, quantity_text, to_shown, unit_symbol
 from .scenario import with_path
 from .units import parse_quantity
 

@@ -54,27 +54,27 @@ def section(page: PagePlan):
     if state.name_is_stale():
         st.caption("✏️ The rig has changed since it was given this name: rename it under \"Rig name\" in the "
                    "sidebar, so the titles and the saved file say what it is now.")
-    for caution in answers.get("cautions", []):
+    for caution in answers.cautions:
         st.error("⚠️ " + pi.note_in(caution, system))
     view = pi.session_view(planned.raw)
     st.markdown(cards_html(headline_cards(answers, planned.reservoir.oil_volume_m3, view.wait_s, system)),
                 unsafe_allow_html=True)
 
-    limit_text = pi.shown_celsius(answers["limit_C"], system)
-    if answers["limit_reason"] == "max_temperature":
+    limit_text = pi.shown_celsius(answers.limit_C, system)
+    if answers.limit_reason == "max_temperature":
         reason = (f"The bulk limit is {limit_text}: the hottest you allow the oil. The pump's thinnest oil "
                   f"({planned.min_viscosity_cSt:.1f} cSt) comes only at "
-                  f"{pi.shown_celsius(answers['min_viscosity_temperature_C'], system)}.")
+                  f"{pi.shown_celsius(answers.min_viscosity_temperature_C, system)}.")
     else:
         reason = (f"The bulk limit is {limit_text}: there this oil thins to {planned.min_viscosity_cSt:.1f} cSt, the "
-                  f"least the pump accepts, before it reaches the {pi.shown_celsius(answers['max_temperature_C'], system)} "
+                  f"least the pump accepts, before it reaches the {pi.shown_celsius(answers.max_temperature_C, system)} "
                   f"you allow.")
-    if answers.get("return_line_limit_C") is not None:
-        reason += (f" The return line may reach {pi.shown_celsius(answers['return_line_limit_C'], system)} "
+    if answers.return_line_limit_C is not None:
+        reason += (f" The return line may reach {pi.shown_celsius(answers.return_line_limit_C, system)} "
                    "(its hoses and seals).")
-    elif answers["peak_return_C"] is not None:
+    elif answers.peak_return_C is not None:
         reason += (" No return-line limit is set: check the hoses' and seals' rating against the return-line "
-                   f"figure, {pi.shown_celsius(answers['peak_return_C'], system)}.")
+                   f"figure, {pi.shown_celsius(answers.peak_return_C, system)}.")
     st.markdown(reason)
-    for note in answers["notes"]:
+    for note in answers.notes:
         st.caption("• " + pi.note_in(note, system))

@@ -6,7 +6,7 @@ Pure functions, no Streamlit, so they can be tested on their own. A raw dict is 
 place; every `with_...` function returns a new one. Values written back into the raw dict are
 strings with their unit ("4.75 gal", "176 degF"), so a saved scenario says what the user typed.
 
-The field table lives in page_fields.py and the display formatting in page_format.py; both are
+The field table lives in page_fields.py and the display formatting in display.py; both are
 re-exported here so that `page_inputs` stays the one name the page imports.
 """
 from __future__ import annotations
@@ -15,15 +15,18 @@ import copy
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 from .materials import MATERIALS
 from .oil import ISO_VG_GRADES
 from .page_fields import (FIELDS, PLAIN_STEPS, STEPS, Field, si_or_none, field_value, get_path,  # noqa: F401
                           step_of, with_field)
-from .page_format import (QUANTITIES, SYSTEM_NAMES, SYSTEMS, decimals, from_shown, note_in,  # noqa: F401
+from .display import (QUANTITIES, SYSTEM_NAMES, SYSTEMS, decimals, from_shown, note_in,  # noqa: F401
                           quantity_text, shown, shown_celsius, shown_duration, to_shown,
-                          trace_csv_shown, unit_symbol)
+                          unit_symbol)
 from .scenario import with_path
 from .session import shaft_power_W
+from .units import ZERO_CELSIUS_K
 
 # ---------------------------------------------------------------- inputs that change the file's shape
 
@@ -260,3 +263,18 @@ def constant_from_curve(view: SessionView):
         return 1000.0, 3000.0
     rpm, power = max(points, key=lambda p: p[1])
     return float(power), float(rpm)
+
+
+def trace_csv_shown(trace, system: str) -> str:
+    """The trace (design 0) as CSV in the page's units: time in s, temperatures and power in the
+    display units of `system`; the column names carry the units."""
+    from .answers import trace_rows
+    rows = trace_rows(trace)
+    t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
+    p_unit = QUANTITIES["power"][1][system]
+    header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
+    columns = [rows[:, 0], *(to_shown(rows[:, i] + ZERO_CELSIUS_K, "temperature", system) for i in range(1, 5)),
+               to_shown(rows[:, 5], "power", system)]
+    lines = [",".join(header)]
+    lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
+    return "\n".join(lines) + "\n"

@@ -10,7 +10,7 @@ import streamlit as st
 from . import page_inputs as pi
 from . import page_state as state
 from .page_state import PagePlan
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 
 @dataclass
@@ -94,12 +94,12 @@ def schedule_rows(answers: dict, system: str) -> tuple[list[str], list[list[str]
     temp_unit = unit_label("temperature", system)
     header = ["pull", "starts at (min)", f"oil at start ({temp_unit})", f"bulk peak ({temp_unit})",
               f"return-line peak ({temp_unit})", "wait before (s)", "of it, extra (s)"]
-    rows = [[str(row["index"]), f"{row['start_s'] / 60.0:.1f}",
-             f"{to_display(row['start_C'] + 273.15, 'temperature', system):.1f}",
-             f"{to_display(row['peak_C'] + 273.15, 'temperature', system):.1f}",
-             f"{to_display(row['peak_return_C'] + 273.15, 'temperature', system):.1f}" if "peak_return_C" in row else "",
-             f"{row['wait_before_s']:.0f}", f"{row['extra_wait_s']:.0f}"]
-            for row in answers["schedule"]]
+    rows = [[str(row.index), f"{row.start_s / 60.0:.1f}",
+             f"{to_display(row.start_C + ZERO_CELSIUS_K, 'temperature', system):.1f}",
+             f"{to_display(row.peak_C + ZERO_CELSIUS_K, 'temperature', system):.1f}",
+             f"{to_display(row.peak_return_C + ZERO_CELSIUS_K, 'temperature', system):.1f}" if row.peak_return_C is not None else "",
+             f"{row.wait_before_s:.0f}", f"{row.extra_wait_s:.0f}"]
+            for row in answers.schedule]
     return header, rows
 
 
@@ -127,29 +127,29 @@ def files(page: PagePlan, slots: Slots):
 def more_figures_lines(page: PagePlan) -> list[str]:
     """The further figures, each the report's own in the page's units."""
     answers, system = page.answers, page.system
-    pump = answers["pump"]
-    flow = to_display(pump["flow_L_min"] / 60000.0, "flow", system)
-    pressure = to_display(pump["pressure_bar"] * 1e5, "pressure", system)
-    flash = ("given in the scenario" if answers["flash_point_given"] else
+    pump = answers.pump
+    flow = to_display(pump.flow_L_min / 60000.0, "flow", system)
+    pressure = to_display(pump.pressure_bar * 1e5, "pressure", system)
+    flash = ("given in the scenario" if answers.flash_point_given else
              "assumed: a conservative figure for mineral hydraulic oil, from memory; give fluid.flash_point")
     return [
         f"Pump at the hardest pull: {flow:,.1f} {unit_label('flow', system)} at {pressure:,.0f} "
-        f"{unit_label('pressure', system)}, {pump['rpm']:,.0f} rpm, absorbing {pi.shown(answers['peak_pull_power_W'], 'power', system)}",
-        f"Hottest bulk oil: {pi.shown_celsius(answers['peak_C'], system)}; hottest return-line oil: "
-        f"{pi.shown_celsius(answers['peak_return_C'], system)}"
-        + (" (past the range of the model's oil data)" if answers.get("beyond_model_range") else ""),
+        f"{unit_label('pressure', system)}, {pump.rpm:,.0f} rpm, absorbing {pi.shown(answers.peak_pull_power_W, 'power', system)}",
+        f"Hottest bulk oil: {pi.shown_celsius(answers.peak_C, system)}; hottest return-line oil: "
+        f"{pi.shown_celsius(answers.peak_return_C, system)}"
+        + (" (past the range of the model's oil data)" if answers.beyond_model_range else ""),
         f"Heat the rig sheds on its own with the oil at the limit: "
-        f"{pi.shown(answers['passive_rejection_at_limit_W'], 'power', system)}",
-        f"Oil level at the limit: {pi.shown(answers['oil_level_at_limit_m'], 'thickness', system)} in a "
-        f"{pi.shown(answers['tank_height_m'], 'thickness', system)} tall tank; "
-        f"{pi.shown(answers['headroom_at_limit_L'] / 1000.0, 'oil_volume', system)} of head room "
-        + (f"(the smallest tank keeps {pi.shown(answers['min_oil_volume_headroom_L'] / 1000.0, 'oil_volume', system)})"
-           if answers.get("min_oil_volume_headroom_L") is not None else ""),
-        f"Oil ageing: {answers['oil_ageing_equivalent_h']:.2f} h equivalent at "
-        f"{pi.shown_celsius(answers['oil_ageing_reference_C'], system)} ({answers['oil_ageing_rule'].replace('degC', '°C')})",
-        f"Flash point: {pi.shown_celsius(answers['flash_point_C'], system)} ({flash})",
-        f"Oil: {answers['oil']['viscosity_40C_cSt']:.1f} cSt at 40 °C, {answers['oil']['viscosity_100C_cSt']:.2f} cSt "
-        f"at 100 °C, viscosity index {answers['oil']['viscosity_index']:.0f}",
+        f"{pi.shown(answers.passive_rejection_at_limit_W, 'power', system)}",
+        f"Oil level at the limit: {pi.shown(answers.oil_level_at_limit_m, 'thickness', system)} in a "
+        f"{pi.shown(answers.tank_height_m, 'thickness', system)} tall tank; "
+        f"{pi.shown(answers.headroom_at_limit_L / 1000.0, 'oil_volume', system)} of head room "
+        + (f"(the smallest tank keeps {pi.shown(answers.min_oil_volume_headroom_L / 1000.0, 'oil_volume', system)})"
+           if answers.min_oil_volume_headroom_L is not None else ""),
+        f"Oil ageing: {answers.oil_ageing_equivalent_h:.2f} h equivalent at "
+        f"{pi.shown_celsius(answers.oil_ageing_reference_C, system)} ({answers.oil_ageing_rule.replace('degC', '°C')})",
+        f"Flash point: {pi.shown_celsius(answers.flash_point_C, system)} ({flash})",
+        f"Oil: {answers.oil.viscosity_40C_cSt:.1f} cSt at 40 °C, {answers.oil.viscosity_100C_cSt:.2f} cSt "
+        f"at 100 °C, viscosity index {answers.oil.viscosity_index:.0f}",
         f"Answers worked out in {page.elapsed_s:.2f} s (instant when the inputs were seen before)"]
 
 
@@ -174,7 +174,7 @@ def _draw_hot_day(page: PagePlan, place):
     left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")
     low, high = DEFAULT_RANGE_C
-    within = low <= page.scenario.ambient_K - 273.15 <= high
+    within = low <= page.scenario.ambient_K - ZERO_CELSIUS_K <= high
     span = (f"{pi.shown_celsius(low, system)} to {pi.shown_celsius(high, system)}" if within else
             f"your room ± {AROUND_K:.0f} K")
     left.caption(f"The same plan from {span}; the rig starts as much warmer as the air is. "

@@ -49,7 +49,7 @@ def optional_number(box, path: str):
 
 def session_number(box, label, quantity, value_si, help_text, name, change, unit: str | None = None):
     """A number input for the pull or the wait (applies to every pull or wait of the cycle).
-    quantity : a display quantity of page_format, or None for a plain number in `unit`."""
+    quantity : a display quantity of display.py, or None for a plain number in `unit`."""
     system = state.system()
     widget_key = state.key(name)
     shown = pi.to_shown(value_si, quantity, system) if quantity else float(value_si)

@@ -17,7 +17,8 @@ import streamlit as st
 import thermo_budget as tb
 from . import page_charts, page_worker
 from .errors import ScenarioError
-from .report import report, simulate
+from .results import Report
+from .answers import report, simulate
 from .scenario import Scenario, load_scenario, read_toml_text
 
 try:  # the log-calibration feature is optional: the page hides its section without it
@@ -38,7 +39,7 @@ def trace_for(toml_text: str):
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
-def answers_for(toml_text: str) -> dict:
+def answers_for(toml_text: str) -> Report:
     return report(scenario_of(toml_text), trace_for(toml_text))
 
 
@@ -67,7 +68,7 @@ def _slow_charts() -> dict:
     return {}
 
 
-def _keep(key, future: Future, keep: int = 32):
+def _keep(key, future: Future, keep: int = page_charts.CHARTS_KEPT):
     futures = _slow_charts()
     while len(futures) >= keep:
         futures.pop(next(iter(futures)))
@@ -107,8 +108,7 @@ def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
 
 @st.cache_data(max_entries=64, show_spinner=False)
 def trace_png(toml_text: str, system: str) -> bytes:
-    from .page_bands import envelope_png   # the chart with the band's P10-P90 envelope
-    return envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).get("band_envelope"))
+    return page_charts.envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).band.envelope)
 
 
 @st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")
@@ -225,7 +225,7 @@ class PagePlan:
     """
     scenario: Scenario
     toml_text: str
-    answers: dict
+    answers: Report
     system: str
     calibrated: bool
     fit: object | None

@@ -23,6 +23,7 @@ from functools import lru_cache
 from pathlib import Path
 
 from . import page_charts
+from .results import Report
 
 
 @dataclass(frozen=True)
@@ -40,12 +41,12 @@ class WorkerGone(RuntimeError):
     """The worker process ended before it answered."""
 
 
-KEEP = 32                       # design sweeps and hot days kept, by scenario text
+KEEP = page_charts.CHARTS_KEPT  # design sweeps and hot days kept, by scenario text
 _sweeps: dict = {}              # the design sweeps, oldest first
 _sweeps_lock = threading.Lock()
 
 
-def _sweep(toml_text: str, answers: dict | None = None):
+def _sweep(toml_text: str, answers: Report | None = None):
     """The design chart's sweep, kept by text. answers: the scenario's report where the caller has
     it (the page's own process); else the sizing answers its grid needs are worked out here."""
     with _sweeps_lock:
@@ -66,7 +67,7 @@ def _hot_day(toml_text: str):
     return hot_day(load_scenario(read_toml_text(toml_text)))
 
 
-def slow_charts(toml_text: str, system: str, answers: dict | None = None) -> SlowCharts:
+def slow_charts(toml_text: str, system: str, answers: Report | None = None) -> SlowCharts:
     """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`
     (answers: its report, if known). The sweep and the hot day are kept by text, so a change of
     units only redraws."""

@@ -8,8 +8,9 @@ import numpy as np
 
 from .long_session import integrate_session
 from .network import N_NODES, Rig, cooling_time_constant_s
-from .outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .scenario import Scenario, build_rig, limit_K
+from .outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
 
@@ -253,8 +254,9 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
 
 
 def round_up(value: float, digits: int) -> float:
-    """Round up, so that a rounded sizing answer still passes (the searches are monotone)."""
-    return float(np.ceil(value * 10**digits) / 10**digits)
+    """Round up to `digits` decimals, so that a rounded sizing answer still passes (the searches are
+    monotone). A value a float's noise above a round figure (1e-9 of the last digit) stays on it."""
+    return float(np.ceil(value * 10**digits - 1e-9) / 10**digits) + 0.0   # + 0.0: never -0.0
 
 
 def time_constant_s(scenario: Scenario) -> float:
@@ -269,9 +271,10 @@ def _waits_of(scenario: Scenario) -> list[float]:
 
 def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     """Shortest uniform wait (every wait step) that lets the planned session finish under the limit,
-    with no cooler. None where no wait can do it."""
+    with no cooler. None where no wait can do it. notes : gets the facts worth a note, as (code,
+    values) pairs that report_text.note_words words."""
     if not _waits_of(scenario):
-        notes.append("The cycle has no wait step, so there is no wait to lengthen.")
+        notes.append(("no_wait_step", {}))
         return None
     rig = build_rig(scenario, cooler_W_K=0.0)
 
@@ -281,10 +284,9 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     tau = time_constant_s(scenario)
     wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
     if wait == 0.0:
-        notes.append("No wait is needed: even back-to-back pulls stay under the limit.")
+        notes.append(("no_wait_needed", {}))
     elif np.isnan(wait):
-        notes.append("No wait is long enough without a cooler: the pulls of one cycle already cross the "
-                     "limit from a cooled-down start. Shorten the pulls, add oil or fit a cooler.")
+        notes.append(("no_wait_suffices", {}))
         return None
     return round_up(wait, 2)
 
@@ -327,10 +329,7 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
     cooler = batched_threshold(passes, 1e-5 * largest, largest, floor=0.0)
     if np.isnan(cooler):
-        what = "sustain the cadence" if sustained else "finish the planned session"
-        notes.append(f"No cooler up to {largest:.0f} W/K can {what}: with the oil flow of this pump the cooler "
-                     "cannot take the heat out fast enough during a pull (its duty is capped at the oil's "
-                     "capacity rate m_dot c_p). Shorten the pulls or add oil.")
+        notes.append(("no_cooler_suffices", {"largest_W_K": largest, "sustained": sustained}))
         return None
     return round_up(cooler, 3)
 
@@ -345,52 +344,6 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
 
     volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
     if np.isnan(volume):
-        notes.append(f"Even {200 * V0 * 1000:.0f} L of oil in a tank of the same shape would not finish the session.")
+        notes.append(("no_oil_volume_suffices", {"largest_L": 200 * V0 * 1000}))
         return None
     return round_up(volume * 1000.0, 4)
-
-
-def planning_answers(scenario: Scenario) -> dict:
-    """The planning keys of `run --json`."""
-    from .ready_schedule import ready_schedule
-    notes: list[str] = []
-    rig = build_rig(scenario)
-    limit, reason = limit_K(scenario)
-    session = session_trace(scenario, rig, 1)
-    sustainable, steady_peak = sustainability(scenario, rig, 1)
-    sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
-    if sustainable and scenario.return_line_max_temperature_K is not None:
-        # the periodic peak above is in the limits' terms; the bulk oil's own peak over that cycle:
-        X, _, _ = periodic_state(scenario, rig, 1)
-        steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
-    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
-    if sustainable:
-        notes.append(f"The cadence can go on all day: it settles to a periodic state peaking at "
-                     f"{steady_peak - 273.15:.1f} degC, below the {limit - 273.15:.1f} degC limit.")
-    elif np.isnan(runs):
-        notes.append(f"No pull crosses the limit within {MAX_PULLS} pulls, but the cadence does not settle below it.")
-    # the planned session without a cooler: the session already run, where the scenario has none
-    uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
-    cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
-    cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
-    if not cooler_needed:
-        notes.append("No cooler is needed for the planned session.")
-    cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
-    if cooler_sustained == 0.0:
-        notes.append("No cooler is needed for the cadence to go on all day.")
-    if scenario.cooler_W_K > 0:
-        notes.append(f"The cooler sizes are the total rating needed, in place of the scenario's "
-                     f"{scenario.cooler_W_K:.1f} W/K cooler; the minimum wait and oil volume assume no cooler.")
-    return {
-        "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
-        "sustainable": sustainable,
-        "steady_peak_C": round(steady_peak - 273.15, 3) if sustainable else None,
-        "min_wait_s": minimum_wait_s(scenario, notes),
-        "cooler_needed": cooler_needed,
-        "cooler_required_W_per_K": cooler,
-        "cooler_required_sustained_W_per_K": cooler_sustained,
-        "cooler_rating_model": "constant specific dissipation (W/K of ETD) at any flow, capped at the oil's m_dot c_p",
-        "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
-        "schedule": ready_schedule(scenario, notes, session),
-        "notes": notes,
-    }

@@ -13,8 +13,9 @@ from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.lines import Line2D  # noqa: E402
 
 from .network import OIL, WALL  # noqa: E402
-from .page_format import to_shown, unit_symbol  # noqa: E402
+from .display import to_shown, unit_symbol  # noqa: E402
 from .scenario import limit_K  # noqa: E402
+from .units import ZERO_CELSIUS_K  # noqa: E402
 
 OIL_COLOUR, RETURN_COLOUR, WALL_COLOUR, LIMIT_COLOUR = "#b5461f", "#e39b2d", "#4a6c8c", "#8b0000"
 PULL_SHADE = "#f2d7c9"
@@ -159,7 +160,7 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
         v_unit, k_unit = unit_symbol("oil_volume", system), unit_symbol("conductance", system)
         ax.set_xlabel(f"oil in the tank ({v_unit}), tank scaled to fit")
         ax.set_ylabel(f"cooler size ({k_unit} of ETD)")
-        limit_shown = to_shown(r.limit_C + 273.15, "temperature", system)
+        limit_shown = to_shown(r.limit_C + ZERO_CELSIUS_K, "temperature", system)
         ax.set_title(f"Pulls before {limit_shown:.0f} {unit_symbol('temperature', system)}, repeating your cycle",
                      loc="left", y=1.0, fontsize="medium")
         fig.text(0.01, 0.01, "ETD: entering temperature difference (oil into the cooler minus air).\n"

@@ -9,9 +9,11 @@ from .long_session import PERIODIC_TOLERANCE_K
 from .network import N_NODES, OIL
 from .outcome import limiting_peak_K, peak_oil_K
 from .planning import GRID_POINTS, SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
-from .scenario import Scenario, build_rig, limit_K
+from .scenario import Scenario, limit_K
+from .rig_build import build_rig
 from .session import PLAN_RESOLUTION, Step
 from .solver import integrate
+from .units import ZERO_CELSIUS_K
 
 
 def _pull_and_wait_blocks(scenario: Scenario):
@@ -53,8 +55,8 @@ def _schedule_as_planned(scenario: Scenario, session) -> list[dict] | None:
         if peak > limit - SEARCH_MARGIN_K or (return_limit is not None and peak_return > return_limit - SEARCH_MARGIN_K):
             return None
         rows.append({"index": len(rows) + 1, "start_s": round(float(session.time_s[start, 0]), 2),
-                     "start_C": round(float(oil[start]) - 273.15, 3), "peak_C": round(peak - 273.15, 3),
-                     "peak_return_C": round(peak_return - 273.15, 3),
+                     "start_C": round(float(oil[start]) - ZERO_CELSIUS_K, 3), "peak_C": round(peak - ZERO_CELSIUS_K, 3),
+                     "peak_return_C": round(peak_return - ZERO_CELSIUS_K, 3),
                      "wait_before_s": round(planned_wait, 2), "planned_wait_s": round(planned_wait, 2),
                      "extra_wait_s": 0.0})
         planned_wait = 0.0
@@ -90,19 +92,17 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
         cool_step = waits[-1] if waits else off
         extra = extra_wait_s(scenario, rig, X, pull, cool_step, limit, guess=extra)
         if extra is None:
-            why = (f"the oil does not cool to the ready temperature during the wait (engine {cool_step.engine})"
-                   if scenario.ready_temperature_K is not None else
-                   f"it would cross the limit even after a long wait (engine {cool_step.engine})")
-            notes.append(f"Pull {index} cannot be scheduled: {why}; the schedule stops before it.")
+            notes.append(("pull_not_scheduled", {"index": index, "engine": cool_step.engine,
+                                                 "ready_temperature": scenario.ready_temperature_K is not None}))
             break
         if extra > 0:
             X = _run_steps(rig, [cool_step.with_duration(extra)], X).final_K
             t += extra
-        start_C = float(X[0, OIL]) - 273.15
+        start_C = float(X[0, OIL]) - ZERO_CELSIUS_K
         pull_starts.append(X[0].copy())
         trace = _run_steps(rig, [pull], X)
-        peak_C = float(peak_oil_K(trace)[0]) - 273.15
-        peak_return_C = float(trace.return_K[:, 0].max()) - 273.15
+        peak_C = float(peak_oil_K(trace)[0]) - ZERO_CELSIUS_K
+        peak_return_C = float(trace.return_K[:, 0].max()) - ZERO_CELSIUS_K
         rows.append({"index": index, "start_s": round(t, 2), "start_C": round(start_C, 3), "peak_C": round(peak_C, 3),
                      "peak_return_C": round(peak_return_C, 3),
                      "wait_before_s": round(planned_wait + extra, 2), "planned_wait_s": round(planned_wait, 2),

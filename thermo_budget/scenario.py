@@ -16,15 +16,14 @@ from .air import P_ATM_Pa, standard_pressure_Pa
 from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
-from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
-                        limit_K)  # (build_rig re-exported: the scenario's network)
+from .hardware_defaults import body_cube_side_m, default_body_area_m2, default_internal_area_m2
 from .session import PLAN_RESOLUTION, EngineCurve, Step, shaft_power_W
 from .still_paths import flange_link_W_K
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              check_document_depth, read_toml_bytes, read_toml_text, temperature_unit_warnings,
                              with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
-from .units import convert
+from .units import ZERO_CELSIUS_K, convert
 
 SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
 DEFAULT_SCENARIO = SCENARIO_DIR / "default.toml"
@@ -109,7 +108,7 @@ class Scenario:
     ready_temperature_K: float | None = None  # schedule mode: wait until the oil has cooled to this
     hardware_coupling_multiplier: float = 1.0  # scales the oil -> metal bodies conductance (a log fit sets it)
     return_line_max_temperature_K: float | None = None  # hoses' and seals' rating; None: no such limit
-    flash_point_K: float = DEFAULT_FLASH_POINT_C + 273.15
+    flash_point_K: float = DEFAULT_FLASH_POINT_C + ZERO_CELSIUS_K
     flash_point_given: bool = False           # False: DEFAULT_FLASH_POINT_C stands in
     uncertainty: UncertaintyModel = UncertaintyModel()   # the [uncertainty] table (uncertainty.py)
     warnings: tuple = ()     # accepted but doubtful input, one line each (scenario_table.temperature_unit_warnings)
@@ -282,7 +281,7 @@ def _parse(raw: dict) -> Scenario:
                         start_K=start, repeat=repeat, cycle=cycle, ready_temperature_K=ready,
                         hardware_coupling_multiplier=coupling_multiplier,
                         return_line_max_temperature_K=return_line_max,
-                        flash_point_K=DEFAULT_FLASH_POINT_C + 273.15 if flash_point is None else flash_point,
+                        flash_point_K=DEFAULT_FLASH_POINT_C + ZERO_CELSIUS_K if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
                         uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units),
                         ambient_pressure_Pa=pressure, relative_humidity=humidity)
@@ -372,6 +371,15 @@ def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> l
     if not isinstance(values, list) or len(values) != length:
         raise ScenarioError(t.key(name), values, f"a list of {length} values, one per curve_rpm entry")
     return [t.convert(f"{t.key(name)}[{i}]", v, kind, unit, minimum=0.0) for i, v in enumerate(values)]
+
+
+def limit_K(s: Scenario) -> tuple[float, str]:
+    """The effective fluid limit: the lower of max_temperature and the temperature at which the
+    viscosity falls to the pump's minimum. Returns (K, "max_temperature" | "min_viscosity")."""
+    at_viscosity = s.oil.temperature_at_viscosity_K(s.min_viscosity_cSt)
+    if at_viscosity < s.max_temperature_K:
+        return at_viscosity, "min_viscosity"
+    return s.max_temperature_K, "max_temperature"
 
 
 def _temperature_text(T_K: float, system: str) -> str:

@@ -58,12 +58,13 @@ _IN_M = 0.0254                 # exact
 _GAL_M3 = 231 * _IN_M**3       # US gallon, exact
 _LBF_N = _LB_KG * 9.80665      # exact
 _BTU_J = 1055.056              # International Table BTU as pint defines it
+ZERO_CELSIUS_K = 273.15   # 0 degC in kelvin (exact, by the definition of the Celsius scale)
 _F_K = 5.0 / 9.0
 # Units converted without pint: unit -> (group, scale, offset) with value in the group's first unit
 # = scale * value + offset. Every pair within a group is checked against pint in tests/test_units.py.
 _UNITS = {
-    "K": ("temperature", 1.0, 0.0), "degC": ("temperature", 1.0, 273.15),
-    "degF": ("temperature", _F_K, 273.15 - 32.0 * _F_K),
+    "K": ("temperature", 1.0, 0.0), "degC": ("temperature", 1.0, ZERO_CELSIUS_K),
+    "degF": ("temperature", _F_K, ZERO_CELSIUS_K - 32.0 * _F_K),
     "delta_degC": ("temperature_difference", 1.0, 0.0), "delta_degF": ("temperature_difference", _F_K, 0.0),
     "m": ("length", 1.0, 0.0), "mm": ("length", 1e-3, 0.0), "cm": ("length", 1e-2, 0.0),
     "in": ("length", _IN_M, 0.0), "ft": ("length", _FT_M, 0.0),

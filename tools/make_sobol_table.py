@@ -1,7 +1,7 @@
 """Write the band's sample points the package ships (`thermo_budget/data/sobol_normals.npz`) from scipy.
 
-    python -m thermo_budget.make_sobol_table          # rewrite the table
-    python -m thermo_budget.make_sobol_table --check  # exit 1 if the shipped table differs from scipy
+    python tools/make_sobol_table.py          # rewrite the table
+    python tools/make_sobol_table.py --check  # exit 1 if the shipped table differs from scipy
 
 For each number of active uncertain factors d = 1..7, the first TABLE_POINTS points of the scrambled
 Sobol sequence (`scipy.stats.qmc.Sobol(d, scramble=True, seed=SOBOL_SEED)`) through the normal
@@ -11,13 +11,18 @@ for more points than the table holds. tests/test_uncertainty.py regenerates the 
 """
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
+
 import argparse
 import io
 import sys
 
 import numpy as np
 
-from .uncertainty import FACTORS, SOBOL_SEED, SOBOL_TABLE_PATH, SOBOL_TABLE_POINTS, sobol_normals_from_scipy
+from thermo_budget.uncertainty import FACTORS, SOBOL_SEED, SOBOL_TABLE_PATH, SOBOL_TABLE_POINTS, sobol_normals_from_scipy
 
 
 def table_arrays() -> dict[str, np.ndarray]:
@@ -32,7 +37,7 @@ def table_bytes(arrays: dict[str, np.ndarray]) -> bytes:
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget.make_sobol_table")
+    parser = argparse.ArgumentParser(prog="python tools/make_sobol_table.py")
     parser.add_argument("--check", action="store_true", help="compare the shipped table with scipy instead")
     args = parser.parse_args(argv)
     arrays = table_arrays()

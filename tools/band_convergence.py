@@ -1,4 +1,4 @@
-"""How many samples the band needs: `python -m thermo_budget.band_convergence [SCENARIO]`.
+"""How many samples the band needs: `python tools/band_convergence.py [SCENARIO]`.
 
 Prints P10 / P50 / P90 of the pull count before the limit, of the session's peak, and of the smallest
 oil volume, for growing sample counts of the same Sobol sequence, against a large reference (4,096
@@ -7,13 +7,18 @@ from it; bands.N_SAMPLES and N_SIZING_SAMPLES are chosen by it.
 """
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
+
 import argparse
 
 import numpy as np
 
-from .bands import order_statistic, sample_answers
-from .report import report
-from .scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.bands import order_statistic, sample_answers
+from thermo_budget.answers import report
+from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
 
 COUNTS = (16, 32, 64, 128, 256, 4096)
 SIZING_COUNTS = (16, 32, 64, 128, 256)
@@ -27,11 +32,11 @@ def _quantiles(values, whole: bool) -> str:
 
 
 def main(argv=None):
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget.band_convergence")
+    parser = argparse.ArgumentParser(prog="python tools/band_convergence.py")
     parser.add_argument("scenario", nargs="?", default=str(DEFAULT_SCENARIO))
     args = parser.parse_args(argv)
     scenario = load_scenario(args.scenario)
-    point = report(scenario.changed(**{"uncertainty.enabled": False}))
+    point = report(scenario.changed(**{"uncertainty.enabled": False})).to_json()   # the point answers' keys
     print(f"{scenario.name}: point answers {point['runs_before_limit']} pulls before the limit, "
           f"peak {point['peak_C']} degC, smallest oil volume {point['min_oil_volume_L']} L")
     print("| samples | pulls before the limit | peak °C | sizing samples | smallest oil volume L |")

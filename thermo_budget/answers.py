@@ -1,27 +1,32 @@
-"""The answers for one scenario, as the dict that `run --json` prints."""
+"""The answers for one scenario (`report()`), as the dict that `run --json` prints."""
 from __future__ import annotations
 
-import math
 
 import numpy as np
 
-from .errors import ScenarioError
+from .band_text import advice_sentence
+from .report_text import COOLER_RATING_MODEL, beyond_range_caution, cautions, note_words
 from .network import (HARDWARE, HOSE_RINGS, N_NODES, NODE_NAMES, OIL, WALL, heat_capacities_J_K, passive_paths_W,
                       passive_rejection_W)
 from .headroom import headroom_at
 from .long_session import integrate_session
 from .oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
-from .output_files import check_finite  # noqa: F401 (re-exported: report.check_finite)
-from .outcome import first_crossing_s, limit_crossed_first, peak_oil_K, pulls_completed_under
-from .scenario import Scenario, build_rig, limit_K
-from .session import Resolution, pump_flow_m3_s, pump_pressure_Pa
+from .output_files import check_finite  # noqa: F401 (re-exported: answers.check_finite)
+from .outcome import first_crossing_s, limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
+from .planning import (MAX_PULLS, limits_K, minimum_oil_volume_L, minimum_wait_s, periodic_state, required_cooler_W_K,
+                       runs_before_limit, session_trace, sustainability)
+from .ready_schedule import ready_schedule
+from .scenario import Scenario, limit_K
+from .results import Report
+from .rig_build import build_rig
+from .session import PLAN_RESOLUTION, Resolution, pump_flow_m3_s, pump_pressure_Pa
 from .solver import Trace, integrate
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K
 
 TRACE_RESOLUTION = Resolution(pull_substeps=3, curve_substeps=12, max_substep_s=45.0)
 # Cragoe's oil correlations hold to 400 degF (NBS Misc. Publ. 97); ASTM D341's simple form down to
 # 2 cSt. Past the lower of the two the model's temperatures are not shown as answers.
-CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + 273.15
+CRAGOE_MAX_K = (400.0 - 32.0) / 1.8 + ZERO_CELSIUS_K
 D341_MIN_CST = 2.0
 BEYOND_RANGE_KEYS = ("peak_C", "end_C", "end_wall_C", "end_hardware_C", "peak_return_C")
 
@@ -37,7 +42,7 @@ def simulate(scenario: Scenario, resolution: Resolution = TRACE_RESOLUTION) -> T
 
 
 def _celsius(T_K) -> float:
-    return round(float(T_K) - 273.15, 3)
+    return round(float(T_K) - ZERO_CELSIUS_K, 3)
 
 
 def pump_operating_point(scenario: Scenario) -> dict:
@@ -126,32 +131,11 @@ def runs_stopped_by(scenario: Scenario, runs: int | None) -> str | None:
         return None
     if scenario.return_line_max_temperature_K is None:
         return "bulk"
-    from .session import PLAN_RESOLUTION
     per_cycle = sum(step.is_pull for step in scenario.cycle)
     cycles = -(-(runs + 1) // per_cycle)
     trace = integrate(build_rig(scenario), list(scenario.cycle) * cycles, scenario.start_K, resolution=PLAN_RESOLUTION)
     limit, _ = limit_K(scenario)
     return limit_crossed_first(trace, limit, scenario.return_line_max_temperature_K)[0]
-
-
-def cautions(scenario: Scenario, result: dict) -> list[str]:
-    """Plain-words warnings where the predicted oil is hotter than a rig should see."""
-    found = []
-    peak, peak_return, flash = result["peak_C"], result["peak_return_C"], result["flash_point_C"]
-    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
-    if peak_return >= flash or peak >= flash:
-        found.append(f"The oil passes its flash point: the return line peaks at {peak_return:.1f} degC against a "
-                     f"flash point of {flash:.1f} degC ({where}). Oil mist can ignite. Do not run this session.")
-    elif peak > 100.0:
-        found.append(f"The bulk oil peaks at {peak:.1f} degC, above 100 degC: past what mineral hydraulic oil, "
-                     "its seals and hoses are usually rated for, water in it boils and it ages fast. Check the "
-                     "inputs; if they are right, do not run this session without a cooler or more oil.")
-    elif peak_return >= flash - 30.0:
-        found.append(f"The return-line oil peaks at {peak_return:.1f} degC, less than 30 K below the flash point "
-                     f"({flash:.1f} degC, {where}).")
-    if result["headroom_at_peak_L"] <= 0.0:
-        found.append("The hot oil overfills the tank at the predicted peak.")
-    return found
 
 
 def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> None:
@@ -161,18 +145,9 @@ def _caution_beyond_range(scenario: Scenario, trace: Trace, result: dict) -> Non
     ceiling = model_range_max_K(scenario)
     if float(peak_oil_K(trace)[0]) <= ceiling and np.all(np.isfinite(trace.T_K)):
         return
-    def temp(T_K):
-        return f"{to_display(T_K, 'temperature', scenario.units):.0f} {unit_label('temperature', scenario.units)}"
-    shown, limit = temp(ceiling), limit_K(scenario)[0]
     result.update({key: None for key in BEYOND_RANGE_KEYS}, beyond_model_range=True)
-    where = "given in the scenario" if scenario.flash_point_given else "assumed: no fluid.flash_point given"
     hottest = max(float(peak_oil_K(trace)[0]), float(np.nanmax(trace.return_K[:, 0])))
-    flash = (f" and past its flash point ({temp(scenario.flash_point_K)}, {where}): oil mist can ignite"
-             if hottest >= scenario.flash_point_K else "")
-    caution = (f"In the planned session the bulk oil would pass {shown}, beyond the range where the model's "
-               f"oil data hold (Cragoe to 400 degF, ASTM D341 down to 2 cSt), so its peak and end temperatures "
-               f"are not given. It is far past the fluid limit ({temp(limit)}){flash} long before that: do not "
-               f"run this session.")
+    caution = beyond_range_caution(scenario, ceiling, limit_K(scenario)[0], hottest >= scenario.flash_point_K)
     others = [c for c in result.get("cautions", []) if "peaks at" not in c and "flash point" not in c]
     result["cautions"] = [caution] + others
 
@@ -185,10 +160,52 @@ def energy_balance_rel_error(energy_in_J: float, energy_lost_J: float, energy_st
     return (energy_in_J - energy_lost_J - energy_stored_J) / scale if scale > 0 else 0.0
 
 
-def report(scenario: Scenario, trace: Trace | None = None) -> dict:
-    """Everything `run --json` prints: the session's thermal answers and the planning answers.
+def planning_answers(scenario: Scenario) -> dict:
+    """The planning keys of `run --json`."""
+    notes: list[tuple[str, dict]] = []   # (code, values), worded by report_text.note_words
+    rig = build_rig(scenario)
+    limit, reason = limit_K(scenario)
+    session = session_trace(scenario, rig, 1)
+    sustainable, steady_peak = sustainability(scenario, rig, 1)
+    sustainable, steady_peak = bool(sustainable[0]), float(steady_peak[0])
+    if sustainable and scenario.return_line_max_temperature_K is not None:
+        # the periodic peak above is in the limits' terms; the bulk oil's own peak over that cycle:
+        X, _, _ = periodic_state(scenario, rig, 1)
+        steady_peak = float(peak_oil_K(integrate(rig, list(scenario.cycle), X, resolution=PLAN_RESOLUTION))[0])
+    runs = runs_before_limit(scenario, rig, 1, np.array([sustainable]), session=session)[0]
+    if sustainable:
+        notes.append(("sustainable", {"steady_peak_C": steady_peak - ZERO_CELSIUS_K, "limit_C": limit - ZERO_CELSIUS_K}))
+    elif np.isnan(runs):
+        notes.append(("uncounted", {"max_pulls": MAX_PULLS}))
+    # the planned session without a cooler: the session already run, where the scenario has none
+    uncooled = session_trace(scenario, build_rig(scenario, cooler_W_K=0.0), 1) if scenario.cooler_W_K > 0 else session
+    cooler_needed = bool(limiting_peak_K(uncooled, *limits_K(scenario))[0] > limit)
+    cooler = required_cooler_W_K(scenario, notes, sustained=False) if cooler_needed else 0.0
+    if not cooler_needed:
+        notes.append(("no_cooler_needed", {}))
+    cooler_sustained = required_cooler_W_K(scenario, notes, sustained=True)
+    if cooler_sustained == 0.0:
+        notes.append(("no_cooler_needed_all_day", {}))
+    if scenario.cooler_W_K > 0:
+        notes.append(("cooler_fitted", {"cooler_W_K": scenario.cooler_W_K}))
+    return {
+        "runs_before_limit": None if sustainable or np.isnan(runs) else int(runs),
+        "sustainable": sustainable,
+        "steady_peak_C": round(steady_peak - ZERO_CELSIUS_K, 3) if sustainable else None,
+        "min_wait_s": minimum_wait_s(scenario, notes),
+        "cooler_needed": cooler_needed,
+        "cooler_required_W_per_K": cooler,
+        "cooler_required_sustained_W_per_K": cooler_sustained,
+        "cooler_rating_model": COOLER_RATING_MODEL,
+        "min_oil_volume_L": minimum_oil_volume_L(scenario, notes),
+        "schedule": ready_schedule(scenario, notes, session),
+        "notes": [note_words(code, values) for code, values in notes],
+    }
+
+
+def report(scenario: Scenario, trace: Trace | None = None) -> Report:
+    """Everything `run --json` prints (`Report.to_json()`): the session's thermal answers, the planning answers and the band.
     trace : optional simulate(scenario) already computed."""
-    from .planning import planning_answers
     trace = simulate(scenario) if trace is None else trace
     result = session_report(scenario, trace)
     result.update(planning_answers(scenario))
@@ -201,9 +218,11 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     result["cautions"] = cautions(scenario, result)
     from .bands import band_report
     result.update(band_report(scenario, result))
+    ranking = result["band_ranking"]
+    result["band_advice"] = advice_sentence(ranking, ranking[0]["of"]) if ranking else ""
     _caution_beyond_range(scenario, trace, result)
     check_finite(result)
-    return result
+    return Report.from_json(result)
 
 
 def _passive_shares(rig, limit_K: float) -> dict:
@@ -230,9 +249,9 @@ def trace_rows(trace: Trace, design: int = 0):
     power_W is the mean absorbed power over the interval that ends at the row; hose_C (the hose
     rubber's capacity-weighted mean over its two rings, Trace.hose_K) comes last so that readers of
     the older six columns keep working."""
-    T = trace.T_K[:, design, :] - 273.15
-    return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - 273.15,
-                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], trace.hose_K[:, design] - 273.15])
+    T = trace.T_K[:, design, :] - ZERO_CELSIUS_K
+    return np.column_stack([trace.time_s[:, design], T[:, OIL], trace.return_K[:, design] - ZERO_CELSIUS_K,
+                            T[:, WALL], T[:, HARDWARE], trace.power_W[:, design], trace.hose_K[:, design] - ZERO_CELSIUS_K])
 
 
 TRACE_COLUMNS = ("time_s", "oil_C", "return_C", "wall_C", "hardware_C", "power_W", "hose_C")

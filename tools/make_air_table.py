@@ -1,7 +1,7 @@
 """Write the air-property table the package ships (`thermo_budget/data/air_1atm.csv`) from CoolProp.
 
-    python -m thermo_budget.make_air_table          # rewrite the table
-    python -m thermo_budget.make_air_table --check  # exit 1 if the shipped table differs from CoolProp
+    python tools/make_air_table.py          # rewrite the table
+    python tools/make_air_table.py --check  # exit 1 if the shipped table differs from CoolProp
 
 CoolProp is the source; the package reads the table (air.py), so that a run does not spend seconds
 loading CoolProp's fluid library for a table that never changes. tests/test_air.py regenerates it
@@ -9,12 +9,17 @@ and compares it with the shipped file.
 """
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
+
 import argparse
 import sys
 
 import numpy as np
 
-from .air import P_ATM_Pa, TABLE_COLUMNS, TABLE_PATH, TABLE_T_K
+from thermo_budget.air import P_ATM_Pa, TABLE_COLUMNS, TABLE_PATH, TABLE_T_K
 
 
 def coolprop_table(T_K=TABLE_T_K) -> np.ndarray:
@@ -32,14 +37,14 @@ def coolprop_table(T_K=TABLE_T_K) -> np.ndarray:
 def table_text(rows: np.ndarray) -> str:
     """The CSV text of the table: a comment naming the source, a header, full-precision rows."""
     lines = ["# Air at 101325 Pa from CoolProp (PropsSI: L, V / D, Prandtl); written by "
-             "python -m thermo_budget.make_air_table. Do not edit by hand.",
+             "python tools/make_air_table.py. Do not edit by hand.",
              ",".join(TABLE_COLUMNS)]
     lines += [",".join(f"{v:.17g}" for v in row) for row in rows]
     return "\n".join(lines) + "\n"
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget.make_air_table")
+    parser = argparse.ArgumentParser(prog="python tools/make_air_table.py")
     parser.add_argument("--check", action="store_true", help="compare with the shipped table, write nothing")
     args = parser.parse_args(argv)
     text = table_text(coolprop_table())

@@ -1,4 +1,4 @@
-"""The live watch over a whole test day: `python -m thermo_budget.bench --live` (or this module).
+"""The live watch over a whole test day: `python tools/bench.py --live` (or `python tools/bench_live.py`).
 Prints its figures; asserts nothing.
 
 The day is synthetic, made by our own model: an invented rig (the demo rig A of
@@ -20,6 +20,11 @@ The machine's other work makes every figure noisy; they are wall-clock times.
 """
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
+
 import subprocess
 import sys
 import tempfile
@@ -30,10 +35,11 @@ from pathlib import Path
 
 import numpy as np
 
-from .network import OIL
-from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
-from .session import Resolution, Step
-from .solver import integrate
+from thermo_budget.network import OIL
+from thermo_budget.rig_build import build_rig
+from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.session import Resolution, Step
+from thermo_budget.solver import integrate
 
 DAY_S = 10 * 3600.0
 NOISE_K = 0.3
@@ -120,7 +126,7 @@ def follow_updates_s(scenario, day: SimulatedDay, path: Path, at_s, rows_per_pol
     """Per-update times at each time in at_s: the file written up to that time at once and read,
     then `polls` polls of rows_per_poll new rows each. Returns, per time, (time, median and max of
     the reading and estimate's part, median and max of the whole update with the forecast)."""
-    from .live_watch import LiveWatch
+    from thermo_budget.live_watch import LiveWatch
     lines = day.lines()
     results = []
     for at in at_s:
@@ -150,7 +156,7 @@ def follow_updates_s(scenario, day: SimulatedDay, path: Path, at_s, rows_per_pol
 def memory_bytes(scenario, day: SimulatedDay, path: Path, until_s: float) -> tuple[int, int, int]:
     """(Python allocation kept by one watch after reading the day up to until_s at once, the peak
     while it read, the file's size)."""
-    from .live_watch import LiveWatch
+    from thermo_budget.live_watch import LiveWatch
     rows = int(np.searchsorted(day.time_s, until_s))
     path.write_text("\n".join(day.lines(range(rows))) + "\n")
     tracemalloc.start()

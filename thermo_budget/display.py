@@ -1,15 +1,14 @@
-"""The page's display formatting: SI values shown in the chosen unit system ("SI" or "US"), with
-their unit symbols, durations, restated report notes and the trace CSV in the page's units.
+"""Display formatting for the page, the command line and the charts: SI values shown in the chosen
+unit system ("SI" or "US") with their unit symbols, temperatures and temperature differences,
+durations, and report notes restated in the user's units.
 
-Pure functions, no Streamlit. The page converts units here and computes nothing else.
+Pure functions of units.py, no Streamlit and no model: any layer that shows a number may use them.
 """
 from __future__ import annotations
 
 import re
 
-import numpy as np
-
-from .units import SI_UNIT, UNIT_LABEL, convert
+from .units import SI_UNIT, UNIT_LABEL, ZERO_CELSIUS_K, convert, to_display, unit_label
 
 SYSTEMS = ("SI", "US")
 SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
@@ -71,7 +70,7 @@ def shown(value_si: float | None, quantity: str, system: str, digits: int | None
 
 def shown_celsius(value_C: float | None, system: str) -> str:
     """A report temperature (degC) formatted in the page's system."""
-    return "n/a" if value_C is None else shown(value_C + 273.15, "temperature", system)
+    return "n/a" if value_C is None else shown(value_C + ZERO_CELSIUS_K, "temperature", system)
 
 
 def shown_duration(seconds: float | None) -> str:
@@ -88,21 +87,6 @@ def shown_duration(seconds: float | None) -> str:
     return f"{hours} h {rest:02d} min"
 
 
-def trace_csv_shown(trace, system: str) -> str:
-    """The trace (design 0) as CSV in the page's units: time in s, temperatures and power in the
-    display units of `system`; the column names carry the units."""
-    from .report import trace_rows
-    rows = trace_rows(trace)
-    t_unit = QUANTITIES["temperature"][1][system].replace("deg", "")
-    p_unit = QUANTITIES["power"][1][system]
-    header = ["time_s"] + [f"{name}_{t_unit}" for name in ("oil", "return", "wall", "hardware")] + [f"power_{p_unit}"]
-    columns = [rows[:, 0], *(to_shown(rows[:, i] + 273.15, "temperature", system) for i in range(1, 5)),
-               to_shown(rows[:, 5], "power", system)]
-    lines = [",".join(header)]
-    lines += [",".join([f"{row[0]:.3f}", *(f"{v:.6g}" for v in row[1:])]) for row in np.column_stack(columns)]
-    return "\n".join(lines) + "\n"
-
-
 _NUMBER_UNIT = re.compile(r"(-?\d+(?:\.\d+)?) (degC|W/K|L)\b")
 
 
@@ -111,8 +95,20 @@ def note_in(note: str, system: str) -> str:
     def restate(match):
         value, unit = float(match.group(1)), match.group(2)
         if unit == "degC":
-            return shown(value + 273.15, "temperature", system)
+            return shown(value + ZERO_CELSIUS_K, "temperature", system)
         if unit == "W/K":
             return shown(value, "conductance", system)
         return shown(value / 1000.0, "oil_volume", system)
     return _NUMBER_UNIT.sub(restate, note)
+
+
+def format_temperature(T_K: float, system: str) -> str:
+    """A temperature in the display unit of "SI" or "US", e.g. '47.3 °C'."""
+    return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
+
+
+def format_difference(dT_K: float, system: str) -> str:
+    """A temperature difference: '0.31 K', or '0.56 °F (0.31 K)' in US units."""
+    if system == "SI":
+        return f"{dT_K:.2f} K"
+    return f"{to_display(dT_K, 'temperature_difference', system):.2f} {unit_label('temperature_difference', system)} ({dT_K:.2f} K)"

@@ -1,4 +1,4 @@
-"""A compiled kernel for the sub-step, measured: `python -m thermo_budget.bench_compiled` (needs numba,
+"""A compiled kernel for the sub-step, measured: `python tools/bench_compiled.py` (needs numba,
 which the package does not: `pip install numba`). Prints its figures; asserts nothing.
 
 The kernel does the sub-step's linear algebra per design in compiled code (the symmetrised system,
@@ -8,6 +8,11 @@ conductances stay in numpy (network.node_equations). It is timed against solver.
 loading it in a fresh process. CHANGELOG.md quotes the figures and the decision they led to.
 """
 from __future__ import annotations
+
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
 
 import time
 
@@ -90,9 +95,10 @@ def main():
     except ImportError:
         print("numba is not installed (pip install numba): nothing measured")
         return
-    from .network import N_NODES, Inputs, node_equations
-    from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
-    from .solver import propagate_linear
+    from thermo_budget.network import N_NODES, Inputs, node_equations
+    from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.rig_build import build_rig
+    from thermo_budget.solver import propagate_linear
     rig = build_rig(load_scenario(DEFAULT_SCENARIO))
     T = np.full((1, N_NODES), 330.0)
     C, L, b, _, _ = node_equations(rig, T, Inputs(power_W=np.full(1, 7000.0), volume_flow_m3_s=np.full(1, 7.5e-4)))

@@ -1,4 +1,4 @@
-"""Benchmark: `python -m thermo_budget.bench [--quick]`. Prints its figures; asserts nothing.
+"""Benchmark: `python tools/bench.py [--quick]`. Prints its figures; asserts nothing.
 
 1. The 2,500-design sweep (50 oil volumes x 50 coolers, default scenario): wall time, and the planned-
    session part against a per-design loop of scipy solve_ivp (RK45, rtol 1e-6) on the same
@@ -17,7 +17,14 @@ With --live, only the live watch over a ten-hour day logged every second (bench_
 """
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # the checkout's package, run as a script
+
 import argparse
+import os
+import shutil
 import subprocess
 import sys
 import time
@@ -26,13 +33,14 @@ import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
-from .network import N_NODES, OIL, Inputs, node_equations
-from .planning import session_outcome, take_designs
-from .report import report
-from .scenario import DEFAULT_SCENARIO, build_rig, load_scenario
-from .session import pump_flow_m3_s
-from .solver import propagate_linear
-from .design_sweep import sweep
+from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
+from thermo_budget.planning import session_outcome, take_designs
+from thermo_budget.answers import report
+from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.rig_build import build_rig
+from thermo_budget.session import pump_flow_m3_s
+from thermo_budget.solver import propagate_linear
+from thermo_budget.design_sweep import sweep
 
 
 def _best_of(repeats, function):
@@ -93,8 +101,8 @@ def frozen_expm_session(rig, steps, T0_K, n, use_eigh=False):
 def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, float]:
     """Seconds the page spends, after the oil volume changes to a value not seen before, on (the
     answers, the temperature chart PNG, the design chart's sweep, the design chart PNG)."""
-    from . import page_charts
-    from .report import simulate
+    from thermo_budget import page_charts
+    from thermo_budget.answers import simulate
     changed = scenario.changed(**{"reservoir.oil_volume": f"{oil_volume_L} L"})
     text = changed.to_toml()
     start = time.perf_counter()
@@ -111,9 +119,8 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
 
 def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
     """(report() with the band, of it the band alone) s, best of `repeats` each."""
-    from .bands import band_report
-    from .planning import planning_answers
-    from .report import session_report, simulate
+    from thermo_budget.bands import band_report
+    from thermo_budget.answers import planning_answers, session_report, simulate
     trace = simulate(scenario)
     point = session_report(scenario, trace)
     point.update(planning_answers(scenario))
@@ -140,7 +147,8 @@ def apptest_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[floa
     return times
 
 
-BROWSER = "/usr/bin/chromium"
+# The browser: $THERMO_BROWSER, else the first Chromium on the PATH (never downloaded).
+BROWSER = os.environ.get("THERMO_BROWSER") or shutil.which("chromium") or shutil.which("chromium-browser")
 BROWSER_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync", "--no-first-run"]
 # True once the script run is over: no element left stale (Streamlit marks the elements of the last
@@ -169,7 +177,7 @@ def browser_redraws_s(oil_volumes_L=(16.5, 17.5, 18.5, 19.5, 20.5)) -> list[floa
         from playwright.sync_api import sync_playwright
     except ImportError:
         return None
-    if not (app.exists() and Path(BROWSER).exists()):
+    if not (app.exists() and BROWSER and Path(BROWSER).exists()):
         return None
     with socket.socket() as sock:
         sock.bind(("127.0.0.1", 0))
@@ -238,17 +246,18 @@ def startup_line(times: dict[str, float]) -> str:
 
 
 def main(argv=None):
-    parser = argparse.ArgumentParser(prog="python -m thermo_budget.bench")
+    parser = argparse.ArgumentParser(prog="python tools/bench.py")
     parser.add_argument("--quick", action="store_true", help="a smaller solve_ivp subset")
     parser.add_argument("--page", action="store_true", help="also time whole reruns of app.py (Streamlit AppTest)")
     parser.add_argument("--startup", action="store_true", help="only the start-up times of whole processes")
     parser.add_argument("--browser", action="store_true",
                         help="also time the page in headless Chromium after each of 5 oil-volume changes")
     parser.add_argument("--live", action="store_true",
-                        help="only the live watch over a simulated ten-hour day (thermo_budget.bench_live)")
+                        help="only the live watch over a simulated ten-hour day (tools/bench_live.py)")
     args = parser.parse_args(argv)
     if args.live:
-        from .bench_live import main as live_main
+        _sys.path.insert(0, str(_Path(__file__).resolve().parent))
+        from bench_live import main as live_main
         return live_main()
     print(startup_line(startup_s()), flush=True)
     if args.startup:
@@ -297,7 +306,7 @@ def main(argv=None):
           f"{t_session / t_floor_eigh:.2f}")
     print(f"report() with every sizing answer, band off: {t_report:.3f} s = {t_report / t_one:.1f} plain simulations "
           f"of {t_one * 1000:.1f} ms (targets <= 40 and well under 0.5 s)")
-    from .bands import N_SAMPLES, N_SIZING_SAMPLES
+    from thermo_budget.bands import N_SAMPLES, N_SIZING_SAMPLES
     for name, t_with, t_band in band_figures:
         print(f"report() with the band ({N_SAMPLES} samples, {N_SIZING_SAMPLES} for the sizing answers), {name}: "
               f"{t_with:.3f} s, of it the band {t_band:.3f} s ({100 * t_band / t_with:.0f} %, "
@@ -313,7 +322,7 @@ def main(argv=None):
         print(f"page in the browser after one input change (headless Chromium, 5 new oil volumes): median "
               f"{np.median(in_browser):.3f} s, range {min(in_browser):.3f}-{max(in_browser):.3f} s (target <= 1.5 s)")
     elif args.browser:
-        print("page in the browser: not measured (no /usr/bin/chromium, playwright or app.py)")
+        print("page in the browser: not measured (no chromium on the PATH nor THERMO_BROWSER, no playwright, or no app.py)")
     reruns = apptest_redraws_s() if args.page else None
     if reruns:
         print(f"  the whole page in Streamlit's AppTest (no browser), 5 new oil volumes: median {np.median(reruns):.3f} s,"

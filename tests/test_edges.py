@@ -285,6 +285,11 @@ def test_every_writer_of_the_package_goes_through_the_one_helper():
     assert offenders == []
 
 
+def test_a_plot_in_a_format_we_cannot_write_is_refused_before_any_work(tmp_path):
+    assert_refused(cli(["run", DEFAULT, "--csv", str(tmp_path / "t.csv"), "--plot", str(tmp_path / "t.xyz")]), "--plot")
+    assert list(tmp_path.iterdir()) == []
+
+
 # 2. a huge sweep grid: the count is checked before anything is built
 
 @pytest.mark.parametrize("grid", ["5:40:1000000000000", "5:40:100000000"])

@@ -84,7 +84,8 @@ def check_outputs(args, inputs: tuple, outputs: tuple) -> None:
     the option."""
     from .output_files import check_output_paths
     check_output_paths({name: getattr(args, name) for name in inputs},
-                       {"--" + option.replace("_", "-"): getattr(args, option, None) for option in outputs})
+                       {"--" + option.replace("_", "-"): getattr(args, option, None) for option in outputs},
+                       figures=("--plot",))
 
 
 def _load(path):

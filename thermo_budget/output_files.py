@@ -31,15 +31,22 @@ def _same_file(a: Path, b: Path) -> bool:
         return False
 
 
-def check_output_paths(inputs: dict, outputs: dict) -> None:
+# The figure formats save_figure writes (matplotlib's own writers; a name without a suffix is PNG).
+FIGURE_FORMATS = ("eps", "jpeg", "jpg", "pdf", "pgf", "png", "ps", "raw", "rgba", "svg", "svgz", "tif", "tiff", "webp")
+
+
+def check_output_paths(inputs: dict, outputs: dict, figures=()) -> None:
     """Before any work: every output path (outputs: option -> path, None where not given) must be
     in an existing folder, not a folder itself, not one of the input files (inputs: name -> path)
-    and not another output. Raises ScenarioError naming the option."""
+    and not another output; those of the options in `figures` must name a format of FIGURE_FORMATS.
+    Raises ScenarioError naming the option."""
     seen = [(Path(path), name) for name, path in inputs.items() if path is not None]
     for option, value in outputs.items():
         if not value:
             continue
         path = Path(value)
+        if option in figures and path.suffix.lstrip(".").lower() not in FIGURE_FORMATS + ("",):
+            raise ScenarioError(option, value, "a figure file ending in one of ." + ", .".join(FIGURE_FORMATS))
         try:
             parent_ok, is_dir = path.parent.is_dir(), path.is_dir()
         except (OSError, ValueError):

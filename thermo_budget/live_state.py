@@ -9,7 +9,7 @@ import numpy as np
 
 from .live_forecast import Forecast
 from .network import NODE_NAMES, OIL
-from .units import to_display, unit_label
+from .units import ZERO_CELSIUS_K, to_display, unit_label
 
 JSON_KEYS = ("time_s", "oil_C", "estimate_C", "next_pull_ready_s", "wait_s", "pulls_left", "in_pull",
              "pull_ends_over_limit", "seconds_to_limit", "alarm", "over_limit", "advice")
@@ -42,8 +42,8 @@ class LiveState:
     def to_dict(self) -> dict:
         f = self.forecast
         return {"time_s": round(self.time_s, 3),
-                "oil_C": None if self.oil_K is None else round(self.oil_K - 273.15, 3),
-                "estimate_C": {name: round(float(T) - 273.15, 3) for name, T in zip(NODE_NAMES, self.estimate_K)},
+                "oil_C": None if self.oil_K is None else round(self.oil_K - ZERO_CELSIUS_K, 3),
+                "estimate_C": {name: round(float(T) - ZERO_CELSIUS_K, 3) for name, T in zip(NODE_NAMES, self.estimate_K)},
                 "next_pull_ready_s": f.next_pull_ready_s, "wait_s": f.wait_s, "pulls_left": f.pulls_left,
                 "in_pull": self.in_pull,
                 "pull_ends_over_limit": f.pull_ends_over_limit if self.in_pull else False,

@@ -31,7 +31,8 @@ def _temp(celsius, system):
 def summary_text(result: dict) -> str:
     """A short readable summary of a report, in the scenario's units."""
     u = result["units"]
-    lines = [f"{result['name'] or 'scenario'}",
+    from .verdict_text import summary_lines as verdict_lines
+    lines = [f"{result['name'] or 'scenario'}", *verdict_lines(result),
              f"  fluid limit      {_temp(result['limit_C'], u)} (set by {result['limit_reason'].replace('_', ' ')})",
              f"  pulls under limit {result['pulls_under_limit']} of {result['pulls_planned']} planned",
              f"  bulk oil         start {_temp(result['start_C'], u)}, peak {_temp(result['peak_C'], u)}, "

@@ -200,6 +200,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> dict:
     from .bands import band_report
     result.update(band_report(scenario, result))
     _caution_beyond_range(scenario, trace, result)
+    from .verdict import verdict
+    result["verdict"] = verdict(scenario, result).to_json()
     check_finite(result)
     return result
 

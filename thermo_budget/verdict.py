@@ -321,6 +321,12 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
     return [answer[kinds == i] for i in range(len(asked))]
 
 
+def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
+    """Per design, the day finished with SEARCH_MARGIN_K to spare: a fix is held to it, so that a re-run
+    at another resolution (agreeing to about 0.03 K) still finishes the day."""
+    return outcome.limiting_peak_K <= limit_K(scenario)[0] - SEARCH_MARGIN_K
+
+
 def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> list:
     """The searched fixes re-run on every sample, each alone; one that falls short is stepped up
     (STEP_UP) and re-run, up to VERIFY_ROUNDS times, and dropped if it never finishes the day."""
@@ -336,7 +342,7 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
         outcome = run_day(scenario, samples, np.tile(np.arange(samples.n), len(kinds)),
                           Change.of(names, np.repeat(x, samples.n)))
         for i, kind in enumerate(kinds):
-            if share_fits(outcome.clean[i * samples.n:(i + 1) * samples.n], confidence):
+            if share_fits(_with_margin(scenario, outcome)[i * samples.n:(i + 1) * samples.n], confidence):
                 passed[kind] = values[kind]
             elif kind == "shorter_pulls":
                 values[kind] *= 2.0 - STEP_UP
@@ -366,7 +372,7 @@ def _fewer_pulls(scenario, samples: Samples, base: DayOutcome, confidence: float
     while count >= 1:
         end = pull_at[count] if count < len(pull_at) else len(steps)
         outcome = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n), steps=steps[:end])
-        if share_fits(outcome.clean, confidence):
+        if share_fits(_with_margin(scenario, outcome), confidence):
             return Fix("fewer_pulls", count, confidence)
         count -= 1
     return None

@@ -19,7 +19,7 @@ def page():
 
 
 _CARD = re.compile(r'<div class="tb-card[^"]*" data-key="(\w+)"[^>]*>(.*?)</div></div>(?=<div class="tb-card|</div></div>$)', re.S)
-_PART = re.compile(r'<div class="tb-(label|value|unit|detail)">(.*?)</div>', re.S)
+_PART = re.compile(r'<div class="tb-(label|value|unit|small|detail)">(.*?)</div>', re.S)
 
 
 def cards(at) -> dict:
@@ -27,7 +27,7 @@ def cards(at) -> dict:
     source = next(m.value for m in at.markdown if "tb-grid" in m.value)
     found = {}
     for key, body in _CARD.findall(source.strip()):
-        card = {"label": "", "value": "", "unit": "", "details": []}
+        card = {"label": "", "value": "", "unit": "", "small": "", "details": []}
         for part, text in _PART.findall(body + "</div>"):
             if part == "detail":
                 card["details"].append(html.unescape(text))
@@ -54,8 +54,9 @@ def test_default_scenario_runs_without_exception(page):
     assert not page.exception
     assert not page.error
     shown = metrics(page)
-    for label in ("Pulls before the limit", "Hottest oil, planned session", "Time to the limit", "Wait between pulls",
-                  "Cooler for the plan", "Smallest tank", "Oil ageing today", "Head room at the limit"):
+    for label in ("Planned day: pulls that fit", "Pulls in a row, cycle repeated", "Hottest oil, planned session",
+                  "Time to the limit", "Wait between pulls", "Cooler for the plan", "Smallest oil volume",
+                  "Oil ageing today", "Head room at the limit"):
         assert label in shown
     assert headline(page).isdigit()
     assert any("The bulk limit is" in m.value for m in page.markdown)
@@ -88,8 +89,8 @@ def test_unit_switch_changes_units_not_answers(page):
     oil = number_input(page, "Oil in the tank")
     assert oil.label.endswith("(gal)")
     assert oil.value == pytest.approx(18.0 / 3.785411784, rel=1e-6)  # 1 US gal = 3.785411784 L exactly (NIST SP 811)
-    assert us["Pulls before the limit"] == si["Pulls before the limit"]
-    assert us["Smallest tank"].endswith("gal of oil") and si["Smallest tank"].endswith("L of oil")
+    assert us["Pulls in a row, cycle repeated"] == si["Pulls in a row, cycle repeated"]
+    assert us["Smallest oil volume"].endswith("gal of oil") and si["Smallest oil volume"].endswith("L of oil")
     assert number_input(page, "Hottest the oil may get").value == pytest.approx(176.0)  # 80 degC = 176 degF
     page.radio(key="system").set_value("SI").run()
     assert metrics(page) == si
@@ -230,16 +231,27 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         if at.session_state["system"] != system:
             at.radio(key="system").set_value(system).run()
         shown = cards(at)
-        runs = answers["runs_before_limit"]
-        assert shown["pulls"]["value"] == str(runs)
-        assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
-                   for line in shown["pulls"]["details"])   # after the plan at the confidence, where there is one
-        _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
+        plan, bands, verdict = answers["plan_at_confidence"], answers["bands"], answers["verdict"]
+        confidence = f"at {100 * answers['confidence']:.0f} % confidence"
+        assert shown["pulls"]["value"] == str(plan["runs_before_limit"])
+        assert shown["pulls"]["small"] == f"{confidence} · median {bands['runs_before_limit']['p50']}"
+        assert shown["day"]["value"] == f"{plan['pulls_under_limit']} of {answers['pulls_planned']}"
+        # the verdict box and the cards say the same
+        box = next(m.value for m in at.markdown if "tb-verdict" in m.value and "data-fits" in m.value)
+        assert f'data-fits="{str(verdict["fits"]).lower()}"' in box
+        assert ("FITS" if verdict["fits"] else "DOES NOT FIT") in box
+        assert verdict["fits"] == (plan["pulls_under_limit"] == answers["pulls_planned"])
+        if verdict["governing_limit"] == "return_line":
+            _close(shown["hottest"]["small"].split("return line ")[1], _in(system, "C", verdict["peak_C"]))
+        else:
+            _close(shown["hottest"]["value"], _in(system, "C", verdict["peak_C"]))
+        _close(shown["hottest"]["small"].split("median ")[1], _in(system, "C", bands["peak_C"]["p50"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
-        if answers["min_oil_volume_L"] is not None:
-            _close(shown["tank"]["value"], _in(system, "L", answers["min_oil_volume_L"]))
-        if answers["cooler_needed"] and answers["cooler_required_W_per_K"]:
-            _close(shown["cooler"]["value"], _in(system, "W/K", answers["cooler_required_W_per_K"]))
+        if plan["min_oil_volume_L"] is not None:
+            _close(shown["tank"]["value"], _in(system, "L", plan["min_oil_volume_L"]))
+            _close(shown["tank"]["small"].split("median ")[1], _in(system, "L", bands["min_oil_volume_L"]["p50"]))
+        if plan["cooler_required_W_per_K"]:
+            _close(shown["cooler"]["value"], _in(system, "W/K", plan["cooler_required_W_per_K"]))
         _close(shown["ageing"]["value"], answers["oil_ageing_equivalent_h"])
         _close(shown["headroom"]["value"], _in(system, "L", answers["headroom_at_limit_L"]))
         # under "More figures": the pump's flow and pressure (the flow once read 756 L/min for 45.4)
@@ -273,22 +285,29 @@ def test_return_line_stop_is_said_in_the_headline():
     assert "(limit 185.0 °F)" in cards(at)["hottest"]["details"][0]
 
 
-def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
-    from thermo_budget.page_cards import pulls_card
-    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+def test_every_planning_card_shows_the_plan_at_the_confidence_with_the_median():
+    from thermo_budget.page_cards import headline_cards
+    from thermo_budget import load_scenario
     from thermo_budget.report import report
-    answers = report(load_scenario(DEFAULT_SCENARIO))
-    plain = pulls_card({key: value for key, value in answers.items()
-                        if key not in ("bands", "confidence", "plan_at_confidence")}, "SI")
-    assert "likely" not in plain.unit
-    runs = answers["runs_before_limit"]                     # the card shows the point answer
-    answers |= {"bands": {"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
-                          "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                "confidence": 0.9, "plan_at_confidence": {"runs_before_limit": runs - 6}, "uncertainty": {"samples": 128}}
-    card = pulls_card(answers, "SI")
-    assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
-    assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
-    assert any("(likely 9–10)" in line for line in card.details)
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "us_units_fan.toml"
+    scenario = load_scenario(path)
+    answers = report(scenario)
+    shown = {card.key: card for card in headline_cards(answers, scenario.reservoir.oil_volume_m3, 150.0, "SI",
+                                                          scenario.reservoir.inner_volume_m3)}
+    plan, bands = answers["plan_at_confidence"], answers["bands"]
+    for key in ("day", "pulls", "wait", "cooler", "tank", "hottest"):
+        assert shown[key].small.startswith("at 90 % confidence · median"), key
+    assert shown["pulls"].value == str(plan["runs_before_limit"]) != str(bands["runs_before_limit"]["p50"])
+    assert shown["day"].value == f"{plan['pulls_under_limit']} of {answers['pulls_planned']}"
+    _close(shown["wait"].value.split(" min ")[0], plan["min_wait_s"] // 60)
+    _close(shown["cooler"].value, plan["cooler_required_W_per_K"])
+    _close(shown["tank"].value, plan["min_oil_volume_L"])
+    _close(shown["hottest"].value, answers["verdict"]["peak_C"])
+    # with the band off the cards show the point answers and no small print
+    plain = dict(answers, uncertainty={"samples": 0})
+    off = {card.key: card for card in headline_cards(plain, scenario.reservoir.oil_volume_m3, 150.0, "SI")}
+    assert off["pulls"].value == str(answers["runs_before_limit"]) and not off["pulls"].small
+    _close(off["tank"].value, answers["min_oil_volume_L"])
 
 
 def test_name_edit_follows_into_the_titles_and_the_file(page):

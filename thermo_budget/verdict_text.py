@@ -11,10 +11,12 @@ LIMIT_WHY = {"max_temperature": "the hottest you allow the oil",
              "min_viscosity": "the pump's thinnest oil",
              "return_line": "the return line's limit, for its hoses and seals"}
 WORDS = {True: "FITS", False: "DOES NOT FIT"}
+FIXES_TITLE = "any one of these alone makes the day fit (smallest change first)"
+NO_FIX = "no single change of the waits, oil, cooler or pulls makes the day fit"
 
 
 def _temperature(celsius: float, system: str) -> str:
-    return f"{to_display(celsius + 273.15, 'temperature', system):.0f} {unit_label('temperature', system)}"
+    return f"{to_display(celsius + 273.15, 'temperature', system):.1f} {unit_label('temperature', system)}"
 
 
 def _difference(kelvin: float, system: str) -> str:
@@ -47,18 +49,23 @@ def confidence_text(v: Verdict, band_on: bool = True) -> str:
 
 
 def sentence(v: Verdict, pulls_planned: int, system: str, band_on: bool = True) -> str:
-    """'fits: 20 of 20 pulls, peak 71 °C, 3.0 K under the limit, at 90 % confidence' or
-    'does not fit: pull 15 crosses 74 °C (the pump's thinnest oil), at 90 % confidence'."""
+    """'fits: 20 of 20 pulls, peak 71 °C, 3.0 K under the limit of 74 °C (...), at 90 % confidence' or
+    'does not fit: pull 15 of 20 crosses 74 °C (the pump's thinnest oil), at 90 % confidence'."""
+    return f"{WORDS[v.fits].lower()}: {clause(v, pulls_planned, system, band_on)}"
+
+
+def clause(v: Verdict, pulls_planned: int, system: str, band_on: bool = True) -> str:
+    """The sentence after its first word ("fits" or "does not fit"), for the page's badge."""
     limit = _temperature(v.limit_C, system)
     why = LIMIT_WHY.get(v.governing_limit, v.governing_limit)
     where = "return-line oil" if v.governing_limit == "return_line" else "peak"
     if v.fits:
         if v.peak_C is None:
-            return f"fits: {pulls_planned} of {pulls_planned} pulls, {confidence_text(v, band_on)}"
-        return (f"fits: {pulls_planned} of {pulls_planned} pulls, {where} {_temperature(v.peak_C, system)}, "
+            return f"{pulls_planned} of {pulls_planned} pulls, {confidence_text(v, band_on)}"
+        return (f"{pulls_planned} of {pulls_planned} pulls, {where} {_temperature(v.peak_C, system)}, "
                 f"{_difference(v.limit_C - v.peak_C, system)} under the limit of {limit} ({why}), "
                 f"{confidence_text(v, band_on)}")
-    return (f"does not fit: pull {v.first_pull_over_limit} of {pulls_planned} crosses {limit} ({why}), "
+    return (f"pull {v.first_pull_over_limit} of {pulls_planned} crosses {limit} ({why}), "
             f"{confidence_text(v, band_on)}")
 
 
@@ -90,8 +97,8 @@ def summary_lines(result: dict) -> list[str]:
     band_on = bool(result.get("uncertainty", {}).get("samples"))
     lines = [f"  VERDICT          {sentence(v, result['pulls_planned'], result['units'], band_on)}"]
     if v.fixes:
-        lines.append("  any one of these alone makes the day fit (smallest change first):")
+        lines.append(f"  {FIXES_TITLE}:")
         lines += [f"    - {text}" for text in fix_lines(v, result["units"])]
     elif not v.fits:
-        lines.append("  no single change of the waits, oil, cooler or pulls makes the day fit")
+        lines.append(f"  {NO_FIX}")
     return lines

@@ -61,8 +61,8 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
 
 
 def test_the_pull_count_band_is_shown_once():
-    """The pull-count card carries the count's band and the plan; the "How sure" line below it says
-    what the range means and what to measure, without repeating them."""
+    """The pull-count card carries the plan at the confidence and the band's median; the "How sure" line
+    below it says what the range means and what to measure, without repeating them."""
     from pathlib import Path
     from streamlit.testing.v1 import AppTest
     repo = Path(__file__).resolve().parent.parent
@@ -70,7 +70,7 @@ def test_the_pull_count_band_is_shown_once():
     assert not at.exception
     texts = [m.value for m in at.markdown]
     band = report(load_scenario(DEFAULT_SCENARIO))["bands"]["runs_before_limit"]
-    shown = f"likely {band['p10']}–{band['p90']}"
+    shown = f"at 90 % confidence · median {band['p50']}</div>"
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
     assert f"{band['p10']}-{band['p90']}" not in how_sure and "8 in 10" in how_sure
@@ -87,6 +87,6 @@ def test_the_table_of_bands_wraps_every_value_to_the_page():
     table = next(m.value for m in at.markdown if "tb-bands" in m.value)
     r = report(load_scenario(SCENARIO_DIR / "default.toml"))
     band = r["bands"]["runs_before_limit"]
-    assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
+    assert table.count("<tr>") == 1 + 6 and "<td>pulls in a row, cycle repeated</td>" in table
     assert f"<td>{band['p10']} to {band['p90']}</td>" in table
     assert f"<td>{r['plan_at_confidence']['runs_before_limit']}</td>" in table

@@ -132,3 +132,20 @@ def test_band_off_judges_the_point_answer():
     from thermo_budget.report import session_report
     point = session_report(scenario)
     assert v.fits == (point["time_to_limit_s"] is None)
+
+
+def test_the_band_stays_when_the_point_answer_is_sustainable():
+    """Rig A at 5.6 kW settles 1.5 K under its limit by the point model, yet many of its samples cross:
+    the pull count's band and the plan are there, with the share of samples that never cross."""
+    from thermo_budget.page_cards import pulls_card
+    from thermo_budget.report import report
+    scenario = _edited(load_scenario(SCENARIOS / "default.toml"), **{"session.steps[0].power": "5.6 kW"})
+    result = report(scenario)
+    assert result["sustainable"] and result["runs_before_limit"] is None
+    share = result["sustainable_share"]
+    assert 0.0 < share <= 0.95
+    band = result["bands"]["runs_before_limit"]
+    assert band is not None and band["p10"] is not None and band["p10"] > result["pulls_planned"]
+    assert result["plan_at_confidence"]["runs_before_limit"] == band["p10"]     # 90 %: the 13th of 128
+    card = pulls_card(result, "SI")
+    assert card.value == str(band["p10"]) and f"Sustainable in {100 * share:.0f} % of cases." in card.details

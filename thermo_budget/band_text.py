@@ -29,6 +29,11 @@ def pulls_phrase(result: dict) -> str:
     """'26 pulls before the limit (likely 21-34)', or the planned session's count where the cadence is
     sustainable or uncounted."""
     bands = result.get("bands") or {}
+    share = result.get("sustainable_share")
+    if result.get("sustainable") and share is not None:
+        band = bands.get("runs_before_limit") or {}
+        text = f"the cadence is sustainable in {100 * share:.0f} % of cases"
+        return text + (f"; the others cross after {band['p10']} pulls or more" if band.get("p10") is not None else "")
     key = "runs_before_limit" if result.get("runs_before_limit") is not None else "pulls_under_limit"
     band = bands.get(key)
     text = f"{result[key]} pulls" + (" before the limit" if key == "runs_before_limit" else " of the planned session under the limit")
@@ -40,7 +45,8 @@ def pulls_phrase(result: dict) -> str:
 def plan_phrase(result: dict) -> str:
     """'plan 21 pulls to stay under 80.0 °C with 90 % confidence'."""
     plan = result.get("plan_at_confidence") or {}
-    key = "runs_before_limit" if result.get("runs_before_limit") is not None else "pulls_under_limit"
+    key = ("runs_before_limit" if result.get("runs_before_limit") is not None or plan.get("runs_before_limit") is not None
+           else "pulls_under_limit")
     if plan.get(key) is None:
         return ""
     limit = f"{to_display(result['limit_C'] + 273.15, 'temperature', result['units']):.1f} " \

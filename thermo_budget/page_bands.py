@@ -87,14 +87,16 @@ def _table(answers: dict, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model": one(answers[key]) if answers[key] is not None else "n/a",
+        model = ("all day" if key == "runs_before_limit" and answers["sustainable"]
+                 else one(answers[key]) if answers[key] is not None else "n/a")
+        return {"answer": what, "model": model,
                 "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
-                                         f"{bands[key]['p10']} to {bands[key]['p90'] or 'no limit'}")),
+                                         f"{bands[key]['p10'] or 'no limit'} to {bands[key]['p90'] or 'no limit'}")),
                 c: one(plan[key]) if key in plan else ""}
-    rows = [row("pulls before the limit", "runs_before_limit", "count"),
-            row("of the planned pulls, under the limit", "pulls_under_limit", "count"),
+    rows = [row("pulls in a row, cycle repeated", "runs_before_limit", "count"),
+            row("pulls of the planned day under the limit", "pulls_under_limit", "count"),
             row("peak of the planned pulls", "peak_C", "temperature"),
             row("wait needed between pulls", "min_wait_s", "duration"),
             row("cooler for the planned pulls", "cooler_required_W_per_K", "conductance"),

@@ -68,6 +68,9 @@ def _small(answers: dict, median: str | None) -> str:
 def pulls_card(answers: dict, system: str) -> Card:
     """Pulls in a row when the cycle repeats from the start, at the chosen confidence."""
     runs, median = at_confidence(answers, "runs_before_limit")
+    band = (answers.get("bands") or {}).get("runs_before_limit")
+    if band_on(answers) and isinstance(band, dict) and median is None:
+        median = "all day"     # at least half the samples never cross
     if answers["runs_before_limit"] is None and not band_on(answers):
         runs = None
     if runs is None and (answers["sustainable"] or band_on(answers)):

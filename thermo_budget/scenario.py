@@ -6,6 +6,7 @@ raises ScenarioError naming the key path, the value and what was expected.
 from __future__ import annotations
 
 import copy
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -17,7 +18,7 @@ from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .rig_build import (body_cube_side_m, build_rig, default_body_area_m2, default_internal_area_m2,  # noqa: F401
                         limit_K)  # (build_rig re-exported: the scenario's network)
-from .session import EngineCurve, Step, shaft_power_W
+from .session import EngineCurve, Step, pump_flow_m3_s, shaft_power_W
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              read_toml_bytes, read_toml_text, with_path)
 from .uncertainty import UncertaintyModel, read_uncertainty
@@ -244,7 +245,7 @@ def _parse(raw: dict) -> Scenario:
     if repeat * len(raw_steps) > MAX_SESSION_STEPS:
         raise ScenarioError("session.repeat", repeat, f"at most {MAX_SESSION_STEPS} steps in the planned session "
                             f"(repeat x {len(raw_steps)} steps of the cycle = {repeat * len(raw_steps)})")
-    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units) for i, step in enumerate(raw_steps))
+    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units, eta_v) for i, step in enumerate(raw_steps))
     if not any(step.is_pull for step in cycle):
         raise ScenarioError("session.steps", f"{len(cycle)} steps", "at least one step of kind \"pull\"")
     s.finish()
@@ -266,7 +267,44 @@ def _parse(raw: dict) -> Scenario:
     return scenario
 
 
-def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> Step:
+OPERATING_POINT_HELP = ('pressure and flow as two keys, e.g. pressure = "150 bar" and flow = "20 L/min" (or pressure with '
+                        'the pull\'s rpm, the flow then being the pump\'s displacement x rpm x its volumetric '
+                        'efficiency), in place of power')
+
+
+def _pull_power(t, raw, displacement_m3: float, volumetric_efficiency: float) -> tuple[float, float]:
+    """(absorbed power W, rpm) of a constant pull: `power` with `rpm`, or the operating point a user
+    reads off the rig, `pressure` across pump and valve with `flow` or with `rpm`: P = dp Q, where
+    Q = D n eta_v when only rpm is given (n from Q the same way when only flow is given)."""
+    given = [key for key in ("power", "pressure", "flow") if key in raw]
+    if "power" in raw:
+        value = raw["power"]
+        if isinstance(value, str) and len(re.findall(r"\d+(?:\.\d*)?", value)) > 1 and re.search(r"[*x×]", value):
+            raise ScenarioError(t.key("power"), value, f"one quantity; for a pressure times a flow write {OPERATING_POINT_HELP}")
+        if len(given) > 1:
+            raise ScenarioError(t.key(given[1]), raw[given[1]], "either power, or pressure with flow or rpm, not both")
+        return t.quantity("power", "power", "W", above=0.0), t.number("rpm", minimum=100.0, maximum=30000.0)
+    if "pressure" not in raw:
+        if "flow" in raw:
+            raise ScenarioError(t.key("pressure"), None, f"a pressure beside the flow ({OPERATING_POINT_HELP})")
+        t.get("power")    # missing: the usual message, with its "did you mean"
+    pressure = t.quantity("pressure", "pressure", "bar", above=0.0)
+    per_rev = displacement_m3 * volumetric_efficiency / 60.0          # m^3/s per rev/min
+    if "flow" in raw:
+        flow = t.quantity("flow", "flow", "L/min", above=0.0)
+        rpm = (t.number("rpm", minimum=100.0, maximum=30000.0) if "rpm" in raw else flow / per_rev)
+        if not 100.0 <= rpm <= 30000.0:
+            raise ScenarioError(t.key("flow"), raw["flow"], f"a flow this pump gives between 100 and 30000 rpm "
+                                f"(it would take {rpm:.0f} rpm); or give the pull's rpm as well")
+    elif "rpm" in raw:
+        rpm = t.number("rpm", minimum=100.0, maximum=30000.0)
+        flow = float(pump_flow_m3_s(displacement_m3, rpm, volumetric_efficiency))
+    else:
+        raise ScenarioError(t.key("flow"), None, f"a flow or an rpm beside the pressure ({OPERATING_POINT_HELP})")
+    return pressure * flow, rpm
+
+
+def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI", volumetric_efficiency: float = 1.0) -> Step:
     t = _Table(raw, path, system=system)
     kind = t.choice("kind", ("pull", "wait"))
     duration = t.quantity("duration", "time", "s", above=0.0)
@@ -293,8 +331,8 @@ def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> S
                 raise ScenarioError(t.key(curve_key), raw[curve_key],
                                     "a curve that absorbs some power between rpm_start and rpm_end")
         else:
-            step = Step(kind="pull", duration_s=duration, engine="on",
-                        power_W=t.quantity("power", "power", "W", above=0.0), rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
+            power, rpm = _pull_power(t, raw, displacement_m3, volumetric_efficiency)
+            step = Step(kind="pull", duration_s=duration, engine="on", power_W=power, rpm=rpm)
     else:
         engine = t.choice("engine", ("off", "idle"))
         if engine == "idle":

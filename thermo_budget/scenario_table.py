@@ -100,6 +100,8 @@ KEYS = {
     "session.ready_temperature": _q("temperature", "degC", "degF", -40, 200),
     "session.steps[].duration": _q("time", "s", "s", 0.1, 86400),
     "session.steps[].power": _q("power", "W", "hp", 0, 1e6),
+    "session.steps[].pressure": _q("pressure", "bar", "psi", 0.1, 700),     # across pump and valve
+    "session.steps[].flow": _q("flow", "L/min", "gal/min", 0.05, 2000),
     "session.steps[].rpm": _n(100, 30000),
     "session.steps[].rpm_start": _n(100, 30000),
     "session.steps[].rpm_end": _n(100, 30000),

@@ -248,7 +248,8 @@ def test_ambient_meant_as_degF_is_reported_at_the_ambient():
 
 
 @pytest.mark.parametrize("change, expected", [
-    (lambda raw: raw["reservoir"].__setitem__("oil_volum", raw["reservoir"].pop("oil_volume")), 'did you mean "oil_volum"'),
+    (lambda raw: raw["reservoir"].__setitem__("oil_volum", raw["reservoir"].pop("oil_volume")),
+     'reservoir.oil_volum: got "15 L", expected the key "oil_volume" (no key "oil_volum" is known here; did you mean "oil_volume"?)'),
     (lambda raw: raw.__setitem__("pumps", raw.pop("pump")), '"pumps": a misspelling'),
     (lambda raw: raw["reservoir"].__setitem__("hieght", "0.3 m"), 'did you mean "height"'),
     (lambda raw: raw["reservoir"].__setitem__("shape", "boxx"), 'did you mean "box"'),

@@ -170,8 +170,11 @@ class _Table:
             return self.raw[name]
         if default is _MISSING:
             unread = [k for k in self.raw if k not in self.used]
-            hint = _did_you_mean(name, unread)
-            raise ScenarioError(self.key(name), None, f"a value (the key is missing{'; ' + hint.strip() if hint else ''})")
+            close = _closest(name, unread)
+            if close is not None:      # the file has a key of nearly this name: name the file's key
+                raise ScenarioError(self.key(close), self.raw[close],
+                                    f'the key "{name}" (no key "{close}" is known here; did you mean "{name}"?)')
+            raise ScenarioError(self.key(name), None, "a value (the key is missing)")
         return default
 
     def bare_unit(self, name: str, bare_unit: str) -> str:

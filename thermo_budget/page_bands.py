@@ -12,6 +12,7 @@ from . import page_format as pf
 from . import page_state as state
 from .band_text import plan_phrase, pulls_phrase
 from .page_charts import png_bytes, trace_chart_figure
+from .plots import legend_below
 from .page_format import to_shown
 from .page_sections import html_table
 from .page_state import PagePlan
@@ -29,7 +30,7 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
         high = to_shown(np.asarray(envelope["p90_C"]) + 273.15, "temperature", system)
         ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
                         label="bulk oil, likely range (P10-P90)")
-        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+        legend_below(figure, ax)
     return png_bytes(figure)
 
 

@@ -195,7 +195,7 @@ def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browse
             page.set_viewport_size({"width": width, "height": HEIGHT})
             page.wait_for_timeout(400)
             found = page.evaluate(CHECK_HEADLINE)
-            assert found["cards"] == 9 and found["verdicts"] == 1 and found["buttons"] == 4, found
+            assert found["cards"] == 9 and found["verdicts"] == 1 and found["buttons"] >= 4, found
             if found["bad"] or found["pageOverflow"] > 0:
                 failures.append((system, width, found))
             if rig in ("default", "us_20hp"):

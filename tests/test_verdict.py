@@ -149,3 +149,30 @@ def test_the_band_stays_when_the_point_answer_is_sustainable():
     assert result["plan_at_confidence"]["runs_before_limit"] == band["p10"]     # 90 %: the 13th of 128
     card = pulls_card(result, "SI")
     assert card.value == str(band["p10"]) and f"Sustainable in {100 * share:.0f} % of cases." in card.details
+
+
+def test_the_page_and_the_text_say_what_the_verdict_says(failing):
+    """The page's box and `run`'s text are drawn from the one Verdict: its word, its first pull over
+    the limit and every fix, in the order given."""
+    from thermo_budget.page_headline import verdict_html
+    from thermo_budget.verdict_text import fix_text
+    scenario, v = failing
+    box = verdict_html(v, 24, "SI", band_on=True)
+    assert 'data-fits="false"' in box and "DOES NOT FIT" in box and f"pull {v.first_pull_over_limit} of 24" in box
+    positions = [box.index(fix_text(fix, "SI").replace("'", "&#x27;")) for fix in v.fixes]
+    assert positions == sorted(positions) and len(positions) == 5
+    result = {"name": "rig", "units": "SI", "pulls_planned": 24, "verdict": v.to_json(), "uncertainty": {"samples": 128}}
+    from thermo_budget.verdict_text import summary_lines
+    lines = summary_lines(result)
+    assert lines[0].split(maxsplit=1)[1] == (f"does not fit: pull {v.first_pull_over_limit} of 24 crosses 80.0 °C "
+                                              "(the hottest you allow the oil), at 90 % confidence")
+    assert [line.strip()[2:] for line in lines[2:]] == [fix_text(fix, "SI") for fix in v.fixes]
+
+
+def test_run_prints_the_verdict_first(tmp_path):
+    import subprocess
+    import sys
+    out = subprocess.run([sys.executable, "-m", "thermo_budget", "run", str(SCENARIOS / "default.toml")],
+                         capture_output=True, text=True, timeout=300, check=True).stdout.splitlines()
+    assert out[1].strip().startswith("VERDICT          fits: 10 of 10 pulls, peak")
+    assert "at 90 % confidence" in out[1]

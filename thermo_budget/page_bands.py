@@ -116,10 +116,11 @@ def section(page: PagePlan):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
     advice = f" {answers['band_advice']}" if answers["band_advice"] else ""
-    if answers["runs_before_limit"] is not None:   # the pull-count card shows the band and the plan already
-        st.markdown(f"**How sure:** the likely range beside a figure is where 8 in 10 of the rigs the uncertainty "
-                    f"model allows fall; the plan keeps the session under the limit in "
-                    f"{100 * answers['confidence']:.0f} % of them.{advice}")
+    if answers["runs_before_limit"] is not None:   # the pull-count card shows the plan and the median already
+        st.markdown(f"**How sure:** each planning card shows the figure to plan on, which keeps the session under "
+                    f"the limit in {100 * answers['confidence']:.0f} % of the rigs the uncertainty model allows, "
+                    f"with the median in small print; the table below gives the likely range, where 8 in 10 of "
+                    f"them fall.{advice}")
     else:
         plan = plan_phrase(answers)
         st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") + advice)

@@ -154,7 +154,7 @@ def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
     again = report(load_scenario(read_toml_text(text)))
-    assert str(again["runs_before_limit"]) == headline(page)
+    assert str(again["plan_at_confidence"]["runs_before_limit"]) == headline(page)
 
 
 def test_cooler_toggle_adds_a_cooler_input(page):
@@ -181,7 +181,7 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.report import simulate, trace_csv
-    before = headline(page)
+    before = cards(page)["hottest"]["details"]      # the point model's figures
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
     assert not page.exception and not page.error
@@ -190,7 +190,8 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     assert any("heat loss scale" in c.value and " to " in c.value and "{" not in c.value for c in page.caption)
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
-    assert headline(page) == before
+    # the multipliers are 1: the model's own figures stay; the plan may move, as the log narrows the band
+    assert cards(page)["hottest"]["details"] == before and headline(page).isdigit()
 
 
 # ------------------------------------------------------------------ every figure is the package's own
@@ -265,8 +266,10 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         lines = next(m.value for m in at.markdown if m.value.startswith("Across the chart's range")).splitlines()[1:]
         assert len(lines) == len(hot.ambients_K)         # the list covers every bar of the chart
         for line, i in zip(lines, range(len(lines))):
-            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
-            assert f"{int(hot.pulls[i])} pulls" in line
+            _close(line.split(" day")[0], _in(system, "C", hot.ambients_K[i] - 273.15))
+            expected = ("all day" if hot.all_day[i] else f"more than {hot.max_pulls} pulls"
+                        if hot.pulls[i] != hot.pulls[i] else f"{int(hot.pulls[i])} pulls")
+            assert expected in line, (line, expected)
         # the schedule: each pull's bulk and return-line peak
         schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
         cells = [re.findall(r"<td>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", schedule)[1:]]
@@ -365,3 +368,19 @@ def test_a_binary_scenario_upload_is_refused(page):
     page.file_uploader(key="upload").set_value(("binary.toml", bytes(range(256)) * 8, "application/toml")).run()
     assert not page.exception
     assert any("binary.toml" in e.value for e in page.error)
+
+
+def test_the_confidence_is_one_input_and_every_planning_card_follows_it(page):
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.report import report
+    box = number_input(page, "Confidence of the plan")
+    assert box.value == pytest.approx(0.9)
+    box.set_value(0.5).run()
+    assert not page.exception and not page.error
+    answers = report(load_scenario(DEFAULT_SCENARIO).changed(**{"uncertainty.confidence": 0.5}))
+    shown = cards(page)
+    assert shown["pulls"]["value"] == str(answers["plan_at_confidence"]["runs_before_limit"])
+    for key in ("day", "pulls", "wait", "cooler", "tank"):
+        assert shown[key]["small"].startswith("at 50 % confidence"), key
+    box = next(m.value for m in page.markdown if "tb-verdict" in m.value and "data-fits" in m.value)
+    assert "at 50 % confidence" in box

@@ -15,12 +15,13 @@ from .scenario import Scenario
 
 # ------------------------------------------------------------------ widgets bound to the draft
 
-def number(box, path: str, label: str | None = None):
-    """A number input bound to one key of the scenario file, in the page's unit system."""
+def number(box, path: str, label: str | None = None, default: float = 0.0):
+    """A number input bound to one key of the scenario file, in the page's unit system (default: the
+    value shown where the file leaves the key out)."""
     system = state.system()
     field = pi.FIELDS[path]
     value = pi.field_value(state.draft(), field, system)
-    value = 0.0 if value is None else value
+    value = default if value is None else value
     digits = pi.decimals(field.quantity, system) if field.quantity else (0 if field.integer else 2)
     as_type = int if field.integer else float
     widget_key = state.key(path)
@@ -208,6 +209,8 @@ def session():
     number(ses, "session.start_temperature")
     number(ses, "ambient")
     number(ses, "losses.air_speed")
+    from .uncertainty import DEFAULT_CONFIDENCE
+    number(ses, "uncertainty.confidence", default=DEFAULT_CONFIDENCE)
 
 
 def cooler(current: Scenario):

@@ -240,7 +240,7 @@ def fix_change(scenario, fix: Fix) -> float:
         from .network import passive_rejection_W
         limit, _ = limit_K(scenario)
         passive = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0]) / (limit - scenario.ambient_K)
-        return (fix.value - scenario.cooler_W_K) / passive
+        return (fix.value - scenario.cooler_W_K) / max(passive, 1e-9)
     if fix.kind == "fewer_pulls":
         return 1.0 - fix.value / _pull_seconds(scenario).size
     return 1.0 - fix.value / _pull_seconds(scenario).max()

@@ -62,7 +62,10 @@ def summary_text(result: dict) -> str:
                   "  cooler for all-day cadence " + ("none suffices" if result["cooler_required_sustained_W_per_K"] is None
                                                       else _fmt(result["cooler_required_sustained_W_per_K"], "conductance", u, 1)),
                   "  smallest oil volume " + ("impossible" if result["min_oil_volume_L"] is None
-                                               else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2))]
+                                               else _fmt(result["min_oil_volume_L"] / 1000, "volume", u, 2)
+                                               + " of oil, in your tank's shape scaled to hold it ("
+                                               + _fmt(result["min_oil_volume_headroom_L"] / 1000, "volume", u, 2)
+                                               + " head room at the limit)")]
         if result.get("runs_stopped_by") == "return_line":
             lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
         from .band_text import summary_lines

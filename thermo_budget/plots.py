@@ -23,7 +23,7 @@ _MARGINS = {"left": 0.14, "right": 0.98, "bottom": 0.31, "top": 0.91}
 # The smallest text on a chart, pt. A chart is drawn 5.6 in wide at 90 dpi (504 px) and shown about
 # 360 px wide on a 400 px phone (x 0.71): 12.5 pt = 15.6 px drawn, 11.1 px shown, above 11 px.
 MIN_FONT_PT = 12.5
-_PAGE_FONTS = {"font.size": 13, "axes.titlesize": 13, "axes.labelsize": 13, "xtick.labelsize": MIN_FONT_PT,
+PAGE_FONTS = {"font.size": 13, "axes.titlesize": 13, "axes.labelsize": 13, "xtick.labelsize": MIN_FONT_PT,
                "ytick.labelsize": MIN_FONT_PT, "legend.fontsize": MIN_FONT_PT}
 # A label over the data: drawn above every series, on a box of the background's colour.
 _LABEL_BOX = {"boxstyle": "square,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.9}
@@ -57,7 +57,7 @@ def plot_trace(scenario, trace, system: str | None = None) -> Figure:
     """Bulk oil, return-line and tank wall temperature against time (min) for design 0, with the
     fluid limit (and the return line's, where given) as lines and each pull shaded."""
     system = system or scenario.units
-    with matplotlib.rc_context(_PAGE_FONTS):
+    with matplotlib.rc_context(PAGE_FONTS):
         return _draw_trace(scenario, trace, system)
 
 
@@ -168,7 +168,7 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     levels = _run_levels(planned, cap)
     filled = np.where(unlimited, 0.5 * (levels[-2] + levels[-1]), np.minimum(runs, cap))
 
-    with matplotlib.rc_context(_PAGE_FONTS):
+    with matplotlib.rc_context(PAGE_FONTS):
         fig = Figure(figsize=(5.6, 6.2))
         fig.subplots_adjust(left=0.15, right=0.80, bottom=0.33, top=0.93)
         ax = fig.add_subplot()
@@ -227,7 +227,7 @@ def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
     ambient = _temperatures(hot.ambients_K, system)
     capped = np.where(hot.all_day | np.isnan(hot.pulls), hot.max_pulls, hot.pulls)
     width = 0.7 * (float(np.min(np.diff(ambient))) if ambient.size > 1 else 5.0)
-    with matplotlib.rc_context(_PAGE_FONTS):
+    with matplotlib.rc_context(PAGE_FONTS):
         fig = Figure(figsize=(5.6, 4.2))
         fig.subplots_adjust(left=0.14, right=0.84, bottom=0.17, top=0.89)
         ax = fig.add_subplot()

@@ -384,3 +384,24 @@ def test_the_confidence_is_one_input_and_every_planning_card_follows_it(page):
         assert shown[key]["small"].startswith("at 50 % confidence"), key
     box = next(m.value for m in page.markdown if "tb-verdict" in m.value and "data-fits" in m.value)
     assert "at 50 % confidence" in box
+
+
+def test_a_pull_given_as_pressure_and_flow_shows_its_power_and_can_be_edited(page):
+    """7 kW = 92.59 bar x 45.36 L/min (P = dp Q); the page shows the power, and a power typed on the
+    page replaces the operating point."""
+    import tomli_w
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    raw = load_scenario(DEFAULT_SCENARIO).raw
+    pull = {k: v for k, v in raw["session"]["steps"][0].items() if k not in ("power", "rpm")}
+    raw["session"]["steps"][0] = {**pull, "pressure": f"{7000.0 / 7.56e-4 / 1e5!r} bar", "flow": "45.36 L/min"}
+    before = cards(page)
+    page.file_uploader(key="upload").set_value(("operating_point.toml", tomli_w.dumps(raw).encode(),
+                                                "application/toml")).run()
+    assert not page.exception and not page.error
+    assert cards(page)["pulls"]["value"] == before["pulls"]["value"]
+    assert number_input(page, "Pull power").value == pytest.approx(7.0)
+    assert number_input(page, "Engine speed in a pull").value == pytest.approx(3600.0)
+    number_input(page, "Pull power").set_value(8.0).run()
+    assert not page.exception and not page.error
+    step = page.session_state["draft"]["session"]["steps"][0]
+    assert "pressure" not in step and "flow" not in step and step["rpm"] == pytest.approx(3600.0)

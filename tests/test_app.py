@@ -20,7 +20,7 @@ def page():
 
 
 _CARD = re.compile(r'<div class="tb-card[^"]*" data-key="(\w+)"[^>]*>(.*?)</div></div>(?=<div class="tb-card|</div></div>$)', re.S)
-_PART = re.compile(r'<div class="tb-(label|value|unit|detail)">(.*?)</div>', re.S)
+_PART = re.compile(r'<div class="tb-(label|value|unit|small|detail)">(.*?)</div>', re.S)
 
 
 def cards(at) -> dict:
@@ -28,7 +28,7 @@ def cards(at) -> dict:
     source = next(m.value for m in at.markdown if "tb-grid" in m.value)
     found = {}
     for key, body in _CARD.findall(source.strip()):
-        card = {"label": "", "value": "", "unit": "", "details": []}
+        card = {"label": "", "value": "", "unit": "", "small": "", "details": []}
         for part, text in _PART.findall(body + "</div>"):
             if part == "detail":
                 card["details"].append(html.unescape(text))
@@ -55,8 +55,9 @@ def test_default_scenario_runs_without_exception(page):
     assert not page.exception
     assert not page.error
     shown = metrics(page)
-    for label in ("Pulls before the limit", "Hottest oil, planned session", "Time to the limit", "Wait between pulls",
-                  "Cooler for the plan", "Smallest tank", "Oil ageing today", "Head room at the limit"):
+    for label in ("Planned day: pulls that fit", "Pulls in a row, cycle repeated", "Hottest oil, planned session",
+                  "Time to the limit", "Wait between pulls", "Cooler for the plan", "Smallest oil volume",
+                  "Oil ageing today", "Head room at the limit"):
         assert label in shown
     assert headline(page).isdigit()
     assert any("The bulk limit is" in m.value for m in page.markdown)
@@ -89,8 +90,8 @@ def test_unit_switch_changes_units_not_answers(page):
     oil = number_input(page, "Oil in the tank")
     assert oil.label.endswith("(gal)")
     assert oil.value == pytest.approx(18.0 / 3.785411784, rel=1e-6)  # 1 US gal = 3.785411784 L exactly (NIST SP 811)
-    assert us["Pulls before the limit"] == si["Pulls before the limit"]
-    assert us["Smallest tank"].endswith("gal of oil") and si["Smallest tank"].endswith("L of oil")
+    assert us["Pulls in a row, cycle repeated"] == si["Pulls in a row, cycle repeated"]
+    assert us["Smallest oil volume"].endswith("gal of oil") and si["Smallest oil volume"].endswith("L of oil")
     assert number_input(page, "Hottest the oil may get").value == pytest.approx(176.0)  # 80 degC = 176 degF
     page.radio(key="system").set_value("SI").run()
     assert metrics(page) == si
@@ -153,8 +154,8 @@ def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     assert labels == ["Scenario (.toml)", "Trace (.csv)", "Temperature chart (.png)", "Design chart (.png)"]
     # AppTest cannot read a download's bytes; the page offers scenario.changed(units=...).to_toml().
     text = load_scenario(page.session_state["draft"]).changed(units="SI").to_toml()
-    again = report(load_scenario(read_toml_text(text))).to_json()
-    assert str(again["runs_before_limit"]) == headline(page)
+    again = report(load_scenario(read_toml_text(text)))
+    assert str(again.band.plan_at_confidence["runs_before_limit"]) == headline(page)
 
 
 def test_cooler_toggle_adds_a_cooler_input(page):
@@ -181,7 +182,7 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     pytest.importorskip("thermo_budget.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
     from thermo_budget.answers import simulate, trace_csv
-    before = headline(page)
+    before = cards(page)["hottest"]["details"]      # the point model's figures
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
     assert not page.exception and not page.error
@@ -190,7 +191,8 @@ def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
     assert any("heat loss scale" in c.value and " to " in c.value and "{" not in c.value for c in page.caption)
     page.toggle(key="use_calibrated").set_value(True).run()
     assert "calibrated from your log" in page.subheader[0].value
-    assert headline(page) == before
+    # the multipliers are 1: the model's own figures stay; the plan may move, as the log narrows the band
+    assert cards(page)["hottest"]["details"] == before and headline(page).isdigit()
 
 
 # ------------------------------------------------------------------ every figure is the package's own
@@ -231,16 +233,27 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         if at.session_state["system"] != system:
             at.radio(key="system").set_value(system).run()
         shown = cards(at)
-        runs = answers["runs_before_limit"]
-        assert shown["pulls"]["value"] == str(runs)
-        assert any(f"{answers['pulls_under_limit']} of {answers['pulls_planned']}" in line
-                   for line in shown["pulls"]["details"])   # after the plan at the confidence, where there is one
-        _close(shown["hottest"]["value"], _in(system, "C", answers["peak_C"]))
+        plan, bands, verdict = answers["plan_at_confidence"], answers["bands"], answers["verdict"]
+        confidence = f"at {100 * answers['confidence']:.0f} % confidence"
+        assert shown["pulls"]["value"] == str(plan["runs_before_limit"])
+        assert shown["pulls"]["small"] == f"{confidence} · median {bands['runs_before_limit']['p50']}"
+        assert shown["day"]["value"] == f"{plan['pulls_under_limit']} of {answers['pulls_planned']}"
+        # the verdict box and the cards say the same
+        box = next(m.value for m in at.markdown if "tb-verdict" in m.value and "data-fits" in m.value)
+        assert f'data-fits="{str(verdict["fits"]).lower()}"' in box
+        assert ("FITS" if verdict["fits"] else "DOES NOT FIT") in box
+        assert verdict["fits"] == (plan["pulls_under_limit"] == answers["pulls_planned"])
+        if verdict["governing_limit"] == "return_line":
+            _close(shown["hottest"]["small"].split("return line ")[1], _in(system, "C", verdict["peak_C"]))
+        else:
+            _close(shown["hottest"]["value"], _in(system, "C", verdict["peak_C"]))
+        _close(shown["hottest"]["small"].split("median ")[1], _in(system, "C", bands["peak_C"]["p50"]))
         _close(shown["hottest"]["details"][0].split(":")[1], _in(system, "C", answers["peak_return_C"]))
-        if answers["min_oil_volume_L"] is not None:
-            _close(shown["tank"]["value"], _in(system, "L", answers["min_oil_volume_L"]))
-        if answers["cooler_needed"] and answers["cooler_required_W_per_K"]:
-            _close(shown["cooler"]["value"], _in(system, "W/K", answers["cooler_required_W_per_K"]))
+        if plan["min_oil_volume_L"] is not None:
+            _close(shown["tank"]["value"], _in(system, "L", plan["min_oil_volume_L"]))
+            _close(shown["tank"]["small"].split("median ")[1], _in(system, "L", bands["min_oil_volume_L"]["p50"]))
+        if plan["cooler_required_W_per_K"]:
+            _close(shown["cooler"]["value"], _in(system, "W/K", plan["cooler_required_W_per_K"]))
         _close(shown["ageing"]["value"], answers["oil_ageing_equivalent_h"])
         _close(shown["headroom"]["value"], _in(system, "L", answers["headroom_at_limit_L"]))
         # under "More figures": the pump's flow and pressure (the flow once read 756 L/min for 45.4)
@@ -251,11 +264,13 @@ def test_every_shown_figure_is_the_report_figure(scenario_file):
         _close(pressure_text, _in(system, "bar", answers["pump"]["pressure_bar"]))
         # the hot day: each hotter ambient's pull count, as hot_day() gives it
         hot = hot_day(load_scenario(path))
-        lines = next(m.value for m in at.markdown if m.value.startswith("Hotter than today")).splitlines()[1:]
-        hotter = [i for i, a in enumerate(hot.ambients_K) if a > answers["ambient_C"] + ZERO_CELSIUS_K + 1e-9][:len(lines)]
-        for line, i in zip(lines, hotter):
-            _close(line.split(" day:")[0], _in(system, "C", hot.ambients_K[i] - ZERO_CELSIUS_K))
-            assert f"{int(hot.pulls[i])} pulls" in line
+        lines = next(m.value for m in at.markdown if m.value.startswith("Across the chart's range")).splitlines()[1:]
+        assert len(lines) == len(hot.ambients_K)         # the list covers every bar of the chart
+        for line, i in zip(lines, range(len(lines))):
+            _close(line.split(" day")[0], _in(system, "C", hot.ambients_K[i] - ZERO_CELSIUS_K))
+            expected = ("all day" if hot.all_day[i] else f"more than {hot.max_pulls} pulls"
+                        if hot.pulls[i] != hot.pulls[i] else f"{int(hot.pulls[i])} pulls")
+            assert expected in line, (line, expected)
         # the schedule: each pull's bulk and return-line peak
         schedule = next(m.value for m in at.markdown if "tb-schedule" in m.value and "<table>" in m.value)
         cells = [re.findall(r"<td>(.*?)</td>", row) for row in re.findall(r"<tr>(.*?)</tr>", schedule)[1:]]
@@ -274,27 +289,30 @@ def test_return_line_stop_is_said_in_the_headline():
     assert "(limit 185.0 °F)" in cards(at)["hottest"]["details"][0]
 
 
-def test_band_and_plan_at_confidence_are_shown_when_the_report_has_them():
-    from thermo_budget.page_cards import pulls_card
-    from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.answers import report
+def test_every_planning_card_shows_the_plan_at_the_confidence_with_the_median():
     from dataclasses import replace
-    from thermo_budget.results import Band
-    answers = report(load_scenario(DEFAULT_SCENARIO))
-    plain = pulls_card(replace(answers, band=Band(bands={}, confidence=0.9, plan_at_confidence={})), "SI")
-    assert "likely" not in plain.unit
-    runs = answers.runs_before_limit                     # the card shows the point answer
-    answers = replace(answers, band=Band(bands={"runs_before_limit": {"p10": runs - 6, "p50": runs, "p90": runs + 7},
-                                                "pulls_under_limit": {"p10": 9, "p50": 10, "p90": 10}},
-                                         confidence=0.9, plan_at_confidence={"runs_before_limit": runs - 6},
-                                         uncertainty={"samples": 128}))
-    card = pulls_card(answers, "SI")
-    assert card.value == str(runs) and card.unit == f"pulls (likely {runs - 6}–{runs + 7})"
-    assert f"Plan {runs - 6} pulls at 90 % confidence." in card.details
-    assert any("(likely 9–10)" in line for line in card.details)
-    # an unbounded upper end (more than a tenth of the samples never reach the limit)
-    answers["bands"]["runs_before_limit"] = {"p10": runs - 6, "p50": runs, "p90": None}
-    assert pulls_card(answers, "SI").unit == f"pulls (likely {runs - 6} or more)"
+    from thermo_budget.page_cards import headline_cards
+    from thermo_budget import load_scenario
+    from thermo_budget.answers import report
+    path = Path(__file__).resolve().parent.parent / "scenarios" / "us_units_fan.toml"
+    scenario = load_scenario(path)
+    answers = report(scenario)
+    shown = {card.key: card for card in headline_cards(answers, scenario.reservoir.oil_volume_m3, 150.0, "SI",
+                                                          scenario.reservoir.inner_volume_m3)}
+    plan, bands = answers.band.plan_at_confidence, answers.band.bands
+    for key in ("day", "pulls", "wait", "cooler", "tank", "hottest"):
+        assert shown[key].small.startswith("at 90 % confidence · median"), key
+    assert shown["pulls"].value == str(plan["runs_before_limit"]) != str(bands["runs_before_limit"]["p50"])
+    assert shown["day"].value == f"{plan['pulls_under_limit']} of {answers.pulls_planned}"
+    _close(shown["wait"].value.split(" min ")[0], plan["min_wait_s"] // 60)
+    _close(shown["cooler"].value, plan["cooler_required_W_per_K"])
+    _close(shown["tank"].value, plan["min_oil_volume_L"])
+    _close(shown["hottest"].value, answers.verdict.peak_C)
+    # with the band off the cards show the point answers and no small print
+    plain = replace(answers, band=replace(answers.band, uncertainty={"samples": 0}))
+    off = {card.key: card for card in headline_cards(plain, scenario.reservoir.oil_volume_m3, 150.0, "SI")}
+    assert off["pulls"].value == str(answers.runs_before_limit) and not off["pulls"].small
+    _close(off["tank"].value, answers.min_oil_volume_L)
 
 
 def test_name_edit_follows_into_the_titles_and_the_file(page):
@@ -352,3 +370,40 @@ def test_a_binary_scenario_upload_is_refused(page):
     page.file_uploader(key="upload").set_value(("binary.toml", bytes(range(256)) * 8, "application/toml")).run()
     assert not page.exception
     assert any("binary.toml" in e.value for e in page.error)
+
+
+def test_the_confidence_is_one_input_and_every_planning_card_follows_it(page):
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    from thermo_budget.report import report
+    box = number_input(page, "Confidence of the plan")
+    assert box.value == pytest.approx(0.9)
+    box.set_value(0.5).run()
+    assert not page.exception and not page.error
+    answers = report(load_scenario(DEFAULT_SCENARIO).changed(**{"uncertainty.confidence": 0.5}))
+    shown = cards(page)
+    assert shown["pulls"]["value"] == str(answers["plan_at_confidence"]["runs_before_limit"])
+    for key in ("day", "pulls", "wait", "cooler", "tank"):
+        assert shown[key]["small"].startswith("at 50 % confidence"), key
+    box = next(m.value for m in page.markdown if "tb-verdict" in m.value and "data-fits" in m.value)
+    assert "at 50 % confidence" in box
+
+
+def test_a_pull_given_as_pressure_and_flow_shows_its_power_and_can_be_edited(page):
+    """7 kW = 92.59 bar x 45.36 L/min (P = dp Q); the page shows the power, and a power typed on the
+    page replaces the operating point."""
+    import tomli_w
+    from thermo_budget import DEFAULT_SCENARIO, load_scenario
+    raw = load_scenario(DEFAULT_SCENARIO).raw
+    pull = {k: v for k, v in raw["session"]["steps"][0].items() if k not in ("power", "rpm")}
+    raw["session"]["steps"][0] = {**pull, "pressure": f"{7000.0 / 7.56e-4 / 1e5!r} bar", "flow": "45.36 L/min"}
+    before = cards(page)
+    page.file_uploader(key="upload").set_value(("operating_point.toml", tomli_w.dumps(raw).encode(),
+                                                "application/toml")).run()
+    assert not page.exception and not page.error
+    assert cards(page)["pulls"]["value"] == before["pulls"]["value"]
+    assert number_input(page, "Pull power").value == pytest.approx(7.0)
+    assert number_input(page, "Engine speed in a pull").value == pytest.approx(3600.0)
+    number_input(page, "Pull power").set_value(8.0).run()
+    assert not page.exception and not page.error
+    step = page.session_state["draft"]["session"]["steps"][0]
+    assert "pressure" not in step and "flow" not in step and step["rpm"] == pytest.approx(3600.0)

@@ -36,17 +36,23 @@ US_RIG = REPO / "scenarios" / "us_20hp_small_tank.toml"
 pytestmark = [pytest.mark.heavy,
               pytest.mark.skipif(not Path(CHROMIUM).exists(), reason=f"{CHROMIUM} is not installed")]
 
-# Every headline element: each card, and its label, value, unit and detail lines.
+# Every headline element: the verdict and its fixes, each card, and its label, value, unit and detail
+# lines; and every download button's label (a button cuts its label rather than wrap it).
 CHECK_HEADLINE = """() => {
   const bad = [];
   const cards = [...document.querySelectorAll('.tb-card')];
-  for (const el of [...cards, ...document.querySelectorAll('.tb-card > div')]) {
+  const verdict = [...document.querySelectorAll('.tb-verdict, .tb-verdict *')];
+  const buttons = [...document.querySelectorAll('[data-testid="stDownloadButton"] button, '
+                                               + '[data-testid="stDownloadButton"] button *')];
+  for (const el of [...cards, ...document.querySelectorAll('.tb-card > div'), ...verdict, ...buttons]) {
     const text = el.innerText.trim();
     if (el.scrollWidth > el.clientWidth || text.endsWith('…') || text.endsWith('...'))
       bad.push({text: text.slice(0, 60), scroll: el.scrollWidth, client: el.clientWidth});
   }
   const page = document.documentElement;
-  return {cards: cards.length, bad: bad, pageOverflow: page.scrollWidth - page.clientWidth};
+  return {cards: cards.length, verdicts: document.querySelectorAll('.tb-verdict').length,
+          buttons: document.querySelectorAll('[data-testid="stDownloadButton"] button').length,
+          bad: bad, pageOverflow: page.scrollWidth - page.clientWidth};
 }"""
 
 
@@ -119,7 +125,7 @@ def _settled(page, expected_pulls: str, unit_text: str):
         " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
         arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
     page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)
-    page.get_by_text("Hotter than today").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
+    page.get_by_text("Across the chart's range").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
     _idle(page)
 
 
@@ -153,9 +159,11 @@ def _screenshot(page, path: Path):
 
 
 def _expected_pulls(path) -> str:
+    """The pull-count card's figure: the plan at the chosen confidence."""
     from thermo_budget import load_scenario
     from thermo_budget.answers import report
-    return str(report(load_scenario(path)).to_json()["runs_before_limit"])
+    runs = report(load_scenario(path)).band.plan_at_confidence["runs_before_limit"]
+    return "All day" if runs is None else str(runs)
 
 
 def _long_values_rig(folder: Path) -> Path:
@@ -189,11 +197,14 @@ def test_headline_reads_whole_at_every_width_in_both_unit_systems(server, browse
             page.set_viewport_size({"width": width, "height": HEIGHT})
             page.wait_for_timeout(400)
             found = page.evaluate(CHECK_HEADLINE)
-            assert found["cards"] == 8
+            assert found["cards"] == 9 and found["verdicts"] == 1 and found["buttons"] >= 4, found
             if found["bad"] or found["pageOverflow"] > 0:
                 failures.append((system, width, found))
-            if (rig, system) in (("default", "SI"), ("us_20hp", "US")):
+            if rig in ("default", "us_20hp"):
                 _screenshot(page, shots / f"page_{rig}_{system}_{width}.png")
+                page.locator('[data-testid="stDownloadButton"]').first.scroll_into_view_if_needed()
+                _screenshot(page, shots / f"files_{rig}_{system}_{width}.png")
+                page.locator(".tb-verdict").first.scroll_into_view_if_needed()
         page.set_viewport_size({"width": 1366, "height": HEIGHT})
     page.close()
     assert not failures, failures

@@ -112,3 +112,9 @@ def test_too_many_rows_are_refused_with_the_cap():
     text = "time_s,oil_C\n" + "0,20\n" * (MAX_LOG_ROWS + 2)
     with pytest.raises(ScenarioError, match=str(MAX_LOG_ROWS)):
         read_log(text)
+
+
+def test_thinning_note_says_its_ordinals_in_english():
+    from thermo_budget.log_checks import ordinal
+    assert [ordinal(n) for n in (1, 2, 3, 4, 11, 12, 13, 21, 22, 23, 101, 112)] == [
+        "1st", "2nd", "3rd", "4th", "11th", "12th", "13th", "21st", "22nd", "23rd", "101st", "112th"]

@@ -75,12 +75,11 @@ def test_the_page_shows_the_band_before_and_after_a_log_fit():
 
 
 def test_the_pull_count_band_is_shown_once(default_page, default_report):
-    """The pull-count card carries the count's band and the plan; the "How sure" line below it says
-    what the range means and what to measure, without repeating them."""
+    """The pull-count card carries the plan at the confidence and the band's median; the "How sure" line
+    below it says what the range means and what to measure, without repeating them."""
     texts = [m.value for m in default_page.markdown]
     band = default_report["bands"]["runs_before_limit"]
-    # (an unbounded P90, the default's since the band's four new factors: "likely 30 or more")
-    shown = f"likely {band['p10']}–{band['p90']}" if band["p90"] is not None else f"likely {band['p10']} or more"
+    shown = f"at 90 % confidence · median {band['p50']}</div>"
     assert sum(shown in t for t in texts) == 1, [t[:80] for t in texts if shown in t]
     how_sure = next(t for t in texts if t.startswith("**How sure:**"))
     assert f"{band['p10']}-{band['p90']}" not in how_sure and f"{band['p10']} or more" not in how_sure
@@ -93,6 +92,6 @@ def test_the_table_of_bands_wraps_every_value_to_the_page(default_page, default_
     table = next(m.value for m in default_page.markdown if "tb-bands" in m.value)
     r = default_report
     band = r["bands"]["runs_before_limit"]
-    assert table.count("<tr>") == 1 + 6 and "<td>pulls before the limit</td>" in table
+    assert table.count("<tr>") == 1 + 6 and "<td>pulls in a row, cycle repeated</td>" in table
     assert f"<td>{band['p10']} to {band['p90'] or 'no limit'}</td>" in table    # None: unbounded
     assert f"<td>{r['plan_at_confidence']['runs_before_limit']}</td>" in table

@@ -60,7 +60,7 @@ def test_design_chart_marks_rig_and_draws_planned_contour(default):
     assert "(L)" in ax.get_xlabel() and "W/K" in ax.get_ylabel()
     marker = [line for line in ax.get_lines() if line.get_label() == "your rig now"][0]
     assert marker.get_xdata()[0] == pytest.approx(18.0) and marker.get_ydata()[0] == 0.0
-    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
     assert "your plan: 10 pulls" in legend
     assert "ETD" in ax.get_ylabel() and any("entering temperature difference" in t.get_text() for t in fig.texts)
     assert "pulls before" in fig.axes[1].get_ylabel()  # the colour bar
@@ -131,3 +131,49 @@ def test_band_edges_are_inked_to_read_on_their_band():
     cmap = matplotlib.colormaps["YlGnBu"]
     assert _ink_on(cmap(1.0)) == "w"
     assert _ink_on(cmap(0.0)) == "k"
+
+
+def _text_boxes(fig):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw(renderer)
+    from matplotlib.text import Text
+    return renderer, [t for t in fig.findobj(Text) if t.get_visible() and t.get_text().strip()]
+
+
+def test_charts_are_readable_on_a_phone(default):
+    """Every text at least 11 px when the chart is shown 360 px wide (a 400 px phone), the legend off
+    the axes (so off every curve), the limit's label above every series, and every contour label
+    wholly inside the axes."""
+    from thermo_budget.page_charts import CHART_DPI
+    from thermo_budget.report import simulate
+    shown_scale = 360.0 / (5.6 * CHART_DPI)
+    for fig in (plot_trace(default, simulate(default)), plot_design_chart(default, _fake_sweep())):
+        renderer, texts = _text_boxes(fig)
+        for text in texts:
+            assert text.get_fontsize() * CHART_DPI / 72.0 * shown_scale >= 11.0, text.get_text()
+        ax = fig.axes[0]
+        assert ax.get_legend() is None and fig.legends      # the legend is the figure's, under the axes
+        legend_box = fig.legends[0].get_window_extent(renderer)
+        assert legend_box.y1 <= ax.get_window_extent(renderer).y0
+        for text in ax.texts:
+            box, frame = text.get_window_extent(renderer), ax.get_window_extent(renderer)
+            assert frame.x0 <= box.x0 and box.x1 <= frame.x1 + 1 and frame.y0 <= box.y0 and box.y1 <= frame.y1 + 1, \
+                text.get_text()
+    fig = plot_trace(default, simulate(default))
+    limit_label = next(t for t in fig.axes[0].texts if t.get_text().startswith("limit"))
+    assert limit_label.get_zorder() > max(line.get_zorder() for line in fig.axes[0].get_lines())
+    assert limit_label.get_bbox_patch() is not None                              # on a box of its own
+
+
+def test_trace_chart_swatches_are_all_different(default):
+    """No two series of the temperature chart share a swatch (colour and style)."""
+    from matplotlib.colors import to_hex
+    from thermo_budget.report import simulate
+    fig = plot_trace(default, simulate(default))
+    swatches = []
+    for handle in fig.legends[0].legend_handles:
+        colour = handle.get_color() if hasattr(handle, "get_linestyle") and not hasattr(handle, "get_facecolor") \
+            else handle.get_facecolor()
+        swatches.append((to_hex(colour), getattr(handle, "get_linestyle", lambda: "patch")()))
+    assert len(set(swatches)) == len(swatches), swatches

@@ -249,7 +249,8 @@ def test_ambient_meant_as_degF_is_reported_at_the_ambient():
 
 
 @pytest.mark.parametrize("change, expected", [
-    (lambda raw: raw["reservoir"].__setitem__("oil_volum", raw["reservoir"].pop("oil_volume")), 'did you mean "oil_volum"'),
+    (lambda raw: raw["reservoir"].__setitem__("oil_volum", raw["reservoir"].pop("oil_volume")),
+     'reservoir.oil_volum: got "15 L", expected the key "oil_volume" (no key "oil_volum" is known here; did you mean "oil_volume"?)'),
     (lambda raw: raw.__setitem__("pumps", raw.pop("pump")), '"pumps": a misspelling'),
     (lambda raw: raw["reservoir"].__setitem__("hieght", "0.3 m"), 'did you mean "height"'),
     (lambda raw: raw["reservoir"].__setitem__("shape", "boxx"), 'did you mean "box"'),
@@ -328,3 +329,57 @@ def test_air_and_mounting_keys_are_read():
     raw["hardware"].update(engine_off_coupling="3 W/K")
     assert load_scenario(raw).hardware.engine_off_coupling_W_K == 3.0
     assert load_scenario(base_raw()).hardware.engine_off_coupling_W_K == 0.0     # apart: hoses only
+
+
+# --- a pull given by its operating point: pressure with flow, or pressure with rpm -------------------
+
+def _pull_as(**keys):
+    from thermo_budget import DEFAULT_SCENARIO
+    raw = load_scenario(DEFAULT_SCENARIO).raw
+    pull = {k: v for k, v in raw["session"]["steps"][0].items() if k not in ("power", "rpm")}
+    raw["session"]["steps"][0] = {**pull, **keys}
+    return load_scenario(raw)
+
+
+def _same_numbers(a, b, path=""):
+    """Every number of two reports equal to a relative 1e-9 (strings and flags exactly)."""
+    if isinstance(a, dict):
+        assert a.keys() == b.keys(), path
+        for key in a:
+            _same_numbers(a[key], b[key], f"{path}.{key}")
+    elif isinstance(a, list):
+        assert len(a) == len(b), path
+        for i, (x, y) in enumerate(zip(a, b)):
+            _same_numbers(x, y, f"{path}[{i}]")
+    elif isinstance(a, float):
+        assert b == pytest.approx(a, rel=1e-9, abs=1e-9), path
+    else:
+        assert a == b, path
+
+
+def test_a_pull_given_as_pressure_times_flow_gives_the_same_answers_as_given_as_power():
+    """7 kW at 3600 rpm on the default pump (14 cm^3/rev, eta_v 0.90): Q = 14e-6 x 3600 / 60 x 0.90
+    = 7.56e-4 m^3/s = 45.36 L/min, dp = P / Q = 7000 / 7.56e-4 Pa = 92.592... bar (P = dp Q)."""
+    from thermo_budget.answers import report
+    as_power = _pull_as(power="7 kW", rpm=3600)
+    dp_bar = 7000.0 / 7.56e-4 / 1e5
+    as_flow = _pull_as(pressure=f"{dp_bar!r} bar", flow="45.36 L/min", rpm=3600)
+    as_rpm = _pull_as(pressure=f"{dp_bar!r} bar", rpm=3600)
+    as_flow_alone = _pull_as(pressure=f"{dp_bar!r} bar", flow="45.36 L/min")     # rpm from the flow
+    for other in (as_flow, as_rpm, as_flow_alone):
+        step = other.cycle[0]
+        assert step.power_W == pytest.approx(7000.0, rel=1e-12) and step.rpm == pytest.approx(3600.0, rel=1e-12)
+    _same_numbers(report(as_power).to_json(), report(as_flow).to_json())
+
+
+@pytest.mark.parametrize("keys, message", [
+    ({"power": "150 bar * 20 L/min", "rpm": 3600}, 'pressure = "150 bar" and flow = "20 L/min"'),
+    ({"power": "7 kW", "pressure": "150 bar", "rpm": 3600}, "either power, or pressure with flow or rpm"),
+    ({"pressure": "150 bar"}, "a flow or an rpm beside the pressure"),
+    ({"flow": "20 L/min", "rpm": 3600}, "a pressure beside the flow"),
+    ({"pressure": "150 bar", "flow": "2000 L/min"}, "between 100 and 30000 rpm"),
+])
+def test_an_operating_point_that_cannot_be_read_is_refused_with_what_to_write(keys, message):
+    with pytest.raises(ScenarioError) as error:
+        _pull_as(**keys)
+    assert message in str(error.value) and "session.steps[0]" in str(error.value)

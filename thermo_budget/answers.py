@@ -221,6 +221,8 @@ def report(scenario: Scenario, trace: Trace | None = None) -> Report:
     ranking = result["band_ranking"]
     result["band_advice"] = advice_sentence(ranking, ranking[0]["of"]) if ranking else ""
     _caution_beyond_range(scenario, trace, result)
+    from .verdict import verdict
+    result["verdict"] = verdict(scenario, result).to_json()
     check_finite(result)
     return Report.from_json(result)
 

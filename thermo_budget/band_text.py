@@ -32,9 +32,14 @@ def _range(band, kind, scale, digits, system) -> str:
 
 def pulls_phrase(result: Report) -> str:
     """'26 pulls before the limit (likely 21-34)' ('likely 21 or more' where more than a tenth of the
-    samples never reach the limit), or the planned session's count where the cadence is sustainable
-    or uncounted."""
+    samples never reach the limit), 'the cadence is sustainable in 58 % of cases' where it is by the
+    model, or the planned session's count where the cadence is uncounted."""
     bands = result.band.bands or {}
+    share = result.band.sustainable_share
+    if result.sustainable and share is not None:
+        band = bands.get("runs_before_limit") or {}
+        text = f"the cadence is sustainable in {100 * share:.0f} % of cases"
+        return text + (f"; the others cross after {band['p10']} pulls or more" if band.get("p10") is not None else "")
     key = "runs_before_limit" if result.runs_before_limit is not None else "pulls_under_limit"
     band = bands.get(key)
     text = f"{getattr(result, key)} pulls" + (" before the limit" if key == "runs_before_limit" else " of the planned session under the limit")
@@ -48,7 +53,8 @@ def pulls_phrase(result: Report) -> str:
 def plan_phrase(result: Report) -> str:
     """'plan 21 pulls to stay under 80.0 °C with 90 % confidence'."""
     plan = result.band.plan_at_confidence or {}
-    key = "runs_before_limit" if result.runs_before_limit is not None else "pulls_under_limit"
+    key = ("runs_before_limit" if result.runs_before_limit is not None or plan.get("runs_before_limit") is not None
+           else "pulls_under_limit")
     if plan.get(key) is None:
         return ""
     limit = f"{to_display(result.limit_C + ZERO_CELSIUS_K, 'temperature', result.units):.1f} " \

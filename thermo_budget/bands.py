@@ -42,6 +42,7 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
     if not model.spreads:
         bands = {key: _collapsed(point.get(key)) for key in BAND_KEYS}
         return {"bands": bands, "confidence": model.confidence, "plan_at_confidence": _plan_of_point(point),
+                "sustainable_share": None,
                 "band_ranking": [], "band_envelope": None,
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
@@ -55,6 +56,7 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
         row["of"] = of_what
     return {"bands": bands, "confidence": model.confidence,
             "plan_at_confidence": plan_at_confidence(samples, point, model.confidence),
+            "sustainable_share": samples.get("sustainable_share"),
             "band_ranking": ranking,
             "band_envelope": samples["envelope"],
             "uncertainty": {"enabled": True, "samples": n_samples, "sizing_samples": n_sizing,
@@ -78,6 +80,9 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
         out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,
                                                                          int(point["runs_before_limit"]),
                                                                          model.confidence)
+    elif point.get("sustainable"):
+        out["runs_before_limit"], out["sustainable_share"] = _sample_runs_of_sustainable(scenario, rig, n_samples, session,
+                                                                                         model.confidence)
     oil = session.T_K[:, :, OIL] - ZERO_CELSIUS_K
     out["envelope"] = {"time_s": np.round(session.time_s[:, 0], 2).tolist(),
                        "p10_C": np.round(np.quantile(oil, 0.1, axis=1), 3).tolist(),
@@ -119,6 +124,25 @@ def _sample_runs(scenario, rig, n: int, session, point_runs: int, confidence: fl
     if not uncounted.all():
         counted_to = min(counted_to, int(np.nanmax(runs)))   # every uncounted sample lasts at least this
     return np.where(uncounted, np.inf, runs), np.where(uncounted, counted_to + 1, runs)
+
+
+def _sample_runs_of_sustainable(scenario, rig, n: int, session, confidence: float = 0.9):
+    """Pulls before the limit per sample where the point answer is a cadence that never crosses: each
+    sample's own cadence checked (planning.sustainability), the others counted until they cross (up to
+    MAX_PULLS), but only as far as the quantiles need: the k earliest to cross, k the largest rank of
+    P10, P50, P90 or the plan that a crossing sample can fill (the later ranks are sustainable samples,
+    inf whatever the counts). Returns (runs (n,), inf where sustainable or uncounted; the share of
+    sustainable samples)."""
+    never, _ = sustainability(scenario, rig, n)
+    runs = np.full(n, np.inf)
+    index = np.flatnonzero(~never)
+    ranks = [max(int(np.ceil(q * n)) - 1, 0) for q in (0.1, 0.5, 0.9)] + [int(np.floor((1.0 - confidence) * n))]
+    enough = max((r + 1 for r in ranks if r < index.size), default=0)
+    if enough:
+        counted = runs_before_limit(scenario, take_designs(rig, index), index.size, np.zeros(index.size, bool),
+                                    session=session.designs(index), enough=enough)
+        runs[index] = np.where(np.isnan(counted), np.inf, counted)
+    return runs, round(float(np.mean(never)), 4)
 
 
 # --- the sizing answers, per sample ------------------------------------------------------------------
@@ -276,7 +300,9 @@ def order_statistic(values: np.ndarray, q: float):
 
 
 def _band(key: str, values, point_value) -> dict | None:
-    if point_value is None or values is None:
+    """P10, P50 and P90 of an answer over the samples; a count's band also where the point answer is a
+    cadence that never crosses (its samples were counted all the same)."""
+    if values is None or (point_value is None and key not in COUNT_KEYS):
         return None
     if key in COUNT_KEYS:
         q = [order_statistic(values, p) for p in (0.1, 0.5, 0.9)]
@@ -296,7 +322,7 @@ def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
     plan = {}
     for key in COUNT_KEYS:
         values = samples.get(key)
-        if point.get(key) is None or values is None:
+        if values is None:
             plan[key] = None
             continue
         ordered = np.sort(values)

@@ -36,7 +36,8 @@ def _temp(celsius, system):
 def summary_text(result: Report) -> str:
     """A short readable summary of a report, in the scenario's units."""
     u = result.units
-    lines = [f"{result.name or 'scenario'}",
+    from .verdict_text import summary_lines as verdict_lines
+    lines = [f"{result.name or 'scenario'}", *verdict_lines(result),
              f"  fluid limit      {_temp(result.limit_C, u)} (set by {result.limit_reason.replace('_', ' ')})",
              f"  pulls under limit {result.pulls_under_limit} of {result.pulls_planned} planned",
              f"  bulk oil         start {_temp(result.start_C, u)}, peak {_temp(result.peak_C, u)}, "
@@ -67,7 +68,10 @@ def summary_text(result: Report) -> str:
               "  cooler for all-day cadence " + ("none suffices" if result.cooler_required_sustained_W_per_K is None
                                                   else _fmt(result.cooler_required_sustained_W_per_K, "conductance", u, 1)),
               "  smallest oil volume " + ("impossible" if result.min_oil_volume_L is None
-                                           else _fmt(result.min_oil_volume_L / 1000, "volume", u, 2))]
+                                           else _fmt(result.min_oil_volume_L / 1000, "volume", u, 2)
+                                           + " of oil, in your tank's shape scaled to hold it ("
+                                           + _fmt(result.min_oil_volume_headroom_L / 1000, "volume", u, 2)
+                                           + " head room at the limit)")]
     if result.runs_stopped_by == "return_line":
         lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
     from .band_text import summary_lines

@@ -1,6 +1,7 @@
 """The figure of a fit: measured against fitted temperature, and the residuals below."""
 from __future__ import annotations
 
+import matplotlib
 import numpy as np
 from matplotlib.figure import Figure
 
@@ -12,6 +13,12 @@ def plot_fit(result, system: str | None = None) -> Figure:
     residuals (measured minus fitted) with the RMS band. system: "SI" or "US" (default: the
     scenario's units). Returns a matplotlib Figure (no pyplot state)."""
     system = system or result.units
+    from .plots import MIN_FONT_PT, PAGE_FONTS
+    with matplotlib.rc_context(PAGE_FONTS):
+        return _draw_fit(result, system, MIN_FONT_PT)
+
+
+def _draw_fit(result, system: str, min_font_pt: float) -> Figure:
     def to_temperature(T_K):
         return to_display(np.asarray(T_K, dtype=float), "temperature", system)
 
@@ -22,7 +29,8 @@ def plot_fit(result, system: str | None = None) -> Figure:
     t_label, d_label = unit_label("temperature", system), unit_label("temperature_difference", system)
     sensor = "bulk oil (tank)" if result.sensor == "bulk" else "return-line oil"
 
-    figure = Figure(figsize=(8.0, 5.6), layout="constrained")
+    # 5.6 in wide like the page's other charts, so that its text reads at 11 px or more on a phone
+    figure = Figure(figsize=(5.6, 6.0), layout="constrained")
     top, bottom = figure.subplots(2, 1, sharex=True, height_ratios=(3, 1.3))
     top.plot(t_min, to_temperature(result.measured_K), ".", ms=3, color="0.35", label="measured")
     top.plot(t_min, to_temperature(result.uncalibrated_K), "--", lw=1.0, color="tab:orange",
@@ -30,9 +38,9 @@ def plot_fit(result, system: str | None = None) -> Figure:
     top.plot(t_min, to_temperature(result.fitted_K), "-", lw=1.6, color="tab:blue",
              label=f"fitted (RMS {delta(result.rms_K):.2f} {d_label})")
     top.set_ylabel(f"{sensor}, {t_label}")
-    top.set_title(f"convection × {result.convection_multiplier:.3f}, capacity × {result.capacity_multiplier:.3f}, "
-                  f"{result.n_points} points", fontsize=10)
-    top.legend(loc="best", fontsize=8)
+    top.set_title(f"convection × {result.convection_multiplier:.3f}, capacity × {result.capacity_multiplier:.3f},\n"
+                  f"{result.n_points} points", fontsize=min_font_pt, loc="left")
+    figure.legend(loc="outside lower center", ncol=1, frameon=False, fontsize=min_font_pt)   # off the data
     top.grid(alpha=0.3)
 
     residual = delta(np.asarray(result.measured_K) - np.asarray(result.fitted_K))

@@ -34,7 +34,9 @@ def summary_text(result: FitResult) -> str:
               f"uncalibrated {diff(result.rms_uncalibrated_K)}",
               f"  sensor noise (est.)   {diff(result.noise_K)} from successive differences",
               f"  ambient               {format_temperature(result.ambient_C + ZERO_CELSIUS_K, u)} ({result.ambient_source})",
-              f"  cooling time constant {result.time_constant_s / 60:.0f} min"]
+              f"  cooling time constant {result.time_constant_s / 60:.0f} min (the fitted rig's heat capacity over its "
+              f"heat loss to the air per kelvin, at the log's hottest oil, engine off, no cooler: the time the "
+              f"oil takes to cool 63 % of the way to ambient)"]
     if result.correlation is not None:
         lines.append(f"  correlation of the two multipliers {result.correlation:+.3f}")
     lines += [f"  warning: {w}" for w in result.warnings]

@@ -22,6 +22,13 @@ OTHER_UNIT_MATCH_K = 5.0       # ... and read in another unit it would be this c
 _UNIT_NAMES = {"C": ("degC", "°C"), "F": ("degF", "°F"), "K": ("K", "K")}
 
 
+def ordinal(n: int) -> str:
+    """'2nd', '3rd', '11th', '21st'."""
+    n = int(n)
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{suffix}"
+
+
 def thin_for_fit(log: MeasuredLog, max_readings: int = MAX_FIT_READINGS) -> MeasuredLog:
     """The log with at most about max_readings rows: every k-th reading, the last one, and every
     row at which the heat input (pull marker, or power_W by more than POWER_CHANGE_FRACTION of its
@@ -53,7 +60,7 @@ def thin_for_fit(log: MeasuredLog, max_readings: int = MAX_FIT_READINGS) -> Meas
         return np.where(seconds > 0, total / np.where(seconds > 0, seconds, 1.0), values[index])
     power = None if log.power_W is None else time_mean(np.asarray(log.power_W, dtype=float))
     pull = None if log.pull is None else time_mean(log.pull.astype(float)) >= 0.5
-    note = (f"the log's {m} readings were thinned to {index.size} for the fit (every {step}th reading and every "
+    note = (f"the log's {m} readings were thinned to {index.size} for the fit (every {ordinal(step)} reading and every "
             f"row where the heat input changes; the heat input between them is the time-weighted mean)")
     return replace(log, time_s=log.time_s[index], oil_K=log.oil_K[index],
                    ambient_K=None if log.ambient_K is None else log.ambient_K[index],

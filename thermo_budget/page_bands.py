@@ -69,14 +69,16 @@ def _table(answers: Report, system: str) -> list[dict]:
             if quantity == "temperature":
                 return pf.shown_celsius(v, system)
             return pf.shown(v * scale, quantity, system)
-        return {"answer": what, "model": one(getattr(answers, key)) if getattr(answers, key) is not None else "n/a",
+        model = ("all day" if key == "runs_before_limit" and answers.sustainable
+                 else one(getattr(answers, key)) if getattr(answers, key) is not None else "n/a")
+        return {"answer": what, "model": model,
                 "likely": (_likely(bands[key], quantity, system, scale) if quantity != "count" else
                                         ("n/a" if bands[key] is None else
                                          "—" if bands[key]["p10"] == bands[key]["p90"] else
-                                         f"{bands[key]['p10']} to {bands[key]['p90'] or 'no limit'}")),
+                                         f"{bands[key]['p10'] or 'no limit'} to {bands[key]['p90'] or 'no limit'}")),
                 c: one(plan[key]) if key in plan else ""}
-    rows = [row("pulls before the limit", "runs_before_limit", "count"),
-            row("of the planned pulls, under the limit", "pulls_under_limit", "count"),
+    rows = [row("pulls in a row, cycle repeated", "runs_before_limit", "count"),
+            row("pulls of the planned day under the limit", "pulls_under_limit", "count"),
             row("peak of the planned pulls", "peak_C", "temperature"),
             row("wait needed between pulls", "min_wait_s", "duration"),
             row("cooler for the planned pulls", "cooler_required_W_per_K", "conductance"),
@@ -93,10 +95,11 @@ def section(page: PagePlan):
         st.caption("The likely range is off for this scenario ([uncertainty] enabled = false, or every width 0).")
         return
     advice = f" {answers.band.advice}" if answers.band.advice else ""
-    if answers.runs_before_limit is not None:   # the pull-count card shows the band and the plan already
-        st.markdown(f"**How sure:** the likely range beside a figure is where 8 in 10 of the rigs the uncertainty "
-                    f"model allows fall; the plan keeps the session under the limit in "
-                    f"{100 * answers.band.confidence:.0f} % of them.{advice}")
+    if answers.runs_before_limit is not None:   # the pull-count card shows the plan and the median already
+        st.markdown(f"**How sure:** each planning card shows the figure to plan on, which keeps the session under "
+                    f"the limit in {100 * answers.band.confidence:.0f} % of the rigs the uncertainty model allows, "
+                    f"with the median in small print; the table below gives the likely range, where 8 in 10 of "
+                    f"them fall.{advice}")
     else:
         plan = plan_phrase(answers)
         st.markdown(f"**How sure:** {pulls_phrase(answers)}" + (f"; {plan}." if plan else ".") + advice)

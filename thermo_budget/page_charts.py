@@ -10,7 +10,7 @@ import numpy as np
 
 from .display import to_shown
 from .design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
-from .plots import plot_design_chart, plot_hot_day, plot_trace
+from .plots import legend_below, plot_design_chart, plot_hot_day, plot_trace
 from .results import Report
 from .answers import simulate
 from .scenario import load_scenario, read_toml_text
@@ -77,5 +77,5 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
         high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
         ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
                         label="bulk oil, likely range (P10-P90)")
-        ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+        legend_below(figure, ax)
     return png_bytes(figure)

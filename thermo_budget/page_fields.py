@@ -96,6 +96,10 @@ FIELDS = {f.path: f for f in [
           "temperature", "degC", minimum=None),
     Field("session.repeat", "Pulls planned", "How many times the pull and its wait are repeated.",
           minimum=1, maximum=10000, integer=True),
+    Field("uncertainty.confidence", "Confidence of the plan",
+          "The share of the rigs the uncertainty model allows that the plan must keep under the limit, "
+          "0.5 to 0.999: 0.9 plans for 9 in 10. The verdict and every planning card use it.",
+          minimum=0.5, maximum=0.999),
 ]}
 
 
@@ -130,7 +134,7 @@ STEPS = {"oil_volume": {"SI": 1.0, "US": 0.25}, "dimension": {"SI": 0.01, "US": 
          "power": {"SI": 0.5, "US": 1.0}, "idle_power": {"SI": 10.0, "US": 0.01},
          "torque": {"SI": 1.0, "US": 1.0}, "pull_time": {"SI": 1.0, "US": 1.0}, "wait_time": {"SI": 0.5, "US": 0.5}}
 PLAIN_STEPS = {"reservoir.emissivity": 0.05, "hardware.emissivity": 0.05, "pump.volumetric_efficiency": 0.01,
-               "fluid.viscosity_index": 1.0, "session.repeat": 1}
+               "fluid.viscosity_index": 1.0, "session.repeat": 1, "uncertainty.confidence": 0.05}
 
 
 def step_of(field: Field, system: str):

@@ -28,6 +28,7 @@ CARD_CSS = """
 .tb-value { font-size: 1.55rem; font-weight: 600; line-height: 1.15; margin-top: 0.15rem; }
 .tb-main .tb-value { font-size: 2.3rem; }
 .tb-unit { font-size: 0.9rem; line-height: 1.25; }
+.tb-small { font-size: 0.78rem; color: rgba(49, 51, 63, 0.75); line-height: 1.25; margin-top: 0.1rem; }
 .tb-detail { font-size: 0.8rem; color: rgba(49, 51, 63, 0.75); line-height: 1.3; margin-top: 0.25rem; }
 </style>
 """
@@ -39,7 +40,43 @@ def card_html(card: Card) -> str:
              f'<div class="tb-label">{e(card.label)}</div>', f'<div class="tb-value">{e(card.value)}</div>']
     if card.unit:
         parts.append(f'<div class="tb-unit">{e(card.unit)}</div>')
+    if card.small:
+        parts.append(f'<div class="tb-small">{e(card.small)}</div>')
     parts += [f'<div class="tb-detail">{e(line)}</div>' for line in card.details]
+    return "".join(parts) + "</div>"
+
+
+VERDICT_CSS = """
+<style>
+.tb-verdict { border: 2px solid; border-radius: 0.5rem; padding: 0.6rem 0.8rem; margin-bottom: 0.8rem;
+              overflow-wrap: anywhere; line-height: 1.4; }
+.tb-verdict.tb-fits { border-color: #1a7f37; background: rgba(26, 127, 55, 0.08); }
+.tb-verdict.tb-fails { border-color: #b42318; background: rgba(180, 35, 24, 0.07); }
+.tb-word { display: inline-block; font-weight: 700; color: #fff; border-radius: 0.3rem; padding: 0.05rem 0.45rem;
+           margin-right: 0.4rem; letter-spacing: 0.03em; }
+.tb-fits .tb-word { background: #1a7f37; }
+.tb-fails .tb-word { background: #b42318; }
+.tb-clause { font-size: 1.05rem; }
+.tb-fixes-title { margin-top: 0.4rem; font-size: 0.9rem; }
+.tb-fixes { margin: 0.2rem 0 0 1.2rem; padding: 0; font-size: 0.95rem; }
+</style>
+"""
+
+
+def verdict_html(verdict, pulls_planned: int, system: str, band_on: bool) -> str:
+    """The verdict as a coloured box with its word (never the colour alone) and the fixes."""
+    from .verdict_text import FIXES_TITLE, NO_FIX, WORDS, clause, fix_lines
+    e = html.escape
+    kind = "tb-fits" if verdict.fits else "tb-fails"
+    parts = [VERDICT_CSS, f'<div class="tb-verdict {kind}" data-fits="{str(verdict.fits).lower()}">',
+             f'<span class="tb-word">{WORDS[verdict.fits]}</span>',
+             f'<span class="tb-clause">{e(clause(verdict, pulls_planned, system, band_on))}</span>']
+    fixes = fix_lines(verdict, system)
+    if fixes:
+        parts.append(f'<div class="tb-fixes-title">{e(FIXES_TITLE[0].upper() + FIXES_TITLE[1:])}:</div>')
+        parts.append('<ol class="tb-fixes">' + "".join(f"<li>{e(line)}</li>" for line in fixes) + "</ol>")
+    elif not verdict.fits:
+        parts.append(f'<div class="tb-fixes-title">{e(NO_FIX[0].upper() + NO_FIX[1:])}.</div>')
     return "".join(parts) + "</div>"
 
 
@@ -54,10 +91,15 @@ def section(page: PagePlan):
     if state.name_is_stale():
         st.caption("✏️ The rig has changed since it was given this name: rename it under \"Rig name\" in the "
                    "sidebar, so the titles and the saved file say what it is now.")
+    if answers.verdict is not None:
+        from .page_cards import band_on
+        st.markdown(verdict_html(answers.verdict, answers.pulls_planned, system, band_on(answers)),
+                    unsafe_allow_html=True)
     for caution in answers.cautions:
         st.error("⚠️ " + pi.note_in(caution, system))
     view = pi.session_view(planned.raw)
-    st.markdown(cards_html(headline_cards(answers, planned.reservoir.oil_volume_m3, view.wait_s, system)),
+    st.markdown(cards_html(headline_cards(answers, planned.reservoir.oil_volume_m3, view.wait_s, system,
+                                                planned.reservoir.inner_volume_m3)),
                 unsafe_allow_html=True)
 
     limit_text = pi.shown_celsius(answers.limit_C, system)

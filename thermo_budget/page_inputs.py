@@ -171,7 +171,9 @@ def with_pull(raw: dict, system: str, pull_s: float | None = None, power: float 
             continue
         if pull_s is not None:
             step["duration"] = f"{pull_s:.6g} s"
-        if power is not None:
+        if power is not None:     # the power typed on the page replaces an operating point given in the file
+            step.pop("pressure", None)
+            step.pop("flow", None)
             step["power"] = quantity_text(power, "power", system)
         if rpm is not None:
             step["rpm"] = float(rpm)

@@ -114,7 +114,8 @@ def schedule(page: PagePlan):
 def files(page: PagePlan, slots: Slots):
     system = page.system
     st.markdown("**Files**")
-    d1, d2, d3, d4 = st.columns(4)
+    d1, d2 = st.columns(2)      # two a row: each label reads whole at 1024 px with the sidebar open
+    d3, d4 = st.columns(2)
     d1.download_button("Scenario (.toml)", page.scenario.changed(units=system).to_toml(), file_name="scenario.toml",
                        mime="application/toml", help="Open it again here or run it from the command line.")
     d2.download_button("Trace (.csv)", pi.trace_csv_shown(state.trace_for(page.toml_text), system),
@@ -181,15 +182,14 @@ def _draw_hot_day(page: PagePlan, place):
                  "Bars: pulls before the limit; line: the cooler the planned session needs.")
     sentences = []
     for ambient, pulls, all_day, cooler in zip(hot.ambients_K, hot.pulls, hot.all_day, hot.cooler_W_per_K):
-        if ambient <= page.scenario.ambient_K + 1e-9:
-            continue
         count = ("all day" if all_day else f"more than {hot.max_pulls} pulls" if pulls != pulls
                  else f"{int(pulls)} pulls")
         need = ("no cooler" if cooler == 0 else "no cooler can do it" if cooler != cooler
                 else f"a {pi.shown(cooler, 'conductance', system)} cooler")
-        sentences.append(f"on a {pi.shown(ambient, 'temperature', system, 0)} day: {count}, {need}")
-    if sentences:
-        left.markdown("Hotter than today:\n" + "\n".join(f"- {s}" for s in sentences[:4]))
+        today = " (about today)" if abs(ambient - page.scenario.ambient_K) < 1e-6 else ""
+        sentences.append(f"on a {pi.shown(ambient, 'temperature', system, 0)} day{today}: {count}, {need}")
+    if sentences:     # every bar of the chart, coldest first
+        left.markdown("Across the chart's range:\n" + "\n".join(f"- {s}" for s in sentences))
     right.image(image, width="stretch")
 
 

@@ -15,12 +15,13 @@ from .scenario import Scenario
 
 # ------------------------------------------------------------------ widgets bound to the draft
 
-def number(box, path: str, label: str | None = None):
-    """A number input bound to one key of the scenario file, in the page's unit system."""
+def number(box, path: str, label: str | None = None, default: float = 0.0):
+    """A number input bound to one key of the scenario file, in the page's unit system (default: the
+    value shown where the file leaves the key out)."""
     system = state.system()
     field = pi.FIELDS[path]
     value = pi.field_value(state.draft(), field, system)
-    value = 0.0 if value is None else value
+    value = default if value is None else value
     digits = pi.decimals(field.quantity, system) if field.quantity else (0 if field.integer else 2)
     as_type = int if field.integer else float
     widget_key = state.key(path)
@@ -158,10 +159,14 @@ def _curve_editor(ses, view: pi.SessionView, system: str):
                                       rpm_start, rpm_end))
 
 
-def session():
+def session(current: Scenario):
     system = state.system()
     ses = st.sidebar.expander("Test session", expanded=True)
     view = pi.session_view(state.draft())
+    # a pull the file gives as pressure with flow or rpm: shown (and kept, once edited) as power at its rpm
+    given = next((step for step in current.cycle if step.is_pull and step.curve is None), None)
+    power_W = view.power_W if view.power_W is not None or given is None else given.power_W
+    rpm = view.rpm if view.rpm is not None or given is None else given.rpm
     several = view.pulls_per_cycle > 1 or view.waits_per_cycle > 1
     number(ses, "session.repeat", "Pulls planned" if view.pulls_per_cycle == 1 else "Cycles planned")
     if several:
@@ -186,10 +191,10 @@ def session():
     if view.uses_curve:
         _curve_editor(ses, view, system)
     else:
-        session_number(ses, "Pull power", "power", view.power_W or 0.0,
+        session_number(ses, "Pull power", "power", power_W or 0.0,
                        "Power the brake absorbs during a pull; all of it ends up as heat in the oil.", "power",
-                       lambda raw, v: pi.with_pull(raw, system, power=v))
-        session_number(ses, "Engine speed in a pull", None, view.rpm or 0.0,
+                       lambda raw, v: pi.with_pull(raw, system, power=v, rpm=None if view.rpm is not None else rpm))
+        session_number(ses, "Engine speed in a pull", None, rpm or 0.0,
                        "Sets the pump's flow and so the pressure across the loading valve.", "rpm",
                        lambda raw, v: pi.with_pull(raw, system, rpm=v), unit="rpm")
     session_number(ses, "Wait after each pull", "wait_time", view.wait_s, "Time between the end of one pull "
@@ -208,6 +213,8 @@ def session():
     number(ses, "session.start_temperature")
     number(ses, "ambient")
     number(ses, "losses.air_speed")
+    from .uncertainty import DEFAULT_CONFIDENCE
+    number(ses, "uncertainty.confidence", default=DEFAULT_CONFIDENCE)
 
 
 def cooler(current: Scenario):
@@ -245,5 +252,5 @@ def rig_inputs(current: Scenario):
     tank()
     oil(current)
     hardware()
-    session()
+    session(current)
     cooler(current)

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, fields
 
+from .verdict import Verdict
+
 
 def _plain(value):
     """A field's value in the JSON view: result objects by their to_json(), tuples as lists."""
@@ -82,20 +84,21 @@ class Band:
     advice: str = ""
     envelope: dict | None = None
     uncertainty: dict | None = None
+    sustainable_share: float | None = None    # of the samples, where the point answer is sustainable
 
     def to_json(self) -> dict:
         return {"bands": self.bands, "confidence": self.confidence, "plan_at_confidence": self.plan_at_confidence,
-                "band_ranking": list(self.ranking), "band_advice": self.advice, "band_envelope": self.envelope,
+                "sustainable_share": self.sustainable_share, "band_ranking": list(self.ranking), "band_advice": self.advice, "band_envelope": self.envelope,
                 "uncertainty": self.uncertainty}
 
     @classmethod
     def from_json(cls, keys: dict) -> "Band":
         return cls(bands=keys["bands"], confidence=keys["confidence"], plan_at_confidence=keys["plan_at_confidence"],
                    ranking=tuple(keys["band_ranking"]), advice=keys["band_advice"], envelope=keys["band_envelope"],
-                   uncertainty=keys["uncertainty"])
+                   uncertainty=keys["uncertainty"], sustainable_share=keys.get("sustainable_share"))
 
 
-BAND_JSON_KEYS = ("bands", "confidence", "plan_at_confidence", "band_ranking", "band_advice", "band_envelope",
+BAND_JSON_KEYS = ("bands", "confidence", "plan_at_confidence", "sustainable_share", "band_ranking", "band_advice", "band_envelope",
                   "uncertainty")
 
 
@@ -163,7 +166,7 @@ class Report(_Keys):
     # the uncertainty band
     band: Band
     # the verdict (verdict.py) where one is given; None writes no key
-    verdict: object | None = None
+    verdict: Verdict | None = None
 
     def to_json(self) -> dict:
         out = {}
@@ -186,5 +189,6 @@ class Report(_Keys):
                    "schedule": None if keys["schedule"] is None
                    else tuple(SchedulePull.from_json(row) for row in keys["schedule"]),
                    "notes": tuple(keys["notes"]), "cautions": tuple(keys["cautions"]),
-                   "band": Band.from_json(keys), "verdict": keys.get("verdict")}
+                   "band": Band.from_json(keys),
+                   "verdict": None if keys.get("verdict") is None else Verdict.from_json(keys["verdict"])}
         return cls(**{f.name: special[f.name] if f.name in special else keys[f.name] for f in fields(cls)})

@@ -6,6 +6,7 @@ raises ScenarioError naming the key path, the value and what was expected.
 from __future__ import annotations
 
 import copy
+import re
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -17,7 +18,7 @@ from .errors import ScenarioError
 from .materials import MATERIALS
 from .oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .hardware_defaults import body_cube_side_m, default_body_area_m2, default_internal_area_m2
-from .session import PLAN_RESOLUTION, EngineCurve, Step, shaft_power_W
+from .session import PLAN_RESOLUTION, EngineCurve, Step, pump_flow_m3_s, shaft_power_W
 from .still_paths import flange_link_W_K
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
                              check_document_depth, read_toml_bytes, read_toml_text, temperature_unit_warnings,
@@ -261,7 +262,7 @@ def _parse(raw: dict) -> Scenario:
         raise ScenarioError("session.steps", raw_steps, "a list of [[session.steps]] tables")
     if len(raw_steps) > MAX_SESSION_SUBSTEPS:
         raise ScenarioError("session.steps", f"{len(raw_steps)} steps", f"a cycle of at most {MAX_SESSION_SUBSTEPS} steps")
-    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units) for i, step in enumerate(raw_steps))
+    cycle = tuple(_parse_step(step, f"session.steps[{i}]", displacement, units, eta_v) for i, step in enumerate(raw_steps))
     per_cycle = sum(PLAN_RESOLUTION.substeps(step, step.duration_s) for step in cycle)
     if repeat * per_cycle > MAX_SESSION_SUBSTEPS:
         raise ScenarioError("session.repeat", repeat, f"a planned session of at most {MAX_SESSION_SUBSTEPS} sub-steps of "
@@ -312,7 +313,49 @@ def _read_air(top: _Table) -> tuple[float, float]:
     return (P_ATM_Pa if pressure is None else float(pressure)), float(humidity)
 
 
-def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> Step:
+
+OPERATING_POINT_HELP = ('pressure and flow as two keys, e.g. pressure = "150 bar" and flow = "20 L/min" (or pressure with '
+                        'the pull\'s rpm, the flow then being the pump\'s displacement x rpm x its volumetric '
+                        'efficiency), in place of power')
+
+
+def _pull_power(t, raw, displacement_m3: float, volumetric_efficiency: float) -> tuple[float, float]:
+    """(absorbed power W, rpm) of a constant pull: `power` with `rpm`, or the operating point a user
+    reads off the rig, `pressure` across pump and valve with `flow` or with `rpm`: P = dp Q, where
+    Q = D n eta_v when only rpm is given (n from Q the same way when only flow is given)."""
+    given = [key for key in ("power", "pressure", "flow") if key in raw]
+    if "power" in raw:
+        value = raw["power"]
+        if isinstance(value, str) and len(re.findall(r"\d+(?:\.\d*)?", value)) > 1 and re.search(r"[*x×]", value):
+            raise ScenarioError(t.key("power"), value, f"one quantity; for a pressure times a flow write {OPERATING_POINT_HELP}")
+        if len(given) > 1:
+            raise ScenarioError(t.key(given[1]), raw[given[1]], "either power, or pressure with flow or rpm, not both")
+        return (t.quantity("power", "power", "W", minimum=MIN_PULL_POWER_W),
+                t.number("rpm", minimum=100.0, maximum=30000.0))
+    if "pressure" not in raw:
+        if "flow" in raw:
+            raise ScenarioError(t.key("pressure"), None, f"a pressure beside the flow ({OPERATING_POINT_HELP})")
+        t.get("power")    # missing: the usual message, with its "did you mean"
+    pressure = t.quantity("pressure", "pressure", "bar", above=0.0)
+    per_rev = displacement_m3 * volumetric_efficiency / 60.0          # m^3/s per rev/min
+    if "flow" in raw:
+        flow = t.quantity("flow", "flow", "L/min", above=0.0)
+        rpm = (t.number("rpm", minimum=100.0, maximum=30000.0) if "rpm" in raw else flow / per_rev)
+        if not 100.0 <= rpm <= 30000.0:
+            raise ScenarioError(t.key("flow"), raw["flow"], f"a flow this pump gives between 100 and 30000 rpm "
+                                f"(it would take {rpm:.0f} rpm); or give the pull's rpm as well")
+    elif "rpm" in raw:
+        rpm = t.number("rpm", minimum=100.0, maximum=30000.0)
+        flow = float(pump_flow_m3_s(displacement_m3, rpm, volumetric_efficiency))
+    else:
+        raise ScenarioError(t.key("flow"), None, f"a flow or an rpm beside the pressure ({OPERATING_POINT_HELP})")
+    if pressure * flow < MIN_PULL_POWER_W:
+        raise ScenarioError(t.key("pressure"), raw["pressure"], f"a pressure and flow that absorb at least "
+                            f"{MIN_PULL_POWER_W:g} W (this one: {pressure * flow:.3g} W)")
+    return pressure * flow, rpm
+
+
+def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI", volumetric_efficiency: float = 1.0) -> Step:
     t = _Table(raw, path, system=system)
     kind = t.choice("kind", ("pull", "wait"))
     duration = t.quantity("duration", "time", "s", above=0.0)
@@ -340,9 +383,8 @@ def _parse_step(raw, path: str, displacement_m3: float, system: str = "SI") -> S
                                     f"a curve that absorbs at least {MIN_PULL_POWER_W:g} W on average between "
                                     "rpm_start and rpm_end")
         else:
-            step = Step(kind="pull", duration_s=duration, engine="on",
-                        power_W=t.quantity("power", "power", "W", minimum=MIN_PULL_POWER_W),
-                        rpm=t.number("rpm", minimum=100.0, maximum=30000.0))
+            power, rpm = _pull_power(t, raw, displacement_m3, volumetric_efficiency)
+            step = Step(kind="pull", duration_s=duration, engine="on", power_W=power, rpm=rpm)
     else:
         engine = t.choice("engine", ("off", "idle"))
         if engine == "idle":

@@ -104,6 +104,8 @@ KEYS = {
     "session.ready_temperature": _q("temperature", "degC", "degF", -40, 200),
     "session.steps[].duration": _q("time", "s", "s", 0.1, 86400),
     "session.steps[].power": _q("power", "W", "hp", 0, 1e6),
+    "session.steps[].pressure": _q("pressure", "bar", "psi", 0.1, 700),     # across pump and valve
+    "session.steps[].flow": _q("flow", "L/min", "gal/min", 0.05, 2000),
     "session.steps[].rpm": _n(100, 30000),
     "session.steps[].rpm_start": _n(100, 30000),
     "session.steps[].rpm_end": _n(100, 30000),
@@ -180,8 +182,11 @@ class _Table:
             return self.raw[name]
         if default is _MISSING:
             unread = [k for k in self.raw if k not in self.used]
-            hint = _did_you_mean(name, unread)
-            raise ScenarioError(self.key(name), None, f"a value (the key is missing{'; ' + hint.strip() if hint else ''})")
+            close = _closest(name, unread)
+            if close is not None:      # the file has a key of nearly this name: name the file's key
+                raise ScenarioError(self.key(close), self.raw[close],
+                                    f'the key "{name}" (no key "{close}" is known here; did you mean "{name}"?)')
+            raise ScenarioError(self.key(name), None, "a value (the key is missing)")
         return default
 
     def bare_unit(self, name: str, bare_unit: str) -> str:

@@ -50,6 +50,7 @@ SI_UNIT = {
     "thermal_conductivity": "W/(m*K)",
     "temperature_difference": "K",
     "pressure": "Pa",
+    "flow": "m^3/s",
 }
 
 _LB_KG = 0.45359237            # exact (NIST SP 811, Appendix B)

@@ -1,0 +1,178 @@
+"""The verdict: on a failing rig it names the first pull over the limit, and every fix it lists,
+applied alone to the scenario through the public API and run again, finishes the day; on a fitting
+rig it says so. Invariants of our own model, no outside source."""
+from __future__ import annotations
+
+import copy
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from thermo_budget.scenario import load_scenario
+from thermo_budget.verdict import Change, Fix, Verdict, run_day, samples_of, share_fits, verdict
+
+SCENARIOS = Path(__file__).resolve().parent.parent / "scenarios"
+VERDICT_KEYS = {"fits", "first_pull_over_limit", "limit_C", "governing_limit", "peak_C", "confidence", "fixes"}
+
+
+def _edited(scenario, **changes):
+    """The scenario with keys replaced; "session.steps[i].key" reaches into the list of steps."""
+    raw = copy.deepcopy(scenario.raw)
+    for path, value in changes.items():
+        *head, last = path.split(".")
+        table = raw
+        for part in head:
+            name, _, index = part.partition("[")
+            table = table.setdefault(name, {})
+            if index:
+                table = table[int(index.rstrip("]"))]
+        table[last] = value
+    return load_scenario(raw)
+
+
+def _failing():
+    """Rig A asked for 24 pulls of 9 kW."""
+    return _edited(load_scenario(SCENARIOS / "default.toml"), **{"session.repeat": 24, "session.steps[0].power": "9 kW"})
+
+
+@pytest.fixture(scope="module")
+def failing():
+    scenario = _failing()
+    return scenario, verdict(scenario, {"pulls_planned": 24})
+
+
+def _with_fix(scenario, fix: Fix):
+    """The scenario with the fix applied alone, written as a user would write it in the file."""
+    raw_steps = scenario.raw["session"]["steps"]
+    if fix.kind == "wait":
+        return _edited(scenario, **{f"session.steps[{i}].duration": f"{fix.value} s"
+                                   for i, step in enumerate(raw_steps) if step["kind"] == "wait"})
+    if fix.kind == "shorter_pulls":
+        longest = max(step.duration_s for step in scenario.cycle if step.is_pull)
+        return _edited(scenario, **{f"session.steps[{i}].duration": f"{step.duration_s * fix.value / longest} s"
+                                   for i, step in enumerate(scenario.cycle) if step.is_pull})
+    if fix.kind == "fewer_pulls":
+        assert sum(step.is_pull for step in scenario.cycle) == 1
+        return _edited(scenario, **{"session.repeat": int(fix.value)})
+    if fix.kind == "cooler":
+        return _edited(scenario, **{"cooler.specific_dissipation": f"{fix.value} W/K"})
+    res = scenario.reservoir      # the oil, and its tank scaled to the same shape
+    scale = (fix.value / 1000.0 / res.oil_volume_m3) ** (1.0 / 3.0)
+    changes = {"reservoir.oil_volume": f"{fix.value} L", "reservoir.height": f"{res.height_m * scale} m"}
+    for key in ("length", "width", "diameter"):
+        if getattr(res, f"{key}_m") is not None:
+            changes[f"reservoir.{key}"] = f"{getattr(res, f'{key}_m') * scale} m"
+    return _edited(scenario, **changes)
+
+
+def test_failing_rig_names_the_first_pull_over_the_limit(failing):
+    scenario, v = failing
+    assert not v.fits and v.governing_limit == "max_temperature"
+    assert 1 <= v.first_pull_over_limit <= 24
+    samples = samples_of(scenario)
+    steps = list(scenario.steps)
+    pull_at = [i for i, step in enumerate(steps) if step.is_pull]
+    # the day stopped before the named pull finishes at the confidence; the day to the named pull does not
+    before = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n),
+                     steps=steps[:pull_at[v.first_pull_over_limit - 1]])
+    through = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n),
+                      steps=steps[:pull_at[v.first_pull_over_limit - 1] + 1])
+    assert share_fits(before.clean, v.confidence) and not share_fits(through.clean, v.confidence)
+    assert v.peak_C > v.limit_C
+
+
+def test_every_fix_alone_finishes_the_day_in_a_rerun(failing):
+    scenario, v = failing
+    assert {fix.kind for fix in v.fixes} == {"wait", "oil_volume", "cooler", "fewer_pulls", "shorter_pulls"}
+    for fix in v.fixes:
+        assert fix.confidence == v.confidence
+        fixed = _with_fix(scenario, fix)
+        again = verdict(fixed, {"pulls_planned": sum(step.is_pull for step in fixed.steps)})
+        assert again.fits, (fix, again)
+
+
+def test_each_fix_changes_the_day_in_the_right_direction(failing):
+    scenario, v = failing
+    by_kind = {fix.kind: fix for fix in v.fixes}
+    assert by_kind["wait"].value > 180.0 and by_kind["oil_volume"].value > 18.0
+    assert by_kind["oil_volume"].tank_L > by_kind["oil_volume"].value
+    assert by_kind["cooler"].value > 0.0
+    assert by_kind["fewer_pulls"].value == v.first_pull_over_limit - 1
+    assert 0.0 < by_kind["shorter_pulls"].value < 15.0
+
+
+def test_fitting_rig_says_so():
+    scenario = load_scenario(SCENARIOS / "default.toml")
+    v = verdict(scenario, {"pulls_planned": 10})
+    assert v.fits and v.first_pull_over_limit is None and v.fixes == ()
+    assert v.peak_C < v.limit_C == 80.0
+
+
+def test_report_json_carries_the_verdict_with_the_named_keys():
+    from thermo_budget.report import report
+    scenario = load_scenario(SCENARIOS / "us_units_fan.toml")
+    result = report(scenario)
+    assert set(result["verdict"]) == VERDICT_KEYS
+    v = Verdict.from_json(result["verdict"])
+    assert v.to_json() == result["verdict"]
+    # the rig finishes at the point but not at 90 %: the verdict is the plan's, not the median's
+    assert result["pulls_under_limit"] == result["pulls_planned"]
+    assert not v.fits and v.first_pull_over_limit == result["plan_at_confidence"]["pulls_under_limit"] + 1
+    for fix in result["verdict"]["fixes"]:
+        unit_keys = {"value_s", "value_L", "value_W_per_K"} & set(fix)
+        assert len(unit_keys) == (0 if fix["kind"] == "fewer_pulls" else 1)
+        assert {"kind", "value", "confidence"} <= set(fix)
+
+
+def test_band_off_judges_the_point_answer():
+    scenario = _edited(_failing(), **{"uncertainty.enabled": False})
+    v = verdict(scenario, {"pulls_planned": 24})
+    assert samples_of(scenario).n == 1
+    from thermo_budget.report import session_report
+    point = session_report(scenario)
+    assert v.fits == (point["time_to_limit_s"] is None)
+
+
+def test_the_band_stays_when_the_point_answer_is_sustainable():
+    """Rig A at 5.6 kW settles 1.5 K under its limit by the point model, yet many of its samples cross:
+    the pull count's band and the plan are there, with the share of samples that never cross."""
+    from thermo_budget.page_cards import pulls_card
+    from thermo_budget.report import report
+    scenario = _edited(load_scenario(SCENARIOS / "default.toml"), **{"session.steps[0].power": "5.6 kW"})
+    result = report(scenario)
+    assert result["sustainable"] and result["runs_before_limit"] is None
+    share = result["sustainable_share"]
+    assert 0.0 < share <= 0.95
+    band = result["bands"]["runs_before_limit"]
+    assert band is not None and band["p10"] is not None and band["p10"] > result["pulls_planned"]
+    assert result["plan_at_confidence"]["runs_before_limit"] == band["p10"]     # 90 %: the 13th of 128
+    card = pulls_card(result, "SI")
+    assert card.value == str(band["p10"]) and f"Sustainable in {100 * share:.0f} % of cases." in card.details
+
+
+def test_the_page_and_the_text_say_what_the_verdict_says(failing):
+    """The page's box and `run`'s text are drawn from the one Verdict: its word, its first pull over
+    the limit and every fix, in the order given."""
+    from thermo_budget.page_headline import verdict_html
+    from thermo_budget.verdict_text import fix_text
+    scenario, v = failing
+    box = verdict_html(v, 24, "SI", band_on=True)
+    assert 'data-fits="false"' in box and "DOES NOT FIT" in box and f"pull {v.first_pull_over_limit} of 24" in box
+    positions = [box.index(fix_text(fix, "SI").replace("'", "&#x27;")) for fix in v.fixes]
+    assert positions == sorted(positions) and len(positions) == 5
+    result = {"name": "rig", "units": "SI", "pulls_planned": 24, "verdict": v.to_json(), "uncertainty": {"samples": 128}}
+    from thermo_budget.verdict_text import summary_lines
+    lines = summary_lines(result)
+    assert lines[0].split(maxsplit=1)[1] == (f"does not fit: pull {v.first_pull_over_limit} of 24 crosses 80.0 °C "
+                                              "(the hottest you allow the oil), at 90 % confidence")
+    assert [line.strip()[2:] for line in lines[2:]] == [fix_text(fix, "SI") for fix in v.fixes]
+
+
+def test_run_prints_the_verdict_first(tmp_path):
+    import subprocess
+    import sys
+    out = subprocess.run([sys.executable, "-m", "thermo_budget", "run", str(SCENARIOS / "default.toml")],
+                         capture_output=True, text=True, timeout=300, check=True).stdout.splitlines()
+    assert out[1].strip().startswith("VERDICT          fits: 10 of 10 pulls, peak")
+    assert "at 90 % confidence" in out[1]

@@ -93,7 +93,8 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
     from CoolProp.HumidAirProp import HAPropsSI
     from ht.conv_free_immersed import Nu_vertical_plate_Churchill
     from thermo_budget.conductances import h_air_W_m2K
-    from thermo_budget.scenario import build_rig, load_scenario
+    from thermo_budget.rig_build import build_rig
+    from thermo_budget.scenario import load_scenario
     from conftest import base_raw
     raw = base_raw()
     raw.update(altitude="1600 m", relative_humidity="40 %")
@@ -126,6 +127,7 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
 
 
 def test_standard_air_uses_the_shipped_table():
-    from thermo_budget.scenario import build_rig, load_scenario
+    from thermo_budget.rig_build import build_rig
+    from thermo_budget.scenario import load_scenario
     from conftest import base_raw
     assert build_rig(load_scenario(base_raw())).air_columns is None

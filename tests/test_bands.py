@@ -196,7 +196,7 @@ def test_envelope_brackets_the_oil_temperature(default, default_report):
     the pulls begin, holds the point trace (every factor at its median) between its edges at every
     time, and its P90 edge never passes the P90 of the samples' peaks (the largest of per-time P90s
     cannot exceed the P90 of per-sample maxima), while reaching above the point's peak."""
-    from thermo_budget.report import simulate
+    from thermo_budget.answers import simulate
     envelope = default_report["band_envelope"]
     t, p10, p90 = (np.array(envelope[key]) for key in ("time_s", "p10_C", "p90_C"))
     assert len(t) == len(p10) == len(p90) == len(envelope["p50_C"])

@@ -207,7 +207,7 @@ from thermo_budget.cli import main                                            # 
 from thermo_budget.measured_log import read_log                               # noqa: E402
 from thermo_budget.output_files import json_text, write_atomically            # noqa: E402
 from thermo_budget.page_live import resolve_log_path                          # noqa: E402
-from thermo_budget.report import energy_balance_rel_error, session_report     # noqa: E402
+from thermo_budget.answers import energy_balance_rel_error, session_report     # noqa: E402
 from thermo_budget.scenario_table import MAX_NESTING                          # noqa: E402
 
 from conftest import REPO, write_toml                                         # noqa: E402

@@ -20,7 +20,8 @@ day_plan, day_scenario, simulated_day = (getattr(load_tool("bench_live"), name) 
 from thermo_budget.live_forecast import OFF, planned_pull
 from thermo_budget.live_watch import LiveWatch
 from thermo_budget.network import OIL, Inputs, node_equations
-from thermo_budget.scenario import build_rig, limit_K
+from thermo_budget.rig_build import build_rig
+from thermo_budget.scenario import limit_K
 from thermo_budget.session import pump_flow_m3_s
 
 IN_PULL_S = 3905.0            # 5 s into the morning's 21st pull (3900-3915 s)

@@ -254,7 +254,7 @@ def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_stat
     # against the watch's 29; from the heat-holding temperature, 28).
     from scipy.optimize import brentq
     from thermo_budget.network import N_NODES, node_enthalpy_J
-    from thermo_budget.scenario import build_rig
+    from thermo_budget.rig_build import build_rig
     estimate = record["estimate_C"]
     here = load_scenario(SCENARIO_DIR / "default.toml").changed(ambient="17.5 degC")
     rig = build_rig(here)

@@ -9,8 +9,8 @@ from hypothesis import strategies as st
 
 from thermo_budget import DEFAULT_SCENARIO, build_rig, limit_K, load_scenario, sweep
 from thermo_budget.network import OIL
-from thermo_budget.planning import batched_threshold, planning_answers, session_outcome
-from thermo_budget.report import session_report
+from thermo_budget.planning import batched_threshold, session_outcome
+from thermo_budget.answers import planning_answers, session_report
 from thermo_budget.solver import integrate
 from thermo_budget.units import ZERO_CELSIUS_K
 

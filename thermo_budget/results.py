@@ -114,6 +114,8 @@ class Report(_Keys):
     max_temperature_C: float
     min_viscosity_temperature_C: float
     ambient_C: float
+    ambient_pressure_Pa: float                # the stand's air: standard atmosphere at its altitude, or given
+    relative_humidity: float                  # 0 to 1
     # the planned session
     start_C: float
     peak_C: float | None
@@ -134,6 +136,8 @@ class Report(_Keys):
     energy_balance_rel_error: float
     heat_capacity_J_per_K: HeatCapacities
     passive_rejection_at_limit_W: float
+    passive_shares_at_limit: dict             # path -> share of the passive loss at the limit
+    floor_share_of_tank_loss: float           # the floor's share of the tank's own loss (0 off the floor)
     peak_pull_power_W: float
     pump: Pump
     oil_ageing_equivalent_h: float

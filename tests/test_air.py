@@ -92,7 +92,7 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
     # (ht.conv_free_immersed.Nu_vertical_plate_Churchill) on CoolProp's properties.
     from CoolProp.HumidAirProp import HAPropsSI
     from ht.conv_free_immersed import Nu_vertical_plate_Churchill
-    from thermo_budget.conductances import h_air_W_m2K
+    from thermo_budget.conductances import air_side_h_W_m2K
     from thermo_budget.rig_build import build_rig
     from thermo_budget.scenario import load_scenario
     from conftest import base_raw
@@ -113,16 +113,18 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
     # about 17 % less dense than at sea level (ENGINEERING.md: about 11 % per 1,000 m)
     rho_here = (1.0 + W) / HAPropsSI("Vha", "T", 293.15, "P", P, "W", W)
     assert 1.0 - rho_here / PropsSI("D", "T", 293.15, "P", P_ATM_Pa, "Air") == pytest.approx(0.17, abs=0.015)
-    # the side wall's coefficient: 0.3 m high, 40 K above the air
-    T_s, T_a, L = scenario.ambient_K + 40.0, scenario.ambient_K, 0.3
+    # the side wall's coefficient on the production path (the tank's sides, 40 K above the air)
+    T_s, T_a = scenario.ambient_K + 40.0, scenario.ambient_K
+    L = float(np.atleast_1d(rig.constants["vertical_lengths_m"][0])[0])
     film = 0.5 * (T_s + T_a)
     k_c, nu_c, pr_c = _humid_air_direct(film, P, W)
     Gr = 9.80665 * (1.0 / film) * 40.0 * L**3 / nu_c**2
     h_reference = Nu_vertical_plate_Churchill(pr_c, Gr) * k_c / L
-    h_model = float(h_air_W_m2K("vertical", L, T_s, T_a, air=air_properties(film, rig.air_columns)))
+    h_model = float(air_side_h_W_m2K(rig, np.full((3, 1), T_s)).side[0])
     assert h_model == pytest.approx(h_reference, rel=1e-3)
     # and weaker than at sea level in dry air, by roughly rho^(2/3) in this range (about 12 %)
-    h_sea = float(h_air_W_m2K("vertical", L, T_s, T_a))
+    sea = build_rig(load_scenario(base_raw()).changed(ambient=f"{T_a - 273.15!r} degC"))
+    h_sea = float(air_side_h_W_m2K(sea, np.full((3, 1), T_s)).side[0])
     assert 0.80 < h_model / h_sea < 0.93
 
 

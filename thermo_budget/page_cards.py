@@ -110,7 +110,7 @@ def hottest_card(answers: Report, system: str, verdict=None) -> Card:
     if answers.peak_C is None:   # past the range of the model's oil data: no figure that looks real
         return Card("hottest", "Hottest oil, planned session", "Beyond the model", "",
                     ("Far past the limit: see the caution above.",
-                     f"Bulk limit: {shown_celsius(answers['limit_C'], system)}."),
+                     f"Bulk limit: {shown_celsius(answers.limit_C, system)}."),
                     help="The bulk oil would pass the range where the model's oil data hold, so no peak is given.")
     value, unit = _temperature(answers.peak_C, system)
     small = ""
@@ -125,10 +125,10 @@ def hottest_card(answers: Report, system: str, verdict=None) -> Card:
         else:
             value, unit = _temperature(verdict.peak_C, system)
             small = _small(answers, median)
-    details = [f"Return line: {shown_celsius(answers['peak_return_C'], system)}"
-               + (f" (limit {shown_celsius(answers['return_line_limit_C'], system)})."
+    details = [f"Return line: {shown_celsius(answers.peak_return_C, system)}"
+               + (f" (limit {shown_celsius(answers.return_line_limit_C, system)})."
                   if answers.return_line_limit_C is not None else ".")]
-    details.append(f"Bulk limit: {shown_celsius(answers['limit_C'], system)}.")
+    details.append(f"Bulk limit: {shown_celsius(answers.limit_C, system)}.")
     return Card("hottest", "Hottest oil, planned session", value, f"{unit} bulk", tuple(details), small=small,
                 help="Highest temperature of the oil in the tank over the planned session, and of the oil "
                      "returning from the valve (bulk plus the valve's heat in the passing flow).")
@@ -181,7 +181,7 @@ def tank_card(answers: Report, oil_volume_m3: float, tank_m3: float, system: str
         unit = f"{unit} of oil"
         scale = smallest / 1000.0 / oil_volume_m3
         details.append(f"In a tank of {shown(tank_m3 * scale, 'oil_volume', system)} (your tank's shape, scaled)"
-                       + (f", {shown(answers['headroom_at_limit_L'] / 1000.0 * scale, 'oil_volume', system)} "
+                       + (f", {shown(answers.headroom_at_limit_L / 1000.0 * scale, 'oil_volume', system)} "
                           "free at the limit." if answers.headroom_at_limit_L is not None else "."))
     details.append(f"You have {shown(oil_volume_m3, 'oil_volume', system)} of oil.")
     return Card("tank", "Smallest oil volume", value, unit, tuple(details),

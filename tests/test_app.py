@@ -374,12 +374,12 @@ def test_a_binary_scenario_upload_is_refused(page):
 
 def test_the_confidence_is_one_input_and_every_planning_card_follows_it(page):
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     box = number_input(page, "Confidence of the plan")
     assert box.value == pytest.approx(0.9)
     box.set_value(0.5).run()
     assert not page.exception and not page.error
-    answers = report(load_scenario(DEFAULT_SCENARIO).changed(**{"uncertainty.confidence": 0.5}))
+    answers = report(load_scenario(DEFAULT_SCENARIO).changed(**{"uncertainty.confidence": 0.5})).to_json()
     shown = cards(page)
     assert shown["pulls"]["value"] == str(answers["plan_at_confidence"]["runs_before_limit"])
     for key in ("day", "pulls", "wait", "cooler", "tank"):

@@ -146,7 +146,7 @@ def test_charts_are_readable_on_a_phone(default):
     the axes (so off every curve), the limit's label above every series, and every contour label
     wholly inside the axes."""
     from thermo_budget.page_charts import CHART_DPI
-    from thermo_budget.report import simulate
+    from thermo_budget.answers import simulate
     shown_scale = 360.0 / (5.6 * CHART_DPI)
     for fig in (plot_trace(default, simulate(default)), plot_design_chart(default, _fake_sweep())):
         renderer, texts = _text_boxes(fig)
@@ -169,7 +169,7 @@ def test_charts_are_readable_on_a_phone(default):
 def test_trace_chart_swatches_are_all_different(default):
     """No two series of the temperature chart share a swatch (colour and style)."""
     from matplotlib.colors import to_hex
-    from thermo_budget.report import simulate
+    from thermo_budget.answers import simulate
     fig = plot_trace(default, simulate(default))
     swatches = []
     for handle in fig.legends[0].legend_handles:

@@ -110,9 +110,9 @@ def test_fitting_rig_says_so():
 
 
 def test_report_json_carries_the_verdict_with_the_named_keys():
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     scenario = load_scenario(SCENARIOS / "us_units_fan.toml")
-    result = report(scenario)
+    result = report(scenario).to_json()
     assert set(result["verdict"]) == VERDICT_KEYS
     v = Verdict.from_json(result["verdict"])
     assert v.to_json() == result["verdict"]
@@ -129,7 +129,7 @@ def test_band_off_judges_the_point_answer():
     scenario = _edited(_failing(), **{"uncertainty.enabled": False})
     v = verdict(scenario, {"pulls_planned": 24})
     assert samples_of(scenario).n == 1
-    from thermo_budget.report import session_report
+    from thermo_budget.answers import session_report
     point = session_report(scenario)
     assert v.fits == (point["time_to_limit_s"] is None)
 
@@ -138,16 +138,17 @@ def test_the_band_stays_when_the_point_answer_is_sustainable():
     """Rig A at 5.6 kW settles 1.5 K under its limit by the point model, yet many of its samples cross:
     the pull count's band and the plan are there, with the share of samples that never cross."""
     from thermo_budget.page_cards import pulls_card
-    from thermo_budget.report import report
+    from thermo_budget.answers import report
     scenario = _edited(load_scenario(SCENARIOS / "default.toml"), **{"session.steps[0].power": "5.6 kW"})
-    result = report(scenario)
+    answers = report(scenario)
+    result = answers.to_json()
     assert result["sustainable"] and result["runs_before_limit"] is None
     share = result["sustainable_share"]
     assert 0.0 < share <= 0.95
     band = result["bands"]["runs_before_limit"]
     assert band is not None and band["p10"] is not None and band["p10"] > result["pulls_planned"]
     assert result["plan_at_confidence"]["runs_before_limit"] == band["p10"]     # 90 %: the 13th of 128
-    card = pulls_card(result, "SI")
+    card = pulls_card(answers, "SI")
     assert card.value == str(band["p10"]) and f"Sustainable in {100 * share:.0f} % of cases." in card.details
 
 

@@ -51,12 +51,23 @@ class OilGrade(_Keys):
 
 
 @dataclass(frozen=True)
-class HeatCapacities(_Keys):
-    """Heat capacity of each body at the start temperature, J/K (the hose: both rings of its wall)."""
+class HeatCapacities:
+    """Heat capacity of each body at the start temperature, J/K (the hose: both rings of its wall; the
+    loop's oil, standing in the hoses and bodies, written "loop oil" in the JSON as the node is named)."""
     oil: float
     wall: float
     hardware: float
+    loop_oil: float
     hose: float
+
+    def to_json(self) -> dict:
+        return {"oil": self.oil, "wall": self.wall, "hardware": self.hardware, "loop oil": self.loop_oil,
+                "hose": self.hose}
+
+    @classmethod
+    def from_json(cls, keys: dict) -> "HeatCapacities":
+        return cls(oil=keys["oil"], wall=keys["wall"], hardware=keys["hardware"], loop_oil=keys["loop oil"],
+                   hose=keys["hose"])
 
 
 @dataclass(frozen=True)

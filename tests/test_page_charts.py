@@ -19,7 +19,8 @@ def default(default_scenario):
 
 
 def test_design_axes_bracket_the_rig_and_the_answers(default, default_report):
-    answers = default_report
+    from thermo_budget.results import Report
+    answers = Report.from_json(default_report)
     volumes, coolers = design_sweep.design_axes(default)
     assert [a.tolist() for a in design_sweep.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]
     assert volumes.size == page_charts.DESIGN_VOLUMES and coolers.size == page_charts.DESIGN_COOLERS

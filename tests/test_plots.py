@@ -83,7 +83,9 @@ def test_design_chart_all_unlimited_and_all_short_do_not_fail(default):
 
 
 def _legend(fig):
-    return [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    """The chart's legend entries (under the chart, plots.legend_below, or on the axes)."""
+    legend = fig.legends[0] if fig.legends else fig.axes[0].get_legend()
+    return [t.get_text() for t in legend.get_texts()]
 
 
 def test_design_chart_from_real_sweep(default, default_report):

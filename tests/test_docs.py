@@ -131,7 +131,7 @@ def test_readme_worked_example_quotes_the_models_answers():
     raw, output = worked_example()
     raw["uncertainty"] = {"enabled": False}     # the point answers only: the band does not move them
     from thermo_budget import report
-    result = report(load_scenario(raw))
+    result = report(load_scenario(raw)).to_json()
     assert quoted(r"pulls under limit\s+(\d+) of", output) == result["pulls_under_limit"]
     assert quoted(r"of (\d+) planned", output) == result["pulls_planned"]
     assert quoted(r"peak ([\d.]+) °C", output) == pytest.approx(result["peak_C"], abs=0.05)

@@ -19,22 +19,28 @@ from functools import cached_property
 
 import numpy as np
 
-from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, ambient_conductances_W_K,
-                           constant_parts, dry_shell_W_K, h_air_W_m2K, hose_ring_link_W_K, hose_rings_m,
-                           h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
-                           loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
-                           stirring_velocity_m_s, wall_to_ambient_W_K)
-from .oil import Oil
+from .air import air_columns
+from .compiled import kernel
+from .conductance_paths import (ambient_conductances_W_K, cooler_W_K, dry_shell_W_K, h_air_W_m2K, h_oil_bottom_W_m2K,
+                                h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_ring_link_W_K, hose_to_ambient_W_K,
+                                loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
+                                return_line_rise_K, stirring_velocity_m_s, wall_to_ambient_W_K)
+from .conductances import (HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, bodies_to_air, constant_parts, cooler,
+                           hose_rings_m, hose_to_air, loop_paths, oil_side_h, oil_to_wall, wall_to_air)
+from .oil import OIL_CP_A, OIL_CP_B, Oil, linear_enthalpy_J_kg, linear_temperature_from_enthalpy_K, oil_transport
+from .rig_params import (AMBIENT, CAPACITY_MULT, COUPLING_MULT, HARDWARE_CAPACITY, HOSE_CAPACITY, HOSE_LINER_SHARE,
+                         HOSE_LINK_G, OIL_FIRST, OIL_NODE_MASS, WALL_CAPACITY, pack)
 
-# The conductances live in conductances.py; they are re-exported here, the network's one door.
+# The conductances live in conductances.py (compiled) and conductance_paths.py (numpy over a Rig's
+# designs); they are re-exported here, the network's one door.
 __all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
            "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
-           "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
-           "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
-           "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
-           "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_rejection_W", "per_design", "return_line_rise_K", "stirring_velocity_m_s",
-           "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
+           "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K",
+           "cooling_time_constant_s", "dry_shell_W_K", "h_air_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K",
+           "hardware_to_ambient_W_K", "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K",
+           "node_enthalpy_J", "node_equations", "node_system", "oil_node_mass_kg", "oil_to_hardware_W_K",
+           "oil_to_hose_W_K", "oil_to_wall_W_K", "passive_rejection_W", "per_design", "return_line_rise_K",
+           "stirring_velocity_m_s", "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
 OIL, WALL, HARDWARE, HOSE, HOSE_COVER = 0, 1, 2, 3, 4
@@ -110,6 +116,11 @@ class Rig:
         (conductances.constant_parts); a changed rig is a new object and works them out again."""
         return constant_parts(self)
 
+    @cached_property
+    def params(self) -> np.ndarray:
+        """The rig as the compiled network reads it: rows of floats (rig_params.pack)."""
+        return pack(self)
+
 
 @dataclass(frozen=True)
 class Inputs:
@@ -149,51 +160,172 @@ def oil_node_mass_kg(rig: Rig):
     return rig.oil_mass_kg + rig.loop_oil_mass_kg
 
 
+def _f64(value, n: int) -> np.ndarray:
+    """A float or an (n,) array as a contiguous (n,) float array, the compiled loops' argument."""
+    return np.ascontiguousarray(np.broadcast_to(np.asarray(value, dtype=float), (n,)))
+
+
+def _states(T_K) -> np.ndarray:
+    return np.ascontiguousarray(T_K, dtype=float)
+
+
+# --- one design, compiled ------------------------------------------------------------------------
+
+@kernel
+def link(L, i, j, G):
+    """A conductance G (W/K) between nodes i and j, added to L."""
+    L[i, i] += G
+    L[j, j] += G
+    L[i, j] -= G
+    L[j, i] -= G
+
+
+@kernel
+def loop_link(L, b, i, G, return_rise_K):
+    """A conductance G from the loop's oil to node i: the loop's oil is at the bulk temperature plus
+    half the return line's rise, which enters b as a source (out of the oil, into node i)."""
+    link(L, OIL, i, G)
+    b[OIL] -= 0.5 * G * return_rise_K
+    b[i] += 0.5 * G * return_rise_K
+
+
+@kernel
+def to_air(L, b, g_amb, i, G, ambient_K):
+    """A conductance G from node i to the ambient air."""
+    L[i, i] += G
+    g_amb[i] += G
+    b[i] += G * ambient_K
+
+
+@kernel
+def capacities(p, cp_J_kgK, C):
+    """Node heat capacities (J/K) into C; the oil's at the specific heat cp_J_kgK."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    C[OIL] = m * (p[OIL_NODE_MASS] * cp_J_kgK)
+    C[WALL] = m * p[WALL_CAPACITY]
+    C[HARDWARE] = m * p[HARDWARE_CAPACITY]
+    C[HOSE] = m * liner
+    C[HOSE_COVER] = m * (p[HOSE_CAPACITY] - liner)
+
+
+@kernel
+def enthalpy(p, T_K, H):
+    """Sensible enthalpy of each node (J, relative to 0 degC) at T_K into H."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    h_oil = linear_enthalpy_J_kg(T_K[OIL], p[OIL_FIRST + OIL_CP_A], p[OIL_FIRST + OIL_CP_B])
+    H[OIL] = m * (p[OIL_NODE_MASS] * h_oil)
+    H[WALL] = m * (p[WALL_CAPACITY] * (T_K[WALL] - 273.15))
+    H[HARDWARE] = m * (p[HARDWARE_CAPACITY] * (T_K[HARDWARE] - 273.15))
+    H[HOSE] = m * (liner * (T_K[HOSE] - 273.15))
+    H[HOSE_COVER] = m * ((p[HOSE_CAPACITY] - liner) * (T_K[HOSE_COVER] - 273.15))
+
+
+@kernel
+def temperatures(p, H_J, T):
+    """Inverse of enthalpy: the node temperatures (K) of enthalpies H_J into T."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    T[OIL] = linear_temperature_from_enthalpy_K(H_J[OIL] / m / p[OIL_NODE_MASS], p[OIL_FIRST + OIL_CP_A],
+                                                p[OIL_FIRST + OIL_CP_B])
+    T[WALL] = H_J[WALL] / m / p[WALL_CAPACITY] + 273.15
+    T[HARDWARE] = H_J[HARDWARE] / m / p[HARDWARE_CAPACITY] + 273.15
+    T[HOSE] = H_J[HOSE] / m / liner + 273.15
+    T[HOSE_COVER] = H_J[HOSE_COVER] / m / (p[HOSE_CAPACITY] - liner) + 273.15
+
+
+@kernel
+def node_system(p, T_K, volume_flow_m3_s, power_W, air, C, L, b, g_amb):
+    """The linear system of one design frozen at T_K: fills C (k,) J/K, L (k,k) W/K, b (k,) W,
+    g_amb (k,) W/K (node_equations) and returns the loss offset, W. Each path is one compiled
+    function of conductances.py and one line below: `link` between two nodes, `loop_link` from the
+    loop's oil, `to_air` to the ambient."""
+    T_oil, T_wall, T_a = T_K[OIL], T_K[WALL], p[AMBIENT]
+    oil = p[OIL_FIRST:]
+    nu, k, cp, rho, pr = oil_transport(oil, T_oil)                          # the bulk
+    nu_f, k_f, _, _, pr_f = oil_transport(oil, 0.5 * (T_oil + T_wall))      # the wall's film
+    flowing = volume_flow_m3_s > 0
+    rate = rho * volume_flow_m3_s * cp                                      # m_dot c_p, W/K
+    rise = power_W / max(rate, 1e-30) if flowing else 0.0                   # return line over bulk, K
+    h_side, h_bottom = oil_side_h(p, T_oil, T_wall, volume_flow_m3_s, nu_f, k_f, pr_f)
+    bodies, hose = loop_paths(p, volume_flow_m3_s, rate, nu, k, pr)
+    G_cool = cooler(p, flowing, rate)
+    L[:, :] = 0.0
+    b[:] = 0.0
+    g_amb[:] = 0.0
+    link(L, OIL, WALL, oil_to_wall(p, h_side, h_bottom))
+    loop_link(L, b, HARDWARE, p[COUPLING_MULT] * bodies, rise)
+    loop_link(L, b, HOSE, hose, rise)
+    link(L, HOSE, HOSE_COVER, p[HOSE_LINK_G])
+    to_air(L, b, g_amb, WALL, wall_to_air(p, T_wall, air), T_a)
+    to_air(L, b, g_amb, HARDWARE, bodies_to_air(p, T_K[HARDWARE], air), T_a)
+    to_air(L, b, g_amb, HOSE_COVER, hose_to_air(p, T_K[HOSE_COVER], air), T_a)
+    to_air(L, b, g_amb, OIL, G_cool, T_a)
+    b[OIL] += power_W - G_cool * rise          # the cooler sees the return line, bulk + the full rise
+    capacities(p, cp, C)
+    return G_cool * rise
+
+
+# --- over designs, for numpy callers -------------------------------------------------------------
+
+@kernel
+def _node_equations_many(params, T_K, flow, power, air):
+    n, k = T_K.shape
+    C, L, b, g = np.empty((n, k)), np.empty((n, k, k)), np.empty((n, k)), np.empty((n, k))
+    offset = np.empty(n)
+    for d in range(n):
+        p = params[d if params.shape[0] > 1 else 0]
+        offset[d] = node_system(p, T_K[d], flow[d], power[d], air, C[d], L[d], b[d], g[d])
+    return C, L, b, g, offset
+
+
+@kernel
+def _per_node_many(what, params, X, cp):
+    """what 0: capacities at the oil's cp; 1: enthalpies of temperatures X; 2: temperatures of enthalpies X."""
+    out = np.empty_like(X)
+    for d in range(X.shape[0]):
+        p = params[d if params.shape[0] > 1 else 0]
+        if what == 0:
+            capacities(p, cp[d], out[d])
+        elif what == 1:
+            enthalpy(p, X[d], out[d])
+        else:
+            temperatures(p, X[d], out[d])
+    return out
+
+
+def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
+    """The linear system frozen at state T_K: C dT/dt = -L T + b (node_system, design by design).
+
+    Returns (C (N,k) J/K, L (N,k,k) W/K, b (N,k) W, g_amb (N,k) W/K, loss_offset_W (N,)), k = N_NODES.
+    g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
+    that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
+    lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
+    """
+    T = _states(T_K)
+    n = T.shape[0]
+    return _node_equations_many(rig.params, T, _f64(inputs.volume_flow_m3_s, n), _f64(inputs.power_W, n),
+                                air_columns())
+
+
 def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None) -> np.ndarray:
     """Node heat capacities (N, N_NODES), J/K; the oil's follows Cragoe's c_p(T) (or oil_cp_J_kgK,
     if the caller has it already)."""
-    cp = rig.oil.specific_heat(T_K[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
-    C = np.empty((T_K.shape[0], N_NODES))
-    C[:, OIL] = oil_node_mass_kg(rig) * cp
-    C[:, WALL] = rig.wall_capacity_J_K
-    C[:, HARDWARE] = rig.hardware_capacity_J_K
-    C[:, HOSE], C[:, HOSE_COVER] = _hose_ring_capacities_J_K(rig)
-    return _capacity_scale(rig) * C
-
-
-def _hose_ring_capacities_J_K(rig: Rig):
-    """(liner, cover) heat capacities, J/K: the hose's split by the liner's share of the rubber."""
-    liner = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
-    return liner, rig.hose_capacity_J_K - liner
-
-
-def _capacity_scale(rig: Rig):
-    """The capacity multiplier, shaped to scale (N, k) node arrays (it may be one per design)."""
-    m = rig.capacity_multiplier
-    return np.asarray(m, dtype=float)[:, None] if np.ndim(m) else m
+    T = _states(T_K)
+    cp = rig.oil.specific_heat(T[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
+    return _per_node_many(0, rig.params, T, _f64(cp, T.shape[0]))
 
 
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     """Sensible enthalpy of each node (N, N_NODES), J, relative to 0 degC; its change is the heat stored."""
-    oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
-    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - 273.15)
-    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - 273.15)
-    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = liner_C * (T_K[:, HOSE] - 273.15)
-    cover = cover_C * (T_K[:, HOSE_COVER] - 273.15)
-    return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, n=T_K.shape[0])
+    T = _states(T_K)
+    return _per_node_many(1, rig.params, T, np.empty(0))
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
-    H = H_J / _capacity_scale(rig)
-    oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
-    wall = H[:, WALL] / rig.wall_capacity_J_K + 273.15
-    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + 273.15
-    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = H[:, HOSE] / liner_C + 273.15
-    cover = H[:, HOSE_COVER] / cover_C + 273.15
-    return _columns(oil, wall, hardware, liner, cover, n=H.shape[0])
+    return _per_node_many(2, rig.params, _states(H_J), np.empty(0))
 
 
 def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
@@ -205,77 +337,6 @@ def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
 def hose_mean_from_share_K(liner_share, T_K: np.ndarray) -> np.ndarray:
     """hose_mean_K from the liner's share of the hose's capacity (a float, or one per design)."""
     return liner_share * T_K[..., HOSE] + (1.0 - liner_share) * T_K[..., HOSE_COVER]
-
-
-def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
-    """The linear system frozen at state T_K: C dT/dt = -L T + b.
-
-    Returns (C (N,k) J/K, L (N,k,k) W/K, b (N,k) W, g_amb (N,k) W/K, loss_offset_W (N,)), k = N_NODES.
-    g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
-    that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
-    lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
-    """
-    n = T_K.shape[0]
-    T_oil, T_wall = T_K[:, OIL], T_K[:, WALL]
-    T_a = rig.ambient_K
-    Q = per_design(inputs.volume_flow_m3_s, n)
-    P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
-    flowing = Q > 0
-    both = rig.oil.transport(_columns(T_oil, 0.5 * (T_oil + T_wall), n=n).T)   # bulk and wall film
-    oil_props, film_props = tuple(p[0] for p in both), tuple(p[1] for p in both)
-    cp, rho = oil_props[2], oil_props[3]
-    mass_flow = rho * Q
-    return_rise = np.where(flowing, P / np.maximum(mass_flow * cp, 1e-30), 0.0)
-
-    G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
-    G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
-    G_ob = rig.hardware_coupling_multiplier * G_ob
-    G_wa, G_ba, G_ha = ambient_conductances_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER])
-    G_lc = hose_ring_link_W_K(rig)
-    G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
-
-    L = np.zeros((n, N_NODES, N_NODES))
-    L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool
-    L[:, WALL, WALL] = G_ow + G_wa
-    L[:, HARDWARE, HARDWARE] = G_ob + G_ba
-    L[:, HOSE, HOSE] = G_oh + G_lc
-    L[:, HOSE_COVER, HOSE_COVER] = G_lc + G_ha
-    L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
-    L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_ob
-    L[:, OIL, HOSE] = L[:, HOSE, OIL] = -G_oh
-    L[:, HOSE, HOSE_COVER] = L[:, HOSE_COVER, HOSE] = -G_lc
-    g_amb = _columns(G_cool, G_wa, G_ba, 0.0, G_ha, n=n)
-    # The bodies and the hose liner see the mean loop oil temperature, bulk + half the return-line rise;
-    # the cooler sees the return line, bulk + the full rise.
-    b = g_amb * ambient_column(T_a)
-    b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh) * return_rise
-    b[:, HARDWARE] += 0.5 * G_ob * return_rise
-    b[:, HOSE] += 0.5 * G_oh * return_rise
-    return heat_capacities_J_K(rig, T_K, cp), L, b, g_amb, G_cool * return_rise
-
-
-def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
-    """Effective cooler conductance, W/K per K of ETD (return-line oil minus ambient air).
-
-    The rating is taken as constant with flow (no flow correction is applied), but it is capped at
-    the oil stream's capacity rate m_dot c_p: a cooler cannot bring the oil below the air. With
-    fan = "always" the cooler has its own circulation and works with the engine off too, at the
-    rated value.
-    """
-    K = np.asarray(rig.cooler_W_K, dtype=float)
-    if not (K > 0).any():
-        return np.zeros_like(np.asarray(capacity_rate_W_K, dtype=float))
-    running = np.where(flowing, np.minimum(K, capacity_rate_W_K), 0.0)
-    if rig.cooler_fan == "always":
-        running = np.where(flowing, running, K)
-    return running
-
-
-def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
-    """Return-line oil temperature minus bulk: P / (m_dot c_p), K; 0 with no flow."""
-    Q = np.asarray(inputs.volume_flow_m3_s, dtype=float)
-    capacity_rate = rig.oil.density_kg_m3(T_oil_K) * Q * rig.oil.specific_heat(T_oil_K)
-    return np.where(Q > 0, inputs.power_W / np.maximum(capacity_rate, 1e-30), 0.0)
 
 
 def cooling_time_constant_s(rig: Rig, T_K: float) -> float:

@@ -1,0 +1,55 @@
+"""The one door to numba: the decorators that compile the physics (`kernel` for functions,
+`ufunc` for scalar correlations that numpy callers use on arrays), with their cache placed where
+this installation can write it.
+
+Compiled code is cached (numba's `cache=True`): the first run on a machine compiles the kernel
+(seconds), later processes load it (README "Performance"). The cache sits in __pycache__ beside
+the modules; where the package's folder is not writable (a system install), in the user's cache
+folder (NUMBA_CACHE_DIR, unless the user has set it).
+"""
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+
+def _cache_dir_if_needed() -> None:
+    if os.environ.get("NUMBA_CACHE_DIR"):
+        return
+    here = Path(__file__).resolve().parent
+    if os.access(here, os.W_OK) and os.access(here / "__pycache__", os.W_OK) or (
+            not (here / "__pycache__").exists() and os.access(here, os.W_OK)):
+        return
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    os.environ["NUMBA_CACHE_DIR"] = os.path.join(base, "thermo_budget", "numba")
+
+
+def _import_numba():
+    """numba, imported without its check of scipy's version: that imports scipy (about 50 ms), which
+    a run otherwise never needs (tests/test_cli.py). scipy stays importable afterwards."""
+    hide = "scipy" not in sys.modules
+    if hide:
+        sys.modules["scipy"] = None          # `import scipy` raises ImportError; numba skips the check
+    try:
+        import numba
+    finally:
+        if hide:
+            del sys.modules["scipy"]
+    return numba
+
+
+_cache_dir_if_needed()
+numba = _import_numba()
+
+
+def kernel(function):
+    """Compile a function of floats and float arrays (nopython, cached)."""
+    return numba.njit(cache=True, error_model="numpy")(function)
+
+
+def ufunc(n_args: int):
+    """Compile a scalar function of n_args floats as a numpy ufunc: numpy callers pass floats or
+    arrays (broadcast), compiled callers floats."""
+    signature = "float64(" + ", ".join(["float64"] * n_args) + ")"
+    return lambda function: numba.vectorize([signature], cache=True)(function)

@@ -13,9 +13,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from .air import air_columns
-from .network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design, return_line_rise_K
+from .network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
 from .session import Resolution, Step, pump_flow_m3_s
-from .substep import advance, decompose_many, propagate_many
+from .substep import advance_step, decompose_many, propagate_many
 
 # A design whose oil passes this temperature is held there and no longer integrated: it is far past
 # any fluid limit the scenario accepts (at most 200 degC) and past the range where the oil and air
@@ -50,27 +50,10 @@ def propagate_linear(C, L, b, T0, h):
     return propagate_decomposed(decompose(C, L), b, T0, h)
 
 
-def advance_substep(rig: Rig, T0, inputs: Inputs, h, predictor=None):
-    """One sub-step for every design (substep.advance): predictor, corrector at the predicted
-    mid-point, energy-exact end state.
-
-    predictor : optional system to predict with (the corrector's of the last sub-step with the same
-        inputs, which the caller keeps); by default the system frozen at T0.
-    Returns (T1 (N,k), heat_in_J (N,), heat_lost_J (N,), return-line rise at T1 (N,) K, the
-    corrector's system).
-    """
-    T0 = np.ascontiguousarray(T0, dtype=float)
-    n, k = T0.shape
-    if predictor is None:
-        system = (np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k, k)),
-                  np.zeros(n, bool))
-    else:
-        system = predictor
-    flow = np.ascontiguousarray(np.broadcast_to(np.asarray(inputs.volume_flow_m3_s, dtype=float), (n,)))
-    power = np.ascontiguousarray(np.broadcast_to(np.asarray(inputs.power_W, dtype=float), (n,)))
-    T1, heat_in, heat_lost, rise = advance(rig.params, T0, flow, power, np.ascontiguousarray(h, dtype=float),
-                                           air_columns(), predictor is not None, *system)
-    return T1, heat_in, heat_lost, rise, system
+def _new_system(n: int, k: int):
+    """Room for the decomposed systems of n designs (substep.advance_step fills it)."""
+    return (np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k, k)),
+            np.zeros(n, bool))
 
 
 def _step_inputs(rig: Rig, step: Step, f0: float, f1: float, power_scale, n: int) -> Inputs:
@@ -145,7 +128,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
     H_start = node_enthalpy_J(rig, T)
-    times, temps, returns, powers, indices = [t.copy()], [T.copy()], [T[:, OIL].copy()], [np.zeros(n_designs)], [-1]
+    times, temps, returns, powers_out, indices = [t.copy()], [T.copy()], [T[:, OIL].copy()], [np.zeros(n_designs)], [-1]
     energy_in = np.zeros(n_designs)
     energy_lost = np.zeros(n_designs)
     pull_start, pull_end = [], []
@@ -161,38 +144,30 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         if step.is_pull:
             pull_start.append(t.copy())
         constant_inputs = step.curve is None
-        corrector = last_system.get(_inputs_key(step)) if constant_inputs else None
-        inputs = _step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs) if constant_inputs else None
+        key = _inputs_key(step) if constant_inputs else None
+        stored = last_system.get(key) if constant_inputs else None
+        system = stored if stored is not None else _new_system(n_designs, N_NODES)
+        if constant_inputs:
+            sub_inputs = [_step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs)] * n_sub
+        else:
+            sub_inputs = [_step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
+                          for k in range(n_sub)]
+        flows = np.array([np.broadcast_to(i.volume_flow_m3_s, (n_designs,)) for i in sub_inputs], dtype=float)
+        powers = np.array([np.broadcast_to(i.power_W, (n_designs,)) for i in sub_inputs], dtype=float)
+        step_temps, rises = advance_step(rig.params, T, held, T_first, flows, powers,
+                                         np.ascontiguousarray(h, dtype=float), air_columns(), constant_inputs,
+                                         stored is not None, give_up_above_K, *system, energy_in, energy_lost)
+        if constant_inputs:
+            last_system[key] = system
         for k in range(n_sub):
-            if not constant_inputs:
-                inputs = _step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
-            any_held = held.any()
-            # a held design is evaluated at its start state (its result is discarded), so that no
-            # correlation is asked about a state far outside its range
-            T_eval = np.where(held[:, None], T_first, T) if any_held else T
-            T_new, q_in, q_lost, rise, corrector = advance_substep(
-                rig, T_eval, inputs, h, corrector if constant_inputs and not any_held else None)
-            if any_held or not np.isfinite(T_new.sum()):
-                bad = held | ~np.all(np.isfinite(T_new), axis=1)
-                T_new = np.where(bad[:, None], T, T_new)
-                q_in, q_lost = np.where(bad, 0.0, q_in), np.where(bad, 0.0, q_lost)
-                held |= bad
-                with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-                    rise = return_line_rise_K(rig, T_new[:, OIL], inputs)
-            if constant_inputs:
-                last_system[_inputs_key(step)] = corrector
-            T = T_new                      # a new array each sub-step: the lists below keep it as it is
-            held |= T[:, OIL] > give_up_above_K
-            energy_in += q_in
-            energy_lost += q_lost
             t = t + h
             times.append(t)
-            temps.append(T)
-            powers.append(inputs.power_W)
-            returns.append(T[:, OIL] + rise if step.flowing else T[:, OIL])
+            temps.append(step_temps[k])
+            powers_out.append(powers[k])
+            returns.append(step_temps[k, :, OIL] + rises[k] if step.flowing else step_temps[k, :, OIL])
             indices.append(index)
-            if stop_above_K is not None:
-                been_above |= T[:, OIL] > stop_above_K
+        if stop_above_K is not None:
+            been_above |= np.any(step_temps[:, :, OIL] > stop_above_K, axis=0)
         if step.is_pull:
             pull_end.append(t.copy())
         if stop_above_K is not None and (been_above.all() or (stop_count is not None
@@ -200,7 +175,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
             break
     stored = np.sum(node_enthalpy_J(rig, T) - H_start, axis=1)
     return Trace(time_s=np.array(times), T_K=np.array(temps), return_K=np.array(returns),
-                 power_W=np.array(powers), step_index=np.array(indices), energy_in_J=energy_in,
+                 power_W=np.array(powers_out), step_index=np.array(indices), energy_in_J=energy_in,
                  energy_lost_J=energy_lost, energy_stored_J=stored,
                  pull_start_s=np.array(pull_start).reshape(-1, n_designs),
                  pull_end_s=np.array(pull_end).reshape(-1, n_designs),

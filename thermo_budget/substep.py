@@ -16,6 +16,10 @@ from .oil import oil_transport
 from .rig_params import AMBIENT, OIL_FIRST
 
 JACOBI_SWEEPS = 50
+# Off-diagonal sum of squares, relative to the whole, at which the rotations stop: off-diagonals at
+# 1e-13 of the norm, so that the step solves a system within 1e-13 of its own (about 1e-9 K on the
+# peaks, against 1e-6 K asked; one sweep fewer than round-off).
+JACOBI_TOLERANCE = 1e-26
 
 
 @kernel
@@ -35,7 +39,7 @@ def jacobi_eigh(A, lam, V):
         for p in range(n):
             for q in range(p + 1, n):
                 off += A[p, q] * A[p, q]
-        if not off > 1e-32 * total:
+        if not off > JACOBI_TOLERANCE * total:
             break
         for p in range(n):
             for q in range(p + 1, n):

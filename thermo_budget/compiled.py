@@ -18,21 +18,24 @@ def _cache_dir_if_needed() -> None:
     if os.environ.get("NUMBA_CACHE_DIR"):
         return
     here = Path(__file__).resolve().parent
-    if os.access(here, os.W_OK) and os.access(here / "__pycache__", os.W_OK) or (
-            not (here / "__pycache__").exists() and os.access(here, os.W_OK)):
+    cache = here / "__pycache__"
+    if os.access(cache, os.W_OK) if cache.exists() else os.access(here, os.W_OK):
         return
     base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
     os.environ["NUMBA_CACHE_DIR"] = os.path.join(base, "thermo_budget", "numba")
 
 
 def _import_numba():
-    """numba, imported without its check of scipy's version: that imports scipy (about 50 ms), which
-    a run otherwise never needs (tests/test_cli.py). scipy stays importable afterwards."""
+    """numba, imported without scipy: numba checks scipy's version on import and looks for scipy's
+    BLAS when it sets up its numpy support (numba.np.arraymath), which a run otherwise never loads
+    (tests/test_cli.py checks it; about 0.1 s). So the kernels use no BLAS (no np.dot, no @ on
+    arrays): they write their loops. scipy stays importable afterwards."""
     hide = "scipy" not in sys.modules
     if hide:
-        sys.modules["scipy"] = None          # `import scipy` raises ImportError; numba skips the check
+        sys.modules["scipy"] = None          # `import scipy...` raises ImportError; numba skips both
     try:
         import numba
+        import numba.np.arraymath  # noqa: F401  (its BLAS check, done now while scipy is hidden)
     finally:
         if hide:
             del sys.modules["scipy"]

@@ -7,6 +7,7 @@ import pytest
 from scipy.constants import Stefan_Boltzmann
 
 import thermo_budget.correlations as corr
+from thermo_budget.compiled import elementwise
 
 PRANDTL = [0.01, 0.1, 0.7, 5.0, 50.0, 500.0]
 RAYLEIGH = [1e-1, 1e2, 1e4, 1e6, 1e8, 1e9, 1e10, 1e12]
@@ -142,7 +143,7 @@ def test_gnielinski_against_ht(Re, Pr):
 
 def test_tube_blend_is_continuous_and_never_below_laminar():
     Re = np.linspace(100.0, 6000.0, 400)
-    Nu = corr.Nu_tube_Hausen_Gnielinski(Re, 100.0, 0.019, 2.5)
+    Nu = elementwise(corr.Nu_tube_Hausen_Gnielinski)(Re, 100.0, 0.019, 2.5)
     assert np.all(Nu >= corr.Nu_tube_laminar_Hausen(np.minimum(Re, 2300.0), 100.0, 0.019, 2.5) - 1e-12)
     assert np.max(np.abs(np.diff(Nu))) < 0.05 * np.max(Nu)
 
@@ -151,7 +152,7 @@ def test_correlations_are_vectorised():
     Ra = np.array([1e4, 1e6, 1e8])
     assert corr.Nu_vertical_plate_Churchill_Chu(Ra, 0.7).shape == (3,)
     assert corr.Nu_horizontal_cylinder_Churchill_Chu(Ra, 0.7).shape == (3,)
-    assert corr.Nu_horizontal_plate_hot_up_McAdams(Ra).shape == (3,)
+    assert elementwise(corr.Nu_horizontal_plate_hot_up_McAdams)(Ra).shape == (3,)
     assert corr.rayleigh(1 / 300.0, np.array([10.0, -10.0]), 0.3, 1.6e-5, 0.7).min() > 0
 
 
@@ -180,7 +181,7 @@ def test_round_jet_centreline_decay_constant():
     assert float(corr.jet_centreline_velocity_Pope(2.0, 0.01, 0.01)) == pytest.approx(2.0)
     # the momentum flux through the jet's cross-section is conserved: u_c x = const
     x = np.array([0.3, 0.6, 1.2])
-    assert np.ptp(corr.jet_centreline_velocity_Pope(2.0, 0.01, x) * x) < 1e-12
+    assert np.ptp(elementwise(corr.jet_centreline_velocity_Pope)(2.0, 0.01, x) * x) < 1e-12
 
 
 def test_horizontal_cylinder_incropera_steam_pipe_example():

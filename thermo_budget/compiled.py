@@ -13,6 +13,8 @@ import os
 import sys
 from pathlib import Path
 
+import numpy as np
+
 
 def _cache_dir_if_needed() -> None:
     if os.environ.get("NUMBA_CACHE_DIR"):
@@ -52,7 +54,23 @@ def kernel(function):
 
 
 def ufunc(n_args: int):
-    """Compile a scalar function of n_args floats as a numpy ufunc: numpy callers pass floats or
-    arrays (broadcast), compiled callers floats."""
-    signature = "float64(" + ", ".join(["float64"] * n_args) + ")"
-    return lambda function: numba.vectorize([signature], cache=True)(function)
+    """Compile a scalar function of n_args floats (a correlation, a property) for compiled callers;
+    numpy callers pass floats, or arrays through `elementwise`. (numba's own ufuncs are rebuilt at
+    every import, seconds of start-up; these load from the cache.)"""
+    return kernel
+
+
+def elementwise(function):
+    """A compiled scalar function applied to floats or arrays (broadcast) from numpy: a float where
+    every argument is one, else an array of their broadcast shape."""
+    def apply(*args):
+        if all(np.ndim(a) == 0 for a in args):
+            return function(*(float(a) for a in args))
+        shaped = np.broadcast_arrays(*[np.asarray(a, dtype=float) for a in args])
+        out = np.empty(shaped[0].shape)
+        flat = [a.ravel() for a in shaped]
+        for i in range(out.size):
+            out.flat[i] = function(*(float(a[i]) for a in flat))
+        return out
+    apply.__doc__ = function.__doc__
+    return apply

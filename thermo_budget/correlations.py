@@ -1,9 +1,8 @@
 """Heat-transfer correlations, each named after its authors.
 
-Each is written once, for one set of floats, and compiled as a numpy ufunc (compiled.ufunc): numpy
-callers pass floats or arrays, the compiled network (conductances.py) calls the same function on
-floats. So a correlation is plain float arithmetic: `if` in place of np.where, math in place of
-numpy's array functions.
+Each is written once, for one set of floats, and compiled (compiled.ufunc): the compiled network
+(conductances.py) calls it on floats, numpy callers on floats, or on arrays through
+compiled.elementwise. So a correlation is plain float arithmetic (`if` in place of np.where).
 
 Nusselt numbers are dimensionless; h = Nu k / L is formed by the caller. Rayleigh numbers use
 Ra = g beta dT L^3 / (nu alpha) = Gr Pr.
@@ -14,7 +13,7 @@ import math
 
 import numpy as np
 
-from .compiled import ufunc
+from .compiled import ufunc  # noqa: F401  (the decorator of every correlation)
 
 G_m_s2 = 9.80665
 STEFAN_BOLTZMANN_W_m2K4 = 5.670374419e-8
@@ -25,7 +24,7 @@ JET_DECAY_B = 5.8              # round jet's centreline decay constant (Pope 200
 @ufunc(5)
 def rayleigh(beta_per_K, delta_T_K, length_m, nu_m2_s, prandtl):
     """Ra = g beta |dT| L^3 Pr / nu^2 (dimensionless)."""
-    return G_m_s2 * beta_per_K * abs(delta_T_K) * length_m**3 * prandtl / nu_m2_s**2
+    return G_m_s2 * beta_per_K * np.abs(delta_T_K) * length_m**3 * prandtl / nu_m2_s**2
 
 
 @ufunc(2)

@@ -1,9 +1,9 @@
 """Mineral hydraulic oil: viscosity, specific heat, conductivity, density.
 
 Temperatures are in K, kinematic viscosities in cSt (mm^2/s) unless a name says otherwise. The
-property functions the network evaluates are compiled ufuncs (compiled.ufunc: floats or arrays from
-numpy, floats from the compiled network), and `oil_transport` is the one place that puts them
-together; `Oil` hands them its coefficients (`Oil.params`, in the order of OIL_PARAMS).
+property functions the network evaluates are compiled functions of floats (the compiled network
+calls them; `Oil`'s methods run them over arrays in compiled loops), and `oil_transport` is the one
+place that puts them together; `Oil` hands them its coefficients (`Oil.params`, OIL_PARAMS).
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .compiled import kernel, ufunc
+from .compiled import kernel
 from .errors import ScenarioError
 
 T40_K = 313.15
@@ -51,10 +51,10 @@ def walther_coefficients(T1_K: float, nu1_cSt: float, T2_K: float, nu2_cSt: floa
     return float(A), float(B)
 
 
-@ufunc(3)
+@kernel
 def walther_viscosity_cSt(T_K, A, B):
     """ASTM D341: kinematic viscosity (cSt) at temperature T_K (K)."""
-    return 10.0 ** (10.0 ** (A - B * math.log10(T_K))) - 0.7
+    return 10.0 ** (10.0 ** (A - B * np.log10(T_K))) - 0.7
 
 
 def walther_temperature_K(nu_cSt: float, A: float, B: float) -> float:
@@ -123,7 +123,7 @@ def cragoe_specific_heat_J_kgK(T_K, specific_gravity_60F: float):
     return (0.388 + 0.00045 * t_F) / np.sqrt(specific_gravity_60F) * BTU_PER_LB_F_IN_J_KGK
 
 
-@ufunc(2)
+@kernel
 def cragoe_conductivity_W_mK(T_K, specific_gravity_60F):
     """Cragoe (NBS Misc. Publ. 97, 1929): k = (0.813 / s)(1 - 0.0003 (t - 32)) Btu·in/(h·ft²·°F).
 
@@ -133,20 +133,20 @@ def cragoe_conductivity_W_mK(T_K, specific_gravity_60F):
     return 0.813 / specific_gravity_60F * (1.0 - 0.0003 * (t_F - 32.0)) * BTU_IN_PER_HR_FT2_F_IN_W_MK
 
 
-@ufunc(3)
+@kernel
 def linear_specific_heat_J_kgK(T_K, a, b):
     """c_p = a + b (T - 273.15 K), J/(kg K) (Cragoe's c_p is linear in t)."""
     return a + b * (T_K - 273.15)
 
 
-@ufunc(3)
+@kernel
 def linear_enthalpy_J_kg(T_K, a, b):
     """Sensible enthalpy relative to 0 degC of c_p = a + b t: a t + b t^2 / 2, J/kg."""
     t = T_K - 273.15
     return a * t + 0.5 * b * t * t
 
 
-@ufunc(3)
+@kernel
 def linear_temperature_from_enthalpy_K(h_J_kg, a, b):
     """Inverse of linear_enthalpy_J_kg, K."""
     if b == 0.0:
@@ -154,7 +154,7 @@ def linear_temperature_from_enthalpy_K(h_J_kg, a, b):
     return (-a + math.sqrt(a * a + 2.0 * b * h_J_kg)) / b + 273.15
 
 
-@ufunc(3)
+@kernel
 def expanded_density_kg_m3(T_K, density_15C_kg_m3, expansion_per_K):
     """Density at T_K from the density at 15 degC and the volumetric expansion coefficient, kg/m^3."""
     return density_15C_kg_m3 / (1.0 + expansion_per_K * (T_K - T15_K))
@@ -183,6 +183,30 @@ def _transport_many(q, T_K):
     for i in range(T_K.size):
         out[0, i], out[1, i], out[2, i], out[3, i], out[4, i] = oil_transport(q, T_K[i])
     return out
+
+
+@kernel
+def _property_many(which, a, b, x):
+    """For numpy callers: 0 c_p, 1 enthalpy, 2 temperature from enthalpy, 3 density, of each x, with
+    the property's two coefficients a, b."""
+    out = np.empty(x.size)
+    for i in range(x.size):
+        if which == 0:
+            out[i] = linear_specific_heat_J_kgK(x[i], a, b)
+        elif which == 1:
+            out[i] = linear_enthalpy_J_kg(x[i], a, b)
+        elif which == 2:
+            out[i] = linear_temperature_from_enthalpy_K(x[i], a, b)
+        else:
+            out[i] = expanded_density_kg_m3(x[i], a, b)
+    return out
+
+
+def _property(which, a, b, x):
+    """_property_many on a float or an array (of any shape)."""
+    X = np.asarray(x, dtype=float)
+    out = _property_many(which, float(a), float(b), np.ascontiguousarray(X.ravel())).reshape(X.shape)
+    return out if X.ndim else float(out)
 
 
 @dataclass(frozen=True)
@@ -223,7 +247,7 @@ class Oil:
         return walther_temperature_K(nu_cSt, A, B)
 
     def density_kg_m3(self, T_K):
-        return expanded_density_kg_m3(T_K, self.density_15C_kg_m3, self.expansion_per_K)
+        return _property(3, self.density_15C_kg_m3, self.expansion_per_K, T_K)
 
     @cached_property
     def cp_coefficients(self) -> tuple[float, float]:
@@ -235,15 +259,15 @@ class Oil:
         return c0, c1
 
     def specific_heat(self, T_K):
-        return linear_specific_heat_J_kgK(T_K, *self.cp_coefficients)
+        return _property(0, *self.cp_coefficients, T_K)
 
     def specific_enthalpy_J_kg(self, T_K):
         """Sensible enthalpy (J/kg) relative to 0 degC: the integral of c_p."""
-        return linear_enthalpy_J_kg(T_K, *self.cp_coefficients)
+        return _property(1, *self.cp_coefficients, T_K)
 
     def temperature_from_enthalpy_K(self, h_J_kg):
         """Inverse of specific_enthalpy_J_kg."""
-        return linear_temperature_from_enthalpy_K(h_J_kg, *self.cp_coefficients)
+        return _property(2, *self.cp_coefficients, h_J_kg)
 
     def conductivity(self, T_K):
         if self.conductivity_W_mK is not None:

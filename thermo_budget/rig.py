@@ -13,6 +13,7 @@ import numpy as np
 from .correlations import cylinder_wall_conductance_W_K
 from .materials import HOSE_WALL
 from .oil import Oil
+from .rig_params import pack
 
 PerDesign = float | np.ndarray   # a float, the same for every design, or an array of shape (N,), one per design
 
@@ -181,3 +182,8 @@ class Rig:
         """The parts of the conductances that depend on the geometry only, worked out once per rig
         (constant_parts); a changed rig is a new object and works them out again."""
         return constant_parts(self)
+
+    @cached_property
+    def params(self) -> np.ndarray:
+        """The rig as the compiled network reads it: rows of floats (rig_params.pack)."""
+        return pack(self)

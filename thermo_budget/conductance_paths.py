@@ -174,4 +174,6 @@ def cooler_W_K(rig, flowing, capacity_rate_W_K):
 
 def return_line_rise_K(rig, T_oil_K, inputs):
     """Return-line oil temperature minus bulk: P / (m_dot c_p), K; 0 with no flow."""
-    return _run(_RETURN_RISE, rig, T_oil_K, inputs.volume_flow_m3_s, inputs.power_W)[0]
+    out = _run(_RETURN_RISE, rig, T_oil_K, inputs.volume_flow_m3_s, inputs.power_W)[0]
+    shape = np.broadcast(np.asarray(T_oil_K), np.asarray(inputs.volume_flow_m3_s), np.asarray(inputs.power_W)).shape
+    return out.reshape(shape) if out.size == int(np.prod(shape)) else out

@@ -20,11 +20,12 @@ from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
 # Peak memory of a sweep per design: a fixed part, a part per recorded point of the planned session
 # and a part per sub-step of one cycle (the sustainability search runs the cycle for 6 copies of each
 # design, and the count runs it on). Measured as the peak resident size over the resident size
-# before the sweep, in a fresh process, 10,000 designs: the default scenario at 4 and 31 session
-# points (3 per cycle) 14.5 and 16.6 kB a design, the plastic tank (61, 10) 34.6 kB.
-SWEEP_BYTES_PER_DESIGN = 7_500
+# before the sweep, in a fresh process, six nodes, 10,000 and 20,000 designs: the default scenario
+# (31 session points, 3 per cycle) 21.8 kB a design, the plastic tank (61, 10) 27.9-28.9 kB; the
+# per-point part kept from the five-node fit.
+SWEEP_BYTES_PER_DESIGN = 17_500
 SWEEP_BYTES_PER_POINT = 80
-SWEEP_BYTES_PER_CYCLE_POINT = 2_250
+SWEEP_BYTES_PER_CYCLE_POINT = 600
 MAX_SWEEP_BYTES = 256 * 2**20
 
 

@@ -1,23 +1,16 @@
-"""A rig as the compiled network reads it: one row of floats per design (`pack`), each column named
+"""A rig as the compiled network reads it: one row of floats per design (rig.pack), each column named
 by an index constant here, the oil's coefficients (oil.OIL_PARAMS) at the end from OIL_FIRST on.
 
 A rig whose fields are floats packs to one row that serves any number of states; one whose fields
-hold N designs packs to N rows. Geometry-only parts of the conductances (conductances.constant_parts)
-are worked out here once per rig, not at every evaluation.
+hold N designs packs to N rows. Geometry-only parts of the conductances (rig.constant_parts)
+are worked out once per rig, not at every evaluation.
 """
 from __future__ import annotations
-
-from typing import TYPE_CHECKING
-
-import numpy as np
 
 # A floor under the loop oil's mass, so that a rig built without loop oil keeps a finite node.
 LOOP_OIL_MIN_KG = 1e-4
 
-if TYPE_CHECKING:
-    from .rig import Rig
-
-# (column, where its value comes from: a Rig field, or a key of conductances.constant_parts)
+# (column, where its value comes from: a Rig field, or a key of rig.constant_parts)
 PARAMS = (
     ("OIL_NODE_MASS", "oil_mass_kg"),        # kg: the reservoir's oil (the OIL node)
     ("LOOP_OIL_MASS", None),                 # kg: the loop's oil (the LOOP_OIL node, network.loop_oil_node_mass_kg)
@@ -84,23 +77,3 @@ PARAMS = (
  HEAD_SPACE, HALF_WALL, BOTTOM_RA_RATIO, DRY_AREA, WALL_KT, HOSE_AREA, HOSE_INNER_G, HOSE_LINK_G, HOSE_OUTER_G,
  HOSE_LINER_SHARE) = range(len(PARAMS))
 OIL_FIRST = len(PARAMS)
-
-
-def pack(rig: "Rig") -> np.ndarray:
-    """The rig as rows of floats (n, OIL_FIRST + len(oil.OIL_PARAMS)), n = 1 or its number of designs."""
-    parts = rig.constants
-    values = []
-    for name, source in PARAMS:
-        if name == "LOOP_OIL_MASS":
-            values.append(np.maximum(rig.loop_oil_mass_kg, LOOP_OIL_MIN_KG))
-        elif name == "COOLER_ALWAYS":
-            values.append(1.0 if rig.cooler_fan == "always" else 0.0)
-        else:
-            values.append(parts[source] if source in parts else getattr(rig, source))
-    n = max(int(np.size(v)) for v in values)
-    oil = rig.oil.params
-    out = np.empty((n, OIL_FIRST + oil.size))
-    for j, value in enumerate(values):
-        out[:, j] = np.ravel(value)
-    out[:, OIL_FIRST:] = oil
-    return out

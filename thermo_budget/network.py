@@ -5,7 +5,7 @@
 Nodes (NODE_NAMES): the tank's oil, the reservoir wall, the loop's metal bodies (pump, valve,
 manifold and fittings, wetted inside), the hoses' wall (rubber and braid) as two rings: the liner
 (HOSE, the inner fifth of the wall, touched by the oil) and the cover (HOSE_COVER, the rest, to the
-air; see conductances.hose_rings_m for the rule and why), and the loop's oil (LOOP_OIL, in the hoses
+air; see rig.hose_rings_m for the rule and why), and the loop's oil (LOOP_OIL, in the hoses
 and bodies; see still_paths for why it is a node of its own).
 The system of one design is assembled in compiled code (node_system: one line per path); the
 numpy-facing functions run it over the designs.

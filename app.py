@@ -32,4 +32,3 @@ page_sections.files(page, slots)
 page_sections.more_figures(page)
 page_log.section(page)
 page_sections.design_chart(page, slots)   # the slowest part, last, into its place; then the hot day
-page_state.worker()                       # started once the first page is up, ready for the next change

@@ -352,11 +352,11 @@ def outer_air(rig, hose: HoseWall, n_cells: int):
     """The outer face to the air, for `simulate(outer=...)`: the package's own coefficient of the
     hoses' outside (natural convection on a horizontal cylinder by Churchill and Chu, combined with
     the rig's air speed by Churchill 1977, times the rig's convection multiplier, plus grey radiation,
-    Incropera eqs. 1.7-1.9), read off the production path (conductances.ambient_conductances_W_K,
+    Incropera eqs. 1.7-1.9), read off the production path (network.ambient_conductances_W_K,
     whose hose conductance is that coefficient over the outside area in series with the rubber from
     the cover's centre), in series with the outer half of the outermost ring; the surface taken at
     the ring's temperature."""
-    from thermo_budget.conductances import ambient_conductances_W_K
+    from thermo_budget.network import ambient_conductances_W_K
     from thermo_budget.rig import hose_rings_m
     from thermo_budget.correlations import cylinder_wall_conductance_W_K
     from thermo_budget.materials import HOSE_WALL
@@ -456,7 +456,7 @@ def session_figures(rig, steps, trace, n_cells=40):
     conductance, trapezoidal over the trace) and resolved, cases A and B (one-way, driven by the
     trace), the bodies' extra heat from their standing oil, and the bulk shift each implies
     (-extra heat / C_oil, K). The bodies' replica has no loss to the air: its B - A is the figure."""
-    from thermo_budget.conductances import hose_to_ambient_W_K
+    from thermo_budget.network import hose_to_ambient_W_K
     from thermo_budget.materials import HOSE_WALL
     from thermo_budget.network import HOSE_COVER, OIL, heat_capacities_J_K
     end_s = float(trace.time_s[-1, 0])

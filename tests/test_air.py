@@ -92,7 +92,7 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
     # (ht.conv_free_immersed.Nu_vertical_plate_Churchill) on CoolProp's properties.
     from CoolProp.HumidAirProp import HAPropsSI
     from ht.conv_free_immersed import Nu_vertical_plate_Churchill
-    from thermo_budget.conductances import air_side_h_W_m2K
+    from thermo_budget.network import air_side_h_W_m2K
     from thermo_budget.rig_build import build_rig
     from thermo_budget.scenario import load_scenario
     from conftest import base_raw

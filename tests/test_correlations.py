@@ -7,6 +7,7 @@ import pytest
 from scipy.constants import Stefan_Boltzmann
 
 import thermo_budget.correlations as corr
+from thermo_budget.compiled import elementwise
 
 PRANDTL = [0.01, 0.1, 0.7, 5.0, 50.0, 500.0]
 RAYLEIGH = [1e-1, 1e2, 1e4, 1e6, 1e8, 1e9, 1e10, 1e12]
@@ -157,14 +158,14 @@ def test_gnielinski_against_ht(Re, Pr):
 
 def test_tube_blend_is_continuous_and_never_below_laminar():
     Re = np.linspace(100.0, 6000.0, 400)
-    Nu = corr.Nu_tube_Hausen_Gnielinski(Re, 100.0, 0.019, 2.5)
+    Nu = elementwise(corr.Nu_tube_Hausen_Gnielinski)(Re, 100.0, 0.019, 2.5)
     assert np.all(Nu >= corr.Nu_tube_laminar_Hausen(np.minimum(Re, 2300.0), 100.0, 0.019, 2.5) - 1e-12)
     assert np.max(np.abs(np.diff(Nu))) < 0.05 * np.max(Nu)
 
 
 def test_correlations_are_vectorised():
-    # One call over an array gives, element by element, ht's scalar answers (the network evaluates
-    # every design in one call, so a wrong broadcast would mix designs).
+    # One call over an array (numpy's arithmetic, or compiled.elementwise where the correlation
+    # branches) gives, element by element, ht's scalar answers: a wrong broadcast would mix designs.
     Ra = np.array([1e4, 1e6, 1e8, 1e10])
     Pr = np.array([0.7, 5.0, 0.7, 50.0])
     np.testing.assert_allclose(corr.Nu_vertical_plate_Churchill_Chu(Ra, Pr),
@@ -172,11 +173,11 @@ def test_correlations_are_vectorised():
     np.testing.assert_allclose(corr.Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr),
                                [ht.Nu_horizontal_cylinder_Churchill_Chu(p, r / p) for r, p in zip(Ra, Pr)], rtol=1e-10)
     # hot face up switches form at Ra = 1e7 per element, not once for the array
-    np.testing.assert_allclose(corr.Nu_horizontal_plate_hot_up_McAdams(Ra),
+    np.testing.assert_allclose(elementwise(corr.Nu_horizontal_plate_hot_up_McAdams)(Ra),
                                [ht.Nu_horizontal_plate_McAdams(0.7, r / 0.7, buoyancy=True) for r in Ra], rtol=1e-10)
     Re = np.array([100.0, 1500.0, 2900.0, 2e4])
-    blend = corr.Nu_tube_Hausen_Gnielinski(Re, 100.0, 0.019, 2.5)
-    np.testing.assert_array_equal(blend, [float(corr.Nu_tube_Hausen_Gnielinski(np.array([r]), 100.0, 0.019, 2.5)[0])
+    blend = elementwise(corr.Nu_tube_Hausen_Gnielinski)(Re, 100.0, 0.019, 2.5)
+    np.testing.assert_array_equal(blend, [float(corr.Nu_tube_Hausen_Gnielinski(r, 100.0, 0.019, 2.5))
                                           for r in Re])
     # Rayleigh takes |dT|: a plate 209 K colder than the air drives the same flow as one 209 K
     # hotter; Incropera, 6th ed., Example 9.2 gives Ra_L = 1.813e9 (from memory of the book)
@@ -209,7 +210,7 @@ def test_round_jet_centreline_decay_constant():
     assert float(corr.jet_centreline_velocity_Pope(2.0, 0.01, 0.01)) == pytest.approx(2.0)
     # the momentum flux through the jet's cross-section is conserved: u_c x = const
     x = np.array([0.3, 0.6, 1.2])
-    assert np.ptp(corr.jet_centreline_velocity_Pope(2.0, 0.01, x) * x) < 1e-12
+    assert np.ptp(elementwise(corr.jet_centreline_velocity_Pope)(2.0, 0.01, x) * x) < 1e-12
 
 
 def test_horizontal_cylinder_incropera_steam_pipe_example():

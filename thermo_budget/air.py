@@ -3,7 +3,7 @@
 The table (`data/air_1atm.csv`, 220-600 K every 2 K) is written from CoolProp by
 `python tools/make_air_table.py` and shipped with the package, so a run never loads
 CoolProp (seconds of start-up); tests/test_air.py regenerates it and checks it against CoolProp.
-The ODE right-hand side and the sweeps use np.interp on the table.
+The network reads the columns in compiled code (air_at); numpy callers use air_properties.
 
 Air at another pressure (a stand at altitude) or with water vapour: `air_columns` computes the same
 table once per scenario from CoolProp's humid-air functions (HAPropsSI), at the scenario's
@@ -17,9 +17,12 @@ from pathlib import Path
 
 import numpy as np
 
+from .compiled import kernel
+
 P_ATM_Pa = 101325.0
 TABLE_STEP_K = 2.0
-TABLE_T_K = np.arange(220.0, 602.0, TABLE_STEP_K)
+TABLE_FIRST_K = 220.0
+TABLE_T_K = np.arange(TABLE_FIRST_K, 602.0, TABLE_STEP_K)
 TABLE_PATH = Path(__file__).resolve().parent / "data" / "air_1atm.csv"
 TABLE_COLUMNS = ("T_K", "k_W_mK", "nu_m2_s", "Pr")
 
@@ -32,28 +35,55 @@ def air_table() -> dict[str, np.ndarray]:
 
 
 def air_properties(T_film_K, columns=None):
-    """Air properties at the film temperature T_film_K (K), by linear interpolation in the table
-    (held at the table's ends outside it). columns : the (3, rows) k, nu, Pr of another air on the
-    same temperatures (air_columns), or None for standard air (the shipped table).
+    """Air properties at the film temperature T_film_K (K, a float or an array), by linear
+    interpolation in the table (held at the table's ends outside it; air_at). columns : the (3, rows)
+    k, nu, Pr of another air on the same temperatures (air_columns), or None for standard air.
 
     Returns (k W/(m K), nu m^2/s, Pr, beta 1/K); beta = 1/T for an ideal gas.
     """
-    columns = _stacked_columns() if columns is None else columns
-    # fmin/fmax: a NaN film temperature reads the table's first row (the NaN stays in dT downstream)
-    T = np.fmin(np.fmax(T_film_K, TABLE_T_K[0]), TABLE_T_K[-1])
-    x = (T - TABLE_T_K[0]) / TABLE_STEP_K
-    i = np.minimum(x.astype(int), TABLE_T_K.size - 2)     # the interval holding T (x >= 0)
+    T = np.asarray(T_film_K, dtype=float)
+    out = _air_many(np.ascontiguousarray(T.ravel()), air_or_standard(columns))
+    return tuple(row.reshape(T.shape) for row in out)
+
+
+@kernel
+def air_at(T_film_K, columns):
+    """(k W/(m K), nu m^2/s, Pr, beta 1/K) of air at T_film_K from the table's columns
+    (air_or_standard), linear between its rows, held at its ends; a NaN film temperature reads the
+    first row (the NaN stays in the temperature difference downstream)."""
+    T = T_film_K
+    if not T >= TABLE_FIRST_K:
+        T = TABLE_FIRST_K
+    last = TABLE_FIRST_K + TABLE_STEP_K * (columns.shape[1] - 1)
+    if T > last:
+        T = last
+    x = (T - TABLE_FIRST_K) / TABLE_STEP_K
+    i = min(int(x), columns.shape[1] - 2)
     f = x - i
-    low, high = columns[:, i], columns[:, i + 1]
-    k, nu, pr = low + f * (high - low)
+    k = columns[0, i] + f * (columns[0, i + 1] - columns[0, i])
+    nu = columns[1, i] + f * (columns[1, i + 1] - columns[1, i])
+    pr = columns[2, i] + f * (columns[2, i + 1] - columns[2, i])
     return k, nu, pr, 1.0 / T
 
 
+@kernel
+def _air_many(T_K, columns):
+    out = np.empty((4, T_K.size))
+    for j in range(T_K.size):
+        out[0, j], out[1, j], out[2, j], out[3, j] = air_at(T_K[j], columns)
+    return out
+
+
 @lru_cache(maxsize=1)
-def _stacked_columns() -> np.ndarray:
-    """(3, rows) k, nu and Pr of the table, for one gather per lookup."""
+def standard_air_columns() -> np.ndarray:
+    """(3, rows) k, nu and Pr of the shipped table (standard air), the compiled network's argument."""
     table = air_table()
-    return np.stack([table["k_W_mK"], table["nu_m2_s"], table["Pr"]])
+    return np.ascontiguousarray(np.stack([table["k_W_mK"], table["nu_m2_s"], table["Pr"]]))
+
+
+def air_or_standard(columns) -> np.ndarray:
+    """The columns a rig's air reads (Rig.air_columns), the shipped table's where that is None."""
+    return standard_air_columns() if columns is None else columns
 
 
 def standard_pressure_Pa(altitude_m):
@@ -94,5 +124,5 @@ def air_columns(pressure_Pa: float, relative_humidity: float, ambient_K: float):
         rho = (1.0 + W) / HAPropsSI("Vha", "T", T, "P", pressure_Pa, "W", W)
         cp = HAPropsSI("cp_ha", "T", T, "P", pressure_Pa, "W", W)
         columns[:, i] = k, mu / rho, mu * cp / k
-    columns.setflags(write=False)
+    columns = np.ascontiguousarray(columns)
     return columns

@@ -1,4 +1,8 @@
-"""Heat-transfer correlations, each named after its authors. All are vectorised over numpy arrays.
+"""Heat-transfer correlations, each named after its authors.
+
+Each is written once, for one set of floats, and compiled (compiled.ufunc): the compiled network
+(conductances.py) calls it on floats, numpy callers on floats, or on arrays through
+compiled.elementwise. So a correlation is plain float arithmetic (`if` in place of np.where).
 
 Nusselt numbers are dimensionless; h = Nu k / L is formed by the caller. Rayleigh numbers use
 Ra = g beta dT L^3 / (nu alpha) = Gr Pr.
@@ -10,12 +14,19 @@ the docstring says so, and tests/test_correlations.py checks the doctest's value
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
+
+from .compiled import ufunc  # noqa: F401  (the decorator of every correlation)
 
 G_m_s2 = 9.80665
 STEFAN_BOLTZMANN_W_m2K4 = 5.670374419e-8
+PLATE_TRANSITION_RE = 5e5      # laminar to mixed boundary layer on a flat plate (Incropera sec. 7.2)
+JET_DECAY_B = 5.8              # round jet's centreline decay constant (Pope 2000, Table 5.1)
 
 
+@ufunc(5)
 def rayleigh(beta_per_K, delta_T_K, length_m, nu_m2_s, prandtl):
     """Ra = g beta |dT| L^3 Pr / nu^2 (dimensionless).
 
@@ -29,6 +40,7 @@ def rayleigh(beta_per_K, delta_T_K, length_m, nu_m2_s, prandtl):
     return G_m_s2 * beta_per_K * np.abs(delta_T_K) * length_m**3 * prandtl / nu_m2_s**2
 
 
+@ufunc(2)
 def Nu_vertical_plate_Churchill_Chu(Ra, Pr):
     """Isothermal vertical plate, natural convection, all Ra (laminar and turbulent).
 
@@ -45,9 +57,10 @@ def Nu_vertical_plate_Churchill_Chu(Ra, Pr):
     147.2
     """
     psi = (1.0 + (0.492 / Pr) ** (9.0 / 16.0)) ** (8.0 / 27.0)
-    return (0.825 + 0.387 * np.asarray(Ra) ** (1.0 / 6.0) / psi) ** 2
+    return (0.825 + 0.387 * Ra ** (1.0 / 6.0) / psi) ** 2
 
 
+@ufunc(2)
 def Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr):
     """Isothermal long horizontal cylinder (a hose), natural convection, Ra_D < 1e12.
 
@@ -63,9 +76,10 @@ def Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr):
     23.1
     """
     psi = (1.0 + (0.559 / Pr) ** (9.0 / 16.0)) ** (8.0 / 27.0)
-    return (0.60 + 0.387 * np.asarray(Ra) ** (1.0 / 6.0) / psi) ** 2
+    return (0.60 + 0.387 * Ra ** (1.0 / 6.0) / psi) ** 2
 
 
+@ufunc(1)
 def Nu_horizontal_plate_hot_up_McAdams(Ra):
     """Upper face of a hot plate (or lower face of a cold one), natural convection.
 
@@ -80,10 +94,12 @@ def Nu_horizontal_plate_hot_up_McAdams(Ra):
     >>> round(float(Nu_horizontal_plate_hot_up_McAdams(1.38e8)) * 0.0265 / 0.375, 1)
     5.5
     """
-    Ra = np.asarray(Ra)
-    return np.where(Ra <= 1e7, 0.54 * Ra**0.25, 0.15 * Ra ** (1.0 / 3.0))
+    if Ra <= 1e7:
+        return 0.54 * Ra**0.25
+    return 0.15 * Ra ** (1.0 / 3.0)
 
 
+@ufunc(1)
 def Nu_horizontal_plate_hot_down_McAdams(Ra):
     """Lower face of a hot plate (or upper face of a cold one), natural convection.
 
@@ -96,13 +112,14 @@ def Nu_horizontal_plate_hot_down_McAdams(Ra):
     >>> round(float(Nu_horizontal_plate_hot_down_McAdams(1.38e8)) * 0.0265 / 0.375, 2)
     2.07
     """
-    return 0.27 * np.asarray(Ra) ** 0.25
+    return 0.27 * Ra**0.25
 
 
-def Nu_flat_plate_forced_Incropera(Re, Pr, Re_transition=5e5):
+@ufunc(2)
+def Nu_flat_plate_forced_Incropera(Re, Pr):
     """Forced flow along a flat plate, average Nusselt number over length L.
 
-    Laminar (Re <= 5e5): Nu = 0.664 Re^(1/2) Pr^(1/3); mixed boundary layer above it:
+    Laminar (Re <= PLATE_TRANSITION_RE = 5e5): Nu = 0.664 Re^(1/2) Pr^(1/3); mixed boundary layer above it:
     Nu = (0.037 Re^(4/5) - 871) Pr^(1/3). Valid for 0.6 < Pr < 60.
     Reference: Incropera, 6th ed., eqs. 7.30 and 7.38.
 
@@ -114,13 +131,13 @@ def Nu_flat_plate_forced_Incropera(Re, Pr, Re_transition=5e5):
     >>> round(float(Nu_flat_plate_forced_Incropera(9597.0, 0.687)) * 0.0364 / 0.5, 2)
     4.18
     """
-    Re = np.asarray(Re)
-    laminar = 0.664 * np.sqrt(Re) * Pr ** (1.0 / 3.0)
-    mixed = (0.037 * Re**0.8 - 871.0) * Pr ** (1.0 / 3.0)
-    return np.where(Re <= Re_transition, laminar, mixed)
+    if Re <= PLATE_TRANSITION_RE:
+        return 0.664 * math.sqrt(Re) * Pr ** (1.0 / 3.0)
+    return (0.037 * Re**0.8 - 871.0) * Pr ** (1.0 / 3.0)
 
 
-def Nu_combined_Churchill(Nu_forced, Nu_natural, n=3.0):
+@ufunc(2)
+def Nu_combined_Churchill(Nu_forced, Nu_natural):
     """Mixed convection, assisting or transverse flow: Nu^n = Nu_F^n + Nu_N^n, n = 3 for plates.
 
     Reference: Churchill (1977), AIChE J. 23, 10-16; Incropera, 6th ed., eq. 9.62.
@@ -131,9 +148,10 @@ def Nu_combined_Churchill(Nu_forced, Nu_natural, n=3.0):
     >>> round(float(Nu_combined_Churchill(3.0, 4.0)), 4)
     4.4979
     """
-    return (np.asarray(Nu_forced) ** n + np.asarray(Nu_natural) ** n) ** (1.0 / n)
+    return (Nu_forced**3.0 + Nu_natural**3.0) ** (1.0 / 3.0)
 
 
+@ufunc(3)
 def h_radiation_grey(emissivity, T_surface_K, T_surroundings_K):
     """Linearised grey-body radiation to large surroundings, W/(m^2 K).
 
@@ -178,6 +196,7 @@ def cylinder_wall_conductance_W_K(inner_diameter_m, outer_diameter_m, length_m, 
     return 2.0 * np.pi * conductivity_W_mK * length_m / np.log(outer_diameter_m / inner_diameter_m)
 
 
+@ufunc(4)
 def Nu_tube_laminar_Hausen(Re, Pr, diameter_m, length_m):
     """Laminar tube flow, thermal entry length, constant wall temperature, average Nusselt number.
 
@@ -190,10 +209,11 @@ def Nu_tube_laminar_Hausen(Re, Pr, diameter_m, length_m):
     >>> round(float(Nu_tube_laminar_Hausen(1000.0, 300.0, 0.02, 2.0)), 2)
     25.16
     """
-    Gz = diameter_m / length_m * np.asarray(Re) * Pr
+    Gz = diameter_m / length_m * Re * Pr
     return 3.66 + 0.0668 * Gz / (1.0 + 0.04 * Gz ** (2.0 / 3.0))
 
 
+@ufunc(2)
 def Nu_tube_turbulent_Gnielinski(Re, Pr):
     """Turbulent tube flow, smooth wall: Nu = (f/8)(Re - 1000) Pr / (1 + 12.7 (f/8)^(1/2) (Pr^(2/3) - 1)),
     with f = (0.790 ln Re - 1.64)^-2 (Petukhov). 3000 < Re < 5e6, 0.5 < Pr < 2000.
@@ -205,21 +225,23 @@ def Nu_tube_turbulent_Gnielinski(Re, Pr):
     >>> round(float(Nu_tube_turbulent_Gnielinski(1e4, 7.0)), 1)
     79.5
     """
-    Re = np.maximum(np.asarray(Re, dtype=float), 3000.0)
-    f = (0.790 * np.log(Re) - 1.64) ** -2
-    return (f / 8.0) * (Re - 1000.0) * Pr / (1.0 + 12.7 * np.sqrt(f / 8.0) * (Pr ** (2.0 / 3.0) - 1.0))
+    Re = max(Re, 3000.0)
+    f = (0.790 * math.log(Re) - 1.64) ** -2
+    return (f / 8.0) * (Re - 1000.0) * Pr / (1.0 + 12.7 * math.sqrt(f / 8.0) * (Pr ** (2.0 / 3.0) - 1.0))
 
 
+@ufunc(4)
 def Nu_tube_Hausen_Gnielinski(Re, Pr, diameter_m, length_m):
     """Tube flow over all Re: Hausen below 2300, Gnielinski above 3000, linear blend between."""
-    laminar = Nu_tube_laminar_Hausen(np.minimum(Re, 2300.0), Pr, diameter_m, length_m)
-    if np.max(Re) <= 2300.0:
+    laminar = Nu_tube_laminar_Hausen(min(Re, 2300.0), Pr, diameter_m, length_m)
+    if Re <= 2300.0:
         return laminar
     turbulent = Nu_tube_turbulent_Gnielinski(Re, Pr)
-    weight = np.clip((np.asarray(Re) - 2300.0) / 700.0, 0.0, 1.0)
-    return np.maximum((1.0 - weight) * laminar + weight * turbulent, laminar)
+    weight = min((Re - 2300.0) / 700.0, 1.0)
+    return max((1.0 - weight) * laminar + weight * turbulent, laminar)
 
 
+@ufunc(2)
 def fin_efficiency_straight(m_per_m, length_m):
     """Efficiency of a straight fin of uniform section with an adiabatic tip: eta = tanh(mL) / (mL),
     m = sqrt(h P / (k A_c)); for a plate wall fed along one edge, per unit width, m = sqrt(h / (k t)).
@@ -232,15 +254,16 @@ def fin_efficiency_straight(m_per_m, length_m):
     >>> round(float(fin_efficiency_straight(26.5, 0.1)), 3)
     0.374
     """
-    mL = np.asarray(m_per_m * length_m, dtype=float)
-    small = mL < 1e-6
-    safe = np.where(small, 1.0, mL)
-    return np.where(small, 1.0, np.tanh(safe) / safe)
+    mL = m_per_m * length_m
+    if mL < 1e-6:
+        return 1.0
+    return math.tanh(mL) / mL
 
 
-def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m, B=5.8):
+@ufunc(3)
+def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m):
     """Mean centreline velocity of a free round turbulent jet: u_c / u_0 = B d / x, capped at u_0
-    (the potential core, x < B d).
+    (the potential core, x < B d); B = JET_DECAY_B.
 
     The self-similar far field of a round jet from a nozzle of diameter d at velocity u_0; B = 5.8
     (Hussein, Capp and George 1994, quoted in Pope, Turbulent Flows, 2000, Table 5.1; other
@@ -251,7 +274,8 @@ def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m, B=5.8):
     >>> round(float(jet_centreline_velocity_Pope(3.0, 0.02, 0.5)), 3)
     0.696
     """
-    return u0_m_s * np.minimum(1.0, B * diameter_m / np.maximum(distance_m, 1e-12))
+    return u0_m_s * min(1.0, JET_DECAY_B * diameter_m / max(distance_m, 1e-12))
+
 
 
 # The slowest mode of a still cylinder of fluid cooled at its wall (constant wall temperature):
@@ -262,6 +286,7 @@ def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m, B=5.8):
 NU_STILL_CYLINDER = 2.404825557695773 ** 2
 
 
+@ufunc(2)
 def Nu_horizontal_enclosure_Hollands(Ra, Pr):
     """Horizontal fluid layer heated from below (cavity between two wide horizontal plates, the
     lower one hotter), average Nusselt number on the gap; Ra on the gap and the plates' difference.
@@ -282,14 +307,15 @@ def Nu_horizontal_enclosure_Hollands(Ra, Pr):
     >>> float(Nu_horizontal_enclosure_Hollands(1000.0, 0.71))
     1.0
     """
-    Ra = np.maximum(np.asarray(Ra, dtype=float), 1e-30)
+    Ra = max(Ra, 1e-30)
     k1 = 1.44 / (1.0 + 0.018 / Pr + 0.00136 / (Pr * Pr))
-    k2 = 75.0 * np.exp(1.5 / np.sqrt(Pr))
+    k2 = 75.0 * math.exp(1.5 / math.sqrt(Pr))
     x = np.cbrt(Ra) / k2
-    middle = np.maximum(k1 + 2.0 * x ** (1.0 - np.log(x)), 0.0)
-    return 1.0 + np.maximum(1.0 - 1708.0 / Ra, 0.0) * middle + np.maximum(np.cbrt(Ra / 5803.0) - 1.0, 0.0)
+    middle = max(k1 + 2.0 * x ** (1.0 - math.log(x)), 0.0)
+    return 1.0 + max(1.0 - 1708.0 / Ra, 0.0) * middle + max(np.cbrt(Ra / 5803.0) - 1.0, 0.0)
 
 
+@ufunc(4)
 def h_radiation_parallel_plates(emissivity_1, emissivity_2, T1_K, T2_K):
     """Linearised radiation between two large parallel grey plates, W/(m^2 K) of T1 - T2:
     q'' = sigma (T1^4 - T2^4) / (1/eps_1 + 1/eps_2 - 1) (Incropera, 6th ed., eq. 13.24).
@@ -298,10 +324,11 @@ def h_radiation_parallel_plates(emissivity_1, emissivity_2, T1_K, T2_K):
     6.087
     """
     # 1 / (1/e1 + 1/e2 - 1) written as e1 e2 / (e1 + e2 - e1 e2), so that a black-out (e = 0) gives 0
-    exchange = emissivity_1 * emissivity_2 / np.maximum(emissivity_1 + emissivity_2 - emissivity_1 * emissivity_2, 1e-300)
+    exchange = emissivity_1 * emissivity_2 / max(emissivity_1 + emissivity_2 - emissivity_1 * emissivity_2, 1e-300)
     return exchange * STEFAN_BOLTZMANN_W_m2K4 * (T1_K + T2_K) * (T1_K**2 + T2_K**2)
 
 
+@ufunc(3)
 def h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, time_s):
     """Surface coefficient of a semi-infinite solid after a step change of its surface temperature,
     W/(m^2 K): q''(t) = k (T_s - T_i) / sqrt(pi alpha t) (Carslaw and Jaeger, sec. 2.4; Incropera,
@@ -313,9 +340,10 @@ def h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, time_s):
     >>> round(float(h_semi_infinite_solid(1.4, 1.4 / (2300 * 880), 3600.0)), 1)
     15.8
     """
-    return conductivity_W_mK / np.sqrt(np.pi * diffusivity_m2_s * np.maximum(time_s, 1e-9))
+    return conductivity_W_mK / math.sqrt(math.pi * diffusivity_m2_s * max(time_s, 1e-9))
 
 
+@ufunc(3)
 def confined_jet_circulation_velocity(u0_m_s, nozzle_area_m2, section_area_m2):
     """Velocity scale of the circulation a round jet drives in a closed vessel, m/s:
     U = sqrt(M / (rho A)) = u0 sqrt(A_0 / A), M = rho u0^2 A_0 the jet's momentum flux (conserved
@@ -335,4 +363,4 @@ def confined_jet_circulation_velocity(u0_m_s, nozzle_area_m2, section_area_m2):
     >>> round(float(confined_jet_circulation_velocity(3.0, 0.25 * np.pi * 0.019**2, 0.09)), 3)
     0.168
     """
-    return u0_m_s * np.sqrt(nozzle_area_m2 / np.maximum(section_area_m2, 1e-30))
+    return u0_m_s * math.sqrt(nozzle_area_m2 / max(section_area_m2, 1e-30))

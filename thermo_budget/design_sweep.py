@@ -17,10 +17,15 @@ from .rig_build import build_rig
 from .session import PLAN_RESOLUTION
 from .units import ZERO_CELSIUS_K, convert, to_display, unit_label
 
-# Memory of a sweep, measured with the default scenario (30 recorded points per design: about
-# 7.4 kB a design at 2,500 and 10,000 designs): a fixed part and a part per recorded point.
-SWEEP_BYTES_PER_DESIGN = 2_000
-SWEEP_BYTES_PER_POINT = 200
+# Peak memory of a sweep per design: a fixed part, a part per recorded point of the planned session
+# and a part per sub-step of one cycle (the sustainability search runs the cycle for 6 copies of each
+# design, and the count runs it on). Measured as the peak resident size over the resident size
+# before the sweep, in a fresh process, six nodes, 10,000 and 20,000 designs: the default scenario
+# (31 session points, 3 per cycle) 21.8 kB a design, the plastic tank (61, 10) 27.9-28.9 kB; the
+# per-point part kept from the five-node fit.
+SWEEP_BYTES_PER_DESIGN = 17_500
+SWEEP_BYTES_PER_POINT = 80
+SWEEP_BYTES_PER_CYCLE_POINT = 600
 MAX_SWEEP_BYTES = 256 * 2**20
 
 
@@ -91,9 +96,12 @@ class SweepResult:
 
 
 def estimated_sweep_bytes(scenario: Scenario, n_designs: int) -> int:
-    """Memory a sweep of n designs needs, from the measured cost per design and per recorded point."""
+    """Memory a sweep of n designs needs at its peak, bytes, from the measured costs per design, per
+    recorded point of the session and per sub-step of the cycle."""
     points = sum(PLAN_RESOLUTION.substeps(step, step.duration_s) for step in scenario.steps) + 1
-    return int(n_designs * (SWEEP_BYTES_PER_DESIGN + SWEEP_BYTES_PER_POINT * points))
+    cycle_points = sum(PLAN_RESOLUTION.substeps(step, step.duration_s) for step in scenario.cycle)
+    return int(n_designs * (SWEEP_BYTES_PER_DESIGN + SWEEP_BYTES_PER_POINT * points
+                            + SWEEP_BYTES_PER_CYCLE_POINT * cycle_points))
 
 
 def check_grid(oil_volumes_L, coolers_W_per_K, volume_source=("oil_volumes_L", None),

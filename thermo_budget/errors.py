@@ -38,5 +38,5 @@ class ScenarioError(ValueError):
         expected_text = " ".join(str(expected).split())
         super().__init__(f"{key_text}: got {shown(value)}, expected {expected_text}")
 
-    def __reduce__(self):   # so that it pickles whole (the page's worker hands it back)
+    def __reduce__(self):   # so that it pickles whole
         return type(self), (self.key, self.value, self.expected)

@@ -5,8 +5,10 @@
 Nodes (NODE_NAMES): the tank's oil, the reservoir wall, the loop's metal bodies (pump, valve,
 manifold and fittings, wetted inside), the hoses' wall (rubber and braid) as two rings: the liner
 (HOSE, the inner fifth of the wall, touched by the oil) and the cover (HOSE_COVER, the rest, to the
-air; see conductances.hose_rings_m for the rule and why), and the loop's oil (LOOP_OIL, in the hoses
+air; see rig.hose_rings_m for the rule and why), and the loop's oil (LOOP_OIL, in the hoses
 and bodies; see still_paths for why it is a node of its own).
+The system of one design is assembled in compiled code (node_system: one line per path); the
+numpy-facing functions run it over the designs.
 Every array here is vectorised over designs: a `Rig` field is a float or an array of shape (N,),
 a temperature state has shape (N, N_NODES) in K with columns OIL, WALL, HARDWARE, HOSE, HOSE_COVER,
 LOOP_OIL.
@@ -20,24 +22,33 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .conductances import (ambient_conductances_W_K, air_side_h_W_m2K, dry_shell_W_K, hose_ring_link_W_K,
-                           h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_to_ambient_W_K,
-                           loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K, oil_to_wall_W_K,
-                           stirring_velocity_m_s, wall_to_ambient_W_K, air_paths_W_K)
+from .air import air_or_standard
+from .compiled import kernel
+from .conductance_paths import (air_paths_W_K, air_side_h_W_m2K, ambient_conductances_W_K, cooler_W_K, dry_shell_W_K,
+                                h_oil_bottom_W_m2K, h_oil_side_W_m2K, hardware_to_ambient_W_K, hose_ring_link_W_K,
+                                hose_to_ambient_W_K, loop_conductances_W_K, oil_to_hardware_W_K, oil_to_hose_W_K,
+                                oil_to_wall_W_K, return_line_rise_K, stirring_velocity_m_s, wall_to_ambient_W_K)
+from .conductances import bodies_to_air, cooler, hose_to_air, loop_paths, oil_side_h, oil_to_wall, tank_to_air
+from .oil import OIL_CP_A, OIL_CP_B, linear_enthalpy_J_kg, linear_temperature_from_enthalpy_K, oil_transport
 from .rig import HOSE_LINER_FRACTION, HOSE_WALL_CONDUCTIVITY_W_mK, PerDesign, Rig, hose_rings_m
-from .still_paths import engine_off_link_W_K, floor_W_K, loop_oil_links_W_K
+from .rig_params import (AMBIENT, CAPACITY_MULT, COUPLING_MULT, ENGINE_OFF_G, ENGINE_OFF_MULT, HARDWARE_CAPACITY,
+                         HOSE_CAPACITY, HOSE_INNER_D, HOSE_INNER_G, HOSE_LENGTH, HOSE_LINER_SHARE, HOSE_LINK_G,
+                         INTERNAL_AREA, LOOP_OIL_MASS, LOOP_OIL_MIN_KG, OIL_FIRST, OIL_NODE_MASS, PASSAGE_D,
+                         WALL_CAPACITY)
+from .still_paths import engine_off_link, engine_off_link_W_K, floor_W_K, loop_oil_links, loop_oil_links_W_K
 from .units import ZERO_CELSIUS_K
 
-# The Rig lives in rig.py and the conductances in conductances.py; they are re-exported here, the
-# network's one door.
-__all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "LOOP_OIL", "air_paths_W_K", "loop_oil_node_mass_kg", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
-           "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "hose_mean_K", "hose_mean_from_share_K",
-           "hose_ring_link_W_K", "hose_rings_m", "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
-           "air_side_h_W_m2K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
-           "heat_capacities_J_K", "hose_to_ambient_W_K", "loop_conductances_W_K", "node_enthalpy_J",
-           "node_equations", "oil_node_mass_kg", "oil_to_hardware_W_K", "oil_to_hose_W_K", "oil_to_wall_W_K",
-           "passive_paths_W", "passive_rejection_W", "per_design", "return_line_rise_K", "return_rise_K", "stirring_velocity_m_s",
-           "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
+# The Rig lives in rig.py, the conductances in conductances.py and still_paths.py (compiled) and
+# conductance_paths.py (numpy over a Rig's designs); they are re-exported here, the network's one door.
+__all__ = ["HARDWARE", "HOSE", "HOSE_COVER", "HOSE_LINER_FRACTION", "HOSE_RINGS", "HOSE_WALL_CONDUCTIVITY_W_mK",
+           "LOOP_OIL", "N_NODES", "NODE_NAMES", "OIL", "WALL", "Inputs", "Rig", "air_paths_W_K", "air_side_h_W_m2K",
+           "ambient_column", "ambient_conductances_W_K", "cooler_W_K", "cooling_time_constant_s", "dry_shell_W_K",
+           "engine_off_link_W_K", "floor_W_K", "h_oil_bottom_W_m2K", "h_oil_side_W_m2K", "hardware_to_ambient_W_K",
+           "heat_capacities_J_K", "hose_mean_K", "hose_mean_from_share_K", "hose_ring_link_W_K", "hose_rings_m",
+           "hose_to_ambient_W_K", "loop_conductances_W_K", "loop_oil_links_W_K", "loop_oil_node_mass_kg",
+           "node_enthalpy_J", "node_equations", "node_system", "oil_node_mass_kg", "oil_to_hardware_W_K",
+           "oil_to_hose_W_K", "oil_to_wall_W_K", "passive_paths_W", "passive_rejection_W", "per_design",
+           "return_line_rise_K", "stirring_velocity_m_s", "temperatures_from_enthalpy_K", "wall_to_ambient_W_K"]
 
 # HOSE is the hose wall's inner ring, the liner (the node the oil touches); HOSE_COVER its outer ring.
 OIL, WALL, HARDWARE, HOSE, HOSE_COVER, LOOP_OIL = 0, 1, 2, 3, 4, 5
@@ -83,64 +94,194 @@ def oil_node_mass_kg(rig: Rig):
     return rig.oil_mass_kg
 
 
-# A floor under the loop oil's mass, so that a rig built without loop oil keeps a finite node.
-LOOP_OIL_MIN_KG = 1e-4
-
-
 def loop_oil_node_mass_kg(rig: Rig):
     """Oil in the LOOP_OIL node, kg: in the hoses, pump and valve (at least LOOP_OIL_MIN_KG)."""
     return np.maximum(rig.loop_oil_mass_kg, LOOP_OIL_MIN_KG)
 
 
+def _f64(value, n: int) -> np.ndarray:
+    """A float or an (n,) array as a contiguous (n,) float array, the compiled loops' argument."""
+    return np.ascontiguousarray(np.broadcast_to(np.asarray(value, dtype=float), (n,)))
+
+
+def _states(T_K) -> np.ndarray:
+    return np.ascontiguousarray(T_K, dtype=float)
+
+
+# --- one design, compiled ------------------------------------------------------------------------
+
+@kernel
+def link(L, i, j, G):
+    """A conductance G (W/K) between nodes i and j, added to L."""
+    L[i, i] += G
+    L[j, j] += G
+    L[i, j] -= G
+    L[j, i] -= G
+
+
+@kernel
+def loop_link(L, b, i, G, return_rise_K):
+    """A conductance G from the loop's oil to node i: the loop's oil is at the bulk temperature plus
+    half the return line's rise, which enters b as a source (out of the oil, into node i)."""
+    link(L, OIL, i, G)
+    b[OIL] -= 0.5 * G * return_rise_K
+    b[i] += 0.5 * G * return_rise_K
+
+
+@kernel
+def to_air(L, b, g_amb, i, G, ambient_K):
+    """A conductance G from node i to the ambient air."""
+    L[i, i] += G
+    g_amb[i] += G
+    b[i] += G * ambient_K
+
+
+@kernel
+def capacities(p, cp_J_kgK, loop_cp_J_kgK, C):
+    """Node heat capacities (J/K) into C; the tank's oil at the specific heat cp_J_kgK, the loop's at
+    loop_cp_J_kgK."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    C[OIL] = m * (p[OIL_NODE_MASS] * cp_J_kgK)
+    C[WALL] = m * p[WALL_CAPACITY]
+    C[HARDWARE] = m * p[HARDWARE_CAPACITY]
+    C[HOSE] = m * liner
+    C[HOSE_COVER] = m * (p[HOSE_CAPACITY] - liner)
+    C[LOOP_OIL] = m * (p[LOOP_OIL_MASS] * loop_cp_J_kgK)
+
+
+@kernel
+def enthalpy(p, T_K, H):
+    """Sensible enthalpy of each node (J, relative to 0 degC) at T_K into H."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    a, b = p[OIL_FIRST + OIL_CP_A], p[OIL_FIRST + OIL_CP_B]
+    H[OIL] = m * (p[OIL_NODE_MASS] * linear_enthalpy_J_kg(T_K[OIL], a, b))
+    H[WALL] = m * (p[WALL_CAPACITY] * (T_K[WALL] - ZERO_CELSIUS_K))
+    H[HARDWARE] = m * (p[HARDWARE_CAPACITY] * (T_K[HARDWARE] - ZERO_CELSIUS_K))
+    H[HOSE] = m * (liner * (T_K[HOSE] - ZERO_CELSIUS_K))
+    H[HOSE_COVER] = m * ((p[HOSE_CAPACITY] - liner) * (T_K[HOSE_COVER] - ZERO_CELSIUS_K))
+    H[LOOP_OIL] = m * (p[LOOP_OIL_MASS] * linear_enthalpy_J_kg(T_K[LOOP_OIL], a, b))
+
+
+@kernel
+def temperatures(p, H_J, T):
+    """Inverse of enthalpy: the node temperatures (K) of enthalpies H_J into T."""
+    m = p[CAPACITY_MULT]
+    liner = p[HOSE_LINER_SHARE] * p[HOSE_CAPACITY]
+    a, b = p[OIL_FIRST + OIL_CP_A], p[OIL_FIRST + OIL_CP_B]
+    T[OIL] = linear_temperature_from_enthalpy_K(H_J[OIL] / m / p[OIL_NODE_MASS], a, b)
+    T[WALL] = H_J[WALL] / m / p[WALL_CAPACITY] + ZERO_CELSIUS_K
+    T[HARDWARE] = H_J[HARDWARE] / m / p[HARDWARE_CAPACITY] + ZERO_CELSIUS_K
+    T[HOSE] = H_J[HOSE] / m / liner + ZERO_CELSIUS_K
+    T[HOSE_COVER] = H_J[HOSE_COVER] / m / (p[HOSE_CAPACITY] - liner) + ZERO_CELSIUS_K
+    T[LOOP_OIL] = linear_temperature_from_enthalpy_K(H_J[LOOP_OIL] / m / p[LOOP_OIL_MASS], a, b)
+
+
+@kernel
+def node_system(p, T_K, volume_flow_m3_s, power_W, air, C, L, b, g_amb):
+    """The linear system of one design frozen at T_K: fills C (k,) J/K, L (k,k) W/K, b (k,) W,
+    g_amb (k,) W/K (node_equations) and returns the loss offset, W. Each path is one compiled
+    function of conductances.py or still_paths.py and one line below: `link` between two nodes,
+    `loop_link` from the loop's oil, `to_air` to the ambient."""
+    T_oil, T_wall, T_a = T_K[OIL], T_K[WALL], p[AMBIENT]
+    oil = p[OIL_FIRST:]
+    nu, k, cp, rho, pr = oil_transport(oil, T_oil)                          # the bulk
+    nu_f, k_f, _, _, pr_f = oil_transport(oil, 0.5 * (T_oil + T_wall))      # the wall's film
+    _, k_loop, cp_loop, _, _ = oil_transport(oil, T_K[LOOP_OIL])             # the loop's oil
+    flowing = volume_flow_m3_s > 0
+    rate = rho * volume_flow_m3_s * cp                                      # m_dot c_p, W/K
+    rise = power_W / max(rate, 1e-30) if flowing else 0.0                   # return line over bulk, K
+    h_side, h_bottom = oil_side_h(p, T_oil, T_wall, volume_flow_m3_s, nu_f, k_f, pr_f)
+    bodies, hose = loop_paths(p, volume_flow_m3_s, rate, nu, k, pr)
+    loop_tank, loop_bodies, loop_liner = loop_oil_links(
+        flowing, rate, k_loop, p[HOSE_INNER_D], p[HOSE_LENGTH], p[PASSAGE_D], p[INTERNAL_AREA], p[HOSE_INNER_G],
+        p[ENGINE_OFF_MULT])
+    G_cool = cooler(p, flowing, rate)
+    head, wall = tank_to_air(p, T_oil, T_wall, air)
+    L[:, :] = 0.0
+    b[:] = 0.0
+    g_amb[:] = 0.0
+    link(L, OIL, WALL, oil_to_wall(p, h_side, h_bottom))
+    loop_link(L, b, HARDWARE, p[COUPLING_MULT] * bodies, rise)
+    loop_link(L, b, HOSE, hose, rise)
+    loop_link(L, b, LOOP_OIL, loop_tank, rise)        # the stream, or the standing columns
+    link(L, LOOP_OIL, HARDWARE, loop_bodies)           # still oil in the bodies
+    link(L, LOOP_OIL, HOSE, loop_liner)                # still oil in the hoses
+    link(L, HARDWARE, WALL, engine_off_link(p[ENGINE_OFF_G], p[ENGINE_OFF_MULT]))
+    link(L, HOSE, HOSE_COVER, p[HOSE_LINK_G])
+    to_air(L, b, g_amb, WALL, wall, T_a)
+    to_air(L, b, g_amb, HARDWARE, bodies_to_air(p, T_K[HARDWARE], air), T_a)
+    to_air(L, b, g_amb, HOSE_COVER, hose_to_air(p, T_K[HOSE_COVER], air), T_a)
+    to_air(L, b, g_amb, OIL, G_cool, T_a)
+    to_air(L, b, g_amb, OIL, head, T_a)                # the head space, oil surface -> lid -> air
+    b[OIL] += power_W - G_cool * rise          # the cooler sees the return line, bulk + the full rise
+    capacities(p, cp, cp_loop, C)
+    return G_cool * rise
+
+
+# --- over designs, for numpy callers -------------------------------------------------------------
+
+@kernel
+def _node_equations_many(params, T_K, flow, power, air):
+    n, k = T_K.shape
+    C, L, b, g = np.empty((n, k)), np.empty((n, k, k)), np.empty((n, k)), np.empty((n, k))
+    offset = np.empty(n)
+    for d in range(n):
+        p = params[d if params.shape[0] > 1 else 0]
+        offset[d] = node_system(p, T_K[d], flow[d], power[d], air, C[d], L[d], b[d], g[d])
+    return C, L, b, g, offset
+
+
+@kernel
+def _per_node_many(what, params, X, cp):
+    """what 0: capacities at the oils' cp (cp[d] = tank's, loop's); 1: enthalpies of temperatures X;
+    2: temperatures of enthalpies X."""
+    out = np.empty_like(X)
+    for d in range(X.shape[0]):
+        p = params[d if params.shape[0] > 1 else 0]
+        if what == 0:
+            capacities(p, cp[d, 0], cp[d, 1], out[d])
+        elif what == 1:
+            enthalpy(p, X[d], out[d])
+        else:
+            temperatures(p, X[d], out[d])
+    return out
+
+
+def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
+    """The linear system frozen at state T_K: C dT/dt = -L T + b (node_system, design by design).
+
+    Returns (C (N,k) J/K, L (N,k,k) W/K, b (N,k) W, g_amb (N,k) W/K, loss_offset_W (N,)), k = N_NODES.
+    g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
+    that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
+    lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
+    """
+    T = _states(T_K)
+    n = T.shape[0]
+    return _node_equations_many(rig.params, T, _f64(inputs.volume_flow_m3_s, n), _f64(inputs.power_W, n),
+                                air_or_standard(rig.air_columns))
+
+
 def heat_capacities_J_K(rig: Rig, T_K: np.ndarray, oil_cp_J_kgK=None, loop_cp_J_kgK=None) -> np.ndarray:
     """Node heat capacities (N, N_NODES), J/K; the oils' follow Cragoe's c_p(T) (or oil_cp_J_kgK and
     loop_cp_J_kgK, if the caller has them already)."""
-    cp = rig.oil.specific_heat(T_K[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
-    loop_cp = rig.oil.specific_heat(T_K[:, LOOP_OIL]) if loop_cp_J_kgK is None else loop_cp_J_kgK
-    C = np.empty((T_K.shape[0], N_NODES))
-    C[:, OIL] = oil_node_mass_kg(rig) * cp
-    C[:, WALL] = rig.wall_capacity_J_K
-    C[:, HARDWARE] = rig.hardware_capacity_J_K
-    C[:, HOSE], C[:, HOSE_COVER] = _hose_ring_capacities_J_K(rig)
-    C[:, LOOP_OIL] = loop_oil_node_mass_kg(rig) * loop_cp
-    return _capacity_scale(rig) * C
-
-
-def _hose_ring_capacities_J_K(rig: Rig):
-    """(liner, cover) heat capacities, J/K: the hose's split by the liner's share of the rubber."""
-    liner = rig.constants["hose_liner_share"] * rig.hose_capacity_J_K
-    return liner, rig.hose_capacity_J_K - liner
-
-
-def _capacity_scale(rig: Rig):
-    """The capacity multiplier, shaped to scale (N, k) node arrays (it may be one per design)."""
-    m = rig.capacity_multiplier
-    return np.asarray(m, dtype=float)[:, None] if np.ndim(m) else m
+    T = _states(T_K)
+    n = T.shape[0]
+    cp = np.empty((n, 2))
+    cp[:, 0] = rig.oil.specific_heat(T[:, OIL]) if oil_cp_J_kgK is None else oil_cp_J_kgK
+    cp[:, 1] = rig.oil.specific_heat(T[:, LOOP_OIL]) if loop_cp_J_kgK is None else loop_cp_J_kgK
+    return _per_node_many(0, rig.params, T, cp)
 
 
 def node_enthalpy_J(rig: Rig, T_K: np.ndarray) -> np.ndarray:
     """Sensible enthalpy of each node (N, N_NODES), J, relative to 0 degC; its change is the heat stored."""
-    oil = oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, OIL])
-    wall = rig.wall_capacity_J_K * (T_K[:, WALL] - ZERO_CELSIUS_K)
-    hardware = rig.hardware_capacity_J_K * (T_K[:, HARDWARE] - ZERO_CELSIUS_K)
-    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = liner_C * (T_K[:, HOSE] - ZERO_CELSIUS_K)
-    cover = cover_C * (T_K[:, HOSE_COVER] - ZERO_CELSIUS_K)
-    loop = loop_oil_node_mass_kg(rig) * rig.oil.specific_enthalpy_J_kg(T_K[:, LOOP_OIL])
-    return _capacity_scale(rig) * _columns(oil, wall, hardware, liner, cover, loop, n=T_K.shape[0])
+    return _per_node_many(1, rig.params, _states(T_K), np.empty((0, 2)))
 
 
 def temperatures_from_enthalpy_K(rig: Rig, H_J: np.ndarray) -> np.ndarray:
     """Inverse of node_enthalpy_J."""
-    H = H_J / _capacity_scale(rig)
-    oil = rig.oil.temperature_from_enthalpy_K(H[:, OIL] / oil_node_mass_kg(rig))
-    wall = H[:, WALL] / rig.wall_capacity_J_K + ZERO_CELSIUS_K
-    hardware = H[:, HARDWARE] / rig.hardware_capacity_J_K + ZERO_CELSIUS_K
-    liner_C, cover_C = _hose_ring_capacities_J_K(rig)
-    liner = H[:, HOSE] / liner_C + ZERO_CELSIUS_K
-    cover = H[:, HOSE_COVER] / cover_C + ZERO_CELSIUS_K
-    loop = rig.oil.temperature_from_enthalpy_K(H[:, LOOP_OIL] / loop_oil_node_mass_kg(rig))
-    return _columns(oil, wall, hardware, liner, cover, loop, n=H.shape[0])
+    return _per_node_many(2, rig.params, _states(H_J), np.empty((0, 2)))
 
 
 def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
@@ -152,95 +293,6 @@ def hose_mean_K(rig: Rig, T_K: np.ndarray) -> np.ndarray:
 def hose_mean_from_share_K(liner_share, T_K: np.ndarray) -> np.ndarray:
     """hose_mean_K from the liner's share of the hose's capacity (a float, or one per design)."""
     return liner_share * T_K[..., HOSE] + (1.0 - liner_share) * T_K[..., HOSE_COVER]
-
-
-def node_equations(rig: Rig, T_K: np.ndarray, inputs: Inputs):
-    """The linear system frozen at state T_K: C dT/dt = -L T + b.
-
-    Returns (C (N,k) J/K, L (N,k,k) W/K, b (N,k) W, g_amb (N,k) W/K, loss_offset_W (N,)), k = N_NODES.
-    g_amb are the conductances to ambient; loss_offset_W is the part of the heat lost to ambient
-    that does not depend on T (the cooler sees the return line, hotter than the bulk). The heat
-    lost to ambient at state T is  g_amb . (T - T_amb) + loss_offset_W.
-    """
-    n = T_K.shape[0]
-    T_oil, T_wall = T_K[:, OIL], T_K[:, WALL]
-    T_a = rig.ambient_K
-    Q = per_design(inputs.volume_flow_m3_s, n)
-    P = per_design(inputs.power_W, n)   # already scaled by rig.power_multiplier (the solver does it)
-    flowing = Q > 0
-    # bulk, wall film and (Physics II) the loop oil
-    both = rig.oil.transport(_columns(T_oil, 0.5 * (T_oil + T_wall), T_K[:, LOOP_OIL], n=n).T)
-    oil_props, film_props = tuple(p[0] for p in both), tuple(p[1] for p in both)
-    loop_k, loop_cp = both[1][2], both[2][2]
-    cp, rho = oil_props[2], oil_props[3]
-    mass_flow = rho * Q
-    return_rise = return_rise_K(P, mass_flow * cp, flowing)
-
-    G_ow = oil_to_wall_W_K(rig, T_oil, T_wall, Q, film_props)
-    G_ob, G_oh = loop_conductances_W_K(rig, T_oil, Q, mass_flow, cp, oil_props)
-    G_ob = rig.hardware_coupling_multiplier * G_ob
-    G_head, G_wa, G_ba, G_ha = air_paths_W_K(rig, T_wall, T_K[:, HARDWARE], T_K[:, HOSE_COVER], T_oil)
-    # Physics II: the loop oil (stream-tied to the bulk, or standing in the bodies and hoses), and
-    # the metal link bodies <-> tank wall
-    G_ol, G_lb, G_lh = loop_oil_links_W_K(rig, flowing, mass_flow * cp, loop_k)
-    G_bw = engine_off_link_W_K(rig)
-    G_lc = hose_ring_link_W_K(rig)
-    G_cool = cooler_W_K(rig, flowing, mass_flow * cp)
-
-    L = np.zeros((n, N_NODES, N_NODES))
-    L[:, OIL, OIL] = G_ow + G_ob + G_oh + G_cool + G_head + G_ol          # Physics II: + G_head + G_ol
-    L[:, WALL, WALL] = G_ow + G_wa + G_bw                                 # Physics II: + G_bw
-    L[:, HARDWARE, HARDWARE] = G_ob + G_ba + G_lb + G_bw                  # Physics II: + G_lb + G_bw
-    L[:, HOSE, HOSE] = G_oh + G_lc + G_lh                                 # Physics II: + G_lh
-    L[:, HOSE_COVER, HOSE_COVER] = G_lc + G_ha
-    L[:, LOOP_OIL, LOOP_OIL] = G_ol + G_lb + G_lh                         # Physics II
-    L[:, OIL, WALL] = L[:, WALL, OIL] = -G_ow
-    L[:, OIL, HARDWARE] = L[:, HARDWARE, OIL] = -G_ob
-    L[:, OIL, HOSE] = L[:, HOSE, OIL] = -G_oh
-    L[:, HOSE, HOSE_COVER] = L[:, HOSE_COVER, HOSE] = -G_lc
-    L[:, OIL, LOOP_OIL] = L[:, LOOP_OIL, OIL] = -G_ol                     # Physics II
-    L[:, LOOP_OIL, HARDWARE] = L[:, HARDWARE, LOOP_OIL] = -G_lb           # Physics II
-    L[:, LOOP_OIL, HOSE] = L[:, HOSE, LOOP_OIL] = -G_lh                   # Physics II
-    L[:, HARDWARE, WALL] = L[:, WALL, HARDWARE] = -G_bw                   # Physics II
-    g_amb = _columns(G_cool + G_head, G_wa, G_ba, 0.0, G_ha, 0.0, n=n)     # Physics II: + G_head, loop oil 0
-    # The bodies, the hose liner and the loop oil see the mean loop oil temperature, bulk + half the
-    # return-line rise; the cooler sees the return line, bulk + the full rise.
-    b = g_amb * ambient_column(T_a)
-    b[:, OIL] += P - G_cool * return_rise - 0.5 * (G_ob + G_oh + G_ol) * return_rise   # Physics II: + G_ol
-    b[:, HARDWARE] += 0.5 * G_ob * return_rise
-    b[:, HOSE] += 0.5 * G_oh * return_rise
-    b[:, LOOP_OIL] += 0.5 * G_ol * return_rise                            # Physics II
-    return heat_capacities_J_K(rig, T_K, cp, loop_cp), L, b, g_amb, G_cool * return_rise
-
-
-def cooler_W_K(rig: Rig, flowing, capacity_rate_W_K):
-    """Effective cooler conductance, W/K per K of ETD (return-line oil minus ambient air).
-
-    The rating is taken as constant with flow (no flow correction is applied), but it is capped at
-    the oil stream's capacity rate m_dot c_p: a cooler cannot bring the oil below the air. With
-    fan = "always" the cooler has its own circulation and works with the engine off too, at the
-    rated value.
-    """
-    K = np.asarray(rig.cooler_W_K, dtype=float)
-    if not (K > 0).any():
-        return np.zeros_like(np.asarray(capacity_rate_W_K, dtype=float))
-    running = np.where(flowing, np.minimum(K, capacity_rate_W_K), 0.0)
-    if rig.cooler_fan == "always":
-        running = np.where(flowing, running, K)
-    return running
-
-
-def return_rise_K(power_W, capacity_rate_W_K, flowing):
-    """Return-line oil temperature minus bulk, K: the pull's heat carried by the loop's stream,
-    P / (m_dot c_p); 0 with no flow. The one formula node_equations and return_line_rise_K share."""
-    return np.where(flowing, power_W / np.maximum(capacity_rate_W_K, 1e-30), 0.0)
-
-
-def return_line_rise_K(rig: Rig, T_oil_K, inputs: Inputs):
-    """Return-line oil temperature minus bulk at bulk temperature T_oil_K, K (return_rise_K)."""
-    Q = np.asarray(inputs.volume_flow_m3_s, dtype=float)
-    capacity_rate = rig.oil.density_kg_m3(T_oil_K) * Q * rig.oil.specific_heat(T_oil_K)
-    return return_rise_K(inputs.power_W, capacity_rate, Q > 0)
 
 
 def cooling_time_constant_s(rig: Rig, T_K: float) -> float:
@@ -258,7 +310,6 @@ def passive_rejection_W(rig: Rig, T_K: float):
     T_wall = np.atleast_1d(np.asarray(T_K, dtype=float))
     dT = T_wall - rig.ambient_K
     return sum(air_paths_W_K(rig, T_wall, T_wall, T_wall, T_wall)) * dT
-
 
 
 def passive_paths_W(rig: Rig, T_K: float) -> dict:

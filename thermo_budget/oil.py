@@ -1,14 +1,19 @@
-"""Mineral hydraulic oil: viscosity, specific heat, conductivity, density, all vectorised.
+"""Mineral hydraulic oil: viscosity, specific heat, conductivity, density.
 
-Temperatures are in K, kinematic viscosities in cSt (mm^2/s) unless a name says otherwise.
+Temperatures are in K, kinematic viscosities in cSt (mm^2/s) unless a name says otherwise. The
+property functions the network evaluates are compiled functions of floats (the compiled network
+calls them; `Oil`'s methods run them over arrays in compiled loops), and `oil_transport` is the one
+place that puts them together; `Oil` hands them its coefficients (`Oil.params`, OIL_PARAMS).
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 
+from .compiled import kernel
 from .errors import ScenarioError
 from .units import ZERO_CELSIUS_K
 
@@ -47,7 +52,8 @@ def walther_coefficients(T1_K: float, nu1_cSt: float, T2_K: float, nu2_cSt: floa
     return float(A), float(B)
 
 
-def walther_viscosity_cSt(T_K, A: float, B: float):
+@kernel
+def walther_viscosity_cSt(T_K, A, B):
     """ASTM D341: kinematic viscosity (cSt) at temperature T_K (K)."""
     return 10.0 ** (10.0 ** (A - B * np.log10(T_K))) - 0.7
 
@@ -118,13 +124,90 @@ def cragoe_specific_heat_J_kgK(T_K, specific_gravity_60F: float):
     return (0.388 + 0.00045 * t_F) / np.sqrt(specific_gravity_60F) * BTU_PER_LB_F_IN_J_KGK
 
 
-def cragoe_conductivity_W_mK(T_K, specific_gravity_60F: float):
+@kernel
+def cragoe_conductivity_W_mK(T_K, specific_gravity_60F):
     """Cragoe (NBS Misc. Publ. 97, 1929): k = (0.813 / s)(1 - 0.0003 (t - 32)) Btu·in/(h·ft²·°F).
 
     t in °F, s the specific gravity at 60 °F. Valid for petroleum oils, 32-400 °F. Returns W/(m K).
     """
     t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     return 0.813 / specific_gravity_60F * (1.0 - 0.0003 * (t_F - 32.0)) * BTU_IN_PER_HR_FT2_F_IN_W_MK
+
+
+@kernel
+def linear_specific_heat_J_kgK(T_K, a, b):
+    """c_p = a + b (T - 273.15 K), J/(kg K) (Cragoe's c_p is linear in t)."""
+    return a + b * (T_K - ZERO_CELSIUS_K)
+
+
+@kernel
+def linear_enthalpy_J_kg(T_K, a, b):
+    """Sensible enthalpy relative to 0 degC of c_p = a + b t: a t + b t^2 / 2, J/kg."""
+    t = T_K - ZERO_CELSIUS_K
+    return a * t + 0.5 * b * t * t
+
+
+@kernel
+def linear_temperature_from_enthalpy_K(h_J_kg, a, b):
+    """Inverse of linear_enthalpy_J_kg, K."""
+    if b == 0.0:
+        return h_J_kg / a + ZERO_CELSIUS_K
+    return (-a + math.sqrt(a * a + 2.0 * b * h_J_kg)) / b + ZERO_CELSIUS_K
+
+
+@kernel
+def expanded_density_kg_m3(T_K, density_15C_kg_m3, expansion_per_K):
+    """Density at T_K from the density at 15 degC and the volumetric expansion coefficient, kg/m^3."""
+    return density_15C_kg_m3 / (1.0 + expansion_per_K * (T_K - T15_K))
+
+
+# Oil.params: the coefficients the compiled network needs, in this order (conductivity NaN: Cragoe's).
+OIL_PARAMS = ("walther_A", "walther_B", "conductivity_W_mK", "specific_gravity_60F", "cp_a", "cp_b",
+              "density_15C_kg_m3", "expansion_per_K")
+OIL_A, OIL_B, OIL_K, OIL_SG, OIL_CP_A, OIL_CP_B, OIL_RHO15, OIL_BETA = range(len(OIL_PARAMS))
+
+
+@kernel
+def oil_transport(q, T_K):
+    """(nu m^2/s, k W/(m K), c_p J/(kg K), rho kg/m^3, Pr) at T_K of the oil whose coefficients
+    (OIL_PARAMS) start at q[0]."""
+    nu = walther_viscosity_cSt(T_K, q[OIL_A], q[OIL_B]) * 1e-6
+    k = cragoe_conductivity_W_mK(T_K, q[OIL_SG]) if math.isnan(q[OIL_K]) else q[OIL_K]
+    cp = linear_specific_heat_J_kgK(T_K, q[OIL_CP_A], q[OIL_CP_B])
+    rho = expanded_density_kg_m3(T_K, q[OIL_RHO15], q[OIL_BETA])
+    return nu, k, cp, rho, nu * rho * cp / k
+
+
+@kernel
+def _transport_many(q, T_K):
+    out = np.empty((5, T_K.size))
+    for i in range(T_K.size):
+        out[0, i], out[1, i], out[2, i], out[3, i], out[4, i] = oil_transport(q, T_K[i])
+    return out
+
+
+@kernel
+def _property_many(which, a, b, x):
+    """For numpy callers: 0 c_p, 1 enthalpy, 2 temperature from enthalpy, 3 density, of each x, with
+    the property's two coefficients a, b."""
+    out = np.empty(x.size)
+    for i in range(x.size):
+        if which == 0:
+            out[i] = linear_specific_heat_J_kgK(x[i], a, b)
+        elif which == 1:
+            out[i] = linear_enthalpy_J_kg(x[i], a, b)
+        elif which == 2:
+            out[i] = linear_temperature_from_enthalpy_K(x[i], a, b)
+        else:
+            out[i] = expanded_density_kg_m3(x[i], a, b)
+    return out
+
+
+def _property(which, a, b, x):
+    """_property_many on a float or an array (of any shape)."""
+    X = np.asarray(x, dtype=float)
+    out = _property_many(which, float(a), float(b), np.ascontiguousarray(X.ravel())).reshape(X.shape)
+    return out if X.ndim else float(out)
 
 
 @dataclass(frozen=True)
@@ -165,7 +248,7 @@ class Oil:
         return walther_temperature_K(nu_cSt, A, B)
 
     def density_kg_m3(self, T_K):
-        return self.density_15C_kg_m3 / (1.0 + self.expansion_per_K * (T_K - T15_K))
+        return _property(3, self.density_15C_kg_m3, self.expansion_per_K, T_K)
 
     @cached_property
     def cp_coefficients(self) -> tuple[float, float]:
@@ -177,31 +260,31 @@ class Oil:
         return c0, c1
 
     def specific_heat(self, T_K):
-        a, b = self.cp_coefficients
-        return a + b * (np.asarray(T_K) - ZERO_CELSIUS_K)
+        return _property(0, *self.cp_coefficients, T_K)
 
     def specific_enthalpy_J_kg(self, T_K):
         """Sensible enthalpy (J/kg) relative to 0 degC: the integral of c_p."""
-        a, b = self.cp_coefficients
-        t = np.asarray(T_K) - ZERO_CELSIUS_K
-        return a * t + 0.5 * b * t * t
+        return _property(1, *self.cp_coefficients, T_K)
 
     def temperature_from_enthalpy_K(self, h_J_kg):
         """Inverse of specific_enthalpy_J_kg."""
-        a, b = self.cp_coefficients
-        if b == 0.0:
-            return np.asarray(h_J_kg) / a + ZERO_CELSIUS_K
-        return (-a + np.sqrt(a * a + 2.0 * b * np.asarray(h_J_kg))) / b + ZERO_CELSIUS_K
+        return _property(2, *self.cp_coefficients, h_J_kg)
 
     def conductivity(self, T_K):
         if self.conductivity_W_mK is not None:
             return np.full_like(np.asarray(T_K, dtype=float), self.conductivity_W_mK)
         return cragoe_conductivity_W_mK(T_K, self.specific_gravity_60F)
 
+    @cached_property
+    def params(self) -> np.ndarray:
+        """The coefficients of OIL_PARAMS, for the compiled network (oil_transport)."""
+        A, B = self.walther_AB
+        k = np.nan if self.conductivity_W_mK is None else float(self.conductivity_W_mK)
+        return np.array([A, B, k, self.specific_gravity_60F, *self.cp_coefficients, self.density_15C_kg_m3,
+                         self.expansion_per_K], dtype=float)
+
     def transport(self, T_K):
-        """(nu m^2/s, k W/(m K), c_p J/(kg K), rho kg/m^3, Pr) at T_K, in one evaluation."""
-        nu = self.kinematic_viscosity_m2_s(T_K)
-        k = self.conductivity(T_K)
-        cp = self.specific_heat(T_K)
-        rho = self.density_kg_m3(T_K)
-        return nu, k, cp, rho, nu * rho * cp / k
+        """(nu m^2/s, k W/(m K), c_p J/(kg K), rho kg/m^3, Pr) at T_K, in one evaluation (oil_transport)."""
+        T = np.asarray(T_K, dtype=float)
+        out = _transport_many(self.params, np.ascontiguousarray(T.ravel()))
+        return tuple(row.reshape(T.shape) for row in out)

@@ -5,6 +5,9 @@ Text in, bytes out: easy to cache by the scenario's text, and nothing here depen
 from __future__ import annotations
 
 import io
+import threading
+from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -17,7 +20,7 @@ from .scenario import load_scenario, read_toml_text
 from .units import ZERO_CELSIUS_K
 
 CHART_DPI = 90
-CHARTS_KEPT = 32   # design sweeps and hot days kept by the page (and its worker), by scenario text
+CHARTS_KEPT = 32   # design sweeps and hot days kept by the page, by scenario text
 
 
 def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
@@ -79,3 +82,48 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
                         label="bulk oil, likely range (P10-P90)")
         legend_below(figure, ax)
     return png_bytes(figure)
+
+
+# --- the design chart and the hot day, kept by the scenario's text -------------------------------------
+
+@dataclass(frozen=True)
+class SlowCharts:
+    """design_png : the design chart; hot : hot_day.HotDay of the scenario; hot_png : its chart."""
+    design_png: bytes
+    hot: object
+    hot_png: bytes
+
+
+KEEP = CHARTS_KEPT              # design sweeps and hot days kept, by scenario text
+_sweeps: dict = {}              # the design sweeps, oldest first
+_sweeps_lock = threading.Lock()
+
+
+def _sweep(toml_text: str, answers: Report | None = None):
+    """The design chart's sweep, kept by text. answers: the scenario's report where the caller has
+    it; else the sizing answers its grid needs are worked out here."""
+    with _sweeps_lock:
+        if toml_text in _sweeps:
+            return _sweeps[toml_text]
+    result = design_sweep(toml_text, answers)
+    with _sweeps_lock:
+        while len(_sweeps) >= KEEP:
+            _sweeps.pop(next(iter(_sweeps)))
+        _sweeps[toml_text] = result
+    return result
+
+
+@lru_cache(maxsize=KEEP)
+def _hot_day(toml_text: str):
+    from .hot_day import hot_day
+    from .scenario import load_scenario, read_toml_text
+    return hot_day(load_scenario(read_toml_text(toml_text)))
+
+
+def slow_charts(toml_text: str, system: str, answers: Report | None = None) -> SlowCharts:
+    """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`
+    (answers: its report, if known). The sweep and the hot day are kept by text, so a change of
+    units only redraws."""
+    hot = _hot_day(toml_text)
+    return SlowCharts(design_chart_png(toml_text, system, result=_sweep(toml_text, answers)), hot,
+                      hot_day_chart_png(toml_text, system, hot))

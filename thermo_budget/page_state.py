@@ -7,15 +7,13 @@ the page are drawn from.
 """
 from __future__ import annotations
 
-import threading
 import time
-from concurrent.futures import Future
 from dataclasses import dataclass
 
 import streamlit as st
 
 import thermo_budget as tb
-from . import page_charts, page_worker
+from . import page_charts
 from .errors import ScenarioError
 from .results import Report
 from .answers import report, simulate
@@ -43,67 +41,11 @@ def answers_for(toml_text: str) -> Report:
     return report(scenario_of(toml_text), trace_for(toml_text))
 
 
-@st.cache_resource(show_spinner=False)
-def _worker_held() -> dict:
-    """The page's worker process (page_worker) under "worker" once started, shared by every session."""
-    return {}
-
-
-_starting = threading.Lock()
-
-
-def worker(start: bool = True) -> page_worker.Worker | None:
-    """The page's worker, started (afresh, if it has ended) where `start`; else None if there is none."""
-    held = _worker_held()
-    with _starting:
-        if start and (held.get("worker") is None or not held["worker"].alive()):
-            held["worker"] = page_worker.Worker()
-        return held.get("worker")
-
-
-@st.cache_resource(show_spinner=False)
-def _slow_charts() -> dict:
-    """page_worker.SlowCharts futures by (scenario TOML, unit system), shared by every session,
-    oldest first. Held by hand: a future is kept from the moment it is asked for."""
-    return {}
-
-
-def _keep(key, future: Future, keep: int = page_charts.CHARTS_KEPT):
-    futures = _slow_charts()
-    while len(futures) >= keep:
-        futures.pop(next(iter(futures)))
-    futures[key] = future
-
-
-def start_slow_charts(toml_text: str, system: str):
-    """Ask the worker for the design chart and the hot day now, so that they are worked out while
-    the page works out its answers; slow_charts() takes them later. Not while the worker is still
-    starting: its imports would only slow the page's own first run, which then draws them itself."""
-    key = (toml_text, system)
-    running = worker(start=False)
-    if key not in _slow_charts() and running is not None and running.alive() and running.ready():
-        _keep(key, running.submit(toml_text, system))
-
-
-def slow_charts(toml_text: str, system: str) -> page_worker.SlowCharts:
-    """The design chart and the hot day: the worker's, or worked out here where it was not asked
-    (still starting) or has ended."""
-    key = (toml_text, system)
-    future = _slow_charts().get(key)
-    if future is not None and future.done() and future.exception() is None:
-        return future.result()
-    with st.spinner(f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
-                    f"{page_charts.DESIGN_COOLERS} rigs) and a hotter day…"):
-        try:
-            if future is not None:
-                return future.result()
-        except page_worker.WorkerGone:
-            pass
-        charts = page_worker.slow_charts(toml_text, system, answers_for(toml_text))   # drawn here, kept
-        done: Future = Future()
-        done.set_result(charts)
-        _keep(key, done)
-        return charts
+@st.cache_data(max_entries=page_charts.CHARTS_KEPT, show_spinner=f"Working out the design chart ({page_charts.DESIGN_VOLUMES} × "
+                                                f"{page_charts.DESIGN_COOLERS} rigs) and a hotter day…")
+def slow_charts(toml_text: str, system: str) -> page_charts.SlowCharts:
+    """The design chart and the hot day (page_charts.slow_charts), kept by text and unit system."""
+    return page_charts.slow_charts(toml_text, system, answers_for(toml_text))
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
@@ -255,7 +197,6 @@ def plan(current: Scenario, draft_error: str | None, drawn_from: dict) -> PagePl
                                             **fit.calibrated_scenario.raw.get("uncertainty", {})})
                if calibrated else current)
     toml_text = planned.to_toml()
-    start_slow_charts(toml_text, ss.system)   # worked out beside the answers
     started = time.perf_counter()
     answers = answers_for(toml_text)
     return PagePlan(planned, toml_text, answers, ss.system, calibrated, fit, fit_error, draft_error,

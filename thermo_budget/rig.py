@@ -13,6 +13,7 @@ import numpy as np
 from .correlations import cylinder_wall_conductance_W_K
 from .materials import HOSE_WALL
 from .oil import Oil
+from .rig_params import LOOP_OIL_MIN_KG, OIL_FIRST, PARAMS
 
 PerDesign = float | np.ndarray   # a float, the same for every design, or an array of shape (N,), one per design
 
@@ -181,3 +182,29 @@ class Rig:
         """The parts of the conductances that depend on the geometry only, worked out once per rig
         (constant_parts); a changed rig is a new object and works them out again."""
         return constant_parts(self)
+
+    @cached_property
+    def params(self) -> np.ndarray:
+        """The rig as the compiled network reads it: rows of floats (pack)."""
+        return pack(self)
+
+
+def pack(rig: Rig) -> np.ndarray:
+    """The rig as the compiled network reads it (rig_params.PARAMS): rows of floats (n, OIL_FIRST +
+    len(oil.OIL_PARAMS)), n = 1 or its number of designs."""
+    parts = rig.constants
+    values = []
+    for name, source in PARAMS:
+        if name == "LOOP_OIL_MASS":
+            values.append(np.maximum(rig.loop_oil_mass_kg, LOOP_OIL_MIN_KG))
+        elif name == "COOLER_ALWAYS":
+            values.append(1.0 if rig.cooler_fan == "always" else 0.0)
+        else:
+            values.append(parts[source] if source in parts else getattr(rig, source))
+    n = max(int(np.size(v)) for v in values)
+    oil = rig.oil.params
+    out = np.empty((n, OIL_FIRST + oil.size))
+    for j, value in enumerate(values):
+        out[:, j] = np.ravel(value)
+    out[:, OIL_FIRST:] = oil
+    return out

@@ -6,10 +6,11 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .air import air_columns
+from .compiled import elementwise
 from .correlations import fin_efficiency_straight
 from .materials import HOSE_WALL, MATERIALS
 from .hardware_defaults import gear_pitch_diameter_m, pump_wetted_area_m2
-from .network import Rig
+from .rig import Rig
 from .still_paths import floor_h_W_m2K
 
 # Outside coefficient (convection + radiation) of a wall in still air at which the dry shell's share
@@ -46,7 +47,7 @@ def build_rig(s: "Scenario", oil_volume_m3=None, cooler_W_K=None, convection_mul
     # The dry shell is a fin fed from the oil line; its mean temperature rise over the air is eta
     # times the wetted wall's, so that is its share of the wall node's capacity.
     m_ref = np.sqrt(REFERENCE_OUTSIDE_H_W_m2K / (wall["conductivity_W_mK"] * res.wall_thickness_m))
-    dry_weight = fin_efficiency_straight(m_ref, dry_fin_length)
+    dry_weight = elementwise(fin_efficiency_straight)(m_ref, dry_fin_length)
     shell_volume_per_thickness = wetted_side + top_area + dry_weight * (dry_side + top_area)
     hw_material = MATERIALS[hw.material]
     hose_wall_m3 = 0.25 * np.pi * (hw.hose_outer_diameter_m**2 - hw.hose_inner_diameter_m**2) * hw.hose_length_m

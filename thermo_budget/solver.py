@@ -1,7 +1,8 @@
 """Step-by-step integration of the network with an energy-conserving exponential integrator.
 
 Within a sub-step the coefficients are frozen at a predicted mid-point state, and the linear system
-C dT/dt = -L T + b is solved exactly (symmetrised, eigen-decomposed, phi-functions). The end state
+C dT/dt = -L T + b is solved exactly (symmetrised, eigen-decomposed, phi-functions), in compiled
+code (substep.py). The end state
 is placed so that each node's enthalpy change equals the heat the linear solution delivered to it,
 so heat in - heat out - heat stored closes to round-off. Vectorised over N designs.
 """
@@ -11,9 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .network import (N_NODES, OIL, Inputs, Rig, ambient_column, hose_mean_from_share_K, node_enthalpy_J,
-                      node_equations, per_design, return_line_rise_K, temperatures_from_enthalpy_K)
+from .air import air_or_standard
+from .network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
 from .session import Resolution, Step, pump_flow_m3_s
+from .substep import advance_step, decompose_many, propagate_many
 
 # A design whose oil passes this temperature is held there and no longer integrated: it is far past
 # any fluid limit the scenario accepts (at most 200 degC) and past the range where the oil and air
@@ -21,50 +23,22 @@ from .session import Resolution, Step, pump_flow_m3_s
 GIVE_UP_ABOVE_K = 573.15
 
 
-def _phi1_phi2(x, with_phi2: bool = True):
-    """phi1(x) = (e^x - 1)/x and phi2(x) = (e^x - 1 - x)/x^2, accurate near 0 (x <= 0 here);
-    phi2 is None unless asked for."""
-    small = np.abs(x) < 1e-4
-    xs = np.where(small, 1.0, x)
-    em1 = np.expm1(xs)
-    phi1 = np.where(small, 1.0 + x / 2.0 + x * x / 6.0, em1 / xs)
-    if not with_phi2:
-        return phi1, None
-    phi2 = np.where(small, 0.5 + x / 6.0 + x * x / 24.0, (em1 - xs) / (xs * xs))
-    return phi1, phi2
-
-
 def decompose(C, L):
     """The symmetrised system S = -C^-1/2 L C^-1/2 of C dT/dt = -L T + b, eigen-decomposed once so
-    that several propagations (a predictor, a corrector) can share it.
+    that several propagations (a predictor, a corrector) can share it (substep.decompose_one).
     C (N,k) J/K, L (N,k,k) W/K symmetric. Returns (sqrt C, 1/sqrt C, eigenvalues (N,k) 1/s,
-    eigenvectors (N,k,k), failed (N,) bool)."""
-    root = np.sqrt(C)
-    inv_root = 1.0 / root
-    lam, V, failed = _guarded_eigh(-L * inv_root[:, :, None] * inv_root[:, None, :])
-    return root, inv_root, lam, V, failed
+    eigenvectors (N,k,k), failed (N,) bool: a system that is not finite, kept as no change)."""
+    return decompose_many(np.ascontiguousarray(C, dtype=float), np.ascontiguousarray(L, dtype=float))
 
 
 def propagate_decomposed(system, b, T0, h, with_integral: bool = True):
     """Exact solution over h seconds (N,) of the decomposed system (decompose) with source b (N,k) W,
-    from T0 (N,k) K. Returns (T(h) (N,k) K, integral of T over the sub-step (N,k) K s, or None)."""
-    root, inv_root, lam, V, failed = system
-    Vt = np.swapaxes(V, 1, 2)
-    z0 = (Vt @ (T0 * root)[..., None])[..., 0]
-    w = (Vt @ (b * inv_root)[..., None])[..., 0]
-    hh = h[:, None]
-    phi1, phi2 = _phi1_phi2(lam * hh, with_integral)
-    rate = lam * z0 + w
-    T1 = (V @ (z0 + hh * phi1 * rate)[..., None])[..., 0] * inv_root
-    T_int = (V @ (hh * z0 + hh * hh * phi2 * rate)[..., None])[..., 0] * inv_root if with_integral else None
-    finite = np.isfinite(T1.sum() if T_int is None else T1.sum() + T_int.sum())
-    if failed.any() or not finite:   # a design whose system is not finite keeps its state (the caller stops it)
-        bad = failed | ~np.all(np.isfinite(T1), axis=-1)
-        if T_int is not None:
-            bad |= ~np.all(np.isfinite(T_int), axis=-1)
-            T_int = np.where(bad[:, None], T0 * np.reshape(h, (-1, 1)), T_int)
-        T1 = np.where(bad[:, None], T0, T1)
-    return T1, T_int
+    from T0 (N,k) K. Returns (T(h) (N,k) K, integral of T over the sub-step (N,k) K s, or None).
+    A design whose system or result is not finite keeps its state (the caller stops it)."""
+    T0 = np.ascontiguousarray(T0, dtype=float)
+    h = np.ascontiguousarray(np.broadcast_to(np.asarray(h, dtype=float), (T0.shape[0],)))
+    T1, T_int = propagate_many(*system, np.ascontiguousarray(b, dtype=float), T0, h, with_integral)
+    return T1, T_int if with_integral else None
 
 
 def propagate_linear(C, L, b, T0, h):
@@ -76,46 +50,10 @@ def propagate_linear(C, L, b, T0, h):
     return propagate_decomposed(decompose(C, L), b, T0, h)
 
 
-def _guarded_eigh(S):
-    """Batched eigen-decomposition of symmetric matrices S (N,n,n) that never raises: a design with
-    a non-finite matrix, or one whose decomposition does not converge, gets a neutral one (no
-    change) and is flagged. Returns (eigenvalues, eigenvectors, failed (N,) bool)."""
-    failed = ~np.all(np.isfinite(S), axis=(-2, -1))
-    eye = np.eye(S.shape[-1])
-    if failed.any():
-        S = np.where(failed[:, None, None], 0.0 * eye, S)
-    try:
-        lam, V = np.linalg.eigh(S)
-        return lam, V, failed
-    except np.linalg.LinAlgError:
-        lam, V = np.zeros(S.shape[:-1]), np.broadcast_to(eye, S.shape).copy()
-        for i in range(S.shape[0]):
-            try:
-                lam[i], V[i] = np.linalg.eigh(S[i])
-            except np.linalg.LinAlgError:
-                failed[i] = True
-        return lam, V, failed
-
-
-def advance_substep(rig: Rig, T0, inputs: Inputs, h, ambient_K, predictor=None):
-    """One sub-step: predictor, corrector at the predicted mid-point, energy-exact end state.
-
-    predictor : optional (b, decomposed system) to predict with; by default the system frozen at
-        T0. The corrector of the last sub-step with the same inputs serves (the caller keeps it), and
-        saves an evaluation and a decomposition.
-    Returns (T1 (N,k), heat_in_J (N,), heat_lost_J (N,), the corrector's (b, decomposed system)).
-    """
-    if predictor is None:
-        C, L, b = node_equations(rig, T0, inputs)[:3]
-        predictor = b, decompose(C, L)
-    T_pred, _ = propagate_decomposed(predictor[1], predictor[0], T0, h, with_integral=False)
-    C, L, b, g_amb, loss_offset = node_equations(rig, 0.5 * (T0 + T_pred), inputs)
-    system = decompose(C, L)
-    T_lin, T_int = propagate_decomposed(system, b, T0, h)
-    heat_in = inputs.power_W * h
-    heat_lost = np.sum(g_amb * (T_int - ambient_column(ambient_K) * h[:, None]), axis=1) + loss_offset * h
-    H1 = node_enthalpy_J(rig, T0) + C * (T_lin - T0)
-    return temperatures_from_enthalpy_K(rig, H1), heat_in, heat_lost, (b, system)
+def _new_system(n: int, k: int):
+    """Room for the decomposed systems of n designs (substep.advance_step fills it)."""
+    return (np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k, k)),
+            np.zeros(n, bool))
 
 
 def _step_inputs(rig: Rig, step: Step, f0: float, f1: float, power_scale, n: int) -> Inputs:
@@ -190,7 +128,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
     H_start = node_enthalpy_J(rig, T)
-    times, temps, returns, powers, indices = [t.copy()], [T.copy()], [T[:, OIL].copy()], [np.zeros(n_designs)], [-1]
+    times, temps, returns, powers_out, indices = [t.copy()], [T.copy()], [T[:, OIL].copy()], [np.zeros(n_designs)], [-1]
     energy_in = np.zeros(n_designs)
     energy_lost = np.zeros(n_designs)
     pull_start, pull_end = [], []
@@ -206,37 +144,30 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         if step.is_pull:
             pull_start.append(t.copy())
         constant_inputs = step.curve is None
-        corrector = last_system.get(_inputs_key(step)) if constant_inputs else None
-        inputs = _step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs) if constant_inputs else None
+        key = _inputs_key(step) if constant_inputs else None
+        stored = last_system.get(key) if constant_inputs else None
+        system = stored if stored is not None else _new_system(n_designs, N_NODES)
+        if constant_inputs:
+            sub_inputs = [_step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs)] * n_sub
+        else:
+            sub_inputs = [_step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
+                          for k in range(n_sub)]
+        flows = np.array([np.broadcast_to(i.volume_flow_m3_s, (n_designs,)) for i in sub_inputs], dtype=float)
+        powers = np.array([np.broadcast_to(i.power_W, (n_designs,)) for i in sub_inputs], dtype=float)
+        step_temps, rises = advance_step(rig.params, T, held, T_first, flows, powers,
+                                         np.ascontiguousarray(h, dtype=float), air_or_standard(rig.air_columns), constant_inputs,
+                                         stored is not None, give_up_above_K, *system, energy_in, energy_lost)
+        if constant_inputs:
+            last_system[key] = system
         for k in range(n_sub):
-            if not constant_inputs:
-                inputs = _step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
-            any_held = held.any()
-            # a held design is evaluated at its start state (its result is discarded), so that no
-            # correlation is asked about a state far outside its range
-            T_eval = np.where(held[:, None], T_first, T) if any_held else T
-            with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-                T_new, q_in, q_lost, corrector = advance_substep(rig, T_eval, inputs, h, rig.ambient_K,
-                                                                 corrector if constant_inputs and not any_held else None)
-            if any_held or not np.isfinite(T_new.sum()):
-                bad = held | ~np.all(np.isfinite(T_new), axis=1)
-                T_new = np.where(bad[:, None], T, T_new)
-                q_in, q_lost = np.where(bad, 0.0, q_in), np.where(bad, 0.0, q_lost)
-                held |= bad
-            if constant_inputs:
-                last_system[_inputs_key(step)] = corrector
-            T = T_new                      # a new array each sub-step: the lists below keep it as it is
-            held |= T[:, OIL] > give_up_above_K
-            energy_in += q_in
-            energy_lost += q_lost
             t = t + h
             times.append(t)
-            temps.append(T)
-            powers.append(inputs.power_W)
-            returns.append(T[:, OIL] + return_line_rise_K(rig, T[:, OIL], inputs) if step.flowing else T[:, OIL])
+            temps.append(step_temps[k])
+            powers_out.append(powers[k])
+            returns.append(step_temps[k, :, OIL] + rises[k] if step.flowing else step_temps[k, :, OIL])
             indices.append(index)
-            if stop_above_K is not None:
-                been_above |= T[:, OIL] > stop_above_K
+        if stop_above_K is not None:
+            been_above |= np.any(step_temps[:, :, OIL] > stop_above_K, axis=0)
         if step.is_pull:
             pull_end.append(t.copy())
         if stop_above_K is not None and (been_above.all() or (stop_count is not None
@@ -244,7 +175,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
             break
     stored = np.sum(node_enthalpy_J(rig, T) - H_start, axis=1)
     return Trace(time_s=np.array(times), T_K=np.array(temps), return_K=np.array(returns),
-                 power_W=np.array(powers), step_index=np.array(indices), energy_in_J=energy_in,
+                 power_W=np.array(powers_out), step_index=np.array(indices), energy_in_J=energy_in,
                  energy_lost_J=energy_lost, energy_stored_J=stored,
                  pull_start_s=np.array(pull_start).reshape(-1, n_designs),
                  pull_end_s=np.array(pull_end).reshape(-1, n_designs),

@@ -2,8 +2,9 @@
 optional metal link from the bodies to the tank, the head space from the oil surface to the lid, and
 the floor under a tank that stands on it.
 
-Each conductance is a pure function of floats or numpy arrays (W/K or W/(m^2 K)), in plain numpy
-arithmetic that a compiled kernel can take over as it is; the thin wrappers at the end read a `Rig`.
+Each conductance is one compiled function of floats (W/K or W/(m^2 K)): the network
+(network.node_system, conductances.tank_to_air) calls them in compiled code; the thin wrappers at
+the end run the same functions over the designs of a `Rig` for numpy callers.
 
 Why the loop oil is a node of its own (network.LOOP_OIL) and not a capacity that switches between
 nodes: with the engine off, the oil standing in the hoses and bodies (about 0.5-1 L on a small rig)
@@ -22,13 +23,16 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+import math
+
 import numpy as np
 
+from .compiled import elementwise, kernel
 from .correlations import (NU_STILL_CYLINDER, Nu_horizontal_enclosure_Hollands, h_radiation_parallel_plates,
                            h_semi_infinite_solid, rayleigh)
 
 if TYPE_CHECKING:
-    from .network import Rig
+    from .rig import Rig
 
 # Emissivity of the oil's free surface: oils and oil films on metal are about 0.8-0.95 in the thermal
 # infrared (from memory of emissivity tables, e.g. Incropera Table A.11 and the Omega tables; not
@@ -50,6 +54,7 @@ CONCRETE_DIFFUSIVITY_m2_s = 1.4 / (2300.0 * 880.0)
 FLANGE_CONTACT_W_m2K = 1000.0
 
 
+@kernel
 def standing_loop_oil_W_K(k_oil_W_mK, bore_m, internal_area_m2, hose_length_m, hose_inner_W_K):
     """Conductances of the loop oil standing still to (the metal bodies, the hose liner), W/K.
 
@@ -64,14 +69,15 @@ def standing_loop_oil_W_K(k_oil_W_mK, bore_m, internal_area_m2, hose_length_m, h
     """
     h = NU_STILL_CYLINDER * k_oil_W_mK / bore_m
     to_bodies = h * internal_area_m2
-    to_liner = 1.0 / (1.0 / (h * np.pi * bore_m * hose_length_m) + 1.0 / hose_inner_W_K)
+    to_liner = 1.0 / (1.0 / (h * math.pi * bore_m * hose_length_m) + 1.0 / hose_inner_W_K)
     return to_bodies, to_liner
 
 
+@kernel
 def standing_column_W_K(k_oil_W_mK, bore_m, hose_length_m):
     """Conductance loop oil -> tank oil with the pump stopped, W/K: conduction along the oil standing
     in the hoses, over half their length (nearly nothing: 3e-5 W/K on a 3 m hose of 19 mm bore)."""
-    return k_oil_W_mK * (0.25 * np.pi * bore_m**2) / (0.5 * hose_length_m)
+    return k_oil_W_mK * (0.25 * math.pi * bore_m**2) / (0.5 * hose_length_m)
 
 
 def flange_link_W_K(mounting_on_tank: bool, body_cube_side_m: float) -> float:
@@ -79,6 +85,7 @@ def flange_link_W_K(mounting_on_tank: bool, body_cube_side_m: float) -> float:
     return FLANGE_CONTACT_W_m2K * body_cube_side_m**2 if mounting_on_tank else 0.0
 
 
+@kernel
 def head_space_W_K(T_oil_K, T_air_K, lid_area_m2, gap_m, lid_emissivity, h_lid_outside_W_m2K,
                    k_air, nu_air, pr_air, convection_multiplier):
     """Conductance oil surface -> air through the head space and the lid, W/K per K of T_oil - T_air.
@@ -100,10 +107,10 @@ def head_space_W_K(T_oil_K, T_air_K, lid_area_m2, gap_m, lid_emissivity, h_lid_o
     dT = T_oil_K - T_lid
     T_mean = 0.5 * (T_oil_K + T_lid)
     Ra = rayleigh(1.0 / T_mean, dT, gap_m, nu_air, pr_air)
-    Nu = np.where(dT > 0, Nu_horizontal_enclosure_Hollands(Ra, pr_air), 1.0)
+    Nu = Nu_horizontal_enclosure_Hollands(Ra, pr_air) if dT > 0 else 1.0
     h_inside = (h_radiation_parallel_plates(OIL_SURFACE_EMISSIVITY, lid_emissivity, T_oil_K, T_lid)
-                + convection_multiplier * Nu * k_air / np.maximum(gap_m, 1e-3))
-    return lid_area_m2 * h_inside * h_lid_outside_W_m2K / np.maximum(h_inside + h_lid_outside_W_m2K, 1e-300)
+                + convection_multiplier * Nu * k_air / max(gap_m, 1e-3))
+    return lid_area_m2 * h_inside * h_lid_outside_W_m2K / max(h_inside + h_lid_outside_W_m2K, 1e-300)
 
 
 def floor_h_W_m2K(session_s, conductivity_W_mK=CONCRETE_CONDUCTIVITY_W_mK, diffusivity_m2_s=CONCRETE_DIFFUSIVITY_m2_s):
@@ -121,39 +128,74 @@ def floor_h_W_m2K(session_s, conductivity_W_mK=CONCRETE_CONDUCTIVITY_W_mK, diffu
     still overstates (8 h: 5.6 W/(m^2 K) against 15.8 at 1 h); the band's floor factor carries that.
     Concrete: 1 h 15.8 W/(m^2 K), 3 h 9.1 (ENGINEERING.md: about 16 and 9).
     """
-    return h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, np.maximum(session_s, FLOOR_MIN_ELAPSED_S))
+    return elementwise(h_semi_infinite_solid)(conductivity_W_mK, diffusivity_m2_s, np.maximum(session_s, FLOOR_MIN_ELAPSED_S))
 
 
 FLOOR_MIN_ELAPSED_S = 3600.0
 
 
-# --- the wrappers that read a Rig --------------------------------------------------------------
-
-def loop_oil_links_W_K(rig: Rig, flowing, capacity_rate_W_K, k_loop_oil_W_mK):
+@kernel
+def loop_oil_links(flowing, capacity_rate_W_K, k_loop_oil_W_mK, hose_bore_m, hose_length_m, passage_bore_m,
+                   internal_area_m2, hose_inner_W_K, engine_off_multiplier):
     """(loop oil <-> tank oil, loop oil <-> bodies, loop oil <-> hose liner), W/K.
 
     Pump running: the stream ties the loop oil to the bulk, G = m_dot c_p, and the bodies and the
-    liner exchange with the flowing oil through the loop conductances (conductances.loop_conductances_W_K),
+    liner exchange with the flowing oil through the loop conductances (conductances.loop_paths),
     so the standing paths are 0. Pump stopped: the standing columns to the tank, the still oil to
     the bodies and the liner, each times the engine-off multiplier (the band's factor).
     """
-    m = rig.engine_off_multiplier
-    column = m * standing_column_W_K(k_loop_oil_W_mK, rig.hose_inner_diameter_m, rig.hose_length_m)
-    bodies, liner = standing_loop_oil_W_K(k_loop_oil_W_mK, rig.passage_diameter_m, rig.internal_area_m2,
-                                          rig.hose_length_m, rig.constants["hose_inner_W_K"])
-    return (np.where(flowing, capacity_rate_W_K, column), np.where(flowing, 0.0, m * bodies),
-            np.where(flowing, 0.0, m * liner))
+    if flowing:
+        return capacity_rate_W_K, 0.0, 0.0
+    m = engine_off_multiplier
+    column = m * standing_column_W_K(k_loop_oil_W_mK, hose_bore_m, hose_length_m)
+    bodies, liner = standing_loop_oil_W_K(k_loop_oil_W_mK, passage_bore_m, internal_area_m2, hose_length_m,
+                                          hose_inner_W_K)
+    return column, m * bodies, m * liner
 
 
-def engine_off_link_W_K(rig: Rig):
+@kernel
+def engine_off_link(engine_off_coupling_W_K, engine_off_multiplier):
     """The metal bodies <-> the tank wall, W/K: hardware.engine_off_coupling (by default from the
     mounting, flange_link_W_K), times the engine-off multiplier. A metal path, so it is there with
     the engine running too, where it is small against the flowing oil's coupling."""
-    return rig.engine_off_multiplier * rig.engine_off_coupling_W_K
+    return engine_off_multiplier * engine_off_coupling_W_K
+
+
+@kernel
+def floor_link(floor_area_m2, floor_h_W_m2K, floor_multiplier, half_wall_m2K_W):
+    """Conductance tank wall -> floor, W/K: the floor's coefficient (times the floor multiplier, the
+    band's factor) over the bottom standing on it, in series with half the wall (0 where open)."""
+    h = floor_multiplier * floor_h_W_m2K
+    return floor_area_m2 * h / (1.0 + h * half_wall_m2K_W)
+
+
+@kernel
+def _loop_oil_links_many(flowing, rate, k, bore, length, passage, area, inner, mult):
+    out = np.empty((3, flowing.size))
+    for d in range(flowing.size):
+        out[0, d], out[1, d], out[2, d] = loop_oil_links(flowing[d] > 0, rate[d], k[d], bore[d], length[d], passage[d],
+                                                         area[d], inner[d], mult[d])
+    return out
+
+
+# --- the wrappers that read a Rig (numpy callers: tests, the report's figures) -----------------
+
+def loop_oil_links_W_K(rig: Rig, flowing, capacity_rate_W_K, k_loop_oil_W_mK):
+    """loop_oil_links over the designs of a rig: three arrays (N,), W/K."""
+    args = (np.asarray(flowing, dtype=float), capacity_rate_W_K, k_loop_oil_W_mK, rig.hose_inner_diameter_m,
+            rig.hose_length_m, rig.passage_diameter_m, rig.internal_area_m2, rig.constants["hose_inner_W_K"],
+            rig.engine_off_multiplier)
+    shaped = np.broadcast_arrays(*[np.atleast_1d(np.asarray(a, dtype=float)) for a in args])
+    out = _loop_oil_links_many(*[np.ascontiguousarray(a) for a in shaped])
+    return out[0], out[1], out[2]
+
+
+def engine_off_link_W_K(rig: Rig):
+    """engine_off_link of a rig, W/K (a float, or one per design)."""
+    return elementwise(engine_off_link)(rig.engine_off_coupling_W_K, rig.engine_off_multiplier)
 
 
 def floor_W_K(rig: Rig):
-    """Conductance tank wall -> floor, W/K: the floor's coefficient (times the floor multiplier, the
-    band's factor) over the bottom standing on it, in series with half the wall (0 where open)."""
-    h = rig.floor_multiplier * rig.floor_h_W_m2K
-    return rig.floor_area_m2 * h / (1.0 + h * rig.constants["half_wall_m2K_W"])
+    """floor_link of a rig, W/K (a float, or one per design)."""
+    return elementwise(floor_link)(rig.floor_area_m2, rig.floor_h_W_m2K, rig.floor_multiplier,
+                                   rig.constants["half_wall_m2K_W"])

@@ -315,8 +315,7 @@ def main(argv=None):
           f" best {sum(best_redraw):.3f} s ="
           f" answers {best_redraw[0]:.3f} + temperature chart {best_redraw[1]:.3f} + design chart's sweep"
           f" {best_redraw[2]:.3f} + its drawing {best_redraw[3]:.3f}"
-          " (the page runs the design chart and the hot day in a second process beside the answers;"
-          " Streamlit and the browser add their own time)")
+          " (Streamlit and the browser add their own time)")
     in_browser = browser_redraws_s() if args.browser else None
     if in_browser:
         print(f"page in the browser after one input change (headless Chromium, 5 new oil volumes): median "

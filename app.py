@@ -6,7 +6,7 @@ the cached calls are in page_state, the inputs in page_sidebar, the unit edge in
 """
 import streamlit as st
 
-from thermo_budget import page_bands, page_headline, page_live, page_log, page_sections, page_sidebar, page_state
+from thermo_budget.page import page_bands, page_headline, page_live, page_log, page_sections, page_sidebar, page_state
 
 st.set_page_config(page_title="Brake oil heat budget", page_icon="🛢️", layout="wide")
 page_state.start()

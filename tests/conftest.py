@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 import tomli_w
 
-from thermo_budget.scenario import load_scenario, with_path
+from thermo_budget.inputs.scenario import load_scenario, with_path
 
 HEAVY = os.environ.get("THERMO_HEAVY", "") not in ("", "0")
 
@@ -203,7 +203,7 @@ def default_report(default_scenario):
 def demo_log_fit(default_scenario):
     """calibrate.fit_log of the shipped demo log on the default scenario, computed once (tests of
     the calibration, the band and the uncertainty model read it; none changes it)."""
-    from thermo_budget.calibrate import fit_log
+    from thermo_budget.logs.calibrate import fit_log
     return fit_log(default_scenario, (SCENARIO_DIR / "demo_log.csv").read_text())
 
 
@@ -244,7 +244,7 @@ def single_temperature_K(rig, T0_K, energy_J):
     written with the package's enthalpies, which tests/test_solver.py checks against Cragoe)."""
     from scipy.optimize import brentq
 
-    from thermo_budget.network import N_NODES, node_enthalpy_J
+    from thermo_budget.physics.network import N_NODES, node_enthalpy_J
 
     def total(T):
         return float(np.sum(node_enthalpy_J(rig, np.full((1, N_NODES), T))))
@@ -253,7 +253,7 @@ def single_temperature_K(rig, T0_K, energy_J):
 
 
 def _adiabatic_steps():
-    from thermo_budget.session import Step
+    from thermo_budget.engine.session import Step
     return (Step(kind="pull", duration_s=10.0, engine="on", power_W=10000.0, rpm=3600.0),
             Step(kind="wait", duration_s=30.0, engine="off"))
 

@@ -1,7 +1,7 @@
 """A resolved reference for the hose wall, for the tests only: radial transient conduction through
 the rubber (and, in case B, through the oil standing in the bore), cylindrical finite volumes.
 
-It checks one claim of the lumped network (thermo_budget.network, nodes HOSE and HOSE_COVER): that on
+It checks one claim of the lumped network (thermo_budget.physics.network, nodes HOSE and HOSE_COVER): that on
 an adiabatic rig with short pulls and engine-off waits, most of what the bulk oil ends above the
 single-temperature energy balance is heat that a real hose wall cannot yet have taken, because its
 conduction time t^2/alpha is minutes. The lumped network has the wall as two rings (the liner, the
@@ -28,7 +28,7 @@ Physics (what each piece stands for, and its source):
   standing in the bore, resolved as its own rings (conduction only, which Ra ~ 1e5 in a 18 mm bore
   would enhance: a lower bound on what it gives), starting each wait at the temperature of the oil
   that was flowing, and flushed back into the tank when the pump restarts.
-- Materials: the hose wall's rho, c, k are thermo_budget.materials.HOSE_WALL, which were recalled
+- Materials: the hose wall's rho, c, k are thermo_budget.physics.materials.HOSE_WALL, which were recalled
   from memory (not from a source; +-30 %); the oil's properties come from the package's oil model
   (Cragoe, NBS Misc. Publ. 97; ASTM D341), which its own tests hold against those sources.
 
@@ -275,9 +275,9 @@ def bodies_heat_J(capacity_J_K, flowing_W_K, drive: Drive, T0_K, end_s, case="A"
 
 def body_conductance_from_trace(rig, steps, trace):
     """The lumped model's own oil -> bodies conductance while oil flows, W/K, as a function of time:
-    node_equations at the trace's points within pulls (thermo_budget.network), linear between them."""
-    from thermo_budget.network import HARDWARE, OIL, Inputs, node_equations
-    from thermo_budget.session import pump_flow_m3_s
+    node_equations at the trace's points within pulls (thermo_budget.physics.network), linear between them."""
+    from thermo_budget.physics.network import HARDWARE, OIL, Inputs, node_equations
+    from thermo_budget.engine.session import pump_flow_m3_s
     starts = np.concatenate([[0.0], np.cumsum([s.duration_s for s in steps])])
     t_pts, G_pts = [], []
     for i in range(1, trace.time_s.shape[0]):
@@ -306,7 +306,7 @@ def drive_from_trace(rig, steps, trace, T_offset_K=None):
     tests the wall's conduction and not the choice of driving temperature.
     T_offset_K : optional (times_s, offset_K) to add (a feedback correction, see feedback_drive).
     """
-    from thermo_budget.session import pump_flow_m3_s
+    from thermo_budget.engine.session import pump_flow_m3_s
 
     t_pts = trace.time_s[:, 0]
     oil_pts = trace.T_K[:, 0, 0]
@@ -356,10 +356,10 @@ def outer_air(rig, hose: HoseWall, n_cells: int):
     whose hose conductance is that coefficient over the outside area in series with the rubber from
     the cover's centre), in series with the outer half of the outermost ring; the surface taken at
     the ring's temperature."""
-    from thermo_budget.network import ambient_conductances_W_K
-    from thermo_budget.rig import hose_rings_m
-    from thermo_budget.correlations import cylinder_wall_conductance_W_K
-    from thermo_budget.materials import HOSE_WALL
+    from thermo_budget.physics.network import ambient_conductances_W_K
+    from thermo_budget.physics.rig import hose_rings_m
+    from thermo_budget.physics.correlations import cylinder_wall_conductance_W_K
+    from thermo_budget.physics.materials import HOSE_WALL
     r_o = 0.5 * hose.outside_m
     centre = r_o - 0.5 * (r_o - 0.5 * hose.bore_m) / n_cells
     half_W_K = 2 * np.pi * hose.k_W_mK * hose.length_m / np.log(r_o / centre)
@@ -388,7 +388,7 @@ def hose_of(rig, wall_material) -> HoseWall:
 
 def lumped_hose_heat_J(rig, trace):
     """The heat the lumped hose nodes (the liner and the cover) have taken at each trace point, J."""
-    from thermo_budget.network import HOSE_RINGS, heat_capacities_J_K
+    from thermo_budget.physics.network import HOSE_RINGS, heat_capacities_J_K
     C = heat_capacities_J_K(rig, trace.T_K[:1, 0, :])[0]
     return sum(C[i] * (trace.T_K[:, 0, i] - trace.T_K[0, 0, i]) for i in HOSE_RINGS)
 
@@ -397,7 +397,7 @@ def feedback_offset(rig, trace, result: Result):
     """The bulk's shift if the oil had given the reference's heat to the hose instead of the lumped
     node's, at the trace's times: -(Q_ref - Q_lumped) / C_oil, K (a one-way correction; the oil
     node's capacity alone, so the larger of the plausible shifts)."""
-    from thermo_budget.network import OIL, heat_capacities_J_K
+    from thermo_budget.physics.network import OIL, heat_capacities_J_K
     t = trace.time_s[:, 0]
     q_ref = np.interp(t, result.time_s, result.wall_heat_J)
     C_oil = heat_capacities_J_K(rig, trace.T_K[:, 0, :])[:, OIL]
@@ -416,8 +416,8 @@ def figures(rig, steps, trace, T_eq_K, T0_K, n_cells=40):
     """The comparison of one session: lumped against resolved hose, both cases, and what each
     implies for the bulk oil at the end (J and K). The wall as our model has it; the bodies as our
     model has them, and with the oil standing in their passages (case B) as a second figure."""
-    from thermo_budget.materials import HOSE_WALL
-    from thermo_budget.network import HARDWARE, OIL, heat_capacities_J_K
+    from thermo_budget.physics.materials import HOSE_WALL
+    from thermo_budget.physics.network import HARDWARE, OIL, heat_capacities_J_K
     end_s = float(trace.time_s[-1, 0])
     hose = hose_of(rig, HOSE_WALL)
     C = heat_capacities_J_K(rig, trace.T_K[-1, 0][None, :])[0]
@@ -456,9 +456,9 @@ def session_figures(rig, steps, trace, n_cells=40):
     conductance, trapezoidal over the trace) and resolved, cases A and B (one-way, driven by the
     trace), the bodies' extra heat from their standing oil, and the bulk shift each implies
     (-extra heat / C_oil, K). The bodies' replica has no loss to the air: its B - A is the figure."""
-    from thermo_budget.network import hose_to_ambient_W_K
-    from thermo_budget.materials import HOSE_WALL
-    from thermo_budget.network import HOSE_COVER, OIL, heat_capacities_J_K
+    from thermo_budget.physics.network import hose_to_ambient_W_K
+    from thermo_budget.physics.materials import HOSE_WALL
+    from thermo_budget.physics.network import HOSE_COVER, OIL, heat_capacities_J_K
     end_s = float(trace.time_s[-1, 0])
     T0 = float(trace.T_K[0, 0, OIL])
     hose = hose_of(rig, HOSE_WALL)
@@ -490,10 +490,10 @@ if __name__ == "__main__":      # python tests/hose_wall_reference.py: the figur
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K
 
-    from thermo_budget.answers import TRACE_RESOLUTION
-    from thermo_budget.scenario import load_scenario
-    from thermo_budget.rig_build import build_rig
-    from thermo_budget.solver import integrate
+    from thermo_budget.planning.answers import TRACE_RESOLUTION
+    from thermo_budget.inputs.scenario import load_scenario
+    from thermo_budget.inputs.rig_build import build_rig
+    from thermo_budget.engine.solver import integrate
 
     scenario = load_scenario(adiabatic_raw())
     rig = build_rig(scenario)

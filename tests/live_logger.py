@@ -10,11 +10,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from thermo_budget.network import OIL, Inputs, NODE_NAMES, node_equations
-from thermo_budget.scenario import load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.session import Resolution, Step, pump_flow_m3_s
-from thermo_budget.solver import integrate, propagate_linear
+from thermo_budget.physics.network import OIL, Inputs, NODE_NAMES, node_equations
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.session import Resolution, Step, pump_flow_m3_s
+from thermo_budget.engine.solver import integrate, propagate_linear
 from thermo_budget.units import ZERO_CELSIUS_K
 
 from conftest import SCENARIO_DIR

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 from CoolProp.CoolProp import PropsSI
 
-from thermo_budget.air import P_ATM_Pa, TABLE_T_K, air_properties, air_table
+from thermo_budget.physics.air import P_ATM_Pa, TABLE_T_K, air_properties, air_table
 
 from conftest import load_tool
 
@@ -92,9 +92,9 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
     # (ht.conv_free_immersed.Nu_vertical_plate_Churchill) on CoolProp's properties.
     from CoolProp.HumidAirProp import HAPropsSI
     from ht.conv_free_immersed import Nu_vertical_plate_Churchill
-    from thermo_budget.network import air_side_h_W_m2K
-    from thermo_budget.rig_build import build_rig
-    from thermo_budget.scenario import load_scenario
+    from thermo_budget.physics.network import air_side_h_W_m2K
+    from thermo_budget.inputs.rig_build import build_rig
+    from thermo_budget.inputs.scenario import load_scenario
     from conftest import base_raw
     raw = base_raw()
     raw.update(altitude="1600 m", relative_humidity="40 %")
@@ -129,7 +129,7 @@ def test_air_side_at_1600_m_and_40_percent_humidity_against_coolprop():
 
 
 def test_standard_air_uses_the_shipped_table():
-    from thermo_budget.rig_build import build_rig
-    from thermo_budget.scenario import load_scenario
+    from thermo_budget.inputs.rig_build import build_rig
+    from thermo_budget.inputs.scenario import load_scenario
     from conftest import base_raw
     assert build_rig(load_scenario(base_raw())).air_columns is None

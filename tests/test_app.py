@@ -147,8 +147,8 @@ def test_impossible_inputs_are_refused_with_a_message(page):
 
 def test_scenario_download_is_offered_and_the_edited_scenario_loads_back(page):
     from thermo_budget import load_scenario
-    from thermo_budget.answers import report
-    from thermo_budget.scenario import read_toml_text
+    from thermo_budget.planning.answers import report
+    from thermo_budget.inputs.scenario import read_toml_text
     number_input(page, "Oil in the tank").set_value(14.0).run()
     labels = [b.proto.label for b in page.get("download_button")]
     assert labels == ["Scenario (.toml)", "Trace (.csv)", "Temperature chart (.png)", "Design chart (.png)"]
@@ -179,9 +179,9 @@ def test_engine_curve_scenario_and_pull_mode_switch(page):
 
 
 def test_log_calibration_section_recovers_the_model_from_its_own_trace(page):
-    pytest.importorskip("thermo_budget.calibrate")
+    pytest.importorskip("thermo_budget.logs.calibrate")
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.answers import simulate, trace_csv
+    from thermo_budget.planning.answers import simulate, trace_csv
     before = cards(page)["hottest"]["details"]      # the point model's figures
     log = trace_csv(simulate(load_scenario(DEFAULT_SCENARIO))).encode()  # the model's own output as a "log"
     page.file_uploader(key="log_upload").set_value(("own_trace.csv", log, "text/csv")).run()
@@ -222,8 +222,8 @@ def _in(system: str, unit: str, value: float) -> float:
 @pytest.mark.parametrize("scenario_file", ["default.toml", "us_20hp_small_tank.toml"])
 def test_every_shown_figure_is_the_report_figure(scenario_file):
     from thermo_budget import load_scenario
-    from thermo_budget.hot_day import hot_day
-    from thermo_budget.answers import report
+    from thermo_budget.planning.hot_day import hot_day
+    from thermo_budget.planning.answers import report
     path = Path(__file__).resolve().parent.parent / "scenarios" / scenario_file
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
     at.file_uploader(key="upload").set_value((path.name, path.read_bytes(), "application/toml")).run()
@@ -291,9 +291,9 @@ def test_return_line_stop_is_said_in_the_headline():
 
 def test_every_planning_card_shows_the_plan_at_the_confidence_with_the_median():
     from dataclasses import replace
-    from thermo_budget.page_cards import headline_cards
+    from thermo_budget.page.page_cards import headline_cards
     from thermo_budget import load_scenario
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     path = Path(__file__).resolve().parent.parent / "scenarios" / "us_units_fan.toml"
     scenario = load_scenario(path)
     answers = report(scenario)
@@ -324,9 +324,9 @@ def test_name_edit_follows_into_the_titles_and_the_file(page):
     assert page.subheader[0].value.startswith("Stand 2, bigger tank")
     assert not any("rename it" in c.value for c in page.caption)
     assert page.session_state["draft"]["name"] == "Stand 2, bigger tank"   # the saved file's name
-    from thermo_budget.plots import plot_trace
+    from thermo_budget.output.plots import plot_trace
     from thermo_budget import load_scenario
-    from thermo_budget.answers import simulate
+    from thermo_budget.planning.answers import simulate
     scenario = load_scenario(page.session_state["draft"])
     assert plot_trace(scenario, simulate(scenario)).axes[0].get_title(loc="left") == "Stand 2, bigger tank"
 
@@ -374,7 +374,7 @@ def test_a_binary_scenario_upload_is_refused(page):
 
 def test_the_confidence_is_one_input_and_every_planning_card_follows_it(page):
     from thermo_budget import DEFAULT_SCENARIO, load_scenario
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     box = number_input(page, "Confidence of the plan")
     assert box.value == pytest.approx(0.9)
     box.set_value(0.5).run()

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from thermo_budget import build_rig, load_scenario, report
-from thermo_budget.bands import BAND_KEYS, SIZING_KEYS, sample_answers
-from thermo_budget.planning import runs_before_limit
-from thermo_budget.answers import planning_answers, session_report
+from thermo_budget.planning.bands import BAND_KEYS, SIZING_KEYS, sample_answers
+from thermo_budget.planning.planning import runs_before_limit
+from thermo_budget.planning.answers import planning_answers, session_report
 
 from conftest import SHIPPED_SCENARIOS
 
@@ -156,11 +156,11 @@ def _planned_fraction_under(scenario, n, oil_volume_L=None, pulls=None):
     """Re-run the first n samples of the band (the same Sobol points through the same factor model)
     and return the fraction that stay under the limit: through the planned session at oil_volume_L,
     or through `pulls` pulls of the repeated cycle."""
-    from thermo_budget.outcome import peak_oil_K, pulls_completed_under
-    from thermo_budget.scenario import limit_K
-    from thermo_budget.session import PLAN_RESOLUTION
-    from thermo_budget.solver import integrate
-    from thermo_budget.uncertainty import factor_values, sample_rig, standard_normals
+    from thermo_budget.engine.outcome import peak_oil_K, pulls_completed_under
+    from thermo_budget.inputs.scenario import limit_K
+    from thermo_budget.engine.session import PLAN_RESOLUTION
+    from thermo_budget.engine.solver import integrate
+    from thermo_budget.inputs.uncertainty import factor_values, sample_rig, standard_normals
 
     values = factor_values(scenario.uncertainty, standard_normals(scenario.uncertainty, n))
     limit, _ = limit_K(scenario)
@@ -180,7 +180,7 @@ def test_plan_keeps_the_session_under_the_limit_in_the_chosen_fraction(default, 
     finishes the planned session under the limit in at least 90 % of the sizing samples (32), the
     band's P50 volume in about half; the planned pull count is reached in at least 90 % of the
     samples (128), one pull more in fewer (the plan is the most that holds in 90 %)."""
-    from thermo_budget.bands import N_SAMPLES, N_SIZING_SAMPLES
+    from thermo_budget.planning.bands import N_SAMPLES, N_SIZING_SAMPLES
     plan, bands = default_report["plan_at_confidence"], default_report["bands"]
     assert default_report["confidence"] == 0.9
     assert _planned_fraction_under(default, N_SIZING_SAMPLES, oil_volume_L=plan["min_oil_volume_L"]) >= 0.9
@@ -196,7 +196,7 @@ def test_envelope_brackets_the_oil_temperature(default, default_report):
     the pulls begin, holds the point trace (every factor at its median) between its edges at every
     time, and its P90 edge never passes the P90 of the samples' peaks (the largest of per-time P90s
     cannot exceed the P90 of per-sample maxima), while reaching above the point's peak."""
-    from thermo_budget.answers import simulate
+    from thermo_budget.planning.answers import simulate
     envelope = default_report["band_envelope"]
     t, p10, p90 = (np.array(envelope[key]) for key in ("time_s", "p10_C", "p90_C"))
     assert len(t) == len(p10) == len(p90) == len(envelope["p50_C"])

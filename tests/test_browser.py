@@ -161,7 +161,7 @@ def _screenshot(page, path: Path):
 def _expected_pulls(path) -> str:
     """The pull-count card's figure: the plan at the chosen confidence."""
     from thermo_budget import load_scenario
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     runs = report(load_scenario(path)).band.plan_at_confidence["runs_before_limit"]
     return "All day" if runs is None else str(runs)
 

@@ -14,16 +14,16 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from thermo_budget.calibrate import FIT_RESOLUTION, fit_log, log_model, predict_log_K
+from thermo_budget.logs.calibrate import FIT_RESOLUTION, fit_log, log_model, predict_log_K
 from thermo_budget.cli import main
 from thermo_budget.errors import ScenarioError
-from thermo_budget.measured_log import read_log
-from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
-from thermo_budget.answers import simulate, trace_csv
-from thermo_budget.scenario import load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.session import Resolution, Step, pump_flow_m3_s
-from thermo_budget.solver import integrate
+from thermo_budget.logs.measured_log import read_log
+from thermo_budget.physics.network import N_NODES, OIL, Inputs, node_equations
+from thermo_budget.planning.answers import simulate, trace_csv
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.session import Resolution, Step, pump_flow_m3_s
+from thermo_budget.engine.solver import integrate
 
 from conftest import SCENARIO_DIR, base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K
@@ -185,7 +185,7 @@ EXTRA_TO_AIR_W_K = 0.5
 
 def four_node_log(scenario, blocks, interval_s):
     """A log from a model with one node more than ours: our nodes (conductances from
-    thermo_budget.network) plus a steel block coupled to the oil that our model lacks, integrated
+    thermo_budget.physics.network) plus a steel block coupled to the oil that our model lacks, integrated
     with solve_ivp (Radau, tight tolerances). blocks: list of steps. Returns (times, bulk K, power W,
     pull flag)."""
     rig = build_rig(scenario, convection_multiplier=0.85, capacity_multiplier=1.0)

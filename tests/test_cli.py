@@ -90,8 +90,8 @@ def test_run_summary_in_si_units(capsys):
 
 
 def test_run_plot_writes_a_png(tmp_path, capsys):
-    pytest.importorskip("thermo_budget.plots",
-                        reason="thermo_budget/plots.py is being written by another engineer")
+    pytest.importorskip("thermo_budget.output.plots",
+                        reason="thermo_budget/output/plots.py is being written by another engineer")
     png = tmp_path / "trace.png"
     code = main(["run", DEFAULT, "--plot", str(png)])
     _, err = capsys.readouterr()

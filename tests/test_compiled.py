@@ -1,7 +1,7 @@
 """The compiled engine's cache place (compiled.py)."""
 import os
 
-from thermo_budget import compiled
+from thermo_budget.physics import compiled
 
 
 def test_the_cache_goes_to_the_users_folder_where_the_package_is_read_only(monkeypatch, tmp_path):

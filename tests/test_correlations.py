@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy.constants import Stefan_Boltzmann
 
-import thermo_budget.correlations as corr
-from thermo_budget.compiled import elementwise
+import thermo_budget.physics.correlations as corr
+from thermo_budget.physics.compiled import elementwise
 
 PRANDTL = [0.01, 0.1, 0.7, 5.0, 50.0, 500.0]
 RAYLEIGH = [1e-1, 1e2, 1e4, 1e6, 1e8, 1e9, 1e10, 1e12]

@@ -12,8 +12,8 @@ import tomllib
 import pytest
 
 from conftest import REPO
-from thermo_budget.scenario import load_scenario
-from thermo_budget.scenario_table import KEYS
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.inputs.scenario_table import KEYS
 
 README = REPO / "README.md"
 README_MAX_LINES = 260

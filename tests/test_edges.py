@@ -11,13 +11,13 @@ import pytest
 
 from thermo_budget import report
 from thermo_budget.errors import ScenarioError
-from thermo_budget.network import N_NODES, OIL
-from thermo_budget.outcome import pulls_completed_under
-from thermo_budget.answers import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
-from thermo_budget.rig_build import build_rig
-from thermo_budget.scenario import limit_K, load_scenario
-from thermo_budget.session import PLAN_RESOLUTION
-from thermo_budget.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
+from thermo_budget.physics.network import N_NODES, OIL
+from thermo_budget.engine.outcome import pulls_completed_under
+from thermo_budget.planning.answers import BEYOND_RANGE_KEYS, check_finite, model_range_max_K, simulate
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.inputs.scenario import limit_K, load_scenario
+from thermo_budget.engine.session import PLAN_RESOLUTION
+from thermo_budget.engine.solver import GIVE_UP_ABOVE_K, integrate, propagate_linear
 
 from conftest import SCENARIO_DIR, base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K
@@ -204,11 +204,11 @@ import tracemalloc                # noqa: E402
 from pathlib import Path          # noqa: E402
 
 from thermo_budget.cli import main                                            # noqa: E402
-from thermo_budget.measured_log import read_log                               # noqa: E402
+from thermo_budget.logs.measured_log import read_log                               # noqa: E402
 from thermo_budget.output_files import json_text, write_atomically            # noqa: E402
-from thermo_budget.page_live import resolve_log_path                          # noqa: E402
-from thermo_budget.answers import energy_balance_rel_error, session_report     # noqa: E402
-from thermo_budget.scenario_table import MAX_NESTING                          # noqa: E402
+from thermo_budget.page.page_live import resolve_log_path                          # noqa: E402
+from thermo_budget.planning.answers import energy_balance_rel_error, session_report     # noqa: E402
+from thermo_budget.inputs.scenario_table import MAX_NESTING                          # noqa: E402
 
 from conftest import REPO, write_toml                                         # noqa: E402
 
@@ -327,8 +327,8 @@ def test_the_live_page_shows_our_message_for_a_nul_byte(tmp_path):
     def app(folder_name):
         from pathlib import Path  # noqa: F811 (the app runs as a script of its own: its imports are its own)
 
-        from thermo_budget.page_live import live_section
-        from thermo_budget.scenario import DEFAULT_SCENARIO
+        from thermo_budget.page.page_live import live_section
+        from thermo_budget.inputs.scenario import DEFAULT_SCENARIO
         live_section(Path(DEFAULT_SCENARIO).read_text(), "SI", Path(folder_name))
 
     at = AppTest.from_function(app, args=(str(tmp_path),), default_timeout=60).run()
@@ -488,7 +488,7 @@ def test_the_page_shows_the_warning():
     def app():
         from types import SimpleNamespace
 
-        from thermo_budget import page_sections
+        from thermo_budget.page import page_sections
         page_sections.errors(SimpleNamespace(upload_error=None, draft_error=None,
                                              scenario=SimpleNamespace(warnings=("fluid.max_temperature = 176 ...",))))
 
@@ -514,8 +514,8 @@ def test_a_session_past_its_work_bound_is_refused_naming_repeat():
 @pytest.fixture(scope="module")
 def long_day():
     """The base rig's cycle 400 times, integrated whole and as a long session."""
-    from thermo_budget import long_session
-    from thermo_budget.session import PLAN_RESOLUTION
+    from thermo_budget.engine import long_session
+    from thermo_budget.engine.session import PLAN_RESOLUTION
     raw = base_raw()
     raw["session"]["repeat"] = 400
     scenario = load_scenario(raw)
@@ -537,7 +537,7 @@ def long_day():
 
 
 def test_a_long_session_is_the_whole_integration_to_a_millikelvin(long_day):
-    from thermo_budget.outcome import first_crossing_s, pulls_completed_under
+    from thermo_budget.engine.outcome import first_crossing_s, pulls_completed_under
     scenario, whole, settled, _ = long_day
     for name in ("time_s", "step_index", "pull_start_s", "pull_end_s", "power_W"):
         np.testing.assert_array_equal(getattr(settled, name), getattr(whole, name), err_msg=name)
@@ -563,10 +563,10 @@ def test_a_long_session_integrates_only_until_it_is_periodic(long_day):
 def test_a_pull_s_extra_wait_searched_near_the_last_one_is_the_full_search_s():
     """The ready-to-pull schedule searches each pull's extra wait first near the one before; the
     answer passes and agrees with the full search to within that search's own bracket."""
-    from thermo_budget.planning import SEARCH_MARGIN_K
-    from thermo_budget.ready_schedule import extra_wait_s
-    from thermo_budget.outcome import peak_oil_K
-    from thermo_budget.session import PLAN_RESOLUTION
+    from thermo_budget.planning.planning import SEARCH_MARGIN_K
+    from thermo_budget.planning.ready_schedule import extra_wait_s
+    from thermo_budget.engine.outcome import peak_oil_K
+    from thermo_budget.engine.session import PLAN_RESOLUTION
     scenario = load_scenario(base_raw())
     rig = build_rig(scenario)
     limit = limit_K(scenario)[0]
@@ -587,7 +587,7 @@ def test_a_settled_schedule_repeats_its_last_cycle_as_the_pull_by_pull_search_wo
     their extra waits too, the schedule's later rows are its last cycle again: the same rows, to the
     search's resolution, as searching every pull. (On the six-node default the extra waits alternate
     by 0.02 s, the search's resolution, so the schedule is taken as settled here from pull 60 on.)"""
-    from thermo_budget import ready_schedule as rs
+    from thermo_budget.planning.planning import ready_schedule as rs
     scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": 80})  # over the limit from pull 43
     repeated = []
     original = rs._repeated_rows

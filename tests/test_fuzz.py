@@ -23,8 +23,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from thermo_budget.cli import main
-from thermo_budget.answers import simulate, trace_rows
-from thermo_budget.scenario import load_scenario
+from thermo_budget.planning.answers import simulate, trace_rows
+from thermo_budget.inputs.scenario import load_scenario
 
 from conftest import base_raw
 from thermo_budget.units import ZERO_CELSIUS_K

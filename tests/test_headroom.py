@@ -4,8 +4,8 @@ from __future__ import annotations
 import pytest
 
 from thermo_budget import load_scenario
-from thermo_budget.headroom import headroom_at, hot_oil_volume_m3
-from thermo_budget.answers import report
+from thermo_budget.physics.headroom import headroom_at, hot_oil_volume_m3
+from thermo_budget.planning.answers import report
 from thermo_budget.units import ZERO_CELSIUS_K
 
 

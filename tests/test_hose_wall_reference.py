@@ -15,7 +15,7 @@ resolved wall's heat, which is why the hose is now two rings (rig.hose_rings_m).
 - first eigenvalue of a stagnant cylinder with its surface held, zeta_1 = 2.4048 (the first zero of
   J0): Incropera Table 5.1 (Bi -> infinity);
 - the inner coefficient: the `ht` package, Baehr-Stephan laminar entry / Gnielinski turbulent;
-- rubber properties: thermo_budget.materials.HOSE_WALL, recalled from memory (+-30 %).
+- rubber properties: thermo_budget.physics.materials.HOSE_WALL, recalled from memory (+-30 %).
 The equation and table numbers of Incropera (6th ed.) are recalled from memory; the formulas are
 the standard ones and the tests hold the reference to them, not to the numbering.
 Figures: `python tests/hose_wall_reference.py` prints them.
@@ -26,12 +26,12 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from thermo_budget.materials import HOSE_WALL
-from thermo_budget.network import HARDWARE, N_NODES, OIL, WALL, hose_rings_m, node_enthalpy_J
-from thermo_budget.answers import TRACE_RESOLUTION
-from thermo_budget.scenario import load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.solver import integrate
+from thermo_budget.physics.materials import HOSE_WALL
+from thermo_budget.physics.network import HARDWARE, N_NODES, OIL, WALL, hose_rings_m, node_enthalpy_J
+from thermo_budget.planning.answers import TRACE_RESOLUTION
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.solver import integrate
 
 import hose_wall_reference as ref
 from conftest import ADIABATIC_PULL, ENGINE_OFF_30S, adiabatic_raw, single_temperature_K

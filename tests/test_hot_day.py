@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from thermo_budget.hot_day import default_ambients_K, hot_day
-from thermo_budget.answers import report
-from thermo_budget.scenario import load_scenario
+from thermo_budget.planning.hot_day import default_ambients_K, hot_day
+from thermo_budget.planning.answers import report
+from thermo_budget.inputs.scenario import load_scenario
 
 from conftest import SCENARIO_DIR
 from thermo_budget.units import ZERO_CELSIUS_K

@@ -17,12 +17,12 @@ from scipy.integrate import solve_ivp
 from conftest import load_tool
 
 day_plan, day_scenario, simulated_day = (getattr(load_tool("bench_live"), name) for name in ("day_plan", "day_scenario", "simulated_day"))
-from thermo_budget.live_forecast import OFF, planned_pull
-from thermo_budget.live_watch import LiveWatch
-from thermo_budget.network import OIL, Inputs, node_equations
-from thermo_budget.rig_build import build_rig
-from thermo_budget.scenario import limit_K
-from thermo_budget.session import pump_flow_m3_s
+from thermo_budget.logs.live_forecast import OFF, planned_pull
+from thermo_budget.logs.live_watch import LiveWatch
+from thermo_budget.physics.network import OIL, Inputs, node_equations
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.inputs.scenario import limit_K
+from thermo_budget.engine.session import pump_flow_m3_s
 
 IN_PULL_S = 3905.0            # 5 s into the morning's 21st pull (3900-3915 s)
 OVER_LIMIT_S = 6220.0         # 10 s into the engine-off break that follows them, the oil above 80 degC

@@ -12,18 +12,18 @@ import numpy as np
 import pytest
 
 from thermo_budget.cli import main
-from thermo_budget.live_forecast import forecast, planned_pull
-from thermo_budget.live_state import JSON_KEYS
-from thermo_budget.live_watch import LiveWatch
-from thermo_budget.network import NODE_NAMES, OIL
-from thermo_budget.scenario import limit_K, load_scenario
-from thermo_budget.rig_build import build_rig
+from thermo_budget.logs.live_forecast import forecast, planned_pull
+from thermo_budget.logs.live_state import JSON_KEYS
+from thermo_budget.logs.live_watch import LiveWatch
+from thermo_budget.physics.network import NODE_NAMES, OIL
+from thermo_budget.inputs.scenario import limit_K, load_scenario
+from thermo_budget.inputs.rig_build import build_rig
 from thermo_budget.units import ZERO_CELSIUS_K
 
 from conftest import SCENARIO_DIR
 from live_logger import ONE_SUBSTEP, extra_mass_ready_s, hot_start_scenario, log_day
-from thermo_budget.log_model import _scenario_pieces
-from thermo_budget.solver import integrate
+from thermo_budget.logs.log_model import _scenario_pieces
+from thermo_budget.engine.solver import integrate
 
 PULL_S, CYCLE_S = 30.0, 150.0       # the hot-start scenario's pull and pull + wait
 THIRD_PULL_END_S = 2 * CYCLE_S + PULL_S
@@ -241,7 +241,7 @@ def watch_pulls(day, i) -> int:
 # --- the command line --------------------------------------------------------------------------------
 
 def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_state(capsys):
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     code = main(["watch", str(SCENARIO_DIR / "default.toml"), str(SCENARIO_DIR / "demo_log.csv"), "--once", "--json"])
     out = capsys.readouterr().out.strip().splitlines()
     assert code == 0 and len(out) == 1
@@ -253,8 +253,8 @@ def test_watch_once_json_on_the_demo_log_agrees_with_run_from_the_estimated_stat
     # oil's own temperature would start `run` with the loop's heat overstated (27 pulls at 0.9
     # against the watch's 29; from the heat-holding temperature, 28).
     from scipy.optimize import brentq
-    from thermo_budget.network import N_NODES, node_enthalpy_J
-    from thermo_budget.rig_build import build_rig
+    from thermo_budget.physics.network import N_NODES, node_enthalpy_J
+    from thermo_budget.inputs.rig_build import build_rig
     estimate = record["estimate_C"]
     here = load_scenario(SCENARIO_DIR / "default.toml").changed(ambient="17.5 degC")
     rig = build_rig(here)
@@ -286,7 +286,7 @@ def test_watch_once_text_and_bad_inputs(tmp_path, capsys):
 def test_a_return_line_sensor_is_read_with_the_return_rise(tmp_path):
     """The trace CSV of `run` read by its return_C column: the estimate of the bulk oil comes out
     at the bulk, not at the hotter return line."""
-    from thermo_budget.answers import simulate, trace_csv
+    from thermo_budget.planning.answers import simulate, trace_csv
     scenario = hot_start_scenario(**{"session.repeat": 2})
     trace = simulate(scenario)
     path = tmp_path / "trace.csv"

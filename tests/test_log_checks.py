@@ -6,12 +6,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from thermo_budget.calibrate import fit_log
+from thermo_budget.logs.calibrate import fit_log
 from thermo_budget.cli import main
 from thermo_budget.errors import ScenarioError
-from thermo_budget.log_checks import MAX_FIT_READINGS, plausibility_warnings, thin_for_fit
-from thermo_budget.measured_log import MAX_LOG_ROWS, read_log
-from thermo_budget.scenario import limit_K, load_scenario
+from thermo_budget.logs.log_checks import MAX_FIT_READINGS, plausibility_warnings, thin_for_fit
+from thermo_budget.logs.measured_log import MAX_LOG_ROWS, read_log
+from thermo_budget.inputs.scenario import limit_K, load_scenario
 
 from conftest import SCENARIO_DIR
 
@@ -115,6 +115,6 @@ def test_too_many_rows_are_refused_with_the_cap():
 
 
 def test_thinning_note_says_its_ordinals_in_english():
-    from thermo_budget.log_checks import ordinal
+    from thermo_budget.logs.log_checks import ordinal
     assert [ordinal(n) for n in (1, 2, 3, 4, 11, 12, 13, 21, 22, 23, 101, 112)] == [
         "1st", "2nd", "3rd", "4th", "11th", "12th", "13th", "21st", "22nd", "23rd", "101st", "112th"]

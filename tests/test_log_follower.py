@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import os
 
-from thermo_budget.log_follower import LogFollower
+from thermo_budget.logs.log_follower import LogFollower
 
 
 def test_new_complete_lines_only_and_a_half_written_line_held_back(tmp_path):

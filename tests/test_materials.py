@@ -6,7 +6,7 @@ than the table's stated +-10 %, the test says why the difference stays."""
 import ht
 import pytest
 
-from thermo_budget.materials import HOSE_WALL, MATERIALS
+from thermo_budget.physics.materials import HOSE_WALL, MATERIALS
 
 # our name: (ht's name, tolerance on density, specific heat, conductivity)
 SAME_MATERIAL = {

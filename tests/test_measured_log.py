@@ -10,9 +10,9 @@ import pytest
 
 from thermo_budget.cli import main
 from thermo_budget.errors import ScenarioError
-from thermo_budget.measured_log import MAX_LOG_BYTES, MIN_POINTS, read_log, read_log_file
-from thermo_budget.answers import simulate, trace_csv
-from thermo_budget.scenario import load_scenario
+from thermo_budget.logs.measured_log import MAX_LOG_BYTES, MIN_POINTS, read_log, read_log_file
+from thermo_budget.planning.answers import simulate, trace_csv
+from thermo_budget.inputs.scenario import load_scenario
 
 from conftest import SCENARIO_DIR
 

@@ -2,9 +2,9 @@
 import numpy as np
 import pytest
 
-from thermo_budget.materials import HOSE_WALL
-from thermo_budget.correlations import cylinder_wall_conductance_W_K
-from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTION, LOOP_OIL, N_NODES, NODE_NAMES,
+from thermo_budget.physics.materials import HOSE_WALL
+from thermo_budget.physics.correlations import cylinder_wall_conductance_W_K
+from thermo_budget.physics.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTION, LOOP_OIL, N_NODES, NODE_NAMES,
                                    OIL, WALL,
                                    Inputs, ambient_conductances_W_K, cooler_W_K, hose_mean_K, hose_ring_link_W_K, hose_rings_m,
                                    dry_shell_W_K, h_oil_bottom_W_m2K, h_oil_side_W_m2K,
@@ -12,10 +12,10 @@ from thermo_budget.network import (HARDWARE, HOSE, HOSE_COVER, HOSE_LINER_FRACTI
                                    loop_conductances_W_K, node_enthalpy_J, node_equations, oil_to_hardware_W_K,
                                    oil_to_hose_W_K, passive_rejection_W, return_line_rise_K,
                                    stirring_velocity_m_s, temperatures_from_enthalpy_K, wall_to_ambient_W_K)
-from thermo_budget.hardware_defaults import default_internal_area_m2
-from thermo_budget.scenario import load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.session import pump_flow_m3_s
+from thermo_budget.inputs.hardware_defaults import default_internal_area_m2
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.session import pump_flow_m3_s
 
 from conftest import base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K
@@ -316,7 +316,7 @@ def test_floor_bottom_loses_into_a_semi_infinite_concrete_floor():
             - _floor_heat_by_finite_differences_J_m2(1.4, alpha, 10.0, 3540.0)) / 120.0
     assert floor_rig.floor_h_W_m2K * 10.0 == pytest.approx(flux, rel=0.01)
     # ENGINEERING.md's figures: about 16 W/(m^2 K) after 1 h, 9 after 3 h
-    from thermo_budget.still_paths import floor_h_W_m2K
+    from thermo_budget.physics.still_paths import floor_h_W_m2K
     assert float(floor_h_W_m2K(3600.0)) == pytest.approx(16.0, abs=0.5)
     assert float(floor_h_W_m2K(3 * 3600.0)) == pytest.approx(9.0, abs=0.5)
     # the floor takes more than the open bottom's still air on this rig (about 6 W/(m^2 K))
@@ -415,7 +415,7 @@ def test_return_jet_stirs_the_tank(rig):
     # the confined jet's circulation (momentum flux over the tank's section across the jet), far
     # below the free jet's centreline speed where it meets the far wall (Pope's B = 5.8; the former
     # estimate): U / u_c = sqrt(A_0 / A) x / (5.8 d) = 0.26 over the 0.35 m length, section 0.25 m x 0.17 m
-    from thermo_budget.correlations import jet_centreline_velocity_Pope
+    from thermo_budget.physics.correlations import jet_centreline_velocity_Pope
     far_wall = float(jet_centreline_velocity_Pope(exit_, rig.hose_inner_diameter_m, 0.35))
     assert 0.2 * far_wall < u < 0.3 * far_wall
     T_oil, T_wall = np.array([330.0]), np.array([325.0])

@@ -4,7 +4,7 @@ import pytest
 from chemicals.viscosity import viscosity_index as chemicals_viscosity_index
 
 from thermo_budget.errors import ScenarioError
-from thermo_budget.oil import (T40_K, T100_K, Oil, cragoe_conductivity_W_mK, cragoe_specific_heat_J_kgK,
+from thermo_budget.physics.oil import (T40_K, T100_K, Oil, cragoe_conductivity_W_mK, cragoe_specific_heat_J_kgK,
                                iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt, viscosity_index_d2270,
                                walther_coefficients, walther_temperature_K, walther_viscosity_cSt)
 from thermo_budget.units import ZERO_CELSIUS_K

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from thermo_budget.oil_life import ageing_equivalent_h, ageing_rate
+from thermo_budget.physics.oil_life import ageing_equivalent_h, ageing_rate
 from thermo_budget.units import ZERO_CELSIUS_K
 
 
@@ -29,7 +29,7 @@ def test_hours_add_up_over_a_history():
 
 def test_rate_grows_with_temperature_and_the_report_carries_it(default_scenario):
     assert np.all(np.diff(ageing_rate(np.linspace(280.0, 400.0, 50))) > 0)
-    from thermo_budget.answers import report, simulate
+    from thermo_budget.planning.answers import report, simulate
     trace = simulate(default_scenario)
     hours = ageing_equivalent_h(trace.time_s[:, 0], trace.T_K[:, 0, 0])
     duration_h = trace.time_s[-1, 0] / 3600.0

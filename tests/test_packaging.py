@@ -79,40 +79,4 @@ def test_pip_install_gives_the_package_and_the_command(tmp_path):
     assert module.returncode == 0 and "usage" in module.stdout
 
 
-def _package_imports() -> dict[str, set[str]]:
-    """module -> the package's modules it imports (top level or inside a function), read from the source."""
-    import ast
-    package = REPO / "thermo_budget"
-    names = {p.stem for p in package.glob("*.py")}
-    graph = {}
-    for path in package.glob("*.py"):
-        found = set()
-        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
-            if isinstance(node, ast.ImportFrom):
-                module = node.module or ""
-                if node.level == 1:
-                    found |= {module.split(".")[0]} if module else {a.name for a in node.names}
-                elif module.startswith("thermo_budget."):
-                    found.add(module.split(".")[1])
-        graph[path.stem] = (found & names) - {path.stem}
-    return graph
-
-
-def test_the_package_has_no_import_cycle():
-    graph, state, cycles = _package_imports(), {}, []
-
-    def visit(module, path):
-        state[module] = "open"
-        for target in sorted(graph[module]):
-            if state.get(target) == "open":
-                cycles.append(path[path.index(target):] + [target])
-            elif target not in state:
-                visit(target, path + [target])
-        state[module] = "done"
-
-    for module in sorted(graph):
-        if module not in state:
-            visit(module, [module])
-    assert cycles == [], " ; ".join(" -> ".join(c) for c in cycles)
-    # the developer tools live outside the installed package
-    assert not {"bench", "bench_compiled", "band_convergence", "make_air_table", "make_sobol_table"} & set(graph)
+# The package's floors, its import cycles and its developer tools are checked in tests/test_layers.py.

@@ -4,10 +4,10 @@ import numpy as np
 import pytest
 
 from thermo_budget import report
-from thermo_budget.band_text import plan_phrase, pulls_phrase
-from thermo_budget.page_bands import ranking_html
-from thermo_budget.page_charts import envelope_png
-from thermo_budget.answers import simulate
+from thermo_budget.planning.band_text import plan_phrase, pulls_phrase
+from thermo_budget.page.page_bands import ranking_html
+from thermo_budget.page.page_charts import envelope_png
+from thermo_budget.planning.answers import simulate
 
 from conftest import REPO
 

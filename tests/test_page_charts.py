@@ -8,7 +8,8 @@ import matplotlib.image
 import numpy as np
 import pytest
 
-from thermo_budget import design_sweep, page_charts
+from thermo_budget.planning.planning import design_sweep
+from thermo_budget.page import page_charts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -19,7 +20,7 @@ def default(default_scenario):
 
 
 def test_design_axes_bracket_the_rig_and_the_answers(default, default_report):
-    from thermo_budget.results import Report
+    from thermo_budget.planning.results import Report
     answers = Report.from_json(default_report)
     volumes, coolers = design_sweep.design_axes(default)
     assert [a.tolist() for a in design_sweep.design_axes(default, answers)] == [volumes.tolist(), coolers.tolist()]

@@ -8,11 +8,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from thermo_budget import DEFAULT_SCENARIO, load_scenario
-from thermo_budget import page_inputs as pi
-from thermo_budget.answers import report, simulate
-from thermo_budget.planning import runs_before_limit
-from thermo_budget.rig_build import build_rig
-from thermo_budget.scenario import SCENARIO_DIR, read_toml_text
+from thermo_budget.page import page_inputs as pi
+from thermo_budget.planning.answers import report, simulate
+from thermo_budget.planning.planning import runs_before_limit
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.inputs.scenario import SCENARIO_DIR, read_toml_text
 
 
 @pytest.fixture(scope="module")

@@ -10,7 +10,7 @@ import pytest
 from streamlit.testing.v1 import AppTest
 
 from thermo_budget.errors import ScenarioError
-from thermo_budget.page_live import LOG_DIR_ENV, log_folder, resolve_log_path
+from thermo_budget.page.page_live import LOG_DIR_ENV, log_folder, resolve_log_path
 
 from conftest import SCENARIO_DIR
 
@@ -62,8 +62,8 @@ def _live_app(folder, system):
     def app(folder_name, system_name):
         from pathlib import Path
 
-        from thermo_budget.page_live import live_section
-        from thermo_budget.scenario import DEFAULT_SCENARIO
+        from thermo_budget.page.page_live import live_section
+        from thermo_budget.inputs.scenario import DEFAULT_SCENARIO
         live_section(Path(DEFAULT_SCENARIO).read_text(), system_name, Path(folder_name))
     return AppTest.from_function(app, args=(str(folder), system), default_timeout=120)
 

@@ -8,10 +8,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from thermo_budget import DEFAULT_SCENARIO, build_rig, limit_K, load_scenario, sweep
-from thermo_budget.network import OIL
-from thermo_budget.planning import batched_threshold, session_outcome
-from thermo_budget.answers import planning_answers, session_report
-from thermo_budget.solver import integrate
+from thermo_budget.physics.network import OIL
+from thermo_budget.planning.planning import batched_threshold, session_outcome
+from thermo_budget.planning.answers import planning_answers, session_report
+from thermo_budget.engine.solver import integrate
 from thermo_budget.units import ZERO_CELSIUS_K
 
 
@@ -215,8 +215,8 @@ def _shipped_and_short_of_oil():
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
 def test_schedule_read_off_the_session_equals_the_block_search(scenario):
-    from thermo_budget.planning import session_trace
-    from thermo_budget.ready_schedule import ready_schedule
+    from thermo_budget.planning.planning import session_trace
+    from thermo_budget.planning.ready_schedule import ready_schedule
     rig = build_rig(scenario)
     read_off = ready_schedule(scenario, [], session_trace(scenario, rig, 1))
     searched = ready_schedule(scenario, [])
@@ -231,7 +231,7 @@ def test_schedule_read_off_the_session_equals_the_block_search(scenario):
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
 def test_runs_before_limit_reuses_the_session_as_its_first_chunk(scenario):
-    from thermo_budget.planning import runs_before_limit, session_trace
+    from thermo_budget.planning.planning import runs_before_limit, session_trace
     volumes = np.array([0.4, 1.0, 2.0]) * scenario.reservoir.oil_volume_m3
     rig = build_rig(scenario, oil_volume_m3=volumes)
     never = np.zeros(3, bool)
@@ -243,7 +243,7 @@ def test_runs_before_limit_reuses_the_session_as_its_first_chunk(scenario):
 
 
 def test_runs_before_limit_stops_counting_at_max_pulls():
-    from thermo_budget.planning import runs_before_limit
+    from thermo_budget.planning.planning import runs_before_limit
     scenario = load_scenario(DEFAULT_SCENARIO)
     rig = build_rig(scenario)
     full = runs_before_limit(scenario, rig, 1, np.zeros(1, bool))[0]
@@ -258,7 +258,7 @@ def test_the_warm_started_cooler_search_gives_the_cold_started_answer(busy, monk
     # The sustained-cooler search starts the periodic states of its later rounds from the converged
     # states of the earlier ones (planning._warm_start); Newton converges to the same fixed point, so
     # the answer is the same as from the session's start state (a saving of time, not a change).
-    import thermo_budget.planning as planning
+    import thermo_budget.planning.planning as planning
     fitted = planning.required_cooler_W_K(busy, [], sustained=True)
     monkeypatch.setattr(planning, "_warm_start", lambda seen, values: None)
     assert planning.required_cooler_W_K(busy, [], sustained=True) == fitted
@@ -267,7 +267,7 @@ def test_the_warm_started_cooler_search_gives_the_cold_started_answer(busy, monk
 def test_runs_before_limit_resumed_where_it_stopped_counts_as_one_go():
     # the band counts in two goes (bands._sample_runs): to a first cap, then on from the state reached
     # for the designs not yet over; the second go must give the counts of one go to the second cap
-    from thermo_budget.planning import runs_before_limit
+    from thermo_budget.planning.planning import runs_before_limit
     scenario = load_scenario(DEFAULT_SCENARIO)
     volumes = np.array([0.6, 1.0, 1.3]) * scenario.reservoir.oil_volume_m3
     rig = build_rig(scenario, oil_volume_m3=volumes)
@@ -277,7 +277,7 @@ def test_runs_before_limit_resumed_where_it_stopped_counts_as_one_go():
     first = runs_before_limit(scenario, rig, 3, never, max_pulls=30, state_out=reached)
     left = np.flatnonzero(np.isnan(first))
     assert left.size and reached["pulls"] >= 30
-    from thermo_budget.planning import take_designs
+    from thermo_budget.planning.planning import take_designs
     first[left] = runs_before_limit(scenario, take_designs(rig, left), left.size, np.zeros(left.size, bool),
                                     max_pulls=80, resume=(reached["state"][left], reached["pulls"]))
     np.testing.assert_array_equal(first, one_go)

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from matplotlib.figure import Figure
 
-from thermo_budget.plots import plot_design_chart, plot_trace
-from thermo_budget.answers import simulate
+from thermo_budget.output.plots import plot_design_chart, plot_trace
+from thermo_budget.planning.answers import simulate
 
 
 @pytest.fixture(scope="module")
@@ -93,7 +93,7 @@ def test_design_chart_from_real_sweep(default, default_report):
     gives fewer pulls, a hotter peak or a cadence that stops being sustainable; the rig's own cell
     (18 L, no cooler) is the report's answer; and the chart draws the plan's contour exactly when
     the plan splits the grid (10 planned: every design finishes, no contour; 30: some do not)."""
-    from thermo_budget.design_sweep import sweep
+    from thermo_budget.planning.design_sweep import sweep
     volumes, coolers = [6.0, 12.0, 18.0, 30.0], [0.0, 2.0, 5.0]
     result = sweep(default, volumes, coolers)
     runs = np.nan_to_num(result.runs_before_limit, nan=np.inf)
@@ -113,7 +113,7 @@ def test_design_chart_from_real_sweep(default, default_report):
 
 @pytest.mark.parametrize("planned,cap", [(12, 48), (10, 40), (1, 40), (40, 160), (3, 40), (26, 104)])
 def test_run_levels_are_built_around_the_plan(planned, cap):
-    from thermo_budget.plots import _band_colours, _run_levels
+    from thermo_budget.output.plots import _band_colours, _run_levels
     levels = _run_levels(planned, cap)
     assert levels[0] == 0 and all(a < b for a, b in zip(levels, levels[1:]))
     assert planned in levels and cap in levels
@@ -129,7 +129,7 @@ def test_run_levels_are_built_around_the_plan(planned, cap):
 def test_band_edges_are_inked_to_read_on_their_band():
     # White on the darkest band of the chart's colour map, black on the palest (common practice, no source).
     import matplotlib
-    from thermo_budget.plots import _ink_on
+    from thermo_budget.output.plots import _ink_on
     cmap = matplotlib.colormaps["YlGnBu"]
     assert _ink_on(cmap(1.0)) == "w"
     assert _ink_on(cmap(0.0)) == "k"
@@ -147,8 +147,8 @@ def test_charts_are_readable_on_a_phone(default):
     """Every text at least 11 px when the chart is shown 360 px wide (a 400 px phone), the legend off
     the axes (so off every curve), the limit's label above every series, and every contour label
     wholly inside the axes."""
-    from thermo_budget.page_charts import CHART_DPI
-    from thermo_budget.answers import simulate
+    from thermo_budget.page.page_charts import CHART_DPI
+    from thermo_budget.planning.answers import simulate
     shown_scale = 360.0 / (5.6 * CHART_DPI)
     for fig in (plot_trace(default, simulate(default)), plot_design_chart(default, _fake_sweep())):
         renderer, texts = _text_boxes(fig)
@@ -171,7 +171,7 @@ def test_charts_are_readable_on_a_phone(default):
 def test_trace_chart_swatches_are_all_different(default):
     """No two series of the temperature chart share a swatch (colour and style)."""
     from matplotlib.colors import to_hex
-    from thermo_budget.answers import simulate
+    from thermo_budget.planning.answers import simulate
     fig = plot_trace(default, simulate(default))
     swatches = []
     for handle in fig.legends[0].legend_handles:

@@ -6,11 +6,11 @@ import numpy as np
 import pytest
 
 import thermo_budget
-from thermo_budget.network import HOSE, HOSE_COVER, LOOP_OIL, N_NODES, OIL, heat_capacities_J_K
-from thermo_budget.outcome import first_crossing_s
-from thermo_budget.answers import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
-from thermo_budget.scenario import limit_K, load_scenario
-from thermo_budget.rig_build import build_rig
+from thermo_budget.physics.network import HOSE, HOSE_COVER, LOOP_OIL, N_NODES, OIL, heat_capacities_J_K
+from thermo_budget.engine.outcome import first_crossing_s
+from thermo_budget.planning.answers import TRACE_COLUMNS, session_report, simulate, trace_csv, trace_rows
+from thermo_budget.inputs.scenario import limit_K, load_scenario
+from thermo_budget.inputs.rig_build import build_rig
 
 from conftest import REQUIRED_JSON_KEYS, SCENARIO_DIR, base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K
@@ -46,8 +46,8 @@ def crossing_trace(crossing_scenario):
 
 
 def test_report_is_the_public_api_and_has_every_key(default_report):
-    import thermo_budget.answers  # the submodule is named apart from the function it exports
-    assert thermo_budget.report is thermo_budget.answers.report
+    import thermo_budget.planning.answers  # the submodule is named apart from the function it exports
+    assert thermo_budget.report is thermo_budget.planning.answers.report
     for key in REQUIRED_JSON_KEYS:
         assert key in default_report, key
     assert set(default_report["heat_capacity_J_per_K"]) >= {"oil", "wall", "hardware"}
@@ -260,7 +260,7 @@ JSON_KEYS = json.loads((Path(__file__).parent / "data" / "report_json_keys.json"
 
 @pytest.mark.parametrize("name", sorted(p.name for p in SCENARIO_DIR.glob("*.toml")))
 def test_report_json_has_the_committed_keys_in_order(name):
-    from thermo_budget.results import Report
+    from thermo_budget.planning.results import Report
     result = thermo_budget.report(load_scenario(SCENARIO_DIR / name))
     assert isinstance(result, Report)
     keys = result.to_json()

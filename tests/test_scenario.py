@@ -4,8 +4,8 @@ import pytest
 import tomllib
 
 from thermo_budget.errors import ScenarioError
-from thermo_budget.scenario import limit_K, load_scenario
-from thermo_budget.rig_build import build_rig
+from thermo_budget.inputs.scenario import limit_K, load_scenario
+from thermo_budget.inputs.rig_build import build_rig
 
 from conftest import BAD_INPUTS, SHIPPED_SCENARIOS, bad_scenario_path, base_raw, set_path
 
@@ -173,8 +173,8 @@ def test_temperature_below_absolute_zero_says_so(key):
 
 # ---------------------------------------------------------------- edges (issue 13)
 
-from thermo_budget.scenario import MAX_SESSION_SUBSTEPS  # noqa: E402
-from thermo_budget.scenario_table import KEYS, MAX_NESTING, key_spec  # noqa: E402
+from thermo_budget.inputs.scenario import MAX_SESSION_SUBSTEPS  # noqa: E402
+from thermo_budget.inputs.scenario_table import KEYS, MAX_NESTING, key_spec  # noqa: E402
 
 
 def _refusal(raw) -> str:
@@ -360,7 +360,7 @@ def _same_numbers(a, b, path=""):
 def test_a_pull_given_as_pressure_times_flow_gives_the_same_answers_as_given_as_power():
     """7 kW at 3600 rpm on the default pump (14 cm^3/rev, eta_v 0.90): Q = 14e-6 x 3600 / 60 x 0.90
     = 7.56e-4 m^3/s = 45.36 L/min, dp = P / Q = 7000 / 7.56e-4 Pa = 92.592... bar (P = dp Q)."""
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     as_power = _pull_as(power="7 kW", rpm=3600)
     dp_bar = 7000.0 / 7.56e-4 / 1e5
     as_flow = _pull_as(pressure=f"{dp_bar!r} bar", flow="45.36 L/min", rpm=3600)

@@ -9,15 +9,15 @@ from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 from scipy.optimize import brentq
 
-from thermo_budget.network import (HARDWARE, HOSE, LOOP_OIL, N_NODES, OIL, Inputs, heat_capacities_J_K, hose_ring_link_W_K,
+from thermo_budget.physics.network import (HARDWARE, HOSE, LOOP_OIL, N_NODES, OIL, Inputs, heat_capacities_J_K, hose_ring_link_W_K,
                                    node_enthalpy_J, node_equations, oil_to_wall_W_K)
-from thermo_budget.still_paths import engine_off_link_W_K, loop_oil_links_W_K
-from thermo_budget.outcome import peak_oil_K, pulls_completed_under
-from thermo_budget.answers import TRACE_RESOLUTION, session_report
-from thermo_budget.scenario import limit_K, load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
-from thermo_budget.solver import integrate, propagate_linear
+from thermo_budget.physics.still_paths import engine_off_link_W_K, loop_oil_links_W_K
+from thermo_budget.engine.outcome import peak_oil_K, pulls_completed_under
+from thermo_budget.planning.answers import TRACE_RESOLUTION, session_report
+from thermo_budget.inputs.scenario import limit_K, load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
+from thermo_budget.engine.solver import integrate, propagate_linear
 
 from conftest import (ADIABATIC_PULL, ENGINE_OFF_30S, SCENARIO_DIR, SHIPPED_SCENARIOS, adiabatic_raw, base_raw,
                       set_path, single_temperature_K)
@@ -81,7 +81,7 @@ def test_coupled_linear_system_against_the_matrix_exponential():
 
 class Reference:
     """scipy solve_ivp (Radau, rtol = atol = 1e-8), step by step, the right-hand side being
-    thermo_budget.network.node_equations at the current state and the step's instantaneous inputs.
+    thermo_budget.physics.network.node_equations at the current state and the step's instantaneous inputs.
     One more state integrates the heat lost to ambient. (Against rtol = atol = 1e-10 on the US rig,
     measured: 3.3e-6 K at most, the heat lost within 5e-10, at a third of the cost; the requirement
     it checks is 0.05 K.)"""
@@ -202,7 +202,7 @@ def test_energy_balance_closes_at_planning_resolution(path):
 
 def cragoe_enthalpy_J_kg(T_K, s):
     """Integral of Cragoe's c = (0.388 + 0.00045 t)/sqrt(s) Btu/(lb °F) in °F, from 32 °F, in J/kg
-    (Cragoe, NBS Misc. Publ. 97; written out here independently of thermo_budget.oil)."""
+    (Cragoe, NBS Misc. Publ. 97; written out here independently of thermo_budget.physics.oil)."""
     t_F = (T_K - ZERO_CELSIUS_K) * 1.8 + 32.0
     btu_per_lb = (0.388 * (t_F - 32.0) + 0.000225 * (t_F**2 - 32.0**2)) / np.sqrt(s)
     return btu_per_lb * 1055.05585262 / 0.45359237

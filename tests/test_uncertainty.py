@@ -5,7 +5,7 @@ import pytest
 
 from thermo_budget import load_scenario
 from thermo_budget.errors import ScenarioError
-from thermo_budget.uncertainty import (FACTORS, UncertaintyModel, factor_values, posterior_from_fit, read_uncertainty,
+from thermo_budget.inputs.uncertainty import (FACTORS, UncertaintyModel, factor_values, posterior_from_fit, read_uncertainty,
                                        sample_rig, standard_normals)
 
 from conftest import SCENARIO_DIR, base_raw, load_tool
@@ -102,7 +102,7 @@ def test_the_shipped_sobol_points_are_scipys():
     # the table the package reads (make_sobol_table) against scipy.stats.qmc.Sobol and norm.ppf, the
     # source; and more points than the table holds still come from scipy, continuing the same sequence
     check_table = load_tool("make_sobol_table").main
-    from thermo_budget.uncertainty import (SOBOL_SEED, SOBOL_TABLE_POINTS, UncertaintyModel,
+    from thermo_budget.inputs.uncertainty import (SOBOL_SEED, SOBOL_TABLE_POINTS, UncertaintyModel,
                                            sobol_normals_from_scipy, standard_normals)
     assert check_table(["--check"]) == 0
     model = UncertaintyModel()

@@ -9,8 +9,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from thermo_budget.scenario import load_scenario
-from thermo_budget.verdict import Change, Fix, Verdict, run_day, samples_of, share_fits, verdict
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.planning.verdict import Change, Fix, Verdict, run_day, samples_of, share_fits, verdict
 
 SCENARIOS = Path(__file__).resolve().parent.parent / "scenarios"
 VERDICT_KEYS = {"fits", "first_pull_over_limit", "limit_C", "governing_limit", "peak_C", "confidence", "fixes"}
@@ -110,7 +110,7 @@ def test_fitting_rig_says_so():
 
 
 def test_report_json_carries_the_verdict_with_the_named_keys():
-    from thermo_budget.answers import report
+    from thermo_budget.planning.answers import report
     scenario = load_scenario(SCENARIOS / "us_units_fan.toml")
     result = report(scenario).to_json()
     assert set(result["verdict"]) == VERDICT_KEYS
@@ -129,7 +129,7 @@ def test_band_off_judges_the_point_answer():
     scenario = _edited(_failing(), **{"uncertainty.enabled": False})
     v = verdict(scenario, {"pulls_planned": 24})
     assert samples_of(scenario).n == 1
-    from thermo_budget.answers import session_report
+    from thermo_budget.planning.answers import session_report
     point = session_report(scenario)
     assert v.fits == (point["time_to_limit_s"] is None)
 
@@ -137,8 +137,8 @@ def test_band_off_judges_the_point_answer():
 def test_the_band_stays_when_the_point_answer_is_sustainable():
     """Rig A at 5.6 kW settles 1.5 K under its limit by the point model, yet many of its samples cross:
     the pull count's band and the plan are there, with the share of samples that never cross."""
-    from thermo_budget.page_cards import pulls_card
-    from thermo_budget.answers import report
+    from thermo_budget.page.page_cards import pulls_card
+    from thermo_budget.planning.answers import report
     scenario = _edited(load_scenario(SCENARIOS / "default.toml"), **{"session.steps[0].power": "5.6 kW"})
     answers = report(scenario)
     result = answers.to_json()
@@ -155,15 +155,15 @@ def test_the_band_stays_when_the_point_answer_is_sustainable():
 def test_the_page_and_the_text_say_what_the_verdict_says(failing):
     """The page's box and `run`'s text are drawn from the one Verdict: its word, its first pull over
     the limit and every fix, in the order given."""
-    from thermo_budget.page_headline import verdict_html
-    from thermo_budget.verdict_text import fix_text
+    from thermo_budget.page.page_headline import verdict_html
+    from thermo_budget.output.verdict_text import fix_text
     scenario, v = failing
     box = verdict_html(v, 24, "SI", band_on=True)
     assert 'data-fits="false"' in box and "DOES NOT FIT" in box and f"pull {v.first_pull_over_limit} of 24" in box
     positions = [box.index(fix_text(fix, "SI").replace("'", "&#x27;")) for fix in v.fixes]
     assert positions == sorted(positions) and len(positions) == 5
     result = {"name": "rig", "units": "SI", "pulls_planned": 24, "verdict": v.to_json(), "uncertainty": {"samples": 128}}
-    from thermo_budget.verdict_text import summary_lines
+    from thermo_budget.output.verdict_text import summary_lines
     lines = summary_lines(result)
     assert lines[0].split(maxsplit=1)[1] == (f"does not fit: pull {v.first_pull_over_limit} of 24 crosses 80.0 °C "
                                               "(the hottest you allow the oil), at 90 % confidence")

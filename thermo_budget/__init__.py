@@ -6,9 +6,9 @@ The names below are imported on first use, so that `python -m thermo_budget --he
 """
 from importlib import import_module
 
-_WHERE = {"SweepResult": "design_sweep", "sweep": "design_sweep", "ScenarioError": "errors",
-          "report": "answers", "simulate": "answers", "DEFAULT_SCENARIO": "scenario", "Scenario": "scenario",
-          "build_rig": "rig_build", "limit_K": "scenario", "load_scenario": "scenario"}
+_WHERE = {"SweepResult": "planning.design_sweep", "sweep": "planning.design_sweep", "ScenarioError": "errors",
+          "report": "planning.answers", "simulate": "planning.answers", "DEFAULT_SCENARIO": "inputs.scenario", "Scenario": "inputs.scenario",
+          "build_rig": "inputs.rig_build", "limit_K": "inputs.scenario", "load_scenario": "inputs.scenario"}
 
 __all__ = ["ScenarioError", "Scenario", "DEFAULT_SCENARIO", "load_scenario", "build_rig", "limit_K",
            "report", "simulate", "sweep", "SweepResult"]

@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING
 from .errors import ScenarioError, shown
 
 if TYPE_CHECKING:
-    from .results import Report
+    from .planning.results import Report
 
 
 def _fmt(value_si, kind, system, digits=1):
@@ -36,7 +36,7 @@ def _temp(celsius, system):
 def summary_text(result: Report) -> str:
     """A short readable summary of a report, in the scenario's units."""
     u = result.units
-    from .verdict_text import summary_lines as verdict_lines
+    from .output.verdict_text import summary_lines as verdict_lines
     lines = [f"{result.name or 'scenario'}", *verdict_lines(result),
              f"  fluid limit      {_temp(result.limit_C, u)} (set by {result.limit_reason.replace('_', ' ')})",
              f"  pulls under limit {result.pulls_under_limit} of {result.pulls_planned} planned",
@@ -74,7 +74,7 @@ def summary_text(result: Report) -> str:
                                            + " head room at the limit)")]
     if result.runs_stopped_by == "return_line":
         lines.append("  the count stops at the return-line limit (hoses and seals), before the bulk limit")
-    from .band_text import summary_lines
+    from .planning.band_text import summary_lines
     lines += summary_lines(result)
     lines += [f"  CAUTION: {text}" for text in result.cautions]
     lines += [f"  note: {note}" for note in result.notes]
@@ -94,7 +94,7 @@ def check_outputs(args, inputs: tuple, outputs: tuple) -> None:
 
 def _load(path):
     from .output_files import print_warnings
-    from .scenario import load_scenario
+    from .inputs.scenario import load_scenario
     scenario = load_scenario(path)
     print_warnings(scenario.warnings)
     return scenario
@@ -102,7 +102,7 @@ def _load(path):
 
 def _run(args) -> int:
     from .output_files import json_text, save_figure, write_atomically
-    from .answers import report, simulate, trace_csv
+    from .planning.answers import report, simulate, trace_csv
     check_outputs(args, ("scenario",), ("csv", "plot"))
     scenario = _load(args.scenario)
     trace = simulate(scenario)
@@ -110,14 +110,14 @@ def _run(args) -> int:
     if args.csv:
         write_atomically(args.csv, trace_csv(trace))
     if args.plot:
-        from .plots import plot_trace
+        from .output.plots import plot_trace
         save_figure(plot_trace(scenario, trace), args.plot, dpi=120, bbox_inches="tight")
     hot = None
     if args.ambients is not None:
-        from .hot_day import hot_day
+        from .planning.hot_day import hot_day
         hot = hot_day(scenario, None if args.ambients == "default" else _ambients(args.ambients, scenario.units))
     if args.json:
-        from .answers import check_finite
+        from .planning.answers import check_finite
         keys = result.to_json()
         if hot is not None:
             keys["hot_day"] = hot.to_json()
@@ -167,7 +167,7 @@ def _grid_spec(text: str, option: str) -> tuple[float, float, int]:
 def _sweep(args) -> int:
     import numpy as np
 
-    from .design_sweep import check_grid, check_grid_size, sweep
+    from .planning.design_sweep import check_grid, check_grid_size, sweep
     from .output_files import json_text, save_figure
     check_outputs(args, ("scenario",), ("plot",))
     volume_spec = _grid_spec(args.oil_volumes, "--oil-volumes")
@@ -181,7 +181,7 @@ def _sweep(args) -> int:
     check_grid(volumes, coolers, ("--oil-volumes", args.oil_volumes), ("--coolers", args.coolers))
     result = sweep(scenario, volumes, coolers)
     if args.plot:
-        from .plots import plot_design_chart
+        from .output.plots import plot_design_chart
         save_figure(plot_design_chart(scenario, result), args.plot, dpi=120, bbox_inches="tight")
     if args.json:
         print(json_text(result.to_json(), indent=2))
@@ -192,11 +192,11 @@ def _sweep(args) -> int:
 
 def _fit(args) -> int:
     """`python -m thermo_budget fit SCENARIO LOG.csv [--sensor] [--json] [--write] [--plot]`."""
-    from .calibrate import fit_log
-    from .fit_text import calibrated_toml, summary_text
-    from .measured_log import log_file_text
+    from .logs.calibrate import fit_log
+    from .output.fit_text import calibrated_toml, summary_text
+    from .logs.measured_log import log_file_text
     from .output_files import json_text, print_warnings, save_figure, write_atomically
-    from .scenario import load_scenario
+    from .inputs.scenario import load_scenario
     check_outputs(args, ("scenario", "log"), ("write", "plot"))
     scenario = load_scenario(args.scenario)
     print_warnings(scenario.warnings)
@@ -207,7 +207,7 @@ def _fit(args) -> int:
     if args.write:
         write_atomically(args.write, calibrated_toml(result, args.log))
     if args.plot:
-        from .fit_plot import plot_fit
+        from .output.fit_plot import plot_fit
         figure = plot_fit(result)
         save_figure(figure, args.plot, dpi=120, bbox_inches="tight")
     answers = result.to_dict(include_series=False)
@@ -216,7 +216,7 @@ def _fit(args) -> int:
 
 
 def _watch(args) -> int:
-    from .live_watch import watch_command
+    from .logs.live_watch import watch_command
     return watch_command(args)
 
 

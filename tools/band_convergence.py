@@ -16,9 +16,9 @@ import argparse
 
 import numpy as np
 
-from thermo_budget.bands import order_statistic, sample_answers
-from thermo_budget.answers import report
-from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.planning.bands import order_statistic, sample_answers
+from thermo_budget.planning.answers import report
+from thermo_budget.inputs.scenario import DEFAULT_SCENARIO, load_scenario
 
 COUNTS = (16, 32, 64, 128, 256, 4096)
 SIZING_COUNTS = (16, 32, 64, 128, 256)

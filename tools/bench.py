@@ -33,14 +33,14 @@ import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
-from thermo_budget.network import N_NODES, OIL, Inputs, node_equations
-from thermo_budget.planning import session_outcome, take_designs
-from thermo_budget.answers import report
-from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
-from thermo_budget.rig_build import build_rig
-from thermo_budget.session import pump_flow_m3_s
-from thermo_budget.solver import propagate_linear
-from thermo_budget.design_sweep import sweep
+from thermo_budget.physics.network import N_NODES, OIL, Inputs, node_equations
+from thermo_budget.planning.planning import session_outcome, take_designs
+from thermo_budget.planning.answers import report
+from thermo_budget.inputs.scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.engine.session import pump_flow_m3_s
+from thermo_budget.engine.solver import propagate_linear
+from thermo_budget.planning.design_sweep import sweep
 
 
 def _best_of(repeats, function):
@@ -101,8 +101,8 @@ def frozen_expm_session(rig, steps, T0_K, n, use_eigh=False):
 def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, float]:
     """Seconds the page spends, after the oil volume changes to a value not seen before, on (the
     answers, the temperature chart PNG, the design chart's sweep, the design chart PNG)."""
-    from thermo_budget import page_charts
-    from thermo_budget.answers import simulate
+    from thermo_budget.page import page_charts
+    from thermo_budget.planning.answers import simulate
     changed = scenario.changed(**{"reservoir.oil_volume": f"{oil_volume_L} L"})
     text = changed.to_toml()
     start = time.perf_counter()
@@ -119,8 +119,8 @@ def page_redraw_s(scenario, oil_volume_L: float) -> tuple[float, float, float, f
 
 def band_share_s(scenario, repeats: int = 3) -> tuple[float, float]:
     """(report() with the band, of it the band alone) s, best of `repeats` each."""
-    from thermo_budget.bands import band_report
-    from thermo_budget.answers import planning_answers, session_report, simulate
+    from thermo_budget.planning.bands import band_report
+    from thermo_budget.planning.answers import planning_answers, session_report, simulate
     trace = simulate(scenario)
     point = session_report(scenario, trace)
     point.update(planning_answers(scenario))
@@ -306,7 +306,7 @@ def main(argv=None):
           f"{t_session / t_floor_eigh:.2f}")
     print(f"report() with every sizing answer, band off: {t_report:.3f} s = {t_report / t_one:.1f} plain simulations "
           f"of {t_one * 1000:.1f} ms (targets <= 40 and well under 0.5 s)")
-    from thermo_budget.bands import N_SAMPLES, N_SIZING_SAMPLES
+    from thermo_budget.planning.bands import N_SAMPLES, N_SIZING_SAMPLES
     for name, t_with, t_band in band_figures:
         print(f"report() with the band ({N_SAMPLES} samples, {N_SIZING_SAMPLES} for the sizing answers), {name}: "
               f"{t_with:.3f} s, of it the band {t_band:.3f} s ({100 * t_band / t_with:.0f} %, "

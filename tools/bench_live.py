@@ -35,11 +35,11 @@ from pathlib import Path
 
 import numpy as np
 
-from thermo_budget.network import OIL
-from thermo_budget.rig_build import build_rig
-from thermo_budget.scenario import DEFAULT_SCENARIO, load_scenario
-from thermo_budget.session import Resolution, Step
-from thermo_budget.solver import integrate
+from thermo_budget.physics.network import OIL
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.inputs.scenario import DEFAULT_SCENARIO, load_scenario
+from thermo_budget.engine.session import Resolution, Step
+from thermo_budget.engine.solver import integrate
 
 DAY_S = 10 * 3600.0
 NOISE_K = 0.3
@@ -126,7 +126,7 @@ def follow_updates_s(scenario, day: SimulatedDay, path: Path, at_s, rows_per_pol
     """Per-update times at each time in at_s: the file written up to that time at once and read,
     then `polls` polls of rows_per_poll new rows each. Returns, per time, (time, median and max of
     the reading and estimate's part, median and max of the whole update with the forecast)."""
-    from thermo_budget.live_watch import LiveWatch
+    from thermo_budget.logs.live_watch import LiveWatch
     lines = day.lines()
     results = []
     for at in at_s:
@@ -156,7 +156,7 @@ def follow_updates_s(scenario, day: SimulatedDay, path: Path, at_s, rows_per_pol
 def memory_bytes(scenario, day: SimulatedDay, path: Path, until_s: float) -> tuple[int, int, int]:
     """(Python allocation kept by one watch after reading the day up to until_s at once, the peak
     while it read, the file's size)."""
-    from thermo_budget.live_watch import LiveWatch
+    from thermo_budget.logs.live_watch import LiveWatch
     rows = int(np.searchsorted(day.time_s, until_s))
     path.write_text("\n".join(day.lines(range(rows))) + "\n")
     tracemalloc.start()
@@ -179,8 +179,8 @@ def page_live_s(day: SimulatedDay, folder: Path) -> tuple[float, float] | None:
     def app(folder_name):
         from pathlib import Path
 
-        from thermo_budget.page_live import live_section
-        from thermo_budget.scenario import DEFAULT_SCENARIO
+        from thermo_budget.page.page_live import live_section
+        from thermo_budget.inputs.scenario import DEFAULT_SCENARIO
         live_section(Path(DEFAULT_SCENARIO).read_text(), "SI", Path(folder_name))
     lines = day.lines()
     path = folder / "page" / "day.csv"

@@ -19,7 +19,7 @@ import sys
 
 import numpy as np
 
-from thermo_budget.air import P_ATM_Pa, TABLE_COLUMNS, TABLE_PATH, TABLE_T_K
+from thermo_budget.physics.air import P_ATM_Pa, TABLE_COLUMNS, TABLE_PATH, TABLE_T_K
 
 
 def coolprop_table(T_K=TABLE_T_K) -> np.ndarray:

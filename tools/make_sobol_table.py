@@ -22,7 +22,7 @@ import sys
 
 import numpy as np
 
-from thermo_budget.uncertainty import FACTORS, SOBOL_SEED, SOBOL_TABLE_PATH, SOBOL_TABLE_POINTS, sobol_normals_from_scipy
+from thermo_budget.inputs.uncertainty import FACTORS, SOBOL_SEED, SOBOL_TABLE_PATH, SOBOL_TABLE_POINTS, sobol_normals_from_scipy
 
 
 def table_arrays() -> dict[str, np.ndarray]:

@@ -1,0 +1,132 @@
+"""A long planned session (hundreds of pulls of one cycle) integrated only until it is periodic.
+
+The planned session is the cycle repeated. From a start no warmer than its periodic state, the
+state at each cycle's start approaches the periodic state geometrically (the one-cycle map is a
+contraction, nearly affine: `planning.periodic_state` solves for its fixed point). Up to
+LONG_SESSION_CYCLES cycles the session is integrated in one call, as every other integration is.
+A longer one is integrated CHUNK_CYCLES cycles at a time; after each chunk, the change of the
+cycle-start state over its last cycle (d) and the ratio of the last two changes (the contraction
+rho) bound what all later cycles can still add, d rho / (1 - rho). Once that bound is under
+PERIODIC_TOLERANCE_K for every design, the later cycles are the last one repeated: its records
+copied with their times shifted by one cycle each, its heat in counted once per cycle, and as much
+heat lost as gone in (a periodic cycle stores nothing). So the work of a 1,000-pull day is that of
+the pulls it takes to settle, not of its length.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..physics.network import N_NODES
+from .session import Resolution
+from .solver import Trace, integrate
+
+LONG_SESSION_CYCLES = 60        # up to this many cycles: one integration, exactly as before
+CHUNK_CYCLES = 20
+PERIODIC_TOLERANCE_K = 1e-3     # what later cycles may still add to any node, at most (far under
+                                # the 0.025 K the planning resolution keeps to a tight reference)
+
+
+def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None, resolution: Resolution = Resolution(),
+                      tolerance_K: float = PERIODIC_TOLERANCE_K, decided=None) -> Trace:
+    """The planned session (scenario.cycle repeated scenario.repeat times) for n designs, as
+    solver.integrate would give it, with the cycles after the state has become periodic copied
+    (see the module's docstring). durations_s : optional per-step durations of the whole session,
+    the same in every cycle (only the first cycle's are read).
+
+    decided : optional function of a chunk's trace giving (N,) bool: designs whose answer the caller
+    already knows (e.g. a search's candidate past the limit), which need not settle. Their later
+    temperatures are then their last cycle repeated, not a prediction: only for a caller that reads
+    nothing of them but that they were decided (the first crossing, the pulls before it, a peak above
+    a threshold)."""
+    cycle, repeat = list(scenario.cycle), int(scenario.repeat)
+    per_cycle = None if durations_s is None else list(durations_s[:len(cycle)])
+    if repeat <= LONG_SESSION_CYCLES:
+        return integrate(rig, cycle * repeat, T0_K, n_designs=n_designs,
+                         durations_s=None if per_cycle is None else per_cycle * repeat, resolution=resolution)
+    pieces, done = [], 0
+    X = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
+    t = 0.0
+    known = np.zeros(n_designs, bool)
+    while done < repeat:
+        cycles = min(CHUNK_CYCLES, repeat - done)
+        piece = integrate(rig, cycle * cycles, X, n_designs=n_designs, start_time_s=t,
+                          durations_s=None if per_cycle is None else per_cycle * cycles, resolution=resolution)
+        pieces.append((piece, done * len(cycle)))
+        done += cycles
+        X, t = piece.final_K, piece.time_s[-1]
+        if decided is not None:
+            known |= np.asarray(decided(piece), bool)
+        if done < repeat and cycles >= 3 and _settled(piece, len(cycle), tolerance_K, known):
+            pulls_per_cycle = sum(step.is_pull for step in cycle)
+            pieces.append((_repeat_last_cycle(piece, len(cycle), pulls_per_cycle, repeat - done), done * len(cycle)))
+            break
+    return _joined(pieces)
+
+
+def _cycle_starts(trace: Trace, steps_per_cycle: int) -> np.ndarray:
+    """Indices of the recorded points at which each cycle of the trace starts, and its last point."""
+    first_steps = np.flatnonzero((trace.step_index >= 0) & (trace.step_index % steps_per_cycle == 0)
+                                 & (np.diff(trace.step_index, prepend=-2) != 0))
+    return np.append(first_steps - 1, trace.step_index.size - 1)
+
+
+def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float, known) -> bool:
+    """Whether every design not `known` (bool (N,)) has a cycle-start state that can change by less
+    than tolerance_K in all later cycles: the last change d and the contraction rho of the last two
+    give d rho / (1 - rho)."""
+    starts = trace.T_K[_cycle_starts(trace, steps_per_cycle)]            # (cycles + 1, N, k)
+    changes = np.max(np.abs(np.diff(starts[-3:], axis=0)), axis=2)       # (2, N): the last two cycles
+    previous, last = changes
+    rho = np.divide(last, previous, out=np.zeros_like(last), where=previous > 0)
+    bound = np.where(last == 0.0, 0.0, np.where(rho < 1.0, last * rho / np.maximum(1.0 - rho, 1e-300), np.inf))
+    return bool(np.all(np.isfinite(starts[-1])) and np.all(known | (bound + last < tolerance_K)))
+
+
+def _repeat_last_cycle(trace: Trace, steps_per_cycle: int, pulls_per_cycle: int, copies: int) -> Trace:
+    """The trace's last cycle repeated `copies` times after it, as a trace that starts at its end
+    (step indices counted from that end, times shifted by one cycle each)."""
+    start = _cycle_starts(trace, steps_per_cycle)[-2]
+    points = slice(start + 1, None)
+    period = trace.time_s[-1] - trace.time_s[start]                      # (N,)
+    shifts = np.arange(copies)
+    time_s = trace.time_s[-1] + (trace.time_s[points] - trace.time_s[start])[None] + (shifts[:, None, None] * period)
+    first_step = trace.step_index[start + 1]
+    step_index = (trace.step_index[points] - first_step)[None] + shifts[:, None] * steps_per_cycle
+    pulls = slice(trace.pull_start_s.shape[0] - pulls_per_cycle, None)     # the last cycle's
+    pull_start = trace.pull_start_s[pulls][None] - trace.time_s[start] + trace.time_s[-1] + shifts[:, None, None] * period
+    pull_end = trace.pull_end_s[pulls][None] - trace.time_s[start] + trace.time_s[-1] + shifts[:, None, None] * period
+    heat_in = np.sum(trace.power_W[points] * np.diff(trace.time_s[start:], axis=0), axis=0) * copies
+
+    def tiled(values):
+        return np.tile(values[points], (copies,) + (1,) * (values.ndim - 1))
+
+    n = trace.time_s.shape[1]
+    return Trace(time_s=np.concatenate([trace.time_s[-1:], time_s.reshape(-1, n)]),
+                 T_K=np.concatenate([trace.T_K[-1:], tiled(trace.T_K)]),
+                 return_K=np.concatenate([trace.return_K[-1:], tiled(trace.return_K)]),
+                 power_W=np.concatenate([trace.power_W[-1:], tiled(trace.power_W)]),
+                 step_index=np.concatenate([[-1], step_index.ravel()]),
+                 energy_in_J=heat_in, energy_lost_J=heat_in.copy(), energy_stored_J=np.zeros(n),
+                 pull_start_s=pull_start.reshape(copies * pulls_per_cycle, n),
+                 pull_end_s=pull_end.reshape(copies * pulls_per_cycle, n),
+                 hose_liner_share=trace.hose_liner_share)
+
+
+def _joined(pieces) -> Trace:
+    """Traces that follow one another (each starting where the last ended; step indices of each
+    counted from its own start, offset given) as one trace."""
+    first = pieces[0][0]
+    rest = [(piece, offset) for piece, offset in pieces[1:]]
+
+    def cat(name):
+        return np.concatenate([getattr(first, name)] + [getattr(piece, name)[1:] for piece, _ in rest])
+
+    step_index = np.concatenate([first.step_index] + [piece.step_index[1:] + offset for piece, offset in rest])
+    return Trace(time_s=cat("time_s"), T_K=cat("T_K"), return_K=cat("return_K"), power_W=cat("power_W"),
+                 step_index=step_index,
+                 energy_in_J=sum(piece.energy_in_J for piece, _ in pieces),
+                 energy_lost_J=sum(piece.energy_lost_J for piece, _ in pieces),
+                 energy_stored_J=sum(piece.energy_stored_J for piece, _ in pieces),
+                 pull_start_s=np.concatenate([piece.pull_start_s for piece, _ in pieces]),
+                 pull_end_s=np.concatenate([piece.pull_end_s for piece, _ in pieces]),
+                 hose_liner_share=first.hose_liner_share)

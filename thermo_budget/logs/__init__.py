@@ -1,0 +1,1 @@
+"""Logs: reading a logger's file, fitting the model to it, and the live estimate and forecast."""

@@ -587,7 +587,7 @@ def test_a_settled_schedule_repeats_its_last_cycle_as_the_pull_by_pull_search_wo
     their extra waits too, the schedule's later rows are its last cycle again: the same rows, to the
     search's resolution, as searching every pull. (On the six-node default the extra waits alternate
     by 0.02 s, the search's resolution, so the schedule is taken as settled here from pull 60 on.)"""
-    from thermo_budget.planning.planning import ready_schedule as rs
+    from thermo_budget.planning import ready_schedule as rs
     scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": 80})  # over the limit from pull 43
     repeated = []
     original = rs._repeated_rows

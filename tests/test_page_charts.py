@@ -8,7 +8,7 @@ import matplotlib.image
 import numpy as np
 import pytest
 
-from thermo_budget.planning.planning import design_sweep
+from thermo_budget.planning import design_sweep
 from thermo_budget.page import page_charts
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"

@@ -162,7 +162,9 @@ def test_the_page_and_the_text_say_what_the_verdict_says(failing):
     assert 'data-fits="false"' in box and "DOES NOT FIT" in box and f"pull {v.first_pull_over_limit} of 24" in box
     positions = [box.index(fix_text(fix, "SI").replace("'", "&#x27;")) for fix in v.fixes]
     assert positions == sorted(positions) and len(positions) == 5
-    result = {"name": "rig", "units": "SI", "pulls_planned": 24, "verdict": v.to_json(), "uncertainty": {"samples": 128}}
+    from types import SimpleNamespace         # the Report's fields that the text reads
+    result = SimpleNamespace(name="rig", units="SI", pulls_planned=24, verdict=v,
+                             band=SimpleNamespace(uncertainty={"samples": 128}))
     from thermo_budget.output.verdict_text import summary_lines
     lines = summary_lines(result)
     assert lines[0].split(maxsplit=1)[1] == (f"does not fit: pull {v.first_pull_over_limit} of 24 crosses 80.0 °C "

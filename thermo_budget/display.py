@@ -6,6 +6,7 @@ Pure functions of units.py, no Streamlit and no model: any layer that shows a nu
 """
 from __future__ import annotations
 
+import math
 import re
 
 from .units import SI_UNIT, UNIT_LABEL, ZERO_CELSIUS_K, convert, to_display, unit_label
@@ -73,17 +74,18 @@ def shown_celsius(value_C: float | None, system: str) -> str:
     return "n/a" if value_C is None else shown(value_C + ZERO_CELSIUS_K, "temperature", system)
 
 
-def shown_duration(seconds: float | None) -> str:
-    """A duration as "45 s", "3 min 20 s" or "2 h 05 min"."""
+def shown_duration(seconds: float | None, round_up: bool = False) -> str:
+    """A duration as "45 s", "3 min 20 s" or "2 h 05 min". round_up: to the next second (and, past an
+    hour, the next minute), for a wait, which a figure rounded down might leave too short."""
     if seconds is None:
         return "n/a"
-    seconds = float(seconds)
+    seconds = math.ceil(float(seconds) - 1e-9) if round_up else round(float(seconds))
     if seconds < 90:
         return f"{seconds:.0f} s"
     if seconds < 3600:
-        minutes, rest = divmod(round(seconds), 60)
+        minutes, rest = divmod(int(seconds), 60)
         return f"{minutes} min {rest:02d} s"
-    hours, rest = divmod(round(seconds / 60), 60)
+    hours, rest = divmod(math.ceil(seconds / 60) if round_up else round(seconds / 60), 60)
     return f"{hours} h {rest:02d} min"
 
 

@@ -9,7 +9,8 @@ import numpy as np
 
 from .live_forecast import Forecast
 from ..physics.network import NODE_NAMES, OIL
-from ..units import ZERO_CELSIUS_K, to_display, unit_label
+from ..display import format_temperature, shown_duration
+from ..units import ZERO_CELSIUS_K
 
 JSON_KEYS = ("time_s", "oil_C", "estimate_C", "next_pull_ready_s", "wait_s", "pulls_left", "in_pull",
              "pull_ends_over_limit", "seconds_to_limit", "alarm", "over_limit", "advice")
@@ -55,14 +56,6 @@ class LiveState:
         return json.dumps(self.to_dict(), allow_nan=False)
 
 
-def duration_text(seconds: float) -> str:
-    """'9 min 40 s', '45 s', '1 h 5 min'."""
-    s = int(round(seconds))
-    if s >= 3600:
-        return f"{s // 3600} h {s % 3600 // 60} min"
-    return f"{s // 60} min {s % 60} s" if s >= 60 else f"{s} s"
-
-
 def _more_pulls(count: int | None) -> str:
     if count is None:
         return "then pulls at the planned cadence all day"
@@ -78,19 +71,15 @@ def ready_text(state: LiveState) -> str:
     if f.wait_s is None:
         return "no wait is long enough"
     if state.over_limit:
-        return f"over the limit: cool for {duration_text(f.wait_s)}, {_more_pulls(f.pulls_left)}"
-    return "ready now" if f.wait_s <= 0 else f"ready in {duration_text(f.wait_s)}"
-
-
-def temperature_text(T_K: float, system: str) -> str:
-    return f"{to_display(T_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
+        return f"over the limit: cool for {shown_duration(f.wait_s, round_up=True)}, {_more_pulls(f.pulls_left)}"
+    return "ready now" if f.wait_s <= 0 else f"ready in {shown_duration(f.wait_s, round_up=True)}"
 
 
 def state_text(state: LiveState, system: str) -> str:
     """One line for the terminal, in the scenario's units."""
     f = state.forecast
-    oil = "no reading" if state.oil_K is None else temperature_text(state.oil_K, system)
-    hidden = ", ".join(f"{name} {temperature_text(T, system)}" for name, T in zip(NODE_NAMES, state.estimate_K)
+    oil = "no reading" if state.oil_K is None else format_temperature(state.oil_K, system)
+    hidden = ", ".join(f"{name} {format_temperature(T, system)}" for name, T in zip(NODE_NAMES, state.estimate_K)
                        if name != NODE_NAMES[OIL])
     left = "all day" if f.pulls_left is None else str(f.pulls_left)
     doing = "pulling" if state.in_pull else "waiting"

@@ -20,7 +20,8 @@ import numpy as np
 from ..errors import ScenarioError
 from .live_forecast import forecast
 from .live_progress import Progress, ReadingHistory
-from .live_state import LiveState, state_text, temperature_text
+from ..display import format_temperature
+from .live_state import LiveState, state_text
 from .log_follower import LogFollower
 from .log_model import _reference_steps, logged_inputs
 from .measured_log import read_log
@@ -269,12 +270,12 @@ class LiveWatch:
 
     def _alarm(self, result, now: float, latest: Progress, estimate, spacing: float) -> str | None:
         u = self.scenario.units
-        limit = temperature_text(self.limit_K, u)
+        limit = format_temperature(self.limit_K, u)
         oil = estimate.mean_K[OIL]
         if oil > self.limit_K:
             wait = (f"cool for {_words(result.wait_s)} before the next pull" if result.wait_s is not None
                     else "no wait is long enough for the next planned pull")
-            return f"The oil is at {temperature_text(oil, u)}, over its {limit} limit: stop pulling; {wait}."
+            return f"The oil is at {format_temperature(oil, u)}, over its {limit} limit: stop pulling; {wait}."
         if latest.in_pull and result.pull_ends_over_limit:
             return (f"This pull reaches the {limit} limit in {result.seconds_to_limit:.0f} s, before its planned end: "
                     f"lift off now.")
@@ -293,8 +294,8 @@ class LiveWatch:
 
 
 def _words(seconds: float) -> str:
-    from .live_state import duration_text
-    return duration_text(seconds)
+    from ..display import shown_duration
+    return shown_duration(seconds, round_up=True)
 
 
 def _rows(log, index):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from ..display import format_temperature, shown_duration
 from ..units import ZERO_CELSIUS_K, to_display, unit_label
 from ..planning.verdict import Fix, Verdict
 
@@ -13,10 +14,6 @@ LIMIT_WHY = {"max_temperature": "the hottest you allow the oil",
 WORDS = {True: "FITS", False: "DOES NOT FIT"}
 FIXES_TITLE = "any one of these alone makes the day fit (smallest change first)"
 NO_FIX = "no single change of the waits, oil, cooler or pulls makes the day fit"
-
-
-def _temperature(celsius: float, system: str) -> str:
-    return f"{to_display(celsius + ZERO_CELSIUS_K, 'temperature', system):.1f} {unit_label('temperature', system)}"
 
 
 def _difference(kelvin: float, system: str) -> str:
@@ -32,18 +29,6 @@ def _size(value_si: float, kind: str, system: str, digits: int) -> str:
     return f"{_up(to_display(value_si, kind, system), digits)} {unit_label(kind, system)}"
 
 
-def duration_text(seconds: float) -> str:
-    """A wait rounded up to the second: "45 s", "3 min 20 s" or "1 h 05 min" (up to the minute)."""
-    seconds = math.ceil(float(seconds) - 1e-9)
-    if seconds < 90:
-        return f"{seconds} s"
-    if seconds < 3600:
-        minutes, rest = divmod(seconds, 60)
-        return f"{minutes} min {rest:02d} s"
-    hours, rest = divmod(math.ceil(seconds / 60), 60)
-    return f"{hours} h {rest:02d} min"
-
-
 def confidence_text(v: Verdict, band_on: bool = True) -> str:
     return f"at {100 * v.confidence:.0f} % confidence" if band_on else "by the model's point answer (band off)"
 
@@ -56,13 +41,13 @@ def sentence(v: Verdict, pulls_planned: int, system: str, band_on: bool = True) 
 
 def clause(v: Verdict, pulls_planned: int, system: str, band_on: bool = True) -> str:
     """The sentence after its first word ("fits" or "does not fit"), for the page's badge."""
-    limit = _temperature(v.limit_C, system)
+    limit = format_temperature(ZERO_CELSIUS_K + v.limit_C, system)
     why = LIMIT_WHY.get(v.governing_limit, v.governing_limit)
     where = "return-line oil" if v.governing_limit == "return_line" else "peak"
     if v.fits:
         if v.peak_C is None:
             return f"{pulls_planned} of {pulls_planned} pulls, {confidence_text(v, band_on)}"
-        return (f"{pulls_planned} of {pulls_planned} pulls, {where} {_temperature(v.peak_C, system)}, "
+        return (f"{pulls_planned} of {pulls_planned} pulls, {where} {format_temperature(ZERO_CELSIUS_K + v.peak_C, system)}, "
                 f"{_difference(v.limit_C - v.peak_C, system)} under the limit of {limit} ({why}), "
                 f"{confidence_text(v, band_on)}")
     return (f"pull {v.first_pull_over_limit} of {pulls_planned} crosses {limit} ({why}), "
@@ -72,7 +57,7 @@ def clause(v: Verdict, pulls_planned: int, system: str, band_on: bool = True) ->
 def fix_text(fix: Fix, system: str) -> str:
     """One fix as an instruction, e.g. 'wait 6 min 27 s after every pull'."""
     if fix.kind == "wait":
-        return f"wait {duration_text(fix.value)} after every pull"
+        return f"wait {shown_duration(fix.value, round_up=True)} after every pull"
     if fix.kind == "oil_volume":
         tank = "" if fix.tank_L is None else f", in a tank of the same shape of {_size(fix.tank_L / 1000.0, 'volume', system, 0)}"
         return f"use {_size(fix.value / 1000.0, 'volume', system, 1)} of oil{tank}"

@@ -138,7 +138,7 @@ def read_log(text: str, sensor: str = "bulk", source: str = "log", require_heati
     if len(numbered) > MAX_LOG_ROWS + 1:
         raise ScenarioError(source, f"{len(numbered) - 1} rows", f"a log of at most {MAX_LOG_ROWS} rows "
                             "(log less often, or cut the log to the session)")
-    header_line, header = numbered[0]
+    _, header = numbered[0]
     delimiter = _delimiter(header)
     try:
         rows = list(csv.reader(io.StringIO("\n".join(line for _, line in numbered)), delimiter=delimiter))

@@ -17,7 +17,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..physics.materials import MATERIALS
 from ..physics.oil import ISO_VG_GRADES
 from .page_fields import (FIELDS, PLAIN_STEPS, STEPS, Field, si_or_none, field_value, get_path,  # noqa: F401
                           step_of, with_field)
@@ -32,7 +31,6 @@ from ..units import ZERO_CELSIUS_K
 
 SHAPES = {"box": "Box (length x width)", "cylinder": "Round (drum or cylinder)"}
 BOTTOMS = {"open": "On a stand, open underneath", "floor": "Standing on the floor"}
-WALL_MATERIALS = tuple(MATERIALS)
 MATERIAL_NAMES = {"steel": "Steel", "stainless": "Stainless steel", "aluminium": "Aluminium",
                   "cast_iron": "Cast iron", "polyethylene": "Polyethylene (plastic)"}
 FANS = {"with_flow": "Runs only while the oil flows", "always": "Runs all the time"}

@@ -53,11 +53,11 @@ def kernel(function):
     return numba.njit(cache=True, error_model="numpy")(function)
 
 
-def ufunc(n_args: int):
-    """Compile a scalar function of n_args floats (a correlation, a property) for compiled callers;
-    numpy callers pass floats, or arrays through `elementwise`. (numba's own ufuncs are rebuilt at
-    every import, seconds of start-up; these load from the cache.)"""
-    return kernel
+def ufunc(function):
+    """Compile a scalar function of floats (a correlation, a property) for compiled callers; numpy
+    callers pass floats, or arrays through `elementwise`. (numba's own ufuncs are rebuilt at every
+    import, seconds of start-up; these load from the cache.)"""
+    return kernel(function)
 
 
 def elementwise(function):

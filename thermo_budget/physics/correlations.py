@@ -26,7 +26,7 @@ PLATE_TRANSITION_RE = 5e5      # laminar to mixed boundary layer on a flat plate
 JET_DECAY_B = 5.8              # round jet's centreline decay constant (Pope 2000, Table 5.1)
 
 
-@ufunc(5)
+@ufunc
 def rayleigh(beta_per_K, delta_T_K, length_m, nu_m2_s, prandtl):
     """Ra = g beta |dT| L^3 Pr / nu^2 (dimensionless).
 
@@ -40,7 +40,7 @@ def rayleigh(beta_per_K, delta_T_K, length_m, nu_m2_s, prandtl):
     return G_m_s2 * beta_per_K * np.abs(delta_T_K) * length_m**3 * prandtl / nu_m2_s**2
 
 
-@ufunc(2)
+@ufunc
 def Nu_vertical_plate_Churchill_Chu(Ra, Pr):
     """Isothermal vertical plate, natural convection, all Ra (laminar and turbulent).
 
@@ -60,7 +60,7 @@ def Nu_vertical_plate_Churchill_Chu(Ra, Pr):
     return (0.825 + 0.387 * Ra ** (1.0 / 6.0) / psi) ** 2
 
 
-@ufunc(2)
+@ufunc
 def Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr):
     """Isothermal long horizontal cylinder (a hose), natural convection, Ra_D < 1e12.
 
@@ -79,7 +79,7 @@ def Nu_horizontal_cylinder_Churchill_Chu(Ra, Pr):
     return (0.60 + 0.387 * Ra ** (1.0 / 6.0) / psi) ** 2
 
 
-@ufunc(1)
+@ufunc
 def Nu_horizontal_plate_hot_up_McAdams(Ra):
     """Upper face of a hot plate (or lower face of a cold one), natural convection.
 
@@ -99,7 +99,7 @@ def Nu_horizontal_plate_hot_up_McAdams(Ra):
     return 0.15 * Ra ** (1.0 / 3.0)
 
 
-@ufunc(1)
+@ufunc
 def Nu_horizontal_plate_hot_down_McAdams(Ra):
     """Lower face of a hot plate (or upper face of a cold one), natural convection.
 
@@ -115,7 +115,7 @@ def Nu_horizontal_plate_hot_down_McAdams(Ra):
     return 0.27 * Ra**0.25
 
 
-@ufunc(2)
+@ufunc
 def Nu_flat_plate_forced_Incropera(Re, Pr):
     """Forced flow along a flat plate, average Nusselt number over length L.
 
@@ -136,7 +136,7 @@ def Nu_flat_plate_forced_Incropera(Re, Pr):
     return (0.037 * Re**0.8 - 871.0) * Pr ** (1.0 / 3.0)
 
 
-@ufunc(2)
+@ufunc
 def Nu_combined_Churchill(Nu_forced, Nu_natural):
     """Mixed convection, assisting or transverse flow: Nu^n = Nu_F^n + Nu_N^n, n = 3 for plates.
 
@@ -151,7 +151,7 @@ def Nu_combined_Churchill(Nu_forced, Nu_natural):
     return (Nu_forced**3.0 + Nu_natural**3.0) ** (1.0 / 3.0)
 
 
-@ufunc(3)
+@ufunc
 def h_radiation_grey(emissivity, T_surface_K, T_surroundings_K):
     """Linearised grey-body radiation to large surroundings, W/(m^2 K).
 
@@ -196,7 +196,7 @@ def cylinder_wall_conductance_W_K(inner_diameter_m, outer_diameter_m, length_m, 
     return 2.0 * np.pi * conductivity_W_mK * length_m / np.log(outer_diameter_m / inner_diameter_m)
 
 
-@ufunc(4)
+@ufunc
 def Nu_tube_laminar_Hausen(Re, Pr, diameter_m, length_m):
     """Laminar tube flow, thermal entry length, constant wall temperature, average Nusselt number.
 
@@ -213,7 +213,7 @@ def Nu_tube_laminar_Hausen(Re, Pr, diameter_m, length_m):
     return 3.66 + 0.0668 * Gz / (1.0 + 0.04 * Gz ** (2.0 / 3.0))
 
 
-@ufunc(2)
+@ufunc
 def Nu_tube_turbulent_Gnielinski(Re, Pr):
     """Turbulent tube flow, smooth wall: Nu = (f/8)(Re - 1000) Pr / (1 + 12.7 (f/8)^(1/2) (Pr^(2/3) - 1)),
     with f = (0.790 ln Re - 1.64)^-2 (Petukhov). 3000 < Re < 5e6, 0.5 < Pr < 2000.
@@ -230,7 +230,7 @@ def Nu_tube_turbulent_Gnielinski(Re, Pr):
     return (f / 8.0) * (Re - 1000.0) * Pr / (1.0 + 12.7 * math.sqrt(f / 8.0) * (Pr ** (2.0 / 3.0) - 1.0))
 
 
-@ufunc(4)
+@ufunc
 def Nu_tube_Hausen_Gnielinski(Re, Pr, diameter_m, length_m):
     """Tube flow over all Re: Hausen below 2300, Gnielinski above 3000, linear blend between."""
     laminar = Nu_tube_laminar_Hausen(min(Re, 2300.0), Pr, diameter_m, length_m)
@@ -241,7 +241,7 @@ def Nu_tube_Hausen_Gnielinski(Re, Pr, diameter_m, length_m):
     return max((1.0 - weight) * laminar + weight * turbulent, laminar)
 
 
-@ufunc(2)
+@ufunc
 def fin_efficiency_straight(m_per_m, length_m):
     """Efficiency of a straight fin of uniform section with an adiabatic tip: eta = tanh(mL) / (mL),
     m = sqrt(h P / (k A_c)); for a plate wall fed along one edge, per unit width, m = sqrt(h / (k t)).
@@ -260,7 +260,7 @@ def fin_efficiency_straight(m_per_m, length_m):
     return math.tanh(mL) / mL
 
 
-@ufunc(3)
+@ufunc
 def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m):
     """Mean centreline velocity of a free round turbulent jet: u_c / u_0 = B d / x, capped at u_0
     (the potential core, x < B d); B = JET_DECAY_B.
@@ -286,7 +286,7 @@ def jet_centreline_velocity_Pope(u0_m_s, diameter_m, distance_m):
 NU_STILL_CYLINDER = 2.404825557695773 ** 2
 
 
-@ufunc(2)
+@ufunc
 def Nu_horizontal_enclosure_Hollands(Ra, Pr):
     """Horizontal fluid layer heated from below (cavity between two wide horizontal plates, the
     lower one hotter), average Nusselt number on the gap; Ra on the gap and the plates' difference.
@@ -315,7 +315,7 @@ def Nu_horizontal_enclosure_Hollands(Ra, Pr):
     return 1.0 + max(1.0 - 1708.0 / Ra, 0.0) * middle + max(np.cbrt(Ra / 5803.0) - 1.0, 0.0)
 
 
-@ufunc(4)
+@ufunc
 def h_radiation_parallel_plates(emissivity_1, emissivity_2, T1_K, T2_K):
     """Linearised radiation between two large parallel grey plates, W/(m^2 K) of T1 - T2:
     q'' = sigma (T1^4 - T2^4) / (1/eps_1 + 1/eps_2 - 1) (Incropera, 6th ed., eq. 13.24).
@@ -328,7 +328,7 @@ def h_radiation_parallel_plates(emissivity_1, emissivity_2, T1_K, T2_K):
     return exchange * STEFAN_BOLTZMANN_W_m2K4 * (T1_K + T2_K) * (T1_K**2 + T2_K**2)
 
 
-@ufunc(3)
+@ufunc
 def h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, time_s):
     """Surface coefficient of a semi-infinite solid after a step change of its surface temperature,
     W/(m^2 K): q''(t) = k (T_s - T_i) / sqrt(pi alpha t) (Carslaw and Jaeger, sec. 2.4; Incropera,
@@ -343,7 +343,7 @@ def h_semi_infinite_solid(conductivity_W_mK, diffusivity_m2_s, time_s):
     return conductivity_W_mK / math.sqrt(math.pi * diffusivity_m2_s * max(time_s, 1e-9))
 
 
-@ufunc(3)
+@ufunc
 def confined_jet_circulation_velocity(u0_m_s, nozzle_area_m2, section_area_m2):
     """Velocity scale of the circulation a round jet drives in a closed vessel, m/s:
     U = sqrt(M / (rho A)) = u0 sqrt(A_0 / A), M = rho u0^2 A_0 the jet's momentum flux (conserved

@@ -109,10 +109,6 @@ class Band:
                    uncertainty=keys["uncertainty"], sustainable_share=keys.get("sustainable_share"))
 
 
-BAND_JSON_KEYS = ("bands", "confidence", "plan_at_confidence", "sustainable_share", "band_ranking", "band_advice", "band_envelope",
-                  "uncertainty")
-
-
 @dataclass(frozen=True)
 class Report(_Keys):
     """Everything `run --json` prints for one scenario. Temperatures in degC (None past the oil

@@ -563,7 +563,7 @@ def test_a_long_session_integrates_only_until_it_is_periodic(long_day):
 def test_a_pull_s_extra_wait_searched_near_the_last_one_is_the_full_search_s():
     """The ready-to-pull schedule searches each pull's extra wait first near the one before; the
     answer passes and agrees with the full search to within that search's own bracket."""
-    from thermo_budget.planning.planning import SEARCH_MARGIN_K
+    from thermo_budget.planning.session_runs import SEARCH_MARGIN_K
     from thermo_budget.planning.ready_schedule import extra_wait_s
     from thermo_budget.engine.outcome import peak_oil_K
     from thermo_budget.engine.session import PLAN_RESOLUTION

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from thermo_budget.engine.outcome import limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
-from thermo_budget.planning.planning import session_trace
+from thermo_budget.planning.session_runs import session_trace
 from thermo_budget.planning.answers import report, simulate
 from thermo_budget.inputs.scenario import limit_K, load_scenario
 from thermo_budget.inputs.rig_build import build_rig

@@ -9,7 +9,8 @@ from hypothesis import strategies as st
 
 from thermo_budget import DEFAULT_SCENARIO, build_rig, limit_K, load_scenario, sweep
 from thermo_budget.physics.network import OIL
-from thermo_budget.planning.planning import batched_threshold, session_outcome
+from thermo_budget.planning.planning import batched_threshold
+from thermo_budget.planning.session_runs import session_outcome
 from thermo_budget.planning.answers import planning_answers, session_report
 from thermo_budget.engine.solver import integrate
 from thermo_budget.units import ZERO_CELSIUS_K
@@ -215,7 +216,7 @@ def _shipped_and_short_of_oil():
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
 def test_schedule_read_off_the_session_equals_the_block_search(scenario):
-    from thermo_budget.planning.planning import session_trace
+    from thermo_budget.planning.session_runs import session_trace
     from thermo_budget.planning.ready_schedule import ready_schedule
     rig = build_rig(scenario)
     read_off = ready_schedule(scenario, [], session_trace(scenario, rig, 1))
@@ -231,7 +232,8 @@ def test_schedule_read_off_the_session_equals_the_block_search(scenario):
 
 @pytest.mark.parametrize("scenario", _shipped_and_short_of_oil(), ids=lambda s: s.name[:24])
 def test_runs_before_limit_reuses_the_session_as_its_first_chunk(scenario):
-    from thermo_budget.planning.planning import runs_before_limit, session_trace
+    from thermo_budget.planning.planning import runs_before_limit
+    from thermo_budget.planning.session_runs import session_trace
     volumes = np.array([0.4, 1.0, 2.0]) * scenario.reservoir.oil_volume_m3
     rig = build_rig(scenario, oil_volume_m3=volumes)
     never = np.zeros(3, bool)
@@ -277,7 +279,7 @@ def test_runs_before_limit_resumed_where_it_stopped_counts_as_one_go():
     first = runs_before_limit(scenario, rig, 3, never, max_pulls=30, state_out=reached)
     left = np.flatnonzero(np.isnan(first))
     assert left.size and reached["pulls"] >= 30
-    from thermo_budget.planning.planning import take_designs
+    from thermo_budget.planning.session_runs import take_designs
     first[left] = runs_before_limit(scenario, take_designs(rig, left), left.size, np.zeros(left.size, bool),
                                     max_pulls=80, resume=(reached["state"][left], reached["pulls"]))
     np.testing.assert_array_equal(first, one_go)

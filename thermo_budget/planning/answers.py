@@ -13,8 +13,8 @@ from ..engine.long_session import integrate_session
 from ..physics.oil_life import AGEING_REFERENCE_C, AGEING_RULE, ageing_equivalent_h
 from ..output_files import check_finite  # noqa: F401 (re-exported: answers.check_finite)
 from ..engine.outcome import first_crossing_s, limit_crossed_first, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import (MAX_PULLS, limits_K, minimum_oil_volume_L, minimum_wait_s, periodic_state, required_cooler_W_K,
-                       runs_before_limit, session_trace, sustainability)
+from .planning import MAX_PULLS, minimum_oil_volume_L, minimum_wait_s, required_cooler_W_K, runs_before_limit
+from .session_runs import limits_K, periodic_state, session_trace, sustainability
 from .ready_schedule import ready_schedule
 from ..inputs.scenario import Scenario, limit_K
 from .results import Report

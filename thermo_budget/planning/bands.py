@@ -15,8 +15,8 @@ import numpy as np
 from ..engine.long_session import integrate_session
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
-from .planning import (SEARCH_MARGIN_K, limits_K, round_up, runs_before_limit, session_trace, sustainability, take_designs,
-                       time_constant_s)
+from .planning import round_up, runs_before_limit, time_constant_s
+from .session_runs import SEARCH_MARGIN_K, limits_K, session_trace, sustainability, take_designs
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION
 from ..inputs.uncertainty import factor_values, sample_rig, standard_normals

@@ -9,8 +9,8 @@ import numpy as np
 from ..errors import ScenarioError
 from ..engine.outcome import peak_oil_K
 from ..physics.network import passive_rejection_W
-from .planning import (MAX_PULLS, minimum_oil_volume_L, periodic_state, required_cooler_W_K, runs_before_limit,
-                       session_outcome, session_trace)
+from .planning import MAX_PULLS, minimum_oil_volume_L, required_cooler_W_K, runs_before_limit
+from .session_runs import periodic_state, session_outcome, session_trace
 from ..inputs.scenario import KEYS, Scenario, limit_K
 from .results import Report
 from ..inputs.rig_build import build_rig

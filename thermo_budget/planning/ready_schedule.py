@@ -8,7 +8,8 @@ import numpy as np
 from ..engine.long_session import PERIODIC_TOLERANCE_K
 from ..physics.network import N_NODES, OIL
 from ..engine.outcome import limiting_peak_K, peak_oil_K
-from .planning import GRID_POINTS, SEARCH_MARGIN_K, batched_threshold, limits_K, take_designs, time_constant_s
+from .planning import GRID_POINTS, batched_threshold, time_constant_s
+from .session_runs import SEARCH_MARGIN_K, limits_K, take_designs
 from ..inputs.scenario import Scenario, limit_K
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION, Step

@@ -18,7 +18,8 @@ import numpy as np
 from .bands import N_SAMPLES, N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
-from .planning import SEARCH_MARGIN_K, limits_K, time_constant_s
+from .planning import time_constant_s
+from .session_runs import SEARCH_MARGIN_K, limits_K
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
 from ..engine.session import PLAN_RESOLUTION

@@ -1,0 +1,179 @@
+"""The planned session run on a batch of designs: to its end, to a decision (does it finish under
+the limit?), or to its periodic state (the cycle repeated for ever)."""
+from __future__ import annotations
+
+from dataclasses import fields
+
+import numpy as np
+
+from ..engine.long_session import integrate_session
+from ..physics.network import N_NODES, Rig
+from ..engine.outcome import limiting_peak_K, pulls_completed_under
+from ..inputs.scenario import Scenario, limit_K
+from ..engine.session import PLAN_RESOLUTION, Step
+from ..engine.solver import integrate
+
+NEWTON_TOL_K = 1e-6
+NEWTON_ITERATIONS = 12
+# From this many runs of the cycle in one batch, Broyden updates replace the later Jacobians
+# (periodic_state); below it a batch's cost is mostly per call.
+BROYDEN_FROM_DESIGNS = 500
+# Sizing searches keep the peak this far below the limit, so that a re-run at any of the package's
+# resolutions (which agree with a tight reference to about 0.03 K) still finishes under it.
+SEARCH_MARGIN_K = 0.05
+
+
+def limits_K(scenario: Scenario) -> tuple[float, float | None]:
+    """(the bulk oil's limit, the return line's limit or None), K: what every search holds to."""
+    return limit_K(scenario)[0], scenario.return_line_max_temperature_K
+
+
+def take_designs(rig: Rig, index) -> Rig:
+    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared."""
+    changes = {}
+    for field in fields(rig):
+        value = getattr(rig, field.name)
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size > 1:
+            changes[field.name] = value[index]
+    return rig.with_changes(**changes)
+
+
+def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
+    """Per-step durations of the session with every wait replaced by wait_s ((N,) or float)."""
+    per_cycle = [wait_s if not step.is_pull else step.duration_s for step in cycle]
+    return per_cycle * repeat
+
+
+def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
+    """The planned session for n designs at the planning resolution (a Trace)."""
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
+    return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+                             resolution=PLAN_RESOLUTION)
+
+
+def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None) -> np.ndarray:
+    """Whether the planned session of each of n designs finishes with its peak (the limiting one,
+    as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches ask.
+    A design is followed only until that is decided (long_session.integrate_session's `decided`)."""
+    limits = limits_K(scenario)
+    threshold = limits[0] - SEARCH_MARGIN_K
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
+    trace = integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+                              resolution=PLAN_RESOLUTION,
+                              decided=lambda piece: limiting_peak_K(piece, *limits) > threshold)
+    return limiting_peak_K(trace, *limits) <= threshold
+
+
+def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):
+    """Integrate the planned session for n designs (or take `trace`, a session_trace already
+    computed). Returns (peak K (N,), pulls under the limits (N,)). The peak is the bulk oil's,
+    or where a return-line limit is set, outcome.limiting_peak_K: at or under the bulk limit
+    exactly when neither oil passes its limit."""
+    trace = session_trace(scenario, rig, n, wait_s) if trace is None else trace
+    limits = limits_K(scenario)
+    return limiting_peak_K(trace, *limits), pulls_completed_under(trace, *limits)
+
+
+def _cycle_end(scenario, rig, X, wait_s=None):
+    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), 1, wait_s)
+    trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=durations,
+                      resolution=PLAN_RESOLUTION)
+    return trace.final_K, limiting_peak_K(trace, *limits_K(scenario))
+
+
+def _has_loss_path(rig: Rig) -> np.ndarray:
+    cooler = np.asarray(rig.cooler_W_K) > 0
+    passive = ((np.asarray(rig.convection_multiplier) > 0) | (np.asarray(rig.wall_emissivity) > 0)
+               | (np.asarray(rig.hardware_emissivity) > 0))
+    return np.asarray(cooler | passive)
+
+
+def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
+    """The cycle's periodic steady state, by Newton iteration on the one-cycle map, for the designs
+    not yet converged. The Jacobian is by finite differences (all designs and perturbations in one
+    batch); on a large batch (BROYDEN_FROM_DESIGNS or more runs of the cycle) only the first one, and
+    then Broyden's update (Dennis and Schnabel, Numerical Methods for Unconstrained Optimization and
+    Nonlinear Equations, 1983, ch. 8), which runs the cycle once per design instead of k + 1 times.
+    The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it; on
+    a small batch the cost is per call, not per design, so full Newton steps are cheaper there.
+
+    Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
+    The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
+    (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set).
+    """
+    k = N_NODES
+    copies = k + 1                      # the state itself and one perturbation per node
+    X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
+    waits = None if wait_s is None else np.broadcast_to(np.asarray(wait_s, dtype=float), (n,))
+    eye = np.eye(k)
+    broyden = n * copies >= BROYDEN_FROM_DESIGNS
+    residual = np.full((n, k), np.inf)
+    peak = np.full(n, np.nan)
+    B = np.empty((n, k, k))             # d residual / d X
+    converged = np.zeros(n, bool)
+    for iteration in range(NEWTON_ITERATIONS):
+        active = np.flatnonzero(~converged)
+        if iteration > 0:
+            active = active[np.all(np.isfinite(residual[active]), axis=1)]
+            if not active.size:
+                break
+            step = np.linalg.solve(B[active] + 1e-12 * eye, -residual[active][..., None])[..., 0]
+            X_new = np.clip(X[active] + step, 150.0, 1500.0)
+        else:
+            X_new = X[active]
+        waits_active = None if waits is None else waits[active]
+        if iteration == 0 or not broyden:
+            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, waits_active)
+        else:
+            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, waits_active)
+            r_new = F_new - X_new
+            dx, dr = X_new - X[active], r_new - residual[active]
+            Bdx = (B[active] @ dx[..., None])[..., 0]
+            B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(
+                np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
+        X[active], residual[active], peak[active] = X_new, r_new, peak_new
+        converged[active] = np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K
+        if converged.all():
+            break
+    ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
+    return X, peak, ok
+
+
+def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
+    """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), and the residual's
+    Jacobian by forward differences (m,k,k), for the designs in index, in one batch."""
+    k = X.shape[1]
+    copies = k + 1
+    Xc = np.repeat(X, copies, axis=0)
+    for i in range(k):
+        Xc[i + 1::copies, i] += delta_K
+    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
+                            None if waits is None else np.repeat(waits, copies))
+    F = Fc[0::copies]
+    J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
+    return F - X, peak_c[0::copies], J
+
+
+def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0, X0=None,
+                   states: list | None = None):
+    """(sustainable (N,) bool, periodic peak (N,) K). Sustainable: the periodic state exists and its
+    peak stays at or below the limit, and the way there from the start stays below it too.
+    X0 : optional first guess of the periodic states (N,k) K (periodic_state); states : optional list
+    to which (the periodic states (N,k) K, converged (N,) bool) is appended.
+
+    The network is cooperative (every coupling pushes temperatures together), so a start no warmer
+    than the periodic state, node by node, approaches it from below and never peaks above it; only
+    designs that start warmer than their periodic state need the planned session checked as well.
+    """
+    limit, _ = limit_K(scenario)
+    X, peak, ok = periodic_state(scenario, rig, n, wait_s, X0=X0)
+    if states is not None:
+        states.append((X, ok))
+    ok = ok & (peak <= limit - margin_K)
+    warmer = ok & np.any(scenario.start_K > X + 1e-9, axis=1)
+    if warmer.any():
+        index = np.flatnonzero(warmer)
+        waits = None if wait_s is None else np.broadcast_to(wait_s, (n,))[index]
+        session_peak, _ = session_outcome(scenario, take_designs(rig, index), index.size, waits)
+        ok[index] &= session_peak <= limit - margin_K
+    return ok, peak

@@ -279,7 +279,7 @@ def test_runs_before_limit_resumed_where_it_stopped_counts_as_one_go():
     first = runs_before_limit(scenario, rig, 3, never, max_pulls=30, state_out=reached)
     left = np.flatnonzero(np.isnan(first))
     assert left.size and reached["pulls"] >= 30
-    from thermo_budget.planning.session_runs import take_designs
+    from thermo_budget.physics.rig import take_designs
     first[left] = runs_before_limit(scenario, take_designs(rig, left), left.size, np.zeros(left.size, bool),
                                     max_pulls=80, resume=(reached["state"][left], reached["pulls"]))
     np.testing.assert_array_equal(first, one_go)

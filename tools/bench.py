@@ -34,7 +34,8 @@ from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
 from thermo_budget.physics.network import N_NODES, OIL, Inputs, node_equations
-from thermo_budget.planning.session_runs import session_outcome, take_designs
+from thermo_budget.planning.session_runs import session_outcome
+from thermo_budget.physics.rig import take_designs
 from thermo_budget.planning.answers import report
 from thermo_budget.inputs.scenario import DEFAULT_SCENARIO, load_scenario
 from thermo_budget.inputs.rig_build import build_rig

@@ -17,6 +17,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..physics.network import N_NODES
+from ..physics.rig import take_designs
+from .outcome import limiting_peak_K
 from .session import Resolution
 from .solver import Trace, integrate
 
@@ -70,16 +72,57 @@ def _cycle_starts(trace: Trace, steps_per_cycle: int) -> np.ndarray:
     return np.append(first_steps - 1, trace.step_index.size - 1)
 
 
-def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float, known) -> bool:
-    """Whether every design not `known` (bool (N,)) has a cycle-start state that can change by less
-    than tolerance_K in all later cycles: the last change d and the contraction rho of the last two
-    give d rho / (1 - rho)."""
+def _settled_designs(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> np.ndarray:
+    """Per design (N,) bool: whether its cycle-start state can change by less than tolerance_K in all
+    later cycles: the last change d and the contraction rho of the last two give d rho / (1 - rho)."""
     starts = trace.T_K[_cycle_starts(trace, steps_per_cycle)]            # (cycles + 1, N, k)
     changes = np.max(np.abs(np.diff(starts[-3:], axis=0)), axis=2)       # (2, N): the last two cycles
     previous, last = changes
     rho = np.divide(last, previous, out=np.zeros_like(last), where=previous > 0)
     bound = np.where(last == 0.0, 0.0, np.where(rho < 1.0, last * rho / np.maximum(1.0 - rho, 1e-300), np.inf))
-    return bool(np.all(np.isfinite(starts[-1])) and np.all(known | (bound + last < tolerance_K)))
+    return np.all(np.isfinite(starts[-1]), axis=1) & (bound + last < tolerance_K)
+
+
+def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float, known) -> bool:
+    """Whether every design not `known` (bool (N,)) is settled (_settled_designs)."""
+    return bool(np.all(known | _settled_designs(trace, steps_per_cycle, tolerance_K)))
+
+
+def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple, cycle_s=None,
+                   resolution: Resolution = Resolution(), decided_above_K: float | None = None,
+                   tolerance_K: float = PERIODIC_TOLERANCE_K) -> np.ndarray:
+    """The limiting peak (outcome.limiting_peak_K against limits_K, (bulk, return line or None)) of
+    the planned session of n designs, K (N,), where only the peak is wanted, not the trace.
+
+    cycle_s : optional per-step durations of one cycle (each float or (N,) s), the same in every
+    cycle. A session of up to LONG_SESSION_CYCLES cycles is one integration, as integrate_session's.
+    A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk with only the designs still
+    open: a design is closed once its peak so far passes decided_above_K (its peak is then a lower
+    bound, above that; only for a caller that needs no more) or once it is periodic (_settled_designs:
+    all later cycles repeat its last to tolerance_K, so they add nothing to its peak)."""
+    cycle, repeat = list(scenario.cycle), int(scenario.repeat)
+    durations = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n_designs,)) for d in cycle_s]
+    if repeat <= LONG_SESSION_CYCLES:
+        trace = integrate(rig, cycle * repeat, T0_K, n_designs=n_designs,
+                          durations_s=None if durations is None else durations * repeat, resolution=resolution)
+        return limiting_peak_K(trace, *limits_K)
+    X = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
+    peak = np.full(n_designs, -np.inf)
+    open_ = np.arange(n_designs)
+    t, done = np.zeros(n_designs), 0
+    while done < repeat and open_.size:
+        cycles = min(CHUNK_CYCLES, repeat - done)
+        piece = integrate(take_designs(rig, open_), cycle * cycles, X[open_], n_designs=open_.size, start_time_s=t[open_],
+                          durations_s=None if durations is None else [d[open_] for d in durations] * cycles,
+                          resolution=resolution)
+        done += cycles
+        peak[open_] = np.maximum(peak[open_], limiting_peak_K(piece, *limits_K))
+        X[open_], t[open_] = piece.final_K, piece.time_s[-1]
+        closed = np.zeros(open_.size, bool) if cycles < 3 else _settled_designs(piece, len(cycle), tolerance_K)
+        if decided_above_K is not None:
+            closed |= peak[open_] > decided_above_K
+        open_ = open_[~closed]
+    return peak
 
 
 def _repeat_last_cycle(trace: Trace, steps_per_cycle: int, pulls_per_cycle: int, copies: int) -> Trace:

@@ -21,7 +21,8 @@ from ..physics.network import OIL, Rig
 from ..planning.bands import order_statistic
 from ..engine.outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
 from ..planning.planning import batched_threshold, time_constant_s
-from ..planning.session_runs import SEARCH_MARGIN_K, take_designs
+from ..planning.session_runs import SEARCH_MARGIN_K
+from ..physics.rig import take_designs
 from ..planning.ready_schedule import extra_wait_s
 from ..inputs.scenario import Scenario
 from ..engine.session import Resolution, Step

@@ -5,7 +5,7 @@ so that one integration serves a single run, a batched search and a design sweep
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 from functools import cached_property
 
 import numpy as np
@@ -208,3 +208,13 @@ def pack(rig: Rig) -> np.ndarray:
         out[:, j] = np.ravel(value)
     out[:, OIL_FIRST:] = oil
     return out
+
+
+def take_designs(rig: Rig, index) -> Rig:
+    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared."""
+    changes = {}
+    for field in fields(rig):
+        value = getattr(rig, field.name)
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size > 1:
+            changes[field.name] = value[index]
+    return rig.with_changes(**changes)

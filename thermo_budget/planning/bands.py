@@ -12,13 +12,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..engine.long_session import integrate_session
 from ..physics.network import OIL
-from ..engine.outcome import first_crossing_s, limiting_peak_K, peak_oil_K, pulls_completed_under
+from ..engine.outcome import first_crossing_s, peak_oil_K, pulls_completed_under
 from .planning import round_up, runs_before_limit, time_constant_s
-from .session_runs import SEARCH_MARGIN_K, limits_K, session_trace, sustainability, take_designs
+from .session_runs import SEARCH_MARGIN_K, limits_K, session_peak_K, session_trace, sustainability
+from ..physics.rig import take_designs
 from ..inputs.rig_build import build_rig
-from ..engine.session import PLAN_RESOLUTION
 from ..inputs.uncertainty import factor_values, sample_rig, standard_normals
 from ..units import ZERO_CELSIUS_K
 
@@ -35,9 +34,12 @@ ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_requ
                 "min_oil_volume_L": 2}
 
 
-def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES) -> dict:
+def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES,
+                sizing_out: dict | None = None) -> dict:
     """The band keys of `run --json` for a scenario whose point answers are `point` (report()), all
-    but its advice in words (band_text.advice_sentence, from the ranking)."""
+    but its advice in words (band_text.advice_sentence, from the ranking). sizing_out : optional dict
+    that receives the per-sample sizing answers ({SIZING_KEYS key: (n_sizing,) array, inf where no
+    size suffices}; the verdict takes its fixes from them)."""
     model = scenario.uncertainty
     if not model.spreads:
         bands = {key: _collapsed(point.get(key)) for key in BAND_KEYS}
@@ -46,6 +48,8 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
                 "band_ranking": [], "band_envelope": None,
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
+    if sizing_out is not None:
+        sizing_out.update({key: samples[key] for key in SIZING_KEYS if key in samples})
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
     ranking = spread_ranking(samples["z"], samples["runs_for_ranking" if point.get("runs_before_limit") is not None
                                                   else "pulls_under_limit"], model.active)
@@ -275,16 +279,15 @@ class _Search:
 def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
     """The peak (K) the searches hold to the limit (planning.session_outcome's: the bulk oil's, or
     outcome.limiting_peak_K with a return-line limit) of the planned session, for designs that each
-    change one sizing input."""
+    change one sizing input; on a long session, the periodic peak where it is under the searches'
+    target (session_runs.session_peak_K)."""
     keys = np.asarray(keys)
     volume = np.where(keys == "min_oil_volume_L", x / 1000.0, scenario.reservoir.oil_volume_m3)
     cooler = np.where(keys == "cooler_required_W_per_K", x, 0.0)
     rig = sample_rig(build_rig(scenario, oil_volume_m3=volume, cooler_W_K=cooler), values, index=sample)
-    durations = [step.duration_s if step.is_pull else np.where(keys == "min_wait_s", x, step.duration_s)
-                 for step in scenario.steps]
-    trace = integrate_session(rig, scenario, scenario.start_K, n_designs=x.size, durations_s=durations,
-                              resolution=PLAN_RESOLUTION)
-    return limiting_peak_K(trace, *limits_K(scenario))
+    cycle_s = [step.duration_s if step.is_pull else np.where(keys == "min_wait_s", x, step.duration_s)
+               for step in scenario.cycle]
+    return session_peak_K(scenario, rig, x.size, cycle_s, threshold_K=limits_K(scenario)[0] - SEARCH_MARGIN_K)
 
 
 # --- quantiles, plan, ranking -----------------------------------------------------------------------

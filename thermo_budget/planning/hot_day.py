@@ -13,7 +13,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from .planning import GRID_POINTS, GRID_ROUNDS, round_up
-from .session_runs import SEARCH_MARGIN_K, limits_K, periodic_state, take_designs
+from .session_runs import SEARCH_MARGIN_K, limits_K, periodic_state
+from ..physics.rig import take_designs
 from ..engine.long_session import integrate_session
 from ..physics.network import N_NODES
 from ..engine.outcome import limiting_peak_K, pulls_completed_under

@@ -10,8 +10,8 @@ from ..inputs.scenario import Scenario, limit_K
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION
 from ..engine.solver import integrate
-from .session_runs import (SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability,
-                           take_designs)
+from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability
+from ..physics.rig import take_designs
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 GRID_POINTS = 24           # candidates per round of a batched search

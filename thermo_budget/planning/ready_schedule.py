@@ -9,7 +9,8 @@ from ..engine.long_session import PERIODIC_TOLERANCE_K
 from ..physics.network import N_NODES, OIL
 from ..engine.outcome import limiting_peak_K, peak_oil_K
 from .planning import GRID_POINTS, batched_threshold, time_constant_s
-from .session_runs import SEARCH_MARGIN_K, limits_K, take_designs
+from .session_runs import SEARCH_MARGIN_K, limits_K
+from ..physics.rig import take_designs
 from ..inputs.scenario import Scenario, limit_K
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION, Step
@@ -109,29 +110,35 @@ def ready_schedule(scenario: Scenario, notes: list, session=None) -> list[dict]:
                      "wait_before_s": round(planned_wait + extra, 2), "planned_wait_s": round(planned_wait, 2),
                      "extra_wait_s": round(extra, 2)})
         X, t = trace.final_K, t + pull.duration_s
-        if index < len(blocks) and _schedule_settled(pull_starts, rows, per_cycle):
-            return rows + _repeated_rows(rows, per_cycle, len(blocks) - index)
+        period = _schedule_settled(pull_starts, rows, per_cycle) if index < len(blocks) else 0
+        if period:
+            return rows + _repeated_rows(rows, period, len(blocks) - index)
     return rows
 
 
-def _schedule_settled(pull_starts: list, rows: list, per_cycle: int, tolerance_K: float = PERIODIC_TOLERANCE_K) -> bool:
-    """Whether the schedule has become periodic: the last cycle's rows have the extra waits of the
-    cycle before, and the state at its pulls' start can change by less than tolerance_K in all later
-    cycles (the last change d and the contraction rho of the last two give d rho / (1 - rho), as for
-    a long session, long_session.py)."""
-    p = per_cycle
-    if len(pull_starts) < 3 * p or any(a["extra_wait_s"] != b["extra_wait_s"] for a, b in zip(rows[-p:], rows[-2 * p:-p])):
-        return False
-    last = max(float(np.max(np.abs(pull_starts[-1 - i] - pull_starts[-1 - i - p]))) for i in range(p))
-    before = max(float(np.max(np.abs(pull_starts[-1 - i - p] - pull_starts[-1 - i - 2 * p]))) for i in range(p))
-    if last == 0.0:
-        return True
-    rho = last / before if before > 0 else np.inf
-    return bool(rho < 1.0 and last + last * rho / (1.0 - rho) < tolerance_K)
+def _schedule_settled(pull_starts: list, rows: list, per_cycle: int, tolerance_K: float = PERIODIC_TOLERANCE_K) -> int:
+    """The period (in pulls) of a schedule that has become periodic, 0 where it has not: one cycle or,
+    where the searched extra waits alternate between two neighbouring lattice points (_threshold_near)
+    once the limit governs, two. Periodic: the last period's rows have the extra waits of the period
+    before, and the state at its pulls' start can change by less than tolerance_K in all later
+    periods (the last change d and the contraction rho of the last two give d rho / (1 - rho), as
+    for a long session, long_session.py)."""
+    for p in (per_cycle, 2 * per_cycle):
+        if len(pull_starts) < 3 * p or any(a["extra_wait_s"] != b["extra_wait_s"] for a, b in zip(rows[-p:], rows[-2 * p:-p])):
+            continue
+        last = max(float(np.max(np.abs(pull_starts[-1 - i] - pull_starts[-1 - i - p]))) for i in range(p))
+        before = max(float(np.max(np.abs(pull_starts[-1 - i - p] - pull_starts[-1 - i - 2 * p]))) for i in range(p))
+        if last == 0.0:
+            return p
+        rho = last / before if before > 0 else np.inf
+        if rho < 1.0 and last + last * rho / (1.0 - rho) < tolerance_K:
+            return p
+    return 0
 
 
 def _repeated_rows(rows: list, per_cycle: int, count: int) -> list:
-    """The next `count` rows of a periodic schedule: the last cycle's rows again, one cycle later each."""
+    """The next `count` rows of a periodic schedule: the last period's rows (per_cycle of them) again,
+    one period later each."""
     period_s = rows[-1]["start_s"] - rows[-1 - per_cycle]["start_s"]
     more = []
     for j in range(count):

@@ -2,12 +2,11 @@
 the limit?), or to its periodic state (the cycle repeated for ever)."""
 from __future__ import annotations
 
-from dataclasses import fields
-
 import numpy as np
 
-from ..engine.long_session import integrate_session
+from ..engine.long_session import LONG_SESSION_CYCLES, integrate_session, session_limiting_peak_K
 from ..physics.network import N_NODES, Rig
+from ..physics.rig import take_designs
 from ..engine.outcome import limiting_peak_K, pulls_completed_under
 from ..inputs.scenario import Scenario, limit_K
 from ..engine.session import PLAN_RESOLUTION, Step
@@ -28,40 +27,75 @@ def limits_K(scenario: Scenario) -> tuple[float, float | None]:
     return limit_K(scenario)[0], scenario.return_line_max_temperature_K
 
 
-def take_designs(rig: Rig, index) -> Rig:
-    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared."""
-    changes = {}
-    for field in fields(rig):
-        value = getattr(rig, field.name)
-        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size > 1:
-            changes[field.name] = value[index]
-    return rig.with_changes(**changes)
+def cycle_durations(cycle: list[Step], wait_s=None) -> list | None:
+    """Per-step durations (s) of one cycle with every wait replaced by wait_s ((N,) or float); None
+    (as planned) where wait_s is None."""
+    return None if wait_s is None else [wait_s if not step.is_pull else step.duration_s for step in cycle]
 
 
-def _wait_durations(cycle: list[Step], repeat: int, wait_s) -> list:
-    """Per-step durations of the session with every wait replaced by wait_s ((N,) or float)."""
-    per_cycle = [wait_s if not step.is_pull else step.duration_s for step in cycle]
-    return per_cycle * repeat
+def _designs_of(cycle_s: list | None, index) -> list | None:
+    """Per-step durations of one cycle (each float or (N,)) for the designs in `index` only."""
+    return None if cycle_s is None else [d if np.ndim(d) == 0 else np.asarray(d, dtype=float)[index] for d in cycle_s]
 
 
-def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None):
-    """The planned session for n designs at the planning resolution (a Trace)."""
-    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
+def _whole_session(scenario: Scenario, cycle_s: list | None) -> list | None:
+    return None if cycle_s is None else list(cycle_s) * scenario.repeat
+
+
+def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None):
+    """The planned session for n designs at the planning resolution (a Trace). cycle_s : optional
+    per-step durations of one cycle (each float or (N,) s), the same in every cycle; or wait_s."""
+    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=_whole_session(scenario, cycle_s),
                              resolution=PLAN_RESOLUTION)
 
 
-def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None) -> np.ndarray:
+def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s) -> tuple[np.ndarray, np.ndarray]:
+    """On a long session (more than LONG_SESSION_CYCLES cycles): (designs whose whole session is
+    proven to peak at least margin_K under the limit without integrating it (N,) bool, their
+    periodic peak (N,) K). The network is cooperative, so a start no warmer than the periodic state
+    approaches it from below and never peaks above it (see sustainability); the periodic peak is then
+    an upper bound on the session's peak, met to within what the session leaves unsettled. A short
+    session proves nothing this way (it is integrated as it is, to the end)."""
+    if scenario.repeat <= LONG_SESSION_CYCLES:
+        return np.zeros(n, bool), np.full(n, np.nan)
+    X, peak, ok = periodic_state(scenario, rig, n, cycle_s=cycle_s)
+    colder = np.all(scenario.start_K <= X + 1e-9, axis=1)
+    return ok & colder & (peak <= limit_K(scenario)[0] - margin_K), peak
+
+
+def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None) -> np.ndarray:
     """Whether the planned session of each of n designs finishes with its peak (the limiting one,
-    as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches ask.
-    A design is followed only until that is decided (long_session.integrate_session's `decided`)."""
+    as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches and the
+    verdict's fixes ask. On a long session the designs that the periodic state proves to pass are not
+    integrated (_proven_under); any other is followed only until its answer is decided
+    (long_session.integrate_session's `decided`). cycle_s or wait_s : as session_trace's."""
+    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
-    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), scenario.repeat, wait_s)
-    trace = integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=durations,
-                              resolution=PLAN_RESOLUTION,
-                              decided=lambda piece: limiting_peak_K(piece, *limits) > threshold)
-    return limiting_peak_K(trace, *limits) <= threshold
+    ok, _ = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s)
+    rest = np.flatnonzero(~ok)
+    if rest.size:
+        ok[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,
+                                           _designs_of(cycle_s, rest), PLAN_RESOLUTION,
+                                           decided_above_K=threshold) <= threshold
+    return ok
+
+
+def session_peak_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None, threshold_K: float | None = None) -> np.ndarray:
+    """The limiting peak (K, as session_outcome's) of the planned session of each of n designs. On a
+    long session, a design whose periodic peak is at or under threshold_K (the limit where None), from
+    a start no warmer, takes its periodic peak (_proven_under: an upper bound, met to within what the
+    session leaves unsettled) and is not integrated; the others are, until periodic
+    (long_session.session_limiting_peak_K)."""
+    limit, _ = limit_K(scenario)
+    margin = 0.0 if threshold_K is None else limit - threshold_K
+    proven, peak = _proven_under(scenario, rig, n, margin, cycle_s)
+    rest = np.flatnonzero(~proven)
+    if rest.size:
+        peak[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size,
+                                             limits_K(scenario), _designs_of(cycle_s, rest), PLAN_RESOLUTION)
+    return peak
 
 
 def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=None):
@@ -74,9 +108,8 @@ def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=Non
     return limiting_peak_K(trace, *limits), pulls_completed_under(trace, *limits)
 
 
-def _cycle_end(scenario, rig, X, wait_s=None):
-    durations = None if wait_s is None else _wait_durations(list(scenario.cycle), 1, wait_s)
-    trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=durations,
+def _cycle_end(scenario, rig, X, cycle_s=None):
+    trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=cycle_s,
                       resolution=PLAN_RESOLUTION)
     return trace.final_K, limiting_peak_K(trace, *limits_K(scenario))
 
@@ -88,7 +121,7 @@ def _has_loss_path(rig: Rig) -> np.ndarray:
     return np.asarray(cooler | passive)
 
 
-def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
+def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, cycle_s=None):
     """The cycle's periodic steady state, by Newton iteration on the one-cycle map, for the designs
     not yet converged. The Jacobian is by finite differences (all designs and perturbations in one
     batch); on a large batch (BROYDEN_FROM_DESIGNS or more runs of the cycle) only the first one, and
@@ -99,12 +132,14 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
 
     Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
-    (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set).
+    (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set). cycle_s or wait_s :
+    as session_trace's.
     """
+    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    cycle_s = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n,)) for d in cycle_s]
     k = N_NODES
     copies = k + 1                      # the state itself and one perturbation per node
     X = np.array(np.broadcast_to(scenario.start_K if X0 is None else X0, (n, k)), dtype=float)
-    waits = None if wait_s is None else np.broadcast_to(np.asarray(wait_s, dtype=float), (n,))
     eye = np.eye(k)
     broyden = n * copies >= BROYDEN_FROM_DESIGNS
     residual = np.full((n, k), np.inf)
@@ -121,11 +156,11 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
             X_new = np.clip(X[active] + step, 150.0, 1500.0)
         else:
             X_new = X[active]
-        waits_active = None if waits is None else waits[active]
+        cycle_active = _designs_of(cycle_s, active)
         if iteration == 0 or not broyden:
-            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, waits_active)
+            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, cycle_active)
         else:
-            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, waits_active)
+            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, cycle_active)
             r_new = F_new - X_new
             dx, dr = X_new - X[active], r_new - residual[active]
             Bdx = (B[active] @ dx[..., None])[..., 0]
@@ -139,7 +174,7 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None):
     return X, peak, ok
 
 
-def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
+def _residual_and_jacobian(scenario, rig, index, X, cycle_s, delta_K=0.01):
     """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), and the residual's
     Jacobian by forward differences (m,k,k), for the designs in index, in one batch."""
     k = X.shape[1]
@@ -148,14 +183,14 @@ def _residual_and_jacobian(scenario, rig, index, X, waits, delta_K=0.01):
     for i in range(k):
         Xc[i + 1::copies, i] += delta_K
     Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
-                            None if waits is None else np.repeat(waits, copies))
+                            _designs_of(cycle_s, np.repeat(np.arange(index.size), copies)))
     F = Fc[0::copies]
     J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
     return F - X, peak_c[0::copies], J
 
 
 def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0, X0=None,
-                   states: list | None = None):
+                   states: list | None = None, cycle_s=None):
     """(sustainable (N,) bool, periodic peak (N,) K). Sustainable: the periodic state exists and its
     peak stays at or below the limit, and the way there from the start stays below it too.
     X0 : optional first guess of the periodic states (N,k) K (periodic_state); states : optional list
@@ -166,14 +201,15 @@ def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: 
     designs that start warmer than their periodic state need the planned session checked as well.
     """
     limit, _ = limit_K(scenario)
-    X, peak, ok = periodic_state(scenario, rig, n, wait_s, X0=X0)
+    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    X, peak, ok = periodic_state(scenario, rig, n, X0=X0, cycle_s=cycle_s)
     if states is not None:
         states.append((X, ok))
     ok = ok & (peak <= limit - margin_K)
     warmer = ok & np.any(scenario.start_K > X + 1e-9, axis=1)
     if warmer.any():
         index = np.flatnonzero(warmer)
-        waits = None if wait_s is None else np.broadcast_to(wait_s, (n,))[index]
-        session_peak, _ = session_outcome(scenario, take_designs(rig, index), index.size, waits)
+        session_peak = limiting_peak_K(session_trace(scenario, take_designs(rig, index), index.size,
+                                                     cycle_s=_designs_of(cycle_s, index)), *limits_K(scenario))
         ok[index] &= session_peak <= limit - margin_K
     return ok, peak

@@ -19,7 +19,7 @@ from .bands import N_SAMPLES, N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_st
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
 from .planning import time_constant_s
-from .session_runs import SEARCH_MARGIN_K, limits_K
+from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, session_peak_K
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
 from ..engine.session import PLAN_RESOLUTION
@@ -151,15 +151,23 @@ class DayOutcome:
     clean: np.ndarray
 
 
-def run_day(scenario, samples: Samples, sample_index, change: Change, steps=None) -> DayOutcome:
-    """The planned day (or `steps`, a shortened one) on designs that each take one sample
-    (sample_index (M,)) and one change (M,), as one batched integration."""
-    steps = list(scenario.steps if steps is None else steps)
+def _changed_designs(scenario, samples: Samples, sample_index, change: Change):
+    """(the rig of designs that each take one sample (sample_index (M,)) and one change (M,), the
+    per-step durations of one cycle with the change, each float or (M,) s)."""
     volume = np.where(np.isnan(change.oil_m3), scenario.reservoir.oil_volume_m3, change.oil_m3)
     cooler = np.where(np.isnan(change.cooler_W_K), scenario.cooler_W_K, change.cooler_W_K)
     rig = sample_rig(build_rig(scenario, oil_volume_m3=volume, cooler_W_K=cooler), samples.values, index=sample_index)
-    durations = [step.duration_s * change.pull_fraction if step.is_pull
-                 else np.where(np.isnan(change.wait_s), step.duration_s, change.wait_s) for step in steps]
+    cycle_s = [step.duration_s * change.pull_fraction if step.is_pull
+               else np.where(np.isnan(change.wait_s), step.duration_s, change.wait_s) for step in scenario.cycle]
+    return rig, cycle_s
+
+
+def run_day(scenario, samples: Samples, sample_index, change: Change, steps=None) -> DayOutcome:
+    """The planned day (or `steps`, the first steps of it) on designs that each take one sample
+    (sample_index (M,)) and one change (M,), as one batched integration to its end."""
+    steps = list(scenario.steps if steps is None else steps)
+    rig, cycle_s = _changed_designs(scenario, samples, sample_index, change)
+    durations = (cycle_s * (len(steps) // len(cycle_s) + 1))[:len(steps)]
     trace = integrate(rig, steps, scenario.start_K, n_designs=len(sample_index), durations_s=durations,
                       resolution=PLAN_RESOLUTION)
     limits = limits_K(scenario)
@@ -180,8 +188,12 @@ def count_at_confidence(pulls: np.ndarray, confidence: float) -> int:
 
 # --- the verdict ----------------------------------------------------------------------------------------
 
-def verdict(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES) -> Verdict:
-    """The verdict on the planned day of a scenario whose point answers are `point` (report())."""
+def verdict(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES,
+            band_sizing: dict | None = None) -> Verdict:
+    """The verdict on the planned day of a scenario whose point answers are `point` (report()).
+    band_sizing : optional per-sample sizing answers of the band on the same first n_sizing samples
+    (bands.band_report's sizing_out); the fixes that they answer are taken from them, not searched
+    again (_searched_values)."""
     confidence = scenario.uncertainty.confidence
     samples = samples_of(scenario, n_samples)
     base = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n))
@@ -189,7 +201,7 @@ def verdict(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N
     planned = int(point["pulls_planned"])
     governing, limit, peak = _governing(scenario, base, confidence)
     first_over = None if fits else min(count_at_confidence(base.pulls, confidence) + 1, planned)
-    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, n_sizing)
+    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, n_sizing, band_sizing)
     shown_peak = None if point.get("beyond_model_range") else round(peak - 273.15, 2)   # past the oil data
     return Verdict(fits=fits, first_pull_over_limit=first_over, limit_C=round(limit - 273.15, 3),
                    governing_limit=governing, peak_C=shown_peak, confidence=confidence, fixes=fixes)
@@ -211,10 +223,10 @@ def _governing(scenario, base: DayOutcome, confidence: float) -> tuple[str, floa
 # --- the fixes ------------------------------------------------------------------------------------------
 
 def find_fixes(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
-               n_sizing: int = N_SIZING_SAMPLES) -> tuple:
+               n_sizing: int = N_SIZING_SAMPLES, band_sizing: dict | None = None) -> tuple:
     """Every single change that finishes the day at the confidence, re-run before it is listed,
     smallest change first (fix_change)."""
-    searched = _searched_values(scenario, point, _head(samples, n_sizing), base, confidence)
+    searched = _searched_values(scenario, point, _head(samples, n_sizing), base, confidence, band_sizing)
     fixes = _verified(scenario, samples, searched, confidence)
     fewer = _fewer_pulls(scenario, samples, base, confidence)
     if fewer is not None:
@@ -248,10 +260,39 @@ def fix_change(scenario, fix: Fix) -> float:
     return 1.0 - fix.value / _pull_seconds(scenario).max()
 
 
-def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float) -> dict:
+# The band's per-sample sizing answers that are a fix's per-sample value, and their unit in the fix's SI.
+# The band changes one thing at a time on a rig with no cooler: the same change as the fix's where the
+# scenario has no cooler of its own (its wait and oil answers are for no cooler).
+FROM_BAND = {"wait": ("min_wait_s", 1.0), "oil_volume": ("min_oil_volume_L", 1e-3),
+             "cooler": ("cooler_required_W_per_K", 1.0)}
+
+
+def _from_band(scenario, samples: Samples, band_sizing: dict | None, confidence: float) -> dict:
+    """Per fix kind that the band's sizing answers (band_sizing, per sample of the same samples, at the
+    same target as the fixes' search) answer: the value at the confidence, the sample's own setting
+    where it already finishes (the band's answer lies under it there). Empty where the scenario has a
+    cooler or the samples differ."""
+    if not band_sizing or scenario.cooler_W_K > 0:
+        return {}
+    planned = {"wait": max([step.duration_s for step in scenario.cycle if not step.is_pull], default=np.nan),
+               "oil_volume": scenario.reservoir.oil_volume_m3, "cooler": 0.0}
+    found = {}
+    for kind, (key, to_si) in FROM_BAND.items():
+        per_sample = band_sizing.get(key)
+        if per_sample is None or per_sample.size != samples.n or np.isnan(planned[kind]):
+            continue
+        value = order_statistic(np.maximum(per_sample * to_si, planned[kind]), confidence)
+        found[kind] = value if np.isfinite(value) else None
+    return found
+
+
+def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
+                     band_sizing: dict | None = None) -> dict:
     """Per fix kind (wait, oil_volume, cooler, shorter_pulls): the value at the confidence of the
     per-sample smallest change that keeps the day's peak SEARCH_MARGIN_K under the limit (SI; the pull
-    kind as the fraction of the planned length kept). Samples that already finish need no change."""
+    kind as the fraction of the planned length kept). Samples that already finish need no change.
+    A kind that the band's sizing answers (_from_band) is taken from it, not searched again."""
+    banded = _from_band(scenario, samples, band_sizing, confidence)
     limit, _ = limit_K(scenario)
     target = limit - SEARCH_MARGIN_K
     n = samples.n
@@ -274,7 +315,8 @@ def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, 
         asked.append(("cooler", scenario.cooler_W_K, max(guess, scenario.cooler_W_K + 0.01 * largest_cooler),
                       largest_cooler, False))
     asked.append(("shorter_pulls", 0.0, min(max(1.0 - share_done, 0.05), 0.9), LONGEST_PULL_CUT, False))
-    found = {}
+    asked = [a for a in asked if a[0] not in banded]
+    found = {kind: value for kind, value in banded.items() if value is not None}
     thresholds = _per_sample_thresholds(scenario, samples, failing, asked, target, base.limiting_peak_K)
     for (kind, planned, *_), values in zip(asked, thresholds):
         per_sample = np.full(n, planned, dtype=float)
@@ -301,7 +343,8 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
 
     def margins(x, items):
         value = np.where(names[items] == "shorter_pulls", 1.0 - x, x)
-        return target - run_day(scenario, samples, sample[items], Change.of(names[items], value)).limiting_peak_K
+        rig, cycle_s = _changed_designs(scenario, samples, sample[items], Change.of(names[items], value))
+        return target - session_peak_K(scenario, rig, items.size, cycle_s, threshold_K=target)
 
     state = _Search(m, lows, highs, np.array([asked[k][4] for k in kinds]))
     state.record(lows, target - base_peak_K[sample], np.arange(m))
@@ -323,6 +366,13 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
     return [answer[kinds == i] for i in range(len(asked))]
 
 
+def _finishes(scenario, samples: Samples, sample_index, change: Change) -> np.ndarray:
+    """Per design, whether the day with its change finishes with SEARCH_MARGIN_K to spare
+    (session_runs.finishes_under_limit: a long day is followed only until that is decided)."""
+    rig, cycle_s = _changed_designs(scenario, samples, sample_index, change)
+    return finishes_under_limit(scenario, rig, len(sample_index), cycle_s=cycle_s)
+
+
 def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
     """Per design, the day finished with SEARCH_MARGIN_K to spare: a fix is held to it, so that a re-run
     at another resolution (agreeing to about 0.03 K) still finishes the day."""
@@ -341,10 +391,10 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
             break
         x = np.array([values[k] for k in kinds])
         names = np.repeat(kinds, samples.n)
-        outcome = run_day(scenario, samples, np.tile(np.arange(samples.n), len(kinds)),
-                          Change.of(names, np.repeat(x, samples.n)))
+        finishes = _finishes(scenario, samples, np.tile(np.arange(samples.n), len(kinds)),
+                             Change.of(names, np.repeat(x, samples.n)))
         for i, kind in enumerate(kinds):
-            if share_fits(_with_margin(scenario, outcome)[i * samples.n:(i + 1) * samples.n], confidence):
+            if share_fits(finishes[i * samples.n:(i + 1) * samples.n], confidence):
                 passed[kind] = values[kind]
             elif kind == "shorter_pulls":
                 values[kind] *= 2.0 - STEP_UP

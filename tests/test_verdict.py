@@ -10,7 +10,9 @@ import numpy as np
 import pytest
 
 from thermo_budget.inputs.scenario import load_scenario
-from thermo_budget.planning.verdict import Change, Fix, Verdict, run_day, samples_of, share_fits, verdict
+from thermo_budget.planning.fixes import Fix
+from thermo_budget.planning.verdict import Verdict, verdict
+from thermo_budget.planning.verdict_day import Change, run_day, samples_of, share_fits
 
 SCENARIOS = Path(__file__).resolve().parent.parent / "scenarios"
 VERDICT_KEYS = {"fits", "first_pull_over_limit", "limit_C", "governing_limit", "peak_C", "confidence", "fixes"}

@@ -6,7 +6,8 @@ import math
 
 from ..display import format_temperature, shown_duration
 from ..units import ZERO_CELSIUS_K, to_display, unit_label
-from ..planning.verdict import Fix, Verdict
+from ..planning.fixes import Fix
+from ..planning.verdict import Verdict
 
 LIMIT_WHY = {"max_temperature": "the hottest you allow the oil",
              "min_viscosity": "the pump's thinnest oil",

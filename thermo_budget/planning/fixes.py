@@ -1,0 +1,268 @@
+"""The verdict's fixes: each single change (the waits, the oil volume with its tank, the cooler, the
+number of pulls, the length of the pulls) that finishes the planned day at the confidence. Each is
+found per sample (by the band's sizing answers where they answer it, else by a bracketed secant on
+the session's peak, the band's search), taken at the confidence, and then re-run on every sample
+with that change alone: a fix is listed only if that re-run finishes the day at the confidence."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
+from .planning import time_constant_s
+from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, session_peak_K
+from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, first_samples, run_day,
+                          share_fits)
+from ..inputs.rig_build import build_rig
+from ..inputs.scenario import limit_K
+
+FIX_KINDS = ("wait", "oil_volume", "cooler", "fewer_pulls", "shorter_pulls")
+UNIT_KEYS = {"wait": "value_s", "oil_volume": "value_L", "cooler": "value_W_per_K", "shorter_pulls": "value_s"}
+VERIFY_ROUNDS = 5          # re-runs of a fix that fell short of the confidence, each one step larger
+STEP_UP = 1.08             # the step: x 1.08 on the change (wait, oil, cooler), x 0.92 on the pull time
+LONGEST_PULL_CUT = 0.98    # shorter pulls keep at least 2 % of their length
+
+
+@dataclass(frozen=True)
+class Fix:
+    """One change that alone finishes the planned day at `confidence`.
+
+    kind : one of FIX_KINDS. value : the new uniform wait after every pull (s), the oil volume at
+    15 degC (L), the cooler's total rating (W/K of ETD, in place of the rig's own), the pulls of
+    the day (a count), or the new length of the longest pull (s; every pull cut by the same
+    fraction). tank_L : for oil_volume, the tank of the rig's shape scaled to hold it (L).
+    """
+    kind: str
+    value: float
+    confidence: float
+    tank_L: float | None = None
+
+    def to_json(self) -> dict:
+        out = {"kind": self.kind, "value": self.value}
+        if self.kind in UNIT_KEYS:
+            out[UNIT_KEYS[self.kind]] = self.value
+        if self.tank_L is not None:
+            out["tank_L"] = self.tank_L
+        out["confidence"] = self.confidence
+        return out
+
+    @classmethod
+    def from_json(cls, data: dict) -> "Fix":
+        return cls(kind=data["kind"], value=data["value"], confidence=data["confidence"], tank_L=data.get("tank_L"))
+
+
+def find_fixes(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
+               n_sizing: int = N_SIZING_SAMPLES, band_sizing: dict | None = None) -> tuple:
+    """Every single change that finishes the day at the confidence, re-run before it is listed,
+    smallest change first (fix_change)."""
+    searched = _searched_values(scenario, point, first_samples(samples, n_sizing), base, confidence, band_sizing)
+    fixes = _verified(scenario, samples, searched, confidence)
+    fewer = _fewer_pulls(scenario, samples, base, confidence)
+    if fewer is not None:
+        fixes.append(fewer)
+    fixes.sort(key=lambda fix: fix_change(scenario, fix))
+    return tuple(fixes)
+
+
+def _pull_seconds(scenario) -> np.ndarray:
+    return np.array([step.duration_s for step in scenario.steps if step.is_pull])
+
+
+def fix_change(scenario, fix: Fix) -> float:
+    """How much a fix changes, as a fraction of what it changes: the day's length added (waits), the
+    oil added, the rig's heat loss at the limit added (a cooler's W/K over the rig's passive W/K at
+    the limit, no cooler), the pulls dropped, the pull time cut."""
+    steps = list(scenario.steps)
+    if fix.kind == "wait":
+        day = sum(step.duration_s for step in steps)
+        added = sum(max(fix.value - step.duration_s, 0.0) for step in steps if not step.is_pull)
+        return added / day
+    if fix.kind == "oil_volume":
+        return fix.value / scenario.oil_volume_L - 1.0
+    if fix.kind == "cooler":
+        from ..physics.network import passive_rejection_W
+        limit, _ = limit_K(scenario)
+        passive = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0]) / (limit - scenario.ambient_K)
+        return (fix.value - scenario.cooler_W_K) / max(passive, 1e-9)
+    if fix.kind == "fewer_pulls":
+        return 1.0 - fix.value / _pull_seconds(scenario).size
+    return 1.0 - fix.value / _pull_seconds(scenario).max()
+
+
+# The band's per-sample sizing answers that are a fix's per-sample value, and their unit in the fix's SI.
+# The band changes one thing at a time on a rig with no cooler: the same change as the fix's where the
+# scenario has no cooler of its own (its wait and oil answers are for no cooler).
+FROM_BAND = {"wait": ("min_wait_s", 1.0), "oil_volume": ("min_oil_volume_L", 1e-3),
+             "cooler": ("cooler_required_W_per_K", 1.0)}
+
+
+def _from_band(scenario, samples: Samples, band_sizing: dict | None, confidence: float) -> dict:
+    """Per fix kind that the band's sizing answers (band_sizing, per sample of the same samples, at the
+    same target as the fixes' search) answer: the value at the confidence, the sample's own setting
+    where it already finishes (the band's answer lies under it there). Empty where the scenario has a
+    cooler or the samples differ."""
+    if not band_sizing or scenario.cooler_W_K > 0:
+        return {}
+    planned = {"wait": max([step.duration_s for step in scenario.cycle if not step.is_pull], default=np.nan),
+               "oil_volume": scenario.reservoir.oil_volume_m3, "cooler": 0.0}
+    found = {}
+    for kind, (key, to_si) in FROM_BAND.items():
+        per_sample = band_sizing.get(key)
+        if per_sample is None or per_sample.size != samples.n or np.isnan(planned[kind]):
+            continue
+        value = order_statistic(np.maximum(per_sample * to_si, planned[kind]), confidence)
+        found[kind] = value if np.isfinite(value) else None
+    return found
+
+
+def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
+                     band_sizing: dict | None = None) -> dict:
+    """Per fix kind (wait, oil_volume, cooler, shorter_pulls): the value at the confidence of the
+    per-sample smallest change that keeps the day's peak SEARCH_MARGIN_K under the limit (SI; the pull
+    kind as the fraction of the planned length kept). Samples that already finish need no change.
+    A kind that the band's sizing answers (_from_band) is taken from it, not searched again."""
+    banded = _from_band(scenario, samples, band_sizing, confidence)
+    limit, _ = limit_K(scenario)
+    target = limit - SEARCH_MARGIN_K
+    n = samples.n
+    failing = np.flatnonzero(base.limiting_peak_K[:n] > target)
+    waits = [step.duration_s for step in scenario.cycle if not step.is_pull]
+    tau = time_constant_s(scenario)
+    peak_power = max(step.peak_power_W() for step in scenario.cycle)
+    largest_cooler = 20.0 * peak_power / (limit - scenario.ambient_K)
+    V0 = scenario.reservoir.oil_volume_m3
+    share_done = float(np.mean(base.pulls[:n])) / max(_pull_seconds(scenario).size, 1)
+    # (kind, as planned, first guess, highest, search in ln x); the pull kind searches the cut 1 - fraction
+    asked = []
+    if waits:
+        guess = point.get("min_wait_s") or 2.0 * max(waits)
+        asked.append(("wait", max(waits), max(guess, 1.2 * max(waits)), 8.0 * tau if np.isfinite(tau) else 1e6, False))
+    guess = point.get("min_oil_volume_L")
+    asked.append(("oil_volume", V0, 2.0 * V0 if guess is None else max(guess / 1000.0, 1.1 * V0), 200.0 * V0, True))
+    if largest_cooler > scenario.cooler_W_K:
+        guess = point.get("cooler_required_W_per_K") or 0.01 * largest_cooler
+        asked.append(("cooler", scenario.cooler_W_K, max(guess, scenario.cooler_W_K + 0.01 * largest_cooler),
+                      largest_cooler, False))
+    asked.append(("shorter_pulls", 0.0, min(max(1.0 - share_done, 0.05), 0.9), LONGEST_PULL_CUT, False))
+    asked = [a for a in asked if a[0] not in banded]
+    found = {kind: value for kind, value in banded.items() if value is not None}
+    thresholds = _per_sample_thresholds(scenario, samples, failing, asked, target, base.limiting_peak_K)
+    for (kind, planned, *_), values in zip(asked, thresholds):
+        per_sample = np.full(n, planned, dtype=float)
+        per_sample[failing] = values
+        value = order_statistic(per_sample, confidence)
+        if np.isfinite(value):
+            found[kind] = 1.0 - value if kind == "shorter_pulls" else value
+    return found
+
+
+def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, target: float,
+                           base_peak_K: np.ndarray) -> list:
+    """For each asked kind, per failing sample, the smallest value that keeps the day's peak at or under
+    target (inf where none in range suffices): one integration per round over kinds x samples. The day
+    as planned (base_peak_K, per sample) is the first point known to fail."""
+    if not failing.size:
+        return [np.zeros(0) for _ in asked]
+    kinds = np.repeat(np.arange(len(asked)), failing.size)
+    sample = np.tile(failing, len(asked))
+    names = np.array([asked[k][0] for k in kinds])
+    lows = np.array([a[1] for a in asked])[kinds]
+    highs = np.array([a[3] for a in asked])[kinds]
+    m = kinds.size
+
+    def margins(x, items):
+        value = np.where(names[items] == "shorter_pulls", 1.0 - x, x)
+        rig, cycle_s = changed_designs(scenario, samples, sample[items], Change.of(names[items], value))
+        return target - session_peak_K(scenario, rig, items.size, cycle_s, threshold_K=target)
+
+    state = _Search(m, lows, highs, np.array([asked[k][4] for k in kinds]))
+    state.record(lows, target - base_peak_K[sample], np.arange(m))
+    guess = np.array([a[2] for a in asked])[kinds]
+    items = np.concatenate([np.arange(m), np.arange(m)])
+    x = np.concatenate([np.maximum(0.95 * guess, lows), np.minimum(1.1 * guess, highs)])
+    state.record(x, margins(x, items), items)
+    for _ in range(SECANT_ROUNDS + 2):
+        todo = np.flatnonzero(~state.done())
+        if todo.size == 0:
+            break
+        x = state.next_guess(todo)
+        stuck = np.isnan(x)
+        state.stuck[todo[stuck]] = True
+        todo, x = todo[~stuck], x[~stuck]
+        if todo.size:
+            state.record(x, margins(x, todo), todo)
+    answer = state.answer()
+    return [answer[kinds == i] for i in range(len(asked))]
+
+
+def _finishes(scenario, samples: Samples, sample_index, change: Change) -> np.ndarray:
+    """Per design, whether the day with its change finishes with SEARCH_MARGIN_K to spare
+    (session_runs.finishes_under_limit: a long day is followed only until that is decided)."""
+    rig, cycle_s = changed_designs(scenario, samples, sample_index, change)
+    return finishes_under_limit(scenario, rig, len(sample_index), cycle_s=cycle_s)
+
+
+def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
+    """Per design, the day finished with SEARCH_MARGIN_K to spare: a fix is held to it, so that a re-run
+    at another resolution (agreeing to about 0.03 K) still finishes the day."""
+    return outcome.limiting_peak_K <= limit_K(scenario)[0] - SEARCH_MARGIN_K
+
+
+def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> list:
+    """The searched fixes re-run on every sample, each alone; one that falls short is stepped up
+    (STEP_UP) and re-run, up to VERIFY_ROUNDS times, and dropped if it never finishes the day."""
+    values = dict(searched)
+    passed = {}
+    planned_oil = scenario.reservoir.oil_volume_m3
+    for _ in range(VERIFY_ROUNDS):
+        kinds = [k for k in values if k not in passed]
+        if not kinds:
+            break
+        x = np.array([values[k] for k in kinds])
+        names = np.repeat(kinds, samples.n)
+        finishes = _finishes(scenario, samples, np.tile(np.arange(samples.n), len(kinds)),
+                             Change.of(names, np.repeat(x, samples.n)))
+        for i, kind in enumerate(kinds):
+            if share_fits(finishes[i * samples.n:(i + 1) * samples.n], confidence):
+                passed[kind] = values[kind]
+            elif kind == "shorter_pulls":
+                values[kind] *= 2.0 - STEP_UP
+            elif kind == "cooler":
+                values[kind] = scenario.cooler_W_K + STEP_UP * (values[kind] - scenario.cooler_W_K)
+            else:
+                values[kind] *= STEP_UP
+    fixes = []
+    for kind, value in passed.items():
+        if kind == "shorter_pulls":
+            fixes.append(Fix(kind, _round_down(value * _pull_seconds(scenario).max(), 1), confidence))
+        elif kind == "oil_volume":
+            litres = _round_up(value * 1000.0, 2)
+            tank = scenario.reservoir.footprint_m2 * scenario.reservoir.height_m * value / planned_oil
+            fixes.append(Fix(kind, litres, confidence, tank_L=_round_up(tank * 1000.0, 1)))
+        else:
+            fixes.append(Fix(kind, _round_up(value, 1 if kind == "wait" else 2), confidence))
+    return fixes
+
+
+def _fewer_pulls(scenario, samples: Samples, base: DayOutcome, confidence: float) -> Fix | None:
+    """The most pulls (the planned day cut after a pull, with the waits that follow it) that finish at
+    the confidence, re-run; None where not even one pull does."""
+    count = count_at_confidence(base.pulls, confidence)
+    steps = list(scenario.steps)
+    pull_at = [i for i, step in enumerate(steps) if step.is_pull]
+    while count >= 1:
+        end = pull_at[count] if count < len(pull_at) else len(steps)
+        outcome = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n), steps=steps[:end])
+        if share_fits(_with_margin(scenario, outcome), confidence):
+            return Fix("fewer_pulls", count, confidence)
+        count -= 1
+    return None
+
+
+def _round_up(value: float, digits: int) -> float:
+    return float(np.ceil(value * 10**digits - 1e-9) / 10**digits)
+
+
+def _round_down(value: float, digits: int) -> float:
+    return float(np.floor(value * 10**digits + 1e-9) / 10**digits)

@@ -1,0 +1,110 @@
+"""A long planned day (more than LONG_SESSION_CYCLES cycles) answered without integrating all of it:
+designs proven by their periodic state, the others followed only while open, a settled schedule
+repeated. Each shortcut is held against the whole day integrated to its end."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from thermo_budget.engine.long_session import PERIODIC_TOLERANCE_K, session_limiting_peak_K
+from thermo_budget.engine.outcome import limiting_peak_K
+from thermo_budget.engine.session import PLAN_RESOLUTION
+from thermo_budget.engine.solver import integrate
+from thermo_budget.inputs.rig_build import build_rig
+from thermo_budget.inputs.scenario import load_scenario
+from thermo_budget.planning.session_runs import (SEARCH_MARGIN_K, finishes_under_limit, limits_K, periodic_state,
+                                                 session_peak_K)
+
+from conftest import SCENARIO_DIR
+
+VOLUME_FACTORS = np.array([0.6, 0.9, 1.0, 1.2, 1.5, 2.5, 4.0])   # from crossing early to never crossing
+
+
+@pytest.fixture(scope="module")
+def long_day():
+    """The default rig's cycle 90 times (past LONG_SESSION_CYCLES), over a range of oil volumes, and
+    the whole day of every design integrated to its end: (scenario, rig, its limiting peaks K)."""
+    scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": 90})
+    rig = build_rig(scenario, oil_volume_m3=VOLUME_FACTORS * scenario.reservoir.oil_volume_m3)
+    whole = integrate(rig, scenario.steps, scenario.start_K, n_designs=VOLUME_FACTORS.size, resolution=PLAN_RESOLUTION)
+    return scenario, rig, limiting_peak_K(whole, *limits_K(scenario))
+
+
+def test_the_day_decided_from_the_periodic_state_is_the_whole_day_s_answer(long_day):
+    scenario, rig, whole_peak = long_day
+    threshold = limits_K(scenario)[0] - SEARCH_MARGIN_K
+    decided = finishes_under_limit(scenario, rig, VOLUME_FACTORS.size)
+    np.testing.assert_array_equal(decided, whole_peak <= threshold)
+    assert decided.any() and not decided.all()           # both answers occur in the range
+
+
+def test_the_periodic_peak_bounds_the_day_from_above(long_day):
+    # The network is cooperative: from a start colder than the periodic state, every cycle's peak is
+    # at or under the periodic cycle's (Kamke's comparison theorem for cooperative systems; Smith,
+    # Monotone Dynamical Systems, 1995, ch. 3). So a periodic peak under the target proves the day.
+    scenario, rig, whole_peak = long_day
+    _, periodic_peak, converged = periodic_state(scenario, rig, VOLUME_FACTORS.size)
+    assert converged.all()
+    assert np.all(whole_peak <= periodic_peak + 1e-6)
+    # and 90 cycles of 3 min 15 s leave the larger tanks unsettled: the gap grows with the volume
+    gap = periodic_peak - whole_peak
+    assert gap[-1] > 1.0 and np.all(np.diff(gap) > 0)
+
+
+@pytest.mark.parametrize("repeat", [90, 200])
+def test_a_long_day_s_peak_stands_in_by_the_periodic_one_only_where_it_is_settled(repeat):
+    """session_peak_K takes the periodic peak for a design only where the day ends periodic to
+    SETTLED_K (the start's departure carried through by the cycle map's Jacobian): every design's
+    peak is then the whole day's, to the 0.025 K the resolutions agree to; at 200 cycles the smaller
+    tanks stand in, at 90 none of the unsettled larger ones do."""
+    from thermo_budget.planning import session_runs
+    scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": repeat})
+    rig = build_rig(scenario, oil_volume_m3=VOLUME_FACTORS * scenario.reservoir.oil_volume_m3)
+    whole = limiting_peak_K(integrate(rig, scenario.steps, scenario.start_K, n_designs=VOLUME_FACTORS.size,
+                                      resolution=PLAN_RESOLUTION), *limits_K(scenario))
+    target = limits_K(scenario)[0] - SEARCH_MARGIN_K
+    proven, settled, _ = session_runs._proven_under(scenario, rig, VOLUME_FACTORS.size, SEARCH_MARGIN_K, None)
+    peak = session_peak_K(scenario, rig, VOLUME_FACTORS.size, threshold_K=target)
+    np.testing.assert_allclose(peak, whole, atol=0.025)
+    assert np.all(proven == (whole <= target)) and not settled[-1]
+    assert settled.any() == (repeat == 200)
+
+
+def test_a_long_day_followed_only_while_open_has_the_whole_day_s_peaks(long_day):
+    # Designs are dropped once periodic (to PERIODIC_TOLERANCE_K); each chunk restarts the
+    # integrator (a few mK at a seam, test_edges' long-session test)
+    scenario, rig, whole_peak = long_day
+    followed = session_limiting_peak_K(rig, scenario, scenario.start_K, VOLUME_FACTORS.size, limits_K(scenario),
+                                       resolution=PLAN_RESOLUTION)
+    np.testing.assert_allclose(followed, whole_peak, atol=0.025)
+
+
+def test_a_long_day_closed_once_over_gives_a_peak_at_least_that_high(long_day):
+    scenario, rig, whole_peak = long_day
+    above = limits_K(scenario)[0]
+    followed = session_limiting_peak_K(rig, scenario, scenario.start_K, VOLUME_FACTORS.size, limits_K(scenario),
+                                       resolution=PLAN_RESOLUTION, decided_above_K=above)
+    over = whole_peak > above
+    assert over.any()
+    assert np.all(followed[over] > above) and np.all(followed[over] <= whole_peak[over] + 0.025)
+    np.testing.assert_allclose(followed[~over], whole_peak[~over], atol=0.025)
+
+
+def test_a_schedule_settled_with_alternating_waits_is_the_pull_by_pull_search_s(monkeypatch):
+    """Once the limit governs, each pull's extra wait is a lattice point (ready_schedule._threshold_near)
+    and may alternate between two neighbours; the schedule is then periodic over two cycles, and its
+    later rows repeat the last two. Held against searching every pull."""
+    from thermo_budget.planning import ready_schedule as rs
+    scenario = load_scenario(SCENARIO_DIR / "default.toml").changed(**{"session.repeat": 90})
+    periods = []
+    original = rs._repeated_rows
+    monkeypatch.setattr(rs, "_repeated_rows", lambda rows, p, count: periods.append((p, count)) or original(rows, p, count))
+    settled = rs.ready_schedule(scenario, [])
+    assert periods and periods[0][1] >= 10              # the real test engaged, with rows left to copy
+    monkeypatch.setattr(rs, "_schedule_settled", lambda *args: 0)
+    searched = rs.ready_schedule(scenario, [])
+    assert len(settled) == len(searched) == 90 and searched[-1]["extra_wait_s"] > 0
+    for a, b in zip(settled, searched):
+        assert abs(a["extra_wait_s"] - b["extra_wait_s"]) <= 0.05            # the lattice's fine step is 1/32 s here
+        assert abs(a["start_s"] - b["start_s"]) <= 1.0
+        assert abs(a["peak_C"] - b["peak_C"]) <= 0.01 and abs(a["start_C"] - b["start_C"]) <= 0.01

@@ -217,13 +217,13 @@ def report(scenario: Scenario, trace: Trace | None = None) -> Report:
         result["min_oil_volume_headroom_L"] = None
     result["cautions"] = cautions(scenario, result)
     from .bands import band_report
-    sizing: dict = {}
-    result.update(band_report(scenario, result, sizing_out=sizing))
+    shared: dict = {}       # what the verdict reuses of the band's work
+    result.update(band_report(scenario, result, shared_out=shared))
     ranking = result["band_ranking"]
     result["band_advice"] = advice_sentence(ranking, ranking[0]["of"]) if ranking else ""
     _caution_beyond_range(scenario, trace, result)
     from .verdict import verdict
-    result["verdict"] = verdict(scenario, result, band_sizing=sizing).to_json()
+    result["verdict"] = verdict(scenario, result, band_shared=shared).to_json()
     check_finite(result)
     return Report.from_json(result)
 

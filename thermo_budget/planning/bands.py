@@ -35,11 +35,12 @@ ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_requ
 
 
 def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES,
-                sizing_out: dict | None = None) -> dict:
+                shared_out: dict | None = None) -> dict:
     """The band keys of `run --json` for a scenario whose point answers are `point` (report()), all
-    but its advice in words (band_text.advice_sentence, from the ranking). sizing_out : optional dict
-    that receives the per-sample sizing answers ({SIZING_KEYS key: (n_sizing,) array, inf where no
-    size suffices}; the verdict takes its fixes from them)."""
+    but its advice in words (band_text.advice_sentence, from the ranking). shared_out : optional dict
+    that receives what the verdict reuses: the per-sample sizing answers ({SIZING_KEYS key:
+    (n_sizing,) array, inf where no size suffices}) and "session", the samples' planned session (a
+    Trace of n_samples designs at the planning resolution)."""
     model = scenario.uncertainty
     if not model.spreads:
         bands = {key: _collapsed(point.get(key)) for key in BAND_KEYS}
@@ -48,8 +49,8 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
                 "band_ranking": [], "band_envelope": None,
                 "uncertainty": {"enabled": model.enabled, "samples": 0, "factors": model.table()}}
     samples = sample_answers(scenario, point, n_samples, n_sizing)
-    if sizing_out is not None:
-        sizing_out.update({key: samples[key] for key in SIZING_KEYS if key in samples})
+    if shared_out is not None:
+        shared_out.update({key: samples[key] for key in SIZING_KEYS if key in samples}, session=samples["session"])
     bands = {key: _band(key, samples.get(key), point.get(key)) for key in BAND_KEYS}
     ranking = spread_ranking(samples["z"], samples["runs_for_ranking" if point.get("runs_before_limit") is not None
                                                   else "pulls_under_limit"], model.active)
@@ -69,7 +70,8 @@ def band_report(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int
 
 def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES) -> dict:
     """Every answer per sample: {key: (n,) array (inf where there is no finite answer: never crosses,
-    no size suffices), "z": (n, k) standard normals, "envelope": ...}."""
+    no size suffices), "z": (n, k) standard normals, "envelope": ..., "session": the samples' planned
+    session (a Trace)}."""
     model = scenario.uncertainty
     z_all = standard_normals(model, max(n_samples, n_sizing))
     all_values = factor_values(model, z_all)
@@ -78,7 +80,7 @@ def sample_answers(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: 
     limits = limits_K(scenario)      # the bulk limit, and the return line's where one is set
     session = session_trace(scenario, rig, n_samples)
     crossing = first_crossing_s(session, *limits)
-    out = {"z": z, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
+    out = {"z": z, "session": session, "pulls_under_limit": pulls_completed_under(session, *limits).astype(float),
            "peak_C": peak_oil_K(session) - ZERO_CELSIUS_K, "time_to_limit_s": np.where(np.isnan(crossing), np.inf, crossing)}
     if point.get("runs_before_limit") is not None:
         out["runs_before_limit"], out["runs_for_ranking"] = _sample_runs(scenario, rig, n_samples, session,

@@ -11,9 +11,9 @@ import numpy as np
 
 from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
 from .planning import time_constant_s
-from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, session_peak_K
-from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, first_samples, run_day,
-                          share_fits)
+from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, session_peak_K
+from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
+                          run_day, share_fits)
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
 
@@ -53,12 +53,12 @@ class Fix:
 
 
 def find_fixes(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
-               n_sizing: int = N_SIZING_SAMPLES, band_sizing: dict | None = None) -> tuple:
+               n_sizing: int = N_SIZING_SAMPLES, band_shared: dict | None = None, session=None) -> tuple:
     """Every single change that finishes the day at the confidence, re-run before it is listed,
     smallest change first (fix_change)."""
-    searched = _searched_values(scenario, point, first_samples(samples, n_sizing), base, confidence, band_sizing)
+    searched = _searched_values(scenario, point, first_samples(samples, n_sizing), base, confidence, band_shared)
     fixes = _verified(scenario, samples, searched, confidence)
-    fewer = _fewer_pulls(scenario, samples, base, confidence)
+    fewer = _fewer_pulls(scenario, samples, base, confidence, session)
     if fewer is not None:
         fixes.append(fewer)
     fixes.sort(key=lambda fix: fix_change(scenario, fix))
@@ -97,18 +97,18 @@ FROM_BAND = {"wait": ("min_wait_s", 1.0), "oil_volume": ("min_oil_volume_L", 1e-
              "cooler": ("cooler_required_W_per_K", 1.0)}
 
 
-def _from_band(scenario, samples: Samples, band_sizing: dict | None, confidence: float) -> dict:
-    """Per fix kind that the band's sizing answers (band_sizing, per sample of the same samples, at the
+def _from_band(scenario, samples: Samples, band_shared: dict | None, confidence: float) -> dict:
+    """Per fix kind that the band's sizing answers (band_shared, per sample of the same samples, at the
     same target as the fixes' search) answer: the value at the confidence, the sample's own setting
     where it already finishes (the band's answer lies under it there). Empty where the scenario has a
     cooler or the samples differ."""
-    if not band_sizing or scenario.cooler_W_K > 0:
+    if not band_shared or scenario.cooler_W_K > 0:
         return {}
     planned = {"wait": max([step.duration_s for step in scenario.cycle if not step.is_pull], default=np.nan),
                "oil_volume": scenario.reservoir.oil_volume_m3, "cooler": 0.0}
     found = {}
     for kind, (key, to_si) in FROM_BAND.items():
-        per_sample = band_sizing.get(key)
+        per_sample = band_shared.get(key)
         if per_sample is None or per_sample.size != samples.n or np.isnan(planned[kind]):
             continue
         value = order_statistic(np.maximum(per_sample * to_si, planned[kind]), confidence)
@@ -117,12 +117,12 @@ def _from_band(scenario, samples: Samples, band_sizing: dict | None, confidence:
 
 
 def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
-                     band_sizing: dict | None = None) -> dict:
+                     band_shared: dict | None = None) -> dict:
     """Per fix kind (wait, oil_volume, cooler, shorter_pulls): the value at the confidence of the
     per-sample smallest change that keeps the day's peak SEARCH_MARGIN_K under the limit (SI; the pull
     kind as the fraction of the planned length kept). Samples that already finish need no change.
     A kind that the band's sizing answers (_from_band) is taken from it, not searched again."""
-    banded = _from_band(scenario, samples, band_sizing, confidence)
+    banded = _from_band(scenario, samples, band_shared, confidence)
     limit, _ = limit_K(scenario)
     target = limit - SEARCH_MARGIN_K
     n = samples.n
@@ -245,15 +245,17 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
     return fixes
 
 
-def _fewer_pulls(scenario, samples: Samples, base: DayOutcome, confidence: float) -> Fix | None:
+def _fewer_pulls(scenario, samples: Samples, base: DayOutcome, confidence: float, session=None) -> Fix | None:
     """The most pulls (the planned day cut after a pull, with the waits that follow it) that finish at
-    the confidence, re-run; None where not even one pull does."""
+    the confidence, re-run (or read off `session`, the samples' planned day, whose beginning the cut
+    day is); None where not even one pull does."""
     count = count_at_confidence(base.pulls, confidence)
     steps = list(scenario.steps)
     pull_at = [i for i, step in enumerate(steps) if step.is_pull]
     while count >= 1:
         end = pull_at[count] if count < len(pull_at) else len(steps)
-        outcome = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n), steps=steps[:end])
+        outcome = (run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n), steps=steps[:end])
+                   if session is None else day_outcome(session, limits_K(scenario), until_step=end))
         if share_fits(_with_margin(scenario, outcome), confidence):
             return Fix("fewer_pulls", count, confidence)
         count -= 1

@@ -9,11 +9,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
 
 from .bands import N_SAMPLES, N_SIZING_SAMPLES, order_statistic
 from .fixes import Fix, find_fixes
-from .verdict_day import Change, DayOutcome, count_at_confidence, run_day, samples_of, share_fits
+from .session_runs import limits_K
+from .verdict_day import DayOutcome, count_at_confidence, day_outcome, planned_day, samples_of, share_fits
 from ..inputs.scenario import limit_K
 
 
@@ -49,19 +49,22 @@ class Verdict:
 
 
 def verdict(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N_SIZING_SAMPLES,
-            band_sizing: dict | None = None) -> Verdict:
+            band_shared: dict | None = None) -> Verdict:
     """The verdict on the planned day of a scenario whose point answers are `point` (report()).
-    band_sizing : optional per-sample sizing answers of the band on the same first n_sizing samples
-    (bands.band_report's sizing_out); the fixes that they answer are taken from them, not searched
-    again (_searched_values)."""
+    band_shared : optional, the band's work on the same samples (bands.band_report's shared_out):
+    its samples' planned session is the day as planned (not integrated again), and the fixes that
+    its per-sample sizing answers answer are taken from them, not searched again (fixes.py)."""
     confidence = scenario.uncertainty.confidence
     samples = samples_of(scenario, n_samples)
-    base = run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n))
+    session = (band_shared or {}).get("session")
+    if session is None or session.T_K.shape[1] != samples.n:
+        session = planned_day(scenario, samples)
+    base = day_outcome(session, limits_K(scenario))
     fits = share_fits(base.clean, confidence)
     planned = int(point["pulls_planned"])
     governing, limit, peak = _governing(scenario, base, confidence)
     first_over = None if fits else min(count_at_confidence(base.pulls, confidence) + 1, planned)
-    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, n_sizing, band_sizing)
+    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, n_sizing, band_shared, session)
     shown_peak = None if point.get("beyond_model_range") else round(peak - 273.15, 2)   # past the oil data
     return Verdict(fits=fits, first_pull_over_limit=first_over, limit_C=round(limit - 273.15, 3),
                    governing_limit=governing, peak_C=shown_peak, confidence=confidence, fixes=fixes)

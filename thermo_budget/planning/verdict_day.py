@@ -3,17 +3,17 @@ each design with one change (a wait, an oil volume, a cooler, the pulls' length)
 day fits at a confidence: what the verdict and its fixes are judged on."""
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from .bands import N_SAMPLES
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, limiting_peak_K, pulls_completed_under
-from .session_runs import limits_K
+from .session_runs import limits_K, session_trace
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION
-from ..engine.solver import integrate
+from ..engine.solver import Trace, integrate
 from ..inputs.uncertainty import factor_values, sample_rig, standard_normals
 
 
@@ -85,6 +85,30 @@ def changed_designs(scenario, samples: Samples, sample_index, change: Change):
     return rig, cycle_s
 
 
+def planned_day(scenario, samples: Samples) -> Trace:
+    """The planned day on every sample, as planned: the samples' planned session (as the band's,
+    session_runs.session_trace)."""
+    rig = sample_rig(build_rig(scenario), samples.values) if samples.values else build_rig(scenario)
+    return session_trace(scenario, rig, samples.n)
+
+
+def day_outcome(trace: Trace, limits: tuple, until_step: int | None = None) -> DayOutcome:
+    """The DayOutcome of a day's trace against limits (bulk, return line or None), or of its first
+    until_step steps only: the day cut there is that trace's beginning (the same sub-steps from the
+    same start), so a shorter day is read off the whole one, not integrated again."""
+    if until_step is not None:
+        points = int(np.searchsorted(trace.step_index, until_step, side="left"))   # the start point is -1
+        begun = trace.pull_start_s[:, 0] < trace.time_s[points - 1, 0]      # the pulls begun before the cut
+        trace = replace(trace, time_s=trace.time_s[:points], T_K=trace.T_K[:points], return_K=trace.return_K[:points],
+                        power_W=trace.power_W[:points], step_index=trace.step_index[:points],
+                        pull_start_s=trace.pull_start_s[begun], pull_end_s=trace.pull_end_s[begun],
+                        energy_in_J=np.full_like(trace.energy_in_J, np.nan),     # not kept for a part
+                        energy_lost_J=np.full_like(trace.energy_lost_J, np.nan),
+                        energy_stored_J=np.full_like(trace.energy_stored_J, np.nan))
+    return DayOutcome(trace.T_K[:, :, OIL].max(axis=0), trace.return_K.max(axis=0), limiting_peak_K(trace, *limits),
+                      pulls_completed_under(trace, *limits), np.isnan(first_crossing_s(trace, *limits)))
+
+
 def run_day(scenario, samples: Samples, sample_index, change: Change, steps=None) -> DayOutcome:
     """The planned day (or `steps`, the first steps of it) on designs that each take one sample
     (sample_index (M,)) and one change (M,), as one batched integration to its end."""
@@ -93,9 +117,7 @@ def run_day(scenario, samples: Samples, sample_index, change: Change, steps=None
     durations = (cycle_s * (len(steps) // len(cycle_s) + 1))[:len(steps)]
     trace = integrate(rig, steps, scenario.start_K, n_designs=len(sample_index), durations_s=durations,
                       resolution=PLAN_RESOLUTION)
-    limits = limits_K(scenario)
-    return DayOutcome(trace.T_K[:, :, OIL].max(axis=0), trace.return_K.max(axis=0), limiting_peak_K(trace, *limits),
-                      pulls_completed_under(trace, *limits), np.isnan(first_crossing_s(trace, *limits)))
+    return day_outcome(trace, limits_K(scenario))
 
 
 def share_fits(clean: np.ndarray, confidence: float) -> bool:

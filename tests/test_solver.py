@@ -18,6 +18,7 @@ from thermo_budget.inputs.scenario import limit_K, load_scenario
 from thermo_budget.inputs.rig_build import build_rig
 from thermo_budget.engine.session import PLAN_RESOLUTION, Step, pump_flow_m3_s
 from thermo_budget.engine.solver import integrate, propagate_linear
+from thermo_budget.physics.rig import take_designs
 
 from conftest import (ADIABATIC_PULL, ENGINE_OFF_30S, SCENARIO_DIR, SHIPPED_SCENARIOS, adiabatic_raw, base_raw,
                       set_path, single_temperature_K)
@@ -563,3 +564,23 @@ def test_loop_oil_stands_apart_from_the_tank_with_the_engine_off_and_follows_it_
     # the loop oil's own balance at rest only if it sits at the bulk + half the rise
     rise = 10000.0 / mass_flow_cp
     assert b[0, LOOP_OIL] / -L[0, OIL, LOOP_OIL] == pytest.approx(0.5 * rise, rel=1e-9)
+
+
+def test_a_session_integrated_in_pieces_with_its_systems_is_the_session_integrated_whole(base_scenario):
+    # integrate's `systems`: each piece starts from the corrector systems the piece before left, so
+    # the pieces are the whole integration (runs_before_limit counts on in pieces); a piece started
+    # without them predicts its first sub-step afresh, a few mK away at the seam
+    from thermo_budget.engine.solver import take_systems
+    rig = build_rig(base_scenario, oil_volume_m3=np.array([0.6, 1.0, 1.7]) * base_scenario.reservoir.oil_volume_m3)
+    cycle = list(base_scenario.cycle)
+    whole = integrate(rig, cycle * 30, base_scenario.start_K, n_designs=3, resolution=PLAN_RESOLUTION)
+    systems: dict = {}
+    first = integrate(rig, cycle * 10, base_scenario.start_K, n_designs=3, resolution=PLAN_RESOLUTION, systems=systems)
+    kept = np.array([0, 2])            # and with a design dropped between the pieces
+    second = integrate(take_designs(rig, kept), cycle * 20, first.final_K[kept], n_designs=2,
+                       resolution=PLAN_RESOLUTION, start_time_s=first.time_s[-1, kept],
+                       systems=take_systems(systems, kept))
+    np.testing.assert_allclose(second.T_K, whole.T_K[first.T_K.shape[0] - 1:, kept], rtol=0, atol=1e-9)
+    afresh = integrate(take_designs(rig, kept), cycle * 20, first.final_K[kept], n_designs=2,
+                       resolution=PLAN_RESOLUTION, start_time_s=first.time_s[-1, kept])
+    assert np.max(np.abs(afresh.T_K - whole.T_K[first.T_K.shape[0] - 1:, kept])) > 1e-6

@@ -110,9 +110,15 @@ class Trace:
                      else self.hose_liner_share[index])
 
 
+def take_systems(systems: dict, index) -> dict:
+    """The systems (integrate's `systems`) of the designs in `index` only."""
+    return {key: tuple(part[index] for part in system) for key, system in systems.items()}
+
+
 def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s=None,
               resolution: Resolution = Resolution(), start_time_s=0.0, stop_above_K: float | None = None,
-              give_up_above_K: float = GIVE_UP_ABOVE_K, stop_count: int | None = None) -> Trace:
+              give_up_above_K: float = GIVE_UP_ABOVE_K, stop_count: int | None = None,
+              systems: dict | None = None) -> Trace:
     """Integrate the steps in order from the state T0_K ((N,k) or (k,) K, k = N_NODES; a scalar fills every node).
 
     give_up_above_K : a design whose bulk oil passes this (or whose state stops being finite) is
@@ -124,6 +130,9 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     stop_above_K : optional; stop after the first step by whose end the bulk oil of every design has
     been above this temperature at a recorded point (the trace then ends there); with stop_count,
     as soon as that many designs have.
+    systems : optional dict of the last corrector's system of each kind of constant-input step, per
+    design (take_systems), read at the start and updated in place: a session integrated in pieces,
+    each piece given the systems the one before left, is the session integrated whole.
     """
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
@@ -136,7 +145,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     held = np.zeros(n_designs, bool)
     T_first = T.copy()
     power_scale = np.array(per_design(rig.power_multiplier, n_designs))
-    last_system = {}      # the last corrector's system of each kind of constant-input step
+    last_system = {} if systems is None else systems   # the last corrector's system of each kind of constant-input step
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
         n_sub = resolution.substeps(step, float(np.max(duration)))

@@ -91,8 +91,8 @@ def fix_change(scenario, fix: Fix) -> float:
 
 
 # The band's per-sample sizing answers that are a fix's per-sample value, and their unit in the fix's SI.
-# The band changes one thing at a time on a rig with no cooler: the same change as the fix's where the
-# scenario has no cooler of its own (its wait and oil answers are for no cooler).
+# The band changes one thing at a time: the cooler in place of the rig's own (the fix's change), and
+# the wait or the oil on a rig with no cooler (the fix's change only where the scenario has none).
 FROM_BAND = {"wait": ("min_wait_s", 1.0), "oil_volume": ("min_oil_volume_L", 1e-3),
              "cooler": ("cooler_required_W_per_K", 1.0)}
 
@@ -100,16 +100,17 @@ FROM_BAND = {"wait": ("min_wait_s", 1.0), "oil_volume": ("min_oil_volume_L", 1e-
 def _from_band(scenario, samples: Samples, band_shared: dict | None, confidence: float) -> dict:
     """Per fix kind that the band's sizing answers (band_shared, per sample of the same samples, at the
     same target as the fixes' search) answer: the value at the confidence, the sample's own setting
-    where it already finishes (the band's answer lies under it there). Empty where the scenario has a
-    cooler or the samples differ."""
-    if not band_shared or scenario.cooler_W_K > 0:
+    where it already finishes (the band's answer lies under it there). Only the cooler where the
+    scenario has a cooler of its own; nothing where the samples differ."""
+    if not band_shared:
         return {}
     planned = {"wait": max([step.duration_s for step in scenario.cycle if not step.is_pull], default=np.nan),
-               "oil_volume": scenario.reservoir.oil_volume_m3, "cooler": 0.0}
+               "oil_volume": scenario.reservoir.oil_volume_m3, "cooler": scenario.cooler_W_K}
     found = {}
     for kind, (key, to_si) in FROM_BAND.items():
         per_sample = band_shared.get(key)
-        if per_sample is None or per_sample.size != samples.n or np.isnan(planned[kind]):
+        if (per_sample is None or per_sample.size != samples.n or np.isnan(planned[kind])
+                or (kind != "cooler" and scenario.cooler_W_K > 0)):
             continue
         value = order_statistic(np.maximum(per_sample * to_si, planned[kind]), confidence)
         found[kind] = value if np.isfinite(value) else None

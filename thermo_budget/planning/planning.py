@@ -9,13 +9,14 @@ from ..engine.outcome import first_crossing_s, pulls_completed_under
 from ..inputs.scenario import Scenario, limit_K
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION
-from ..engine.solver import integrate
+from ..engine.solver import integrate, take_systems
 from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability
 from ..physics.rig import take_designs
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 GRID_POINTS = 24           # candidates per round of a batched search
 GRID_ROUNDS = 3
+COUNT_CHUNK_CYCLES = 20    # runs_before_limit counts on in pieces of this many cycles
 
 
 def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndarray, max_pulls: int = MAX_PULLS,
@@ -23,10 +24,12 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     """Pulls completed under the limit when the cycle repeats from the start until a pull crosses it.
     Returns (N,) float: the count, NaN where sustainable or where no crossing came within max_pulls.
 
-    Two chunks: the planned session (or `session`, a session_trace of the same rig and designs),
-    then the cycles that remain up to max_pulls, integrated only until every design still counted
-    has crossed the limit, or (enough) until that many designs in all have: the designs counted
-    are then the `enough` earliest to cross, and the others stay NaN.
+    First the planned session (or `session`, a session_trace of the same rig and designs), then the
+    cycles that remain up to max_pulls, COUNT_CHUNK_CYCLES at a time with only the designs not yet
+    crossed (each piece starting from the corrector systems the one before left: the pieces are one
+    integration), until every design still counted has crossed the limit, or (enough) until that
+    many designs in all have: the designs counted are then the `enough` earliest to cross, and the
+    others stay NaN. The memory held is one piece's, whatever max_pulls.
 
     resume : optional (state (N,k) K at a cycle's start, pulls done by then) to count on from, for
     designs none of which has crossed yet; state_out : optional dict that receives that pair
@@ -39,6 +42,7 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     active = np.flatnonzero(~sustainable)
     X = np.array(np.broadcast_to(scenario.start_K if resume is None else resume[0], (n, N_NODES)), dtype=float)
     done_pulls = 0 if resume is None else int(resume[1])
+    systems: dict = {}
     while active.size and done_pulls < max_pulls:
         counted = n - active.size - np.count_nonzero(sustainable)
         if enough is not None and counted >= enough:
@@ -49,10 +53,10 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
                 take_designs(rig, active), list(scenario.cycle) * cycles, X[active], n_designs=active.size,
                 resolution=PLAN_RESOLUTION)
         else:
-            cycles = -(-(max_pulls - done_pulls) // pulls_per_cycle)
+            cycles = min(-(-(max_pulls - done_pulls) // pulls_per_cycle), COUNT_CHUNK_CYCLES)
             trace = integrate(take_designs(rig, active), list(scenario.cycle) * cycles, X[active],
                               n_designs=active.size, resolution=PLAN_RESOLUTION, stop_above_K=stop_K,
-                              stop_count=None if enough is None else enough - counted)
+                              stop_count=None if enough is None else enough - counted, systems=systems)
         under = pulls_completed_under(trace, limit, return_limit)
         # a design that crossed in the chunk's last wait has completed all its pulls in it; a trace
         # that stopped early (stop_count) has enough designs crossed, so the loop ends after it
@@ -61,6 +65,7 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
         X[active] = trace.final_K
         done_pulls += cycles * pulls_per_cycle
         active = active[~crossed]
+        systems = take_systems(systems, np.flatnonzero(~crossed))
     if state_out is not None:
         state_out.update(state=X, pulls=done_pulls)
     return runs

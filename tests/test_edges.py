@@ -541,11 +541,11 @@ def test_a_long_session_is_the_whole_integration_to_a_millikelvin(long_day):
     scenario, whole, settled, _ = long_day
     for name in ("time_s", "step_index", "pull_start_s", "pull_end_s", "power_W"):
         np.testing.assert_array_equal(getattr(settled, name), getattr(whole, name), err_msg=name)
-    # PERIODIC_TOLERANCE_K at the end; at each chunk's seam a few mK for a sub-step or two (its first
-    # sub-step has no predictor to borrow, as for any block integrated on its own): measured 0.0202 K at
-    # the worst seam on the six-node model, held to 0.025 K
-    assert np.max(np.abs(settled.T_K[-1] - whole.T_K[-1])) < 2e-3
-    assert np.max(np.abs(settled.T_K - whole.T_K)) < 0.025 and np.max(np.abs(settled.return_K - whole.return_K)) < 0.025
+    # each chunk starts from the corrector systems the one before left (integrate's `systems`), so the
+    # chunks are the whole integration; what the copied cycles leave out is PERIODIC_TOLERANCE_K:
+    # measured 0.89 mK on the six-node model
+    assert np.max(np.abs(settled.T_K[-1] - whole.T_K[-1])) < 1e-3
+    assert np.max(np.abs(settled.T_K - whole.T_K)) < 1e-3 and np.max(np.abs(settled.return_K - whole.return_K)) < 1e-3
     limit = limit_K(scenario)[0]
     assert pulls_completed_under(settled, limit)[0] == pulls_completed_under(whole, limit)[0]
     np.testing.assert_allclose(first_crossing_s(settled, limit), first_crossing_s(whole, limit), atol=0.5)

@@ -4,7 +4,9 @@ The planned session is the cycle repeated. From a start no warmer than its perio
 state at each cycle's start approaches the periodic state geometrically (the one-cycle map is a
 contraction, nearly affine: `planning.periodic_state` solves for its fixed point). Up to
 LONG_SESSION_CYCLES cycles the session is integrated in one call, as every other integration is.
-A longer one is integrated CHUNK_CYCLES cycles at a time; after each chunk, the change of the
+A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk starting from the
+corrector systems the one before left (solver.integrate's `systems`: the chunks are one
+integration); after each chunk, the change of the
 cycle-start state over its last cycle (d) and the ratio of the last two changes (the contraction
 rho) bound what all later cycles can still add, d rho / (1 - rho). Once that bound is under
 PERIODIC_TOLERANCE_K for every design, the later cycles are the last one repeated: its records
@@ -20,7 +22,7 @@ from ..physics.network import N_NODES
 from ..physics.rig import take_designs
 from .outcome import limiting_peak_K
 from .session import Resolution
-from .solver import Trace, integrate
+from .solver import Trace, integrate, take_systems
 
 LONG_SESSION_CYCLES = 60        # up to this many cycles: one integration, exactly as before
 CHUNK_CYCLES = 20
@@ -49,10 +51,12 @@ def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None,
     X = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = 0.0
     known = np.zeros(n_designs, bool)
+    systems: dict = {}
     while done < repeat:
         cycles = min(CHUNK_CYCLES, repeat - done)
         piece = integrate(rig, cycle * cycles, X, n_designs=n_designs, start_time_s=t,
-                          durations_s=None if per_cycle is None else per_cycle * cycles, resolution=resolution)
+                          durations_s=None if per_cycle is None else per_cycle * cycles, resolution=resolution,
+                          systems=systems)
         pieces.append((piece, done * len(cycle)))
         done += cycles
         X, t = piece.final_K, piece.time_s[-1]
@@ -110,11 +114,12 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     peak = np.full(n_designs, -np.inf)
     open_ = np.arange(n_designs)
     t, done = np.zeros(n_designs), 0
+    systems: dict = {}
     while done < repeat and open_.size:
         cycles = min(CHUNK_CYCLES, repeat - done)
         piece = integrate(take_designs(rig, open_), cycle * cycles, X[open_], n_designs=open_.size, start_time_s=t[open_],
                           durations_s=None if durations is None else [d[open_] for d in durations] * cycles,
-                          resolution=resolution)
+                          resolution=resolution, systems=systems)
         done += cycles
         peak[open_] = np.maximum(peak[open_], limiting_peak_K(piece, *limits_K))
         X[open_], t[open_] = piece.final_K, piece.time_s[-1]
@@ -122,6 +127,7 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
         if decided_above_K is not None:
             closed |= peak[open_] > decided_above_K
         open_ = open_[~closed]
+        systems = take_systems(systems, np.flatnonzero(~closed))
     return peak
 
 

@@ -2,17 +2,16 @@
 
 The planned session is the cycle repeated. From a start no warmer than its periodic state, the
 state at each cycle's start approaches the periodic state geometrically (the one-cycle map is a
-contraction, nearly affine: `planning.periodic_state` solves for its fixed point). Up to
+contraction, nearly affine: `session_runs.periodic_state` solves for its fixed point). Up to
 LONG_SESSION_CYCLES cycles the session is integrated in one call, as every other integration is.
-A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk starting from the
-corrector systems the one before left (solver.integrate's `systems`: the chunks are one
-integration); after each chunk, the change of the
-cycle-start state over its last cycle (d) and the ratio of the last two changes (the contraction
-rho) bound what all later cycles can still add, d rho / (1 - rho). Once that bound is under
-PERIODIC_TOLERANCE_K for every design, the later cycles are the last one repeated: its records
-copied with their times shifted by one cycle each, its heat in counted once per cycle, and as much
-heat lost as gone in (a periodic cycle stores nothing). So the work of a 1,000-pull day is that of
-the pulls it takes to settle, not of its length.
+A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk starting from the corrector
+systems the one before left (solver.integrate's `systems`: the chunks are one integration). After
+each chunk, the change of the cycle-start state over its last cycle (d) and the ratio of the last
+two changes (the contraction rho) bound what all later cycles can still add, d rho / (1 - rho).
+Once that bound is under PERIODIC_TOLERANCE_K for every design, the later cycles are the last one
+repeated: its records copied with their times shifted by one cycle each, its heat in counted once
+per cycle, and as much heat lost as gone in (a periodic cycle stores nothing). So the work of a
+1,000-pull day is that of the pulls it takes to settle, not of its length.
 """
 from __future__ import annotations
 

@@ -223,17 +223,27 @@ STARTUP_COMMANDS = {
     "run --json": ["run", str(DEFAULT_SCENARIO), "--json"],
     "sweep, 2,500 designs": ["sweep", str(DEFAULT_SCENARIO), "--oil-volumes", "5:40:50", "--coolers", "0:100:50"],
 }
-STARTUP_TARGETS_S = {"--help": 0.5, "run --json": 1.0, "sweep, 2,500 designs": 2.5}
+# `run`'s start-up: what every run does before its answers (the imports, the compiled engine's cached
+# code loaded, the scenario read, its rig built, its session simulated once), on standard air, in a
+# process that ends as the command does (cli.console_main).
+STARTUP_PROBE = ("import os, sys; from thermo_budget.inputs.scenario import load_scenario; "
+                 "from thermo_budget.planning.answers import simulate; simulate(load_scenario(sys.argv[1])); "
+                 "sys.stdout.flush(); os._exit(0)")
+STARTUP_TARGETS_S = {"--help": 0.5, "run --json": 1.0, "run's start-up (to the first simulation)": 1.0,
+                     "sweep, 2,500 designs": 2.5}
 
 
 def startup_s(repeats: int = 3) -> dict[str, float]:
-    """Median wall time (s) of each STARTUP_COMMANDS as a whole process (`python -m thermo_budget ...`)."""
+    """Median wall time (s) of each STARTUP_COMMANDS as a whole process (`python -m thermo_budget ...`),
+    and of `run`'s start-up (STARTUP_PROBE)."""
+    commands = {name: [sys.executable, "-m", "thermo_budget", *args] for name, args in STARTUP_COMMANDS.items()}
+    commands["run's start-up (to the first simulation)"] = [sys.executable, "-c", STARTUP_PROBE, str(DEFAULT_SCENARIO)]
     times = {}
-    for name, args in STARTUP_COMMANDS.items():
+    for name, command in commands.items():
         runs = []
         for _ in range(repeats):
             start = time.perf_counter()
-            subprocess.run([sys.executable, "-m", "thermo_budget", *args], stdout=subprocess.DEVNULL, check=True)
+            subprocess.run(command, stdout=subprocess.DEVNULL, check=True)
             runs.append(time.perf_counter() - start)
         times[name] = float(np.median(runs))
     return times

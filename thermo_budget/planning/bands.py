@@ -15,7 +15,7 @@ import numpy as np
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, peak_oil_K, pulls_completed_under
 from .planning import round_up, runs_before_limit, time_constant_s
-from .session_runs import SEARCH_MARGIN_K, limits_K, session_peak_K, session_trace, sustainability
+from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, limits_K, session_peak_K, session_trace, sustainability
 from ..physics.rig import take_designs
 from ..inputs.rig_build import build_rig
 from ..inputs.uncertainty import factor_values, sample_rig, standard_normals
@@ -183,8 +183,11 @@ def sizing_thresholds(scenario, values: dict, n: int, point: dict) -> dict:
     highs = np.array([a[4] for a in asked])[kinds]
     m = kinds.size
 
+    starts = PeriodicStarts(m)
+
     def margins(x, items):
-        return target - _session_peaks(scenario, values, [asked[k][0] for k in kinds[items]], sample[items], x)
+        return target - _session_peaks(scenario, values, [asked[k][0] for k in kinds[items]], sample[items], x,
+                                       (starts, items))
 
     state = _Search(m, lows, highs, np.array([asked[k][5] for k in kinds]))
     # round 0: two first guesses near the point answer (or the floor and a fallback where it is 0)
@@ -278,7 +281,7 @@ class _Search:
         return np.where(exhausted, np.nan, x)
 
 
-def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
+def _session_peaks(scenario, values, keys, sample, x, starts=None) -> np.ndarray:
     """The peak (K) the searches hold to the limit (planning.session_outcome's: the bulk oil's, or
     outcome.limiting_peak_K with a return-line limit) of the planned session, for designs that each
     change one sizing input; on a long session, the periodic peak where it is under the searches'
@@ -289,7 +292,8 @@ def _session_peaks(scenario, values, keys, sample, x) -> np.ndarray:
     rig = sample_rig(build_rig(scenario, oil_volume_m3=volume, cooler_W_K=cooler), values, index=sample)
     cycle_s = [step.duration_s if step.is_pull else np.where(keys == "min_wait_s", x, step.duration_s)
                for step in scenario.cycle]
-    return session_peak_K(scenario, rig, x.size, cycle_s, threshold_K=limits_K(scenario)[0] - SEARCH_MARGIN_K)
+    return session_peak_K(scenario, rig, x.size, cycle_s, threshold_K=limits_K(scenario)[0] - SEARCH_MARGIN_K,
+                          starts=starts)
 
 
 # --- quantiles, plan, ranking -----------------------------------------------------------------------

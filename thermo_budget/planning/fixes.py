@@ -11,7 +11,7 @@ import numpy as np
 
 from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
 from .planning import time_constant_s
-from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, session_peak_K
+from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, finishes_under_limit, limits_K, session_peak_K
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
                           run_day, share_fits)
 from ..inputs.rig_build import build_rig
@@ -172,10 +172,12 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
     highs = np.array([a[3] for a in asked])[kinds]
     m = kinds.size
 
+    starts = PeriodicStarts(m)
+
     def margins(x, items):
         value = np.where(names[items] == "shorter_pulls", 1.0 - x, x)
         rig, cycle_s = changed_designs(scenario, samples, sample[items], Change.of(names[items], value))
-        return target - session_peak_K(scenario, rig, items.size, cycle_s, threshold_K=target)
+        return target - session_peak_K(scenario, rig, items.size, cycle_s, threshold_K=target, starts=(starts, items))
 
     state = _Search(m, lows, highs, np.array([asked[k][4] for k in kinds]))
     state.record(lows, target - base_peak_K[sample], np.arange(m))

@@ -55,7 +55,7 @@ def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=Non
                              resolution=PLAN_RESOLUTION)
 
 
-def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s) -> tuple:
+def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s, starts=None) -> tuple:
     """On a long session (more than LONG_SESSION_CYCLES cycles), from the periodic state and without
     integrating the session: (proven (N,) bool: designs whose whole session is proven to peak at least
     margin_K under the limit; settled (N,) bool: those of them whose session ends periodic to
@@ -66,11 +66,15 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
     How far below it the session's own peak stays is what the session leaves unsettled: the start's
     departure from the periodic state carried through the cycles by the one-cycle map's Jacobian there
     (linear near the periodic state; on the default rig it tracks the gap to within 10 %, taken with
-    a factor of 2). A short session proves nothing this way (it is integrated as it is, to the end)."""
+    a factor of 2). A short session proves nothing this way (it is integrated as it is, to the end).
+    starts : optional (PeriodicStarts, the items of its search that the n designs are)."""
     if scenario.repeat <= LONG_SESSION_CYCLES:
         return np.zeros(n, bool), np.zeros(n, bool), np.full(n, np.nan)
     cycle_map: dict = {}
-    X, peak, ok = periodic_state(scenario, rig, n, cycle_s=cycle_s, cycle_map_out=cycle_map)
+    X0 = None if starts is None else starts[0].of(starts[1], scenario.start_K)
+    X, peak, ok = periodic_state(scenario, rig, n, X0=X0, cycle_s=cycle_s, cycle_map_out=cycle_map)
+    if starts is not None:
+        starts[0].keep(starts[1], X, ok)
     colder = np.all(scenario.start_K <= X + 1e-9, axis=1)
     proven = ok & colder & (peak <= limit_K(scenario)[0] - margin_K)
     with np.errstate(all="ignore"):
@@ -97,15 +101,34 @@ def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycl
     return ok
 
 
-def session_peak_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None, threshold_K: float | None = None) -> np.ndarray:
+class PeriodicStarts:
+    """First guesses of the periodic states of a search's items, round after round: each item's
+    converged state from the round before. A search's later candidates lie close to its earlier
+    ones, so Newton starts near the answer and needs fewer iterations; the fixed point is the same
+    to NEWTON_TOL_K."""
+
+    def __init__(self, m: int):
+        self.X = np.full((m, N_NODES), np.nan)
+
+    def of(self, items, start_K) -> np.ndarray:
+        X = self.X[items]
+        return np.where(np.isnan(X), start_K, X)
+
+    def keep(self, items, X, converged) -> None:
+        self.X[np.asarray(items)[converged]] = X[converged]
+
+
+def session_peak_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None, threshold_K: float | None = None,
+                   starts: tuple | None = None) -> np.ndarray:
     """The limiting peak (K, as session_outcome's) of the planned session of each of n designs. On a
     long session, a design whose periodic peak is at or under threshold_K (the limit where None), from
     a start no warmer, and whose session ends periodic to SETTLED_K, takes its periodic peak
     (_proven_under) and is not integrated; the others are, until periodic
-    (long_session.session_limiting_peak_K)."""
+    (long_session.session_limiting_peak_K). starts : optional (PeriodicStarts, the search's items
+    that the n designs are)."""
     limit, _ = limit_K(scenario)
     margin = 0.0 if threshold_K is None else limit - threshold_K
-    _, settled, peak = _proven_under(scenario, rig, n, margin, cycle_s)
+    _, settled, peak = _proven_under(scenario, rig, n, margin, cycle_s, starts)
     rest = np.flatnonzero(~settled)
     if rest.size:
         peak[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size,

@@ -199,11 +199,12 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
     return [answer[kinds == i] for i in range(len(asked))]
 
 
-def _finishes(scenario, samples: Samples, sample_index, change: Change) -> np.ndarray:
+def _finishes(scenario, samples: Samples, sample_index, change: Change, starts=None) -> np.ndarray:
     """Per design, whether the day with its change finishes with SEARCH_MARGIN_K to spare
-    (session_runs.finishes_under_limit: a long day is followed only until that is decided)."""
+    (session_runs.finishes_under_limit: a long day is followed only until that is decided).
+    starts : optional (PeriodicStarts, the items that the designs are)."""
     rig, cycle_s = changed_designs(scenario, samples, sample_index, change)
-    return finishes_under_limit(scenario, rig, len(sample_index), cycle_s=cycle_s)
+    return finishes_under_limit(scenario, rig, len(sample_index), cycle_s=cycle_s, starts=starts)
 
 
 def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
@@ -218,14 +219,16 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
     values = dict(searched)
     passed = {}
     planned_oil = scenario.reservoir.oil_volume_m3
+    starts = PeriodicStarts(len(FIX_KINDS) * samples.n)     # item: a kind's sample, round after round
     for _ in range(VERIFY_ROUNDS):
         kinds = [k for k in values if k not in passed]
         if not kinds:
             break
         x = np.array([values[k] for k in kinds])
         names = np.repeat(kinds, samples.n)
+        items = np.concatenate([FIX_KINDS.index(k) * samples.n + np.arange(samples.n) for k in kinds])
         finishes = _finishes(scenario, samples, np.tile(np.arange(samples.n), len(kinds)),
-                             Change.of(names, np.repeat(x, samples.n)))
+                             Change.of(names, np.repeat(x, samples.n)), (starts, items))
         for i, kind in enumerate(kinds):
             if share_fits(finishes[i * samples.n:(i + 1) * samples.n], confidence):
                 passed[kind] = values[kind]

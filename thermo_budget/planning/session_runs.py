@@ -83,16 +83,18 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
     return proven, proven & (unsettled < SETTLED_K), peak
 
 
-def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None) -> np.ndarray:
+def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None,
+                         starts: tuple | None = None) -> np.ndarray:
     """Whether the planned session of each of n designs finishes with its peak (the limiting one,
     as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches and the
     verdict's fixes ask. On a long session the designs that the periodic state proves to pass are not
     integrated (_proven_under); any other is followed only until its answer is decided
-    (long_session.integrate_session's `decided`). cycle_s or wait_s : as session_trace's."""
+    (long_session.integrate_session's `decided`). cycle_s or wait_s : as session_trace's; starts :
+    as session_peak_K's."""
     cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
-    ok, _, _ = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s)
+    ok, _, _ = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
     rest = np.flatnonzero(~ok)
     if rest.size:
         ok[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,

@@ -407,3 +407,24 @@ def test_a_pull_given_as_pressure_and_flow_shows_its_power_and_can_be_edited(pag
     assert not page.exception and not page.error
     step = page.session_state["draft"]["session"]["steps"][0]
     assert "pressure" not in step and "flow" not in step and step["rpm"] == pytest.approx(3600.0)
+
+
+def test_altitude_humidity_and_mounting_are_inputs_and_move_the_answers_the_right_way(page):
+    # Thinner air carries less heat away: at 2,000 m the pressure is 79.5 kPa (US Standard Atmosphere
+    # 1976, from memory), so air at the same temperature is about 21 % less dense, and the oil peaks
+    # hotter. The same altitude in feet gives the same answers in US units.
+    sea = cards(page)["hottest"]["value"]
+    number_input(page, "Altitude of the stand").set_value(2000.0).run()
+    assert not page.exception and not page.error
+    high = cards(page)["hottest"]["value"]
+    assert float(high) > float(sea)
+    si = metrics(page)
+    page.radio(key="system").set_value("US").run()
+    assert number_input(page, "Altitude of the stand").label.endswith("(ft)")
+    assert number_input(page, "Altitude of the stand").value == pytest.approx(2000.0 / 0.3048, abs=0.5)  # 1 ft = 0.3048 m exactly
+    page.radio(key="system").set_value("SI").run()
+    assert metrics(page) == si
+    number_input(page, "Relative humidity").set_value(0.6).run()
+    assert not page.exception and not page.error
+    page.selectbox(key=next(s.key for s in page.selectbox if s.label == "Pump and valve mounting")).set_value("on_tank").run()
+    assert not page.exception and not page.error

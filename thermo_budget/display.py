@@ -28,6 +28,7 @@ QUANTITIES = {
     "displacement": ("volume", {"SI": "cm^3", "US": "in^3"}, {"SI": 1, "US": 3}),
     "mass": ("mass", {"SI": "kg", "US": "lb"}, {"SI": 1, "US": 1}),
     "air_speed": ("speed", {"SI": "m/s", "US": "ft/s"}, {"SI": 1, "US": 1}),
+    "altitude": ("length", {"SI": "m", "US": "ft"}, {"SI": 0, "US": 0}),
     "conductance": ("conductance", {"SI": "W/K", "US": "BTU/hr/delta_degF"}, {"SI": 1, "US": 1}),
     "power": ("power", {"SI": "kW", "US": "hp"}, {"SI": 2, "US": 1}),
     "idle_power": ("power", {"SI": "W", "US": "hp"}, {"SI": 0, "US": 3}),

@@ -90,6 +90,13 @@ FIELDS = {f.path: f for f in [
           "About 0.9-0.95 for rubber hose and painted or rusty iron.", maximum=1.0),
     Field("losses.air_speed", "Air speed across the rig", "0 for still air; a shop fan gives 1-3 m/s.",
           "air_speed", "m/s"),
+    Field("altitude", "Altitude of the stand (optional)",
+          "Height above sea level. Thinner air carries less heat away: at 1,600 m the air is about 17 % "
+          "lighter. Empty: sea level. (A scenario file may give ambient_pressure instead.)",
+          "altitude", "m", minimum=None),
+    Field("relative_humidity", "Relative humidity of the air",
+          "0 to 1 (0.4 is 40 %). 0: dry air. Moist air's properties come from CoolProp.",
+          minimum=0.0, maximum=1.0),
     Field("cooler.specific_dissipation", "Cooler size",
           "Heat the cooler removes per degree between the oil going in and the air.", "conductance", "W/K"),
     Field("session.start_temperature", "Oil temperature at the start", "Usually room temperature for a cold rig.",
@@ -130,11 +137,12 @@ STEPS = {"oil_volume": {"SI": 1.0, "US": 0.25}, "dimension": {"SI": 0.01, "US": 
          "hose_diameter": {"SI": 1.0, "US": 0.05}, "temperature": {"SI": 1.0, "US": 2.0},
          "density": {"SI": 5.0, "US": 0.5}, "viscosity": {"SI": 0.5, "US": 0.5},
          "displacement": {"SI": 1.0, "US": 0.05}, "mass": {"SI": 0.5, "US": 1.0},
-         "air_speed": {"SI": 0.5, "US": 1.0}, "conductance": {"SI": 1.0, "US": 2.0},
+         "air_speed": {"SI": 0.5, "US": 1.0}, "altitude": {"SI": 100.0, "US": 500.0}, "conductance": {"SI": 1.0, "US": 2.0},
          "power": {"SI": 0.5, "US": 1.0}, "idle_power": {"SI": 10.0, "US": 0.01},
          "torque": {"SI": 1.0, "US": 1.0}, "pull_time": {"SI": 1.0, "US": 1.0}, "wait_time": {"SI": 0.5, "US": 0.5}}
 PLAIN_STEPS = {"reservoir.emissivity": 0.05, "hardware.emissivity": 0.05, "pump.volumetric_efficiency": 0.01,
-               "fluid.viscosity_index": 1.0, "session.repeat": 1, "uncertainty.confidence": 0.05}
+               "fluid.viscosity_index": 1.0, "session.repeat": 1, "uncertainty.confidence": 0.05,
+               "relative_humidity": 0.05}
 
 
 def step_of(field: Field, system: str):

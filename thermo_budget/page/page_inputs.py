@@ -34,6 +34,7 @@ BOTTOMS = {"open": "On a stand, open underneath", "floor": "Standing on the floo
 MATERIAL_NAMES = {"steel": "Steel", "stainless": "Stainless steel", "aluminium": "Aluminium",
                   "cast_iron": "Cast iron", "polyethylene": "Polyethylene (plastic)"}
 FANS = {"with_flow": "Runs only while the oil flows", "always": "Runs all the time"}
+MOUNTINGS = {"apart": "Apart from the tank (joined by hoses)", "on_tank": "Bolted to the tank"}
 ENGINE_IN_WAIT = {"off": "Engine off (no oil flow)", "idle": "Engine idling (oil flowing)"}
 GRADES = ISO_VG_GRADES
 OTHER_GRADE = "other"

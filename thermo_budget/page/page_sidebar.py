@@ -131,6 +131,10 @@ def hardware():
     number(hw, "hardware.mass")
     choice(hw, "Hardware material", pi.MATERIAL_NAMES, pi.get_path(state.draft(), "hardware.material"),
            "Most of the pump and valve metal.", "hw_material", lambda r, v: pi.with_path(r, "hardware.material", v))
+    choice(hw, "Pump and valve mounting", pi.MOUNTINGS, pi.get_path(state.draft(), "hardware.mounting", "apart"),
+           "Bolted to the tank, the pump's metal passes heat to the tank through the flange when the engine is "
+           "off; apart, only through the standing oil in the hoses.", "mounting",
+           lambda r, v: pi.with_path(r, "hardware.mounting", v))
     number(hw, "hardware.hose_length")
     number(hw, "hardware.hose_outer_diameter")
     number(hw, "hardware.emissivity")
@@ -213,6 +217,8 @@ def session(current: Scenario):
     number(ses, "session.start_temperature")
     number(ses, "ambient")
     number(ses, "losses.air_speed")
+    optional_number(ses, "altitude")
+    number(ses, "relative_humidity")
     from ..inputs.uncertainty import DEFAULT_CONFIDENCE
     number(ses, "uncertainty.confidence", default=DEFAULT_CONFIDENCE)
 

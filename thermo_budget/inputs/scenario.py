@@ -17,7 +17,7 @@ from ..errors import ScenarioError
 from ..physics.materials import MATERIALS
 from ..physics.oil import DEFAULT_EXPANSION_PER_K, Oil, iso_vg_nu40_cSt, nu100_from_viscosity_index_cSt
 from .hardware_defaults import body_cube_side_m, default_body_area_m2, default_internal_area_m2
-from .scenario_steps import MIN_PULL_POWER_W, parse_step  # noqa: F401 (MIN_PULL_POWER_W re-exported)
+from .scenario_steps import MIN_PULL_POWER_W, operating_point_warnings, parse_step  # noqa: F401 (MIN_PULL_POWER_W re-exported)
 from ..engine.session import PLAN_RESOLUTION, Step
 from ..physics.still_paths import flange_link_W_K
 from .scenario_table import (_MISSING, KEYS, MAX_FILE_BYTES, MAX_TEXT_CHARS, _Table,  # noqa: F401
@@ -281,7 +281,9 @@ def _parse(raw: dict) -> Scenario:
                         return_line_max_temperature_K=return_line_max,
                         flash_point_K=DEFAULT_FLASH_POINT_C + ZERO_CELSIUS_K if flash_point is None else flash_point,
                         flash_point_given=flash_point is not None,
-                        uncertainty=uncertainty, warnings=temperature_unit_warnings(raw, units),
+                        uncertainty=uncertainty,
+                        warnings=temperature_unit_warnings(raw, units)
+                        + operating_point_warnings(raw_steps, displacement, eta_v, units),
                         ambient_pressure_Pa=pressure, relative_humidity=humidity)
     _check_consistency(scenario)
     return scenario

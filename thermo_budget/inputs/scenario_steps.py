@@ -14,6 +14,12 @@ from ..engine.session import EngineCurve, Step, pump_flow_m3_s, shaft_power_W
 MIN_PULL_POWER_W = 1.0
 
 
+# A pull given with pressure, flow and rpm: the flow read on the rig and the pump's own flow at that
+# rpm (displacement x rpm x volumetric efficiency) may differ by this share before a warning names
+# them (a flow meter and a pump's data agree to within about 10 %; common practice, no source).
+FLOW_DISAGREEMENT = 0.15
+
+
 OPERATING_POINT_HELP = ('pressure and flow as two keys, e.g. pressure = "150 bar" and flow = "20 L/min" (or pressure with '
                         'the pull\'s rpm, the flow then being the pump\'s displacement x rpm x its volumetric '
                         'efficiency), in place of power')
@@ -113,3 +119,26 @@ def _quantity_list(t: _Table, name: str, kind: str, unit: str, length: int) -> l
     if not isinstance(values, list) or len(values) != length:
         raise ScenarioError(t.key(name), values, f"a list of {length} values, one per curve_rpm entry")
     return [t.convert(f"{t.key(name)}[{i}]", v, kind, unit, minimum=0.0) for i, v in enumerate(values)]
+
+
+def operating_point_warnings(raw_steps: list, displacement_m3: float, volumetric_efficiency: float,
+                             system: str) -> tuple[str, ...]:
+    """Warnings for pulls given with pressure, flow and rpm whose flow and the pump's flow at that rpm
+    differ by more than FLOW_DISAGREEMENT: accepted (the power is pressure x the flow given; the oil's
+    circulation is the pump's flow at the rpm), but named, since one of displacement, volumetric
+    efficiency, rpm or flow is likely mistyped. raw_steps : the session's steps as read (checked)."""
+    messages = []
+    for i, raw in enumerate(raw_steps):
+        if not (isinstance(raw, dict) and all(key in raw for key in ("pressure", "flow", "rpm"))):
+            continue
+        t = _Table(raw, f"session.steps[{i}]", system=system)
+        given = t.quantity("flow", "flow", "L/min", above=0.0)
+        rpm = t.number("rpm", minimum=100.0, maximum=30000.0)
+        pumped = float(pump_flow_m3_s(displacement_m3, rpm, volumetric_efficiency))
+        if abs(given - pumped) > FLOW_DISAGREEMENT * pumped:
+            unit, per_m3_s = ("gal/min", 60.0 / 3.785411784e-3) if system == "US" else ("L/min", 60000.0)
+            messages.append(f"session.steps[{i}]: flow {given * per_m3_s:.3g} {unit} and rpm {rpm:g} disagree: this "
+                            f"pump gives {pumped * per_m3_s:.3g} {unit} at {rpm:g} rpm (pump.displacement x rpm x "
+                            f"pump.volumetric_efficiency). The pull's power is the pressure times the flow given; "
+                            f"the oil's circulation is the pump's flow. Check which one is mistyped")
+    return tuple(messages)

@@ -123,6 +123,9 @@ def test_order_holds_and_the_plan_is_never_bolder_than_p50(name, path, busy_repo
     for key in ("pulls_under_limit", "runs_before_limit"):
         if plan[key] is not None:
             assert plan[key] <= r["bands"][key]["p50"], key
+    time_p50 = r["bands"]["time_to_limit_s"]["p50"] if r["bands"]["time_to_limit_s"] else None
+    if time_p50 is not None:       # sooner is bolder: the time planned for comes no later than the median
+        assert plan["time_to_limit_s"] is not None and plan["time_to_limit_s"] <= time_p50
     for key in SIZING_KEYS:
         if plan[key] is not None and r["bands"][key]["p50"] is not None:
             assert plan[key] >= r["bands"][key]["p50"], key
@@ -207,3 +210,19 @@ def test_envelope_brackets_the_oil_temperature(default, default_report):
     assert t[-1] == pytest.approx(trace.time_s[-1, 0])
     assert np.all(p10 - 0.01 <= point_C) and np.all(point_C <= p90 + 0.01)
     assert default_report["peak_C"] < p90.max() <= default_report["bands"]["peak_C"]["p90"] + 0.01
+
+
+def test_the_time_to_the_limit_planned_for_is_reached_no_sooner_in_the_chosen_fraction(busy_scenario, busy_report):
+    """Re-run: the band's 128 sampled rigs simulated again; at least 90 % of them reach the limit no
+    sooner than the time planned for, and fewer than 90 % no sooner than a second later."""
+    from thermo_budget.engine.outcome import first_crossing_s
+    from thermo_budget.inputs.uncertainty import factor_values, sample_rig, standard_normals
+    from thermo_budget.planning.bands import N_SAMPLES
+    from thermo_budget.planning.session_runs import limits_K, session_trace
+    planned = busy_report["plan_at_confidence"]["time_to_limit_s"]
+    assert planned is not None
+    model = busy_scenario.uncertainty
+    rig = sample_rig(build_rig(busy_scenario), factor_values(model, standard_normals(model, N_SAMPLES)))
+    crossing = first_crossing_s(session_trace(busy_scenario, rig, N_SAMPLES), *limits_K(busy_scenario))
+    times = np.where(np.isnan(crossing), np.inf, crossing)
+    assert np.mean(times >= planned - 0.05) >= 0.9 and np.mean(times >= planned + 1.0) < 0.9

@@ -135,10 +135,13 @@ def hottest_card(answers: Report, system: str, verdict=None) -> Card:
 
 
 def time_card(answers: Report, system: str) -> Card:
-    ttl = answers.time_to_limit_s
+    """The time to the limit in the planned session: the time that the chosen fraction of the samples
+    reach no sooner (the median in small print), or the point answer where the band is off."""
+    ttl, median = at_confidence(answers, "time_to_limit_s")
     value = "Not reached" if ttl is None else shown_duration(ttl)
     details = ("In the planned session.",) if ttl is None else ("From the start of the first pull.",)
-    return Card("time", "Time to the limit", value, "", details,
+    small = _small(answers, "not reached" if median is None else shown_duration(median))
+    return Card("time", "Time to the limit", value, "", details, small=small,
                 help="In the planned session, from the start of the first pull.")
 
 

@@ -321,22 +321,24 @@ def _band(key: str, values, point_value) -> dict | None:
 
 
 def _plan_of_point(point: dict) -> dict:
-    return {key: point.get(key) for key in ("pulls_under_limit", "runs_before_limit") + SIZING_KEYS}
+    return {key: point.get(key) for key in ("pulls_under_limit", "runs_before_limit", "time_to_limit_s") + SIZING_KEYS}
 
 
 def plan_at_confidence(samples: dict, point: dict, confidence: float) -> dict:
     """What to plan for at the confidence: the most pulls that stay under the limit in that fraction of
-    the samples, and the smallest wait, cooler and oil volume that keep the planned session under it
-    in that fraction (None where the point answer is None, or where nothing suffices)."""
+    the samples, the time to the limit that that fraction reach no sooner (None: that fraction never
+    reach it in the planned session), and the smallest wait, cooler and oil volume that keep the
+    planned session under it in that fraction (None where the point answer is None, or where nothing
+    suffices)."""
     plan = {}
-    for key in COUNT_KEYS:
+    for key in COUNT_KEYS + ("time_to_limit_s",):
         values = samples.get(key)
         if values is None:
             plan[key] = None
             continue
         ordered = np.sort(values)
-        k = ordered[int(np.floor((1.0 - confidence) * ordered.size))]
-        plan[key] = int(k) if np.isfinite(k) else None
+        k = ordered[int(np.floor((1.0 - confidence) * ordered.size))]     # fewer or sooner is worse
+        plan[key] = None if not np.isfinite(k) else int(k) if key in COUNT_KEYS else round(float(k), 1)
     for key in SIZING_KEYS:
         values = samples.get(key)
         if point.get(key) is None or values is None:

@@ -30,17 +30,12 @@ PERIODIC_TOLERANCE_K = 1e-3     # what later cycles may still add to any node, a
 
 
 def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None, resolution: Resolution = Resolution(),
-                      tolerance_K: float = PERIODIC_TOLERANCE_K, decided=None) -> Trace:
+                      tolerance_K: float = PERIODIC_TOLERANCE_K) -> Trace:
     """The planned session (scenario.cycle repeated scenario.repeat times) for n designs, as
     solver.integrate would give it, with the cycles after the state has become periodic copied
     (see the module's docstring). durations_s : optional per-step durations of the whole session,
-    the same in every cycle (only the first cycle's are read).
-
-    decided : optional function of a chunk's trace giving (N,) bool: designs whose answer the caller
-    already knows (e.g. a search's candidate past the limit), which need not settle. Their later
-    temperatures are then their last cycle repeated, not a prediction: only for a caller that reads
-    nothing of them but that they were decided (the first crossing, the pulls before it, a peak above
-    a threshold)."""
+    the same in every cycle (only the first cycle's are read). A caller that needs only a peak, or
+    a decision, follows each design only while it is open instead (session_limiting_peak_K)."""
     cycle, repeat = list(scenario.cycle), int(scenario.repeat)
     per_cycle = None if durations_s is None else list(durations_s[:len(cycle)])
     if repeat <= LONG_SESSION_CYCLES:
@@ -49,7 +44,6 @@ def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None,
     pieces, done = [], 0
     X = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = 0.0
-    known = np.zeros(n_designs, bool)
     systems: dict = {}
     while done < repeat:
         cycles = min(CHUNK_CYCLES, repeat - done)
@@ -59,9 +53,7 @@ def integrate_session(rig, scenario, T0_K, n_designs: int = 1, durations_s=None,
         pieces.append((piece, done * len(cycle)))
         done += cycles
         X, t = piece.final_K, piece.time_s[-1]
-        if decided is not None:
-            known |= np.asarray(decided(piece), bool)
-        if done < repeat and cycles >= 3 and _settled(piece, len(cycle), tolerance_K, known):
+        if done < repeat and cycles >= 3 and _settled(piece, len(cycle), tolerance_K):
             pulls_per_cycle = sum(step.is_pull for step in cycle)
             pieces.append((_repeat_last_cycle(piece, len(cycle), pulls_per_cycle, repeat - done), done * len(cycle)))
             break
@@ -86,9 +78,9 @@ def _settled_designs(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> 
     return np.all(np.isfinite(starts[-1]), axis=1) & (bound + last < tolerance_K)
 
 
-def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float, known) -> bool:
-    """Whether every design not `known` (bool (N,)) is settled (_settled_designs)."""
-    return bool(np.all(known | _settled_designs(trace, steps_per_cycle, tolerance_K)))
+def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> bool:
+    """Whether every design is settled (_settled_designs)."""
+    return bool(np.all(_settled_designs(trace, steps_per_cycle, tolerance_K)))
 
 
 def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple, cycle_s=None,

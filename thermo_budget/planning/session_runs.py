@@ -89,7 +89,7 @@ def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycl
     as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches and the
     verdict's fixes ask. On a long session the designs that the periodic state proves to pass are not
     integrated (_proven_under); any other is followed only until its answer is decided
-    (long_session.integrate_session's `decided`). cycle_s or wait_s : as session_trace's; starts :
+    (long_session.session_limiting_peak_K's decided_above_K). cycle_s or wait_s : as session_trace's; starts :
     as session_peak_K's."""
     cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
     limits = limits_K(scenario)

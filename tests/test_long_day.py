@@ -108,3 +108,77 @@ def test_a_schedule_settled_with_alternating_waits_is_the_pull_by_pull_search_s(
         assert abs(a["extra_wait_s"] - b["extra_wait_s"]) <= 0.05            # the lattice's fine step is 1/32 s here
         assert abs(a["start_s"] - b["start_s"]) <= 1.0
         assert abs(a["peak_C"] - b["peak_C"]) <= 0.01 and abs(a["start_C"] - b["start_C"]) <= 0.01
+
+
+# A rig of a review's random search (an invented cold-shop rig, ambient -7.5 degC): 19.6 kW pulls of
+# 31.8 s on 12.6 L, an idle wait and an engine-off wait. Its limit sits between the peak of the
+# periodic cycle run from a fresh start of each step and the whole day's peak, 0.07 K apart.
+REVIEW_RIG = """
+name = "cold shop, review rig"
+units = "SI"
+ambient = "-7.5 degC"
+[reservoir]
+oil_volume = "12.6 L"
+shape = "box"
+length = "0.355 m"
+width = "0.231 m"
+height = "0.222 m"
+wall_material = "steel"
+wall_thickness = "2 mm"
+emissivity = 0.9
+bottom = "open"
+[fluid]
+iso_vg = 46
+viscosity_index = 100
+density_15C = "872 kg/m^3"
+max_temperature = "66.365 degC"
+min_viscosity = "2 cSt"
+[pump]
+displacement = "33.7 cm^3"
+volumetric_efficiency = 0.90
+[hardware]
+mass = "9 kg"
+material = "steel"
+hose_length = "5.87 m"
+hose_outer_diameter = "39 mm"
+emissivity = 0.95
+[losses]
+convection_multiplier = 1.0
+air_speed = "4.5 m/s"
+[session]
+start_temperature = "-7.5 degC"
+repeat = 140
+[[session.steps]]
+kind = "pull"
+duration = "31.8 s"
+power = "19.6 kW"
+rpm = 2309
+[[session.steps]]
+kind = "wait"
+duration = "320 s"
+engine = "idle"
+power = "450 W"
+rpm = 1667
+[[session.steps]]
+kind = "wait"
+duration = "210 s"
+engine = "off"
+"""
+
+
+@pytest.mark.parametrize("repeat", [61, 140])
+def test_the_periodic_cycle_is_the_session_s_own_so_its_decision_is_the_whole_day_s(repeat):
+    """The session starts each step's first sub-step from the corrector system the step left a cycle
+    before; the periodic state is found with the cycle run the same way (session_runs.periodic_state),
+    so its peak is the whole day's last cycle's. Run from a fresh start of each step instead, it was
+    0.07 K lower here, and the day was taken as finishing when it does not."""
+    import tomllib
+    scenario = load_scenario(tomllib.loads(REVIEW_RIG)).changed(**{"session.repeat": repeat})
+    rig = build_rig(scenario)
+    whole = limiting_peak_K(integrate(rig, scenario.steps, scenario.start_K, resolution=PLAN_RESOLUTION),
+                            *limits_K(scenario))[0]
+    _, periodic_peak, converged = periodic_state(scenario, rig, 1)
+    assert converged[0] and abs(periodic_peak[0] - whole) < 1e-3
+    threshold = limits_K(scenario)[0] - SEARCH_MARGIN_K
+    assert not whole <= threshold and not finishes_under_limit(scenario, rig, 1)[0]
+    assert session_peak_K(scenario, rig, 1, threshold_K=threshold)[0] == pytest.approx(whole, abs=1e-3)

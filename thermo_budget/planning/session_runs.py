@@ -10,7 +10,7 @@ from ..physics.rig import take_designs
 from ..engine.outcome import limiting_peak_K, pulls_completed_under
 from ..inputs.scenario import Scenario, limit_K
 from ..engine.session import PLAN_RESOLUTION, Step
-from ..engine.solver import integrate
+from ..engine.solver import integrate, take_systems
 
 NEWTON_TOL_K = 1e-6
 NEWTON_ITERATIONS = 12
@@ -25,6 +25,9 @@ SEARCH_MARGIN_K = 0.05
 # A long session's peak is taken as its periodic cycle's where the session ends periodic to this
 # (_proven_under): under the 0.025 K to which the package's resolutions agree with a tight reference.
 SETTLED_K = 0.02
+# periodic_state's cycle starts from systems left by a run that started this close to its state
+# (node by node, K) before a design counts as converged: the session's own periodic cycle.
+SYSTEMS_NEAR_K = 1e-3
 
 
 def limits_K(scenario: Scenario) -> tuple[float, float | None]:
@@ -148,10 +151,22 @@ def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=Non
     return limiting_peak_K(trace, *limits), pulls_completed_under(trace, *limits)
 
 
-def _cycle_end(scenario, rig, X, cycle_s=None):
+def _cycle_end(scenario, rig, X, cycle_s=None, systems: dict | None = None):
+    """(the state after one cycle from X, the cycle's limiting peak, the corrector systems it left).
+    systems : the ones it starts from (solver.integrate's; copied, not changed)."""
+    left = {key: tuple(part.copy() for part in system) for key, system in (systems or {}).items()}
     trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=cycle_s,
-                      resolution=PLAN_RESOLUTION)
-    return trace.final_K, limiting_peak_K(trace, *limits_K(scenario))
+                      resolution=PLAN_RESOLUTION, systems=left)
+    return trace.final_K, limiting_peak_K(trace, *limits_K(scenario)), left
+
+
+def _put_systems(store: dict, index, systems: dict, n: int) -> None:
+    """Write the systems of the designs in `index` into store (per key, arrays of all n designs)."""
+    for key, system in systems.items():
+        if key not in store:
+            store[key] = tuple(np.zeros((n,) + part.shape[1:], part.dtype) for part in system)
+        for whole, part in zip(store[key], system):
+            whole[index] = part
 
 
 def _has_loss_path(rig: Rig) -> np.ndarray:
@@ -171,6 +186,12 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     The map is nearly affine, so the first Jacobian is nearly exact and a few updates finish it; on
     a small batch the cost is per call, not per design, so full Newton steps are cheaper there.
 
+    The cycle is run as the planned session runs it once periodic: each run starts from the
+    corrector systems the design's run before left (solver.integrate's `systems`; the session's
+    cycle starts from those its previous cycle left), so the fixed point is the session's own. A
+    design has converged when its residual is under NEWTON_TOL_K and the run that gave it started
+    from systems left by a run within SYSTEMS_NEAR_K of its state.
+
     Returns (state at cycle start (N,k) K, peak oil over the periodic cycle (N,) K, converged (N,)).
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
     (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set). cycle_s or wait_s :
@@ -188,6 +209,8 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     peak = np.full(n, np.nan)
     B = np.empty((n, k, k))             # d residual / d X
     converged = np.zeros(n, bool)
+    store: dict = {}                    # per design, the systems its last run of the cycle left
+    store_X = np.full((n, k), np.nan)   # and the state that run started from
     for iteration in range(NEWTON_ITERATIONS):
         active = np.flatnonzero(~converged)
         if iteration > 0:
@@ -199,17 +222,22 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
         else:
             X_new = X[active]
         cycle_active = _designs_of(cycle_s, active)
+        carried = take_systems(store, active)
+        near = np.max(np.abs(X_new - store_X[active]), axis=1) <= SYSTEMS_NEAR_K     # False where none yet
         if iteration == 0 or not broyden:
-            r_new, peak_new, B[active] = _residual_and_jacobian(scenario, rig, active, X_new, cycle_active)
+            r_new, peak_new, B[active], left = _residual_and_jacobian(scenario, rig, active, X_new, cycle_active,
+                                                                      carried)
         else:
-            F_new, peak_new = _cycle_end(scenario, take_designs(rig, active), X_new, cycle_active)
+            F_new, peak_new, left = _cycle_end(scenario, take_designs(rig, active), X_new, cycle_active, carried)
             r_new = F_new - X_new
             dx, dr = X_new - X[active], r_new - residual[active]
             Bdx = (B[active] @ dx[..., None])[..., 0]
             B[active] += (dr - Bdx)[:, :, None] * dx[:, None, :] / np.maximum(
                 np.sum(dx * dx, axis=1), 1e-300)[:, None, None]
         X[active], residual[active], peak[active] = X_new, r_new, peak_new
-        converged[active] = np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K
+        _put_systems(store, active, left, n)
+        store_X[active] = X_new
+        converged[active] = (np.max(np.abs(r_new), axis=1) < NEWTON_TOL_K) & near
         if converged.all():
             break
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
@@ -218,19 +246,22 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     return X, peak, ok
 
 
-def _residual_and_jacobian(scenario, rig, index, X, cycle_s, delta_K=0.01):
-    """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), and the residual's
-    Jacobian by forward differences (m,k,k), for the designs in index, in one batch."""
+def _residual_and_jacobian(scenario, rig, index, X, cycle_s, systems: dict | None = None, delta_K=0.01):
+    """The one-cycle residual F(X) - X (m,k), the peak of the cycle from X (m,), the residual's
+    Jacobian by forward differences (m,k,k), and the systems the runs from X left, for the designs in
+    index, in one batch. systems : those the runs start from (the same for a design's perturbed
+    copies), per design of index."""
     k = X.shape[1]
     copies = k + 1
     Xc = np.repeat(X, copies, axis=0)
     for i in range(k):
         Xc[i + 1::copies, i] += delta_K
-    Fc, peak_c = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
-                            _designs_of(cycle_s, np.repeat(np.arange(index.size), copies)))
+    repeated = np.repeat(np.arange(index.size), copies)
+    Fc, peak_c, left = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
+                                  _designs_of(cycle_s, repeated), take_systems(systems or {}, repeated))
     F = Fc[0::copies]
     J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
-    return F - X, peak_c[0::copies], J
+    return F - X, peak_c[0::copies], J, take_systems(left, np.arange(index.size) * copies)
 
 
 def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: float = 0.0, X0=None,

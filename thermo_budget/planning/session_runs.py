@@ -66,6 +66,10 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
 
     The network is cooperative, so a start no warmer than the periodic state approaches it from below
     and never peaks above it (see sustainability): the periodic peak bounds the session's from above.
+    (Nearly: where a coupling's coefficient depends on another node's temperature (the loop's on the
+    bulk oil's viscosity, the lid's outside coefficient on the wall's), an off-diagonal term of the
+    Jacobian can turn slightly negative. An independent review's 600 random rigs showed no session
+    peaking above its periodic cycle by more than 2e-6 K.)
     How far below it the session's own peak stays is what the session leaves unsettled: the start's
     departure from the periodic state carried through the cycles by the one-cycle map's Jacobian there
     (linear near the periodic state; on the default rig it tracks the gap to within 10 %, taken with

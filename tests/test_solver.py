@@ -584,3 +584,19 @@ def test_a_session_integrated_in_pieces_with_its_systems_is_the_session_integrat
     afresh = integrate(take_designs(rig, kept), cycle * 20, first.final_K[kept], n_designs=2,
                        resolution=PLAN_RESOLUTION, start_time_s=first.time_s[-1, kept])
     assert np.max(np.abs(afresh.T_K - whole.T_K[first.T_K.shape[0] - 1:, kept])) > 1e-6
+
+
+def test_a_design_held_past_the_give_up_temperature_leaves_the_others_of_its_batch_as_they_are_alone(base_scenario):
+    # A design whose oil passes GIVE_UP_ABOVE_K is held; the predictor of every other design still
+    # borrows its own last system, so each design's sub-steps are its own whatever the batch holds
+    # (a chunk that drops a design gives the same answers as one that keeps it)
+    from thermo_budget.engine.solver import GIVE_UP_ABOVE_K
+    volumes = np.array([0.05, 1.0, 1.5]) * base_scenario.reservoir.oil_volume_m3
+    steps = list(base_scenario.cycle) * 12
+    rig = build_rig(base_scenario, oil_volume_m3=volumes)
+    rig = rig.with_changes(power_multiplier=np.array([40.0, 1.0, 1.0]))     # the first passes 300 degC
+    batch = integrate(rig, steps, base_scenario.start_K, n_designs=3, resolution=PLAN_RESOLUTION)
+    assert batch.T_K[:, 0, OIL].max() > GIVE_UP_ABOVE_K
+    alone = integrate(take_designs(rig, np.array([1, 2])), steps, base_scenario.start_K, n_designs=2,
+                      resolution=PLAN_RESOLUTION)
+    np.testing.assert_allclose(batch.T_K[:, 1:], alone.T_K, rtol=0, atol=1e-12)

@@ -191,8 +191,9 @@ def advance_step(params, T, held, T_first, flows, powers, h, air, constant, reus
 
     T (N,k) is advanced in place; held (N,) designs (not finite, or their oil past give_up_above_K)
     keep their state and gain no heat; their evaluation is at T_first (its result discarded). The
-    predictor of a sub-step is the last corrector's system (sys_*) where the inputs are constant,
-    from the first sub-step on where reuse_first, and while no design is held. energy_in and
+    predictor of a sub-step is the design's last corrector system (sys_*) where the inputs are
+    constant, from the first sub-step on where reuse_first, and while the design is not held: each
+    design's sub-step is its own, whatever the batch holds. energy_in and
     energy_lost (N,) accumulate, J. Returns (the states after each sub-step (m,N,k), the return-line
     rise at them (m,N) K)."""
     m = flows.shape[0]
@@ -201,15 +202,14 @@ def advance_step(params, T, held, T_first, flows, powers, h, air, constant, reus
     scratch, mats, T1 = np.empty((11, k)), np.empty((3, k, k)), np.empty(k)
     was_held = np.empty(n, np.bool_)
     for j in range(m):
-        any_held = False
         for d in range(n):
             was_held[d] = held[d]
-            any_held = any_held or held[d]
-        reuse = constant and (j > 0 or reuse_first) and not any_held
+        reuse = constant and (j > 0 or reuse_first)
         for d in range(n):
             p = params[d if params.shape[0] > 1 else 0]
             T0 = T_first[d] if was_held[d] else T[d]
-            failed, q_in, q_lost, rise = substep_one(p, T0, flows[j, d], powers[j, d], h[d], air, reuse, sys_failed[d],
+            failed, q_in, q_lost, rise = substep_one(p, T0, flows[j, d], powers[j, d], h[d], air,
+                                                     reuse and not was_held[d], sys_failed[d],
                                                      sys_b[d], sys_root[d], sys_inv[d], sys_lam[d], sys_V[d], T1,
                                                      scratch, mats)
             sys_failed[d] = failed

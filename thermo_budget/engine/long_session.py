@@ -84,8 +84,8 @@ def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> bool:
 
 
 def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple, cycle_s=None,
-                   resolution: Resolution = Resolution(), decided_above_K: float | None = None,
-                   tolerance_K: float = PERIODIC_TOLERANCE_K) -> np.ndarray:
+                            resolution: Resolution = Resolution(), decided_above_K: float | None = None,
+                            tolerance_K: float = PERIODIC_TOLERANCE_K) -> np.ndarray:
     """The limiting peak (outcome.limiting_peak_K against limits_K, (bulk, return line or None)) of
     the planned session of n designs, K (N,), where only the peak is wanted, not the trace.
 

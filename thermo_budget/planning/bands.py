@@ -285,7 +285,7 @@ def _session_peaks(scenario, values, keys, sample, x, starts=None) -> np.ndarray
     """The peak (K) the searches hold to the limit (planning.session_outcome's: the bulk oil's, or
     outcome.limiting_peak_K with a return-line limit) of the planned session, for designs that each
     change one sizing input; on a long session, the periodic peak where it is under the searches'
-    target (session_runs.session_peak_K)."""
+    target and the session ends periodic (session_runs.session_peak_K)."""
     keys = np.asarray(keys)
     volume = np.where(keys == "min_oil_volume_L", x / 1000.0, scenario.reservoir.oil_volume_m3)
     cooler = np.where(keys == "cooler_required_W_per_K", x, 0.0)

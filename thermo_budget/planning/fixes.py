@@ -13,7 +13,7 @@ from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
 from .planning import time_constant_s
 from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, finishes_under_limit, limits_K, session_peak_K
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
-                          run_day, share_fits)
+                          share_fits)
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
 
@@ -53,12 +53,13 @@ class Fix:
 
 
 def find_fixes(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
-               n_sizing: int = N_SIZING_SAMPLES, band_shared: dict | None = None, session=None) -> tuple:
+               session, n_sizing: int = N_SIZING_SAMPLES, band_shared: dict | None = None) -> tuple:
     """Every single change that finishes the day at the confidence, re-run before it is listed,
-    smallest change first (fix_change)."""
+    smallest change first (fix_change). session : the samples' planned day (a Trace), which `base`
+    was read from."""
     searched = _searched_values(scenario, point, first_samples(samples, n_sizing), base, confidence, band_shared)
     fixes = _verified(scenario, samples, searched, confidence)
-    fewer = _fewer_pulls(scenario, samples, base, confidence, session)
+    fewer = _fewer_pulls(scenario, base, confidence, session)
     if fewer is not None:
         fixes.append(fewer)
     fixes.sort(key=lambda fix: fix_change(scenario, fix))
@@ -251,18 +252,16 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
     return fixes
 
 
-def _fewer_pulls(scenario, samples: Samples, base: DayOutcome, confidence: float, session=None) -> Fix | None:
+def _fewer_pulls(scenario, base: DayOutcome, confidence: float, session) -> Fix | None:
     """The most pulls (the planned day cut after a pull, with the waits that follow it) that finish at
-    the confidence, re-run (or read off `session`, the samples' planned day, whose beginning the cut
-    day is); None where not even one pull does."""
+    the confidence, read off `session`, the samples' planned day, whose beginning the cut day is;
+    None where not even one pull does."""
     count = count_at_confidence(base.pulls, confidence)
     steps = list(scenario.steps)
     pull_at = [i for i, step in enumerate(steps) if step.is_pull]
     while count >= 1:
         end = pull_at[count] if count < len(pull_at) else len(steps)
-        outcome = (run_day(scenario, samples, np.arange(samples.n), Change.none(samples.n), steps=steps[:end])
-                   if session is None else day_outcome(session, limits_K(scenario), until_step=end))
-        if share_fits(_with_margin(scenario, outcome), confidence):
+        if share_fits(_with_margin(scenario, day_outcome(session, limits_K(scenario), until_step=end)), confidence):
             return Fix("fewer_pulls", count, confidence)
         count -= 1
     return None

@@ -41,6 +41,11 @@ def cycle_durations(cycle: list[Step], wait_s=None) -> list | None:
     return None if wait_s is None else [wait_s if not step.is_pull else step.duration_s for step in cycle]
 
 
+def _cycle_s(scenario: Scenario, wait_s, cycle_s) -> list | None:
+    """cycle_s where given, else the cycle with every wait replaced by wait_s (None: as planned)."""
+    return cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+
+
 def _designs_of(cycle_s: list | None, index) -> list | None:
     """Per-step durations of one cycle (each float or (N,)) for the designs in `index` only."""
     return None if cycle_s is None else [d if np.ndim(d) == 0 else np.asarray(d, dtype=float)[index] for d in cycle_s]
@@ -53,7 +58,7 @@ def _whole_session(scenario: Scenario, cycle_s: list | None) -> list | None:
 def session_trace(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None):
     """The planned session for n designs at the planning resolution (a Trace). cycle_s : optional
     per-step durations of one cycle (each float or (N,) s), the same in every cycle; or wait_s."""
-    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     return integrate_session(rig, scenario, scenario.start_K, n_designs=n, durations_s=_whole_session(scenario, cycle_s),
                              resolution=PLAN_RESOLUTION)
 
@@ -98,7 +103,7 @@ def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycl
     integrated (_proven_under); any other is followed only until its answer is decided
     (long_session.session_limiting_peak_K's decided_above_K). cycle_s or wait_s : as session_trace's; starts :
     as session_peak_K's."""
-    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
     ok, _, _ = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
@@ -157,8 +162,9 @@ def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=Non
 
 def _cycle_end(scenario, rig, X, cycle_s=None, systems: dict | None = None):
     """(the state after one cycle from X, the cycle's limiting peak, the corrector systems it left).
-    systems : the ones it starts from (solver.integrate's; copied, not changed)."""
-    left = {key: tuple(part.copy() for part in system) for key, system in (systems or {}).items()}
+    systems : the ones it starts from (solver.integrate's; a copy of the caller's, take_systems,
+    which this run overwrites with the ones it leaves)."""
+    left = {} if systems is None else systems
     trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=cycle_s,
                       resolution=PLAN_RESOLUTION, systems=left)
     return trace.final_K, limiting_peak_K(trace, *limits_K(scenario)), left
@@ -202,7 +208,7 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     as session_trace's. cycle_map_out : optional dict that receives "jacobian", the one-cycle map's
     Jacobian at the returned state (N,k,k) (the last finite-difference one, Broyden-updated).
     """
-    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     cycle_s = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n,)) for d in cycle_s]
     k = N_NODES
     copies = k + 1                      # the state itself and one perturbation per node
@@ -280,7 +286,7 @@ def sustainability(scenario: Scenario, rig: Rig, n: int, wait_s=None, margin_K: 
     designs that start warmer than their periodic state need the planned session checked as well.
     """
     limit, _ = limit_K(scenario)
-    cycle_s = cycle_durations(list(scenario.cycle), wait_s) if cycle_s is None else cycle_s
+    cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     X, peak, ok = periodic_state(scenario, rig, n, X0=X0, cycle_s=cycle_s)
     if states is not None:
         states.append((X, ok))

@@ -64,7 +64,7 @@ def verdict(scenario, point: dict, n_samples: int = N_SAMPLES, n_sizing: int = N
     planned = int(point["pulls_planned"])
     governing, limit, peak = _governing(scenario, base, confidence)
     first_over = None if fits else min(count_at_confidence(base.pulls, confidence) + 1, planned)
-    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, n_sizing, band_shared, session)
+    fixes = () if fits else find_fixes(scenario, point, samples, base, confidence, session, n_sizing, band_shared)
     shown_peak = None if point.get("beyond_model_range") else round(peak - 273.15, 2)   # past the oil data
     return Verdict(fits=fits, first_pull_over_limit=first_over, limit_C=round(limit - 273.15, 3),
                    governing_limit=governing, peak_C=shown_peak, confidence=confidence, fixes=fixes)

@@ -600,3 +600,30 @@ def test_a_design_held_past_the_give_up_temperature_leaves_the_others_of_its_bat
     alone = integrate(take_designs(rig, np.array([1, 2])), steps, base_scenario.start_K, n_designs=2,
                       resolution=PLAN_RESOLUTION)
     np.testing.assert_allclose(batch.T_K[:, 1:], alone.T_K, rtol=0, atol=1e-12)
+
+
+def test_a_batch_shared_among_threads_gives_the_serial_answers_to_the_bit(monkeypatch):
+    # advance_step_parallel shares a batch's designs among threads; each design's sub-steps are its
+    # own, so the answers must be those of the serial kernel exactly (engine-curve pulls included:
+    # their predictor borrows the last sub-step's system)
+    import thermo_budget.engine.solver as solver
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml")
+    n = 2 * solver.PARALLEL_FROM_DESIGNS
+    rig = build_rig(scenario, oil_volume_m3=np.linspace(0.5, 2.0, n) * scenario.reservoir.oil_volume_m3)
+    steps = list(scenario.cycle) * 3
+    monkeypatch.setattr(solver, "threads_usable", lambda: True)
+    shared = integrate(rig, steps, scenario.start_K, n_designs=n, resolution=PLAN_RESOLUTION)
+    monkeypatch.setattr(solver, "PARALLEL_FROM_DESIGNS", 10 ** 9)
+    serial = integrate(rig, steps, scenario.start_K, n_designs=n, resolution=PLAN_RESOLUTION)
+    assert np.array_equal(shared.T_K, serial.T_K) and np.array_equal(shared.return_K, serial.return_K)
+    assert np.array_equal(shared.energy_lost_J, serial.energy_lost_J)
+
+
+def test_energy_balance_closes_over_a_200_pull_engine_curve_day():
+    # Each sub-step's rotations start from the eigenvectors the last one left (carried through the
+    # whole day); they are kept orthonormal, or the balance would drift with the day's length
+    # (3.5e-9 after 200 curve pulls without it). Conservation of energy, no outside source.
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml")
+    trace = integrate(build_rig(scenario), list(scenario.cycle) * 200, scenario.start_K, resolution=PLAN_RESOLUTION)
+    balance = trace.energy_in_J - trace.energy_lost_J - trace.energy_stored_J
+    assert abs(balance[0]) < 1e-10 * trace.energy_in_J[0]

@@ -13,14 +13,18 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..physics.air import air_or_standard
+from ..physics.compiled import threads_usable
 from ..physics.network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
 from .session import Resolution, Step, pump_flow_m3_s
-from .substep import advance_step, decompose_many, propagate_many
+from .substep import PARALLEL_FROM_DESIGNS, advance_step, advance_step_parallel, decompose_many, propagate_many
 
 # A design whose oil passes this temperature is held there and no longer integrated: it is far past
 # any fluid limit the scenario accepts (at most 200 degC) and past the range where the oil and air
 # data hold (Cragoe's correlations to 400 degF; the air table to 600 K film temperature).
 GIVE_UP_ABOVE_K = 573.15
+# The key under which integrate keeps the last curve step's system: not reused (its inputs change
+# from sub-step to sub-step), only the rotations' warm start for the next one's.
+CURVE_SYSTEM = "curve"
 
 
 def decompose(C, L):
@@ -51,8 +55,9 @@ def propagate_linear(C, L, b, T0, h):
 
 
 def _new_system(n: int, k: int):
-    """Room for the decomposed systems of n designs (substep.advance_step fills it)."""
-    return (np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k, k)),
+    """Room for the decomposed systems of n designs (substep.advance_step fills it); the eigenvectors
+    start as I, which the rotations start from."""
+    return (np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.empty((n, k)), np.tile(np.eye(k), (n, 1, 1)),
             np.zeros(n, bool))
 
 
@@ -61,6 +66,17 @@ def _step_inputs(rig: Rig, step: Step, f0: float, f1: float, power_scale, n: int
     power multiplier) and the pump's flow at the middle of it."""
     flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
     return Inputs(power_W=power_scale * step.mean_power_W(f0, f1), volume_flow_m3_s=np.full(n, float(flow)))
+
+
+def _sub_step_inputs(rig: Rig, step: Step, n_sub: int, power_scale, n: int):
+    """The flows (m3/s) and powers (W) of a step's n_sub sub-steps, (n_sub, n) each (_step_inputs)."""
+    if step.curve is None:
+        sub_inputs = [_step_inputs(rig, step, 0.0, 1.0, power_scale, n)] * n_sub
+    else:
+        sub_inputs = [_step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n) for k in range(n_sub)]
+    flows = np.array([np.broadcast_to(i.volume_flow_m3_s, (n,)) for i in sub_inputs], dtype=float)
+    powers = np.array([np.broadcast_to(i.power_W, (n,)) for i in sub_inputs], dtype=float)
+    return flows, powers
 
 
 def _inputs_key(step: Step):
@@ -146,6 +162,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     T_first = T.copy()
     power_scale = np.array(per_design(rig.power_multiplier, n_designs))
     last_system = {} if systems is None else systems   # the last corrector's system of each kind of constant-input step
+    step_inputs = {}                                    # (id(step), n_sub): its sub-steps' flows and powers
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)
         n_sub = resolution.substeps(step, float(np.max(duration)))
@@ -153,21 +170,17 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         if step.is_pull:
             pull_start.append(t.copy())
         constant_inputs = step.curve is None
-        key = _inputs_key(step) if constant_inputs else None
-        stored = last_system.get(key) if constant_inputs else None
+        key = _inputs_key(step) if constant_inputs else CURVE_SYSTEM    # a curve's: a warm start only
+        stored = last_system.get(key)
         system = stored if stored is not None else _new_system(n_designs, N_NODES)
-        if constant_inputs:
-            sub_inputs = [_step_inputs(rig, step, 0.0, 1.0, power_scale, n_designs)] * n_sub
-        else:
-            sub_inputs = [_step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n_designs)
-                          for k in range(n_sub)]
-        flows = np.array([np.broadcast_to(i.volume_flow_m3_s, (n_designs,)) for i in sub_inputs], dtype=float)
-        powers = np.array([np.broadcast_to(i.power_W, (n_designs,)) for i in sub_inputs], dtype=float)
-        step_temps, rises = advance_step(rig.params, T, held, T_first, flows, powers,
-                                         np.ascontiguousarray(h, dtype=float), air_or_standard(rig.air_columns), constant_inputs,
-                                         stored is not None, give_up_above_K, *system, energy_in, energy_lost)
-        if constant_inputs:
-            last_system[key] = system
+        if (id(step), n_sub) not in step_inputs:
+            step_inputs[id(step), n_sub] = _sub_step_inputs(rig, step, n_sub, power_scale, n_designs)
+        flows, powers = step_inputs[id(step), n_sub]
+        advance = advance_step_parallel if n_designs >= PARALLEL_FROM_DESIGNS and threads_usable() else advance_step
+        step_temps, rises = advance(rig.params, T, held, T_first, flows, powers, np.ascontiguousarray(h, dtype=float),
+                                    air_or_standard(rig.air_columns), constant_inputs, stored is not None,
+                                    give_up_above_K, *system, energy_in, energy_lost)
+        last_system[key] = system
         for k in range(n_sub):
             t = t + h
             times.append(t)

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from ..physics.compiled import kernel
+from ..physics.compiled import kernel, parallel_kernel, prange
 from ..physics.network import OIL, enthalpy, node_system, temperatures
 from ..physics.oil import oil_transport
 from ..physics.rig_params import AMBIENT, OIL_FIRST
@@ -66,6 +66,27 @@ def jacobi_eigh(A, lam, V):
 
 
 @kernel
+def orthonormalise_columns(V):
+    """V's columns made orthonormal in place (modified Gram-Schmidt): a warm start carried through
+    thousands of sub-steps' rotations would otherwise drift from orthogonal by round-off (3e-12 in a
+    200-pull day), and V^T S V would then no longer be similar to S."""
+    k = V.shape[0]
+    for j in range(k):
+        for i in range(j):
+            dot = 0.0
+            for r in range(k):
+                dot += V[r, i] * V[r, j]
+            for r in range(k):
+                V[r, j] -= dot * V[r, i]
+        norm = 0.0
+        for r in range(k):
+            norm += V[r, j] * V[r, j]
+        norm = math.sqrt(norm)
+        for r in range(k):
+            V[r, j] /= norm
+
+
+@kernel
 def decompose_one(C, L, root, inv_root, lam, V, warm, S, W):
     """S = -C^-1/2 L C^-1/2 of C dT/dt = -L T + b, eigen-decomposed into (root, inv_root, lam, V).
     warm: V holds the eigenvectors of a nearby system to start from (jacobi_eigh). S, W: (k, k)
@@ -86,6 +107,7 @@ def decompose_one(C, L, root, inv_root, lam, V, warm, S, W):
                 if not finite:
                     S[i, j] = 0.0
     else:       # S in the basis of V: W = S V, then S = V^T W
+        orthonormalise_columns(V)
         for i in range(k):
             for j in range(k):
                 acc = 0.0
@@ -156,9 +178,9 @@ def substep_one(p, T0, flow, power, h, air, reuse, failed, sys_b, sys_root, sys_
                                             scratch[6])
     work = scratch[7:11]
     L, S, W = mats[0], mats[1], mats[2]
-    if not reuse:
+    if not reuse:       # sys_V: the last system's eigenvectors (or I), a warm start for the rotations
         node_system(p, T0, flow, power, air, C, L, sys_b, g)
-        failed = decompose_one(C, L, sys_root, sys_inv, sys_lam, sys_V, False, S, W)
+        failed = decompose_one(C, L, sys_root, sys_inv, sys_lam, sys_V, True, S, W)
     propagate_one(sys_root, sys_inv, sys_lam, sys_V, failed, sys_b, T0, h, False, T_pred, T_int, work)
     for i in range(k):
         T_mid[i] = 0.5 * (T0[i] + T_pred[i])
@@ -185,51 +207,77 @@ def return_rise(p, T_oil_K, flow, power):
 
 
 @kernel
+def advance_design(d, params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
+                   sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost, temps, rises):
+    """The sub-steps of one step for design d (advance_step's, its results into temps[:, d] and
+    rises[:, d])."""
+    k = T.shape[1]
+    scratch, mats, T1 = np.empty((11, k)), np.empty((3, k, k)), np.empty(k)
+    p = params[d] if params.shape[0] > 1 else params[0]
+    for j in range(flows.shape[0]):
+        was_held = held[d]
+        T0 = T_first[d] if was_held else T[d]
+        reuse = (j > 0 or (constant and reuse_first)) and not was_held
+        failed, q_in, q_lost, rise = substep_one(p, T0, flows[j, d], powers[j, d], h[d], air, reuse, sys_failed[d],
+                                                 sys_b[d], sys_root[d], sys_inv[d], sys_lam[d], sys_V[d], T1,
+                                                 scratch, mats)
+        sys_failed[d] = failed
+        finite = True
+        for i in range(k):
+            finite = finite and math.isfinite(T1[i])
+        if was_held or not finite:
+            held[d] = True
+            q_in, q_lost = 0.0, 0.0
+            rise = return_rise(p, T[d, OIL], flows[j, d], powers[j, d])
+        else:
+            for i in range(k):
+                T[d, i] = T1[i]
+        if T[d, OIL] > give_up_above_K:
+            held[d] = True
+        energy_in[d] += q_in
+        energy_lost[d] += q_lost
+        rises[j, d] = rise
+        for i in range(k):
+            temps[j, d, i] = T[d, i]
+
+
+@kernel
 def advance_step(params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
                  sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost):
     """The sub-steps of one step for every design (flows, powers: (m, N), one row per sub-step).
 
     T (N,k) is advanced in place; held (N,) designs (not finite, or their oil past give_up_above_K)
     keep their state and gain no heat; their evaluation is at T_first (its result discarded). The
-    predictor of a sub-step is the design's last corrector system (sys_*) where the inputs are
-    constant, from the first sub-step on where reuse_first, and while the design is not held: each
-    design's sub-step is its own, whatever the batch holds. energy_in and
-    energy_lost (N,) accumulate, J. Returns (the states after each sub-step (m,N,k), the return-line
-    rise at them (m,N) K)."""
-    m = flows.shape[0]
-    n, k = T.shape
-    temps, rises = np.empty((m, n, k)), np.empty((m, n))
-    scratch, mats, T1 = np.empty((11, k)), np.empty((3, k, k)), np.empty(k)
-    was_held = np.empty(n, np.bool_)
-    for j in range(m):
-        for d in range(n):
-            was_held[d] = held[d]
-        reuse = constant and (j > 0 or reuse_first)
-        for d in range(n):
-            p = params[d if params.shape[0] > 1 else 0]
-            T0 = T_first[d] if was_held[d] else T[d]
-            failed, q_in, q_lost, rise = substep_one(p, T0, flows[j, d], powers[j, d], h[d], air,
-                                                     reuse and not was_held[d], sys_failed[d],
-                                                     sys_b[d], sys_root[d], sys_inv[d], sys_lam[d], sys_V[d], T1,
-                                                     scratch, mats)
-            sys_failed[d] = failed
-            finite = True
-            for i in range(k):
-                finite = finite and math.isfinite(T1[i])
-            if was_held[d] or not finite:
-                held[d] = True
-                q_in, q_lost = 0.0, 0.0
-                rise = return_rise(p, T[d, OIL], flows[j, d], powers[j, d])
-            else:
-                for i in range(k):
-                    T[d, i] = T1[i]
-            if T[d, OIL] > give_up_above_K:
-                held[d] = True
-            energy_in[d] += q_in
-            energy_lost[d] += q_lost
-            rises[j, d] = rise
-            for i in range(k):
-                temps[j, d, i] = T[d, i]
+    predictor of a sub-step is the design's last corrector system (sys_*): from the second sub-step
+    on (within a step the inputs are constant, or an engine curve's change little from one sub-step
+    to the next; the corrector is always frozen at the sub-step's own), from the first where the
+    inputs are constant and reuse_first, and never while the design is held. Each design's sub-steps
+    are its own, whatever the batch holds (advance_design). energy_in and energy_lost (N,)
+    accumulate, J. Returns (the states after each sub-step (m,N,k), the return-line rise at them
+    (m,N) K)."""
+    m, n = flows.shape[0], T.shape[0]
+    temps, rises = np.empty((m, n, T.shape[1])), np.empty((m, n))
+    for d in range(n):
+        advance_design(d, params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
+                       sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost, temps, rises)
+    return temps, rises
+
+
+# From this many designs in a batch a step runs on every core (a thread per core; below it the
+# threads' start costs more than they save).
+PARALLEL_FROM_DESIGNS = 16
+
+
+@parallel_kernel
+def advance_step_parallel(params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
+                          sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost):
+    """advance_step with the designs shared among threads, to the same bits (the designs are
+    independent)."""
+    m, n = flows.shape[0], T.shape[0]
+    temps, rises = np.empty((m, n, T.shape[1])), np.empty((m, n))
+    for d in prange(n):
+        advance_design(d, params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
+                       sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost, temps, rises)
     return temps, rises
 
 

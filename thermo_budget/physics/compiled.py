@@ -44,13 +44,55 @@ def _import_numba():
     return numba
 
 
+def _threads_if_unset() -> None:
+    """At most MAX_THREADS threads for the parallel kernels, and OpenMP's waiting threads asleep
+    rather than spinning (the page's browser shares the cores), unless the user has set either."""
+    os.environ.setdefault("NUMBA_NUM_THREADS", str(max(1, min(os.cpu_count() or 1, MAX_THREADS))))
+    os.environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")
+
+
+# A batch of designs is shared among this many threads at most: past a few, waking them for a step
+# of a few hundred microseconds costs more than it saves.
+MAX_THREADS = 4
+
 _cache_dir_if_needed()
+_threads_if_unset()
 numba = _import_numba()
 
 
 def kernel(function):
     """Compile a function of floats and float arrays (nopython, cached)."""
     return numba.njit(cache=True, error_model="numpy")(function)
+
+
+def parallel_kernel(function):
+    """Compile a function whose `prange` loop runs on a thread per core (nopython, cached). Its
+    iterations must be independent: then its results are those of the serial kernel, to the bit."""
+    return numba.njit(cache=True, error_model="numpy", parallel=True)(function)
+
+
+prange = numba.prange
+_threads_usable: list = []
+
+
+def threads_usable() -> bool:
+    """Whether the parallel kernels run on a thread pool that lasts (OpenMP or TBB, numba's own
+    check, done once): numba's fallback (workqueue) starts its threads at every call, slower than
+    one thread for the engine's short calls, and cannot be entered from two threads at once."""
+    if not _threads_usable:
+        usable = False
+        if numba.config.NUMBA_NUM_THREADS > 1:
+            for layer in ("omp", "tbb"):
+                try:
+                    __import__(f"numba.np.ufunc.{layer}pool")
+                except ImportError:
+                    continue
+                if numba.config.THREADING_LAYER in ("default", "threadsafe", layer):
+                    numba.config.THREADING_LAYER = layer
+                    usable = True
+                break
+        _threads_usable.append(usable)
+    return _threads_usable[0]
 
 
 def ufunc(function):

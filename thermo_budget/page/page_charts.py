@@ -23,9 +23,14 @@ CHART_DPI = 90
 CHARTS_KEPT = 32   # design sweeps and hot days kept by the page, by scenario text
 
 
+# zlib's fastest level: the temperature chart's PNG took 48 ms instead of 57 ms, the design chart's
+# 61 ms instead of 75 ms, for 3-5 % more bytes (measured on the default scenario).
+PNG_COMPRESS_LEVEL = 1
+
+
 def png_bytes(figure, dpi: int = CHART_DPI) -> bytes:
     buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=dpi)
+    figure.savefig(buffer, format="png", dpi=dpi, pil_kwargs={"compress_level": PNG_COMPRESS_LEVEL})
     return buffer.getvalue()
 
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..physics.air import air_or_standard
-from ..physics.compiled import threads_usable
+from ..physics.compiled import threads_usable, use_threads
 from ..physics.network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
 from .session import Resolution, Step, pump_flow_m3_s
 from .substep import PARALLEL_FROM_DESIGNS, advance_step, advance_step_parallel, decompose_many, propagate_many
@@ -150,6 +150,10 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     design (take_systems), read at the start and updated in place: a session integrated in pieces,
     each piece given the systems the one before left, is the session integrated whole.
     """
+    steps = list(steps)             # held for the call: the sub-step inputs are kept by id(step)
+    parallel = n_designs >= PARALLEL_FROM_DESIGNS and threads_usable()
+    if parallel:
+        use_threads()
     T = np.array(np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES)))
     t = np.array(np.broadcast_to(np.asarray(start_time_s, dtype=float), (n_designs,)))
     H_start = node_enthalpy_J(rig, T)
@@ -176,7 +180,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
         if (id(step), n_sub) not in step_inputs:
             step_inputs[id(step), n_sub] = _sub_step_inputs(rig, step, n_sub, power_scale, n_designs)
         flows, powers = step_inputs[id(step), n_sub]
-        advance = advance_step_parallel if n_designs >= PARALLEL_FROM_DESIGNS and threads_usable() else advance_step
+        advance = advance_step_parallel if parallel else advance_step
         step_temps, rises = advance(rig.params, T, held, T_first, flows, powers, np.ascontiguousarray(h, dtype=float),
                                     air_or_standard(rig.air_columns), constant_inputs, stored is not None,
                                     give_up_above_K, *system, energy_in, energy_lost)

@@ -69,7 +69,8 @@ def jacobi_eigh(A, lam, V):
 def orthonormalise_columns(V):
     """V's columns made orthonormal in place (modified Gram-Schmidt): a warm start carried through
     thousands of sub-steps' rotations would otherwise drift from orthogonal by round-off (3e-12 in a
-    200-pull day), and V^T S V would then no longer be similar to S."""
+    200-pull day), and V^T S V would then no longer be similar to S. A V that is not a warm start
+    at all (not finite, or a column nearly dependent on the others: room never filled) becomes I."""
     k = V.shape[0]
     for j in range(k):
         for i in range(j):
@@ -82,6 +83,11 @@ def orthonormalise_columns(V):
         for r in range(k):
             norm += V[r, j] * V[r, j]
         norm = math.sqrt(norm)
+        if not norm > 1e-3:         # an orthonormal start's columns keep a norm near 1
+            for r in range(k):
+                for c in range(k):
+                    V[r, c] = 1.0 if r == c else 0.0
+            return
         for r in range(k):
             V[r, j] /= norm
 
@@ -276,8 +282,9 @@ def advance_step_parallel(params, T, held, T_first, flows, powers, h, air, const
     m, n = flows.shape[0], T.shape[0]
     temps, rises = np.empty((m, n, T.shape[1])), np.empty((m, n))
     for d in prange(n):
-        advance_design(d, params, T, held, T_first, flows, powers, h, air, constant, reuse_first, give_up_above_K,
-                       sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost, temps, rises)
+        advance_design(np.int64(d), params, T, held, T_first, flows, powers, h, air, constant, reuse_first,
+                       give_up_above_K, sys_b, sys_root, sys_inv, sys_lam, sys_V, sys_failed, energy_in, energy_lost,
+                       temps, rises)
     return temps, rises
 
 

@@ -3,28 +3,55 @@
 this installation can write it.
 
 Compiled code is cached (numba's `cache=True`): the first run on a machine compiles the kernel
-(seconds), later processes load it (README "Performance"). The cache sits in __pycache__ beside
-the modules; where the package's folder is not writable (a system install), in the user's cache
-folder (NUMBA_CACHE_DIR, unless the user has set it).
+(seconds), later processes load it (README "Performance"). The cache sits in the package's
+__pycache__, or where the package's folder is not writable (a system install) in the user's cache
+folder, in a folder named after a digest of the kernels' sources (NUMBA_CACHE_DIR, unless the user
+has set it): an edit or an upgrade compiles afresh.
 """
 from __future__ import annotations
 
+import hashlib
+import importlib
 import os
+import shutil
 import sys
 from pathlib import Path
 
 import numpy as np
 
 
-def _cache_dir_if_needed() -> None:
+# The packages whose modules hold compiled code or the constants it reads (physics/, engine/).
+KERNEL_PACKAGES = ("physics", "engine")
+
+
+def source_stamp(package_root: Path) -> str:
+    """A digest of every module of KERNEL_PACKAGES under package_root. numba stamps a cached
+    function with its own file only, so an edit (or an upgrade) that changes a function it calls in
+    another file would load stale code; the cache's folder is named after this stamp instead."""
+    digest = hashlib.sha256()
+    for package in KERNEL_PACKAGES:
+        for path in sorted((package_root / package).glob("*.py")):
+            digest.update(path.name.encode())
+            digest.update(path.read_bytes())
+    return digest.hexdigest()[:16]
+
+
+def _cache_dir(here: Path | None = None) -> None:
+    """NUMBA_CACHE_DIR, unless the user has set it: numba-<source stamp> in the package's __pycache__,
+    or in the user's cache folder where the package's folder is not writable (a system install).
+    Folders of other stamps beside it (older sources) are removed. here : the package's folder."""
     if os.environ.get("NUMBA_CACHE_DIR"):
         return
-    here = Path(__file__).resolve().parent.parent
+    here = Path(__file__).resolve().parent.parent if here is None else here
     cache = here / "__pycache__"
-    if os.access(cache, os.W_OK) if cache.exists() else os.access(here, os.W_OK):
-        return
-    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
-    os.environ["NUMBA_CACHE_DIR"] = os.path.join(base, "thermo_budget", "numba")
+    if not (os.access(cache, os.W_OK) if cache.exists() else os.access(here, os.W_OK)):
+        base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+        cache = Path(base) / "thermo_budget"
+    folder = cache / f"numba-{source_stamp(here)}"
+    os.environ["NUMBA_CACHE_DIR"] = str(folder)
+    for old in cache.glob("numba-*") if cache.is_dir() else ():
+        if old != folder:
+            shutil.rmtree(old, ignore_errors=True)
 
 
 def _import_numba():
@@ -44,19 +71,13 @@ def _import_numba():
     return numba
 
 
-def _threads_if_unset() -> None:
-    """At most MAX_THREADS threads for the parallel kernels, and OpenMP's waiting threads asleep
-    rather than spinning (the page's browser shares the cores), unless the user has set either."""
-    os.environ.setdefault("NUMBA_NUM_THREADS", str(max(1, min(os.cpu_count() or 1, MAX_THREADS))))
-    os.environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")
-
-
 # A batch of designs is shared among this many threads at most: past a few, waking them for a step
-# of a few hundred microseconds costs more than it saves.
+# of a few hundred microseconds costs more than it saves. (Set with numba.set_num_threads, never
+# through NUMBA_NUM_THREADS: numba refuses a changed count once its threads have started.)
 MAX_THREADS = 4
 
-_cache_dir_if_needed()
-_threads_if_unset()
+_cache_dir()
+os.environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")   # waiting threads sleep: the page's browser shares the cores
 numba = _import_numba()
 
 
@@ -77,22 +98,28 @@ _threads_usable: list = []
 
 def threads_usable() -> bool:
     """Whether the parallel kernels run on a thread pool that lasts (OpenMP or TBB, numba's own
-    check, done once): numba's fallback (workqueue) starts its threads at every call, slower than
-    one thread for the engine's short calls, and cannot be entered from two threads at once."""
+    probe of them, done once) with more than one thread: numba's fallback (workqueue) starts its
+    threads at every call, slower than one thread for the engine's short calls, and cannot be
+    entered from two threads at once."""
     if not _threads_usable:
         usable = False
-        if numba.config.NUMBA_NUM_THREADS > 1:
+        if numba.config.NUMBA_NUM_THREADS > 1 and numba.config.THREADING_LAYER in ("default", "threadsafe", "omp",
+                                                                                   "tbb"):
             for layer in ("omp", "tbb"):
                 try:
-                    __import__(f"numba.np.ufunc.{layer}pool")
+                    importlib.import_module(f"numba.np.ufunc.{layer}pool")
                 except ImportError:
                     continue
-                if numba.config.THREADING_LAYER in ("default", "threadsafe", layer):
-                    numba.config.THREADING_LAYER = layer
-                    usable = True
+                usable = True
                 break
         _threads_usable.append(usable)
     return _threads_usable[0]
+
+
+def use_threads() -> None:
+    """At most MAX_THREADS threads for the parallel kernels that this thread calls (numba's count is
+    the calling thread's own)."""
+    numba.set_num_threads(min(numba.config.NUMBA_NUM_THREADS, MAX_THREADS))
 
 
 def ufunc(function):

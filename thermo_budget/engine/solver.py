@@ -146,9 +146,10 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     stop_above_K : optional; stop after the first step by whose end the bulk oil of every design has
     been above this temperature at a recorded point (the trace then ends there); with stop_count,
     as soon as that many designs have.
-    systems : optional dict of the last corrector's system of each kind of constant-input step, per
-    design (take_systems), read at the start and updated in place: a session integrated in pieces,
-    each piece given the systems the one before left, is the session integrated whole.
+    systems : optional dict of the last corrector's system of each kind of constant-input step (and,
+    under CURVE_SYSTEM, of the last engine-curve step), per design (take_systems), read at the start
+    and updated in place: a session integrated in pieces, each piece given the systems the one
+    before left, is the session integrated whole.
     """
     steps = list(steps)             # held for the call: the sub-step inputs are kept by id(step)
     parallel = n_designs >= PARALLEL_FROM_DESIGNS and threads_usable()
@@ -165,7 +166,7 @@ def integrate(rig: Rig, steps: list[Step], T0_K, n_designs: int = 1, durations_s
     held = np.zeros(n_designs, bool)
     T_first = T.copy()
     power_scale = np.array(per_design(rig.power_multiplier, n_designs))
-    last_system = {} if systems is None else systems   # the last corrector's system of each kind of constant-input step
+    last_system = {} if systems is None else systems   # the last corrector's system of each kind of step
     step_inputs = {}                                    # (id(step), n_sub): its sub-steps' flows and powers
     for index, step in enumerate(steps):
         duration = per_design(step.duration_s if durations_s is None else durations_s[index], n_designs)

@@ -112,7 +112,7 @@ def decompose_one(C, L, root, inv_root, lam, V, warm, S, W):
                 V[i, j] = 1.0 if i == j else 0.0
                 if not finite:
                     S[i, j] = 0.0
-    else:       # S in the basis of V: W = S V, then S = V^T W
+    else:       # S in the basis of V: W = S V, then S = V^T W, its upper half mirrored (exactly symmetric)
         orthonormalise_columns(V)
         for i in range(k):
             for j in range(k):
@@ -121,14 +121,11 @@ def decompose_one(C, L, root, inv_root, lam, V, warm, S, W):
                     acc += S[i, m] * V[m, j]
                 W[i, j] = acc
         for i in range(k):
-            for j in range(k):
+            for j in range(i, k):
                 acc = 0.0
                 for m in range(k):
                     acc += V[m, i] * W[m, j]
-                S[i, j] = acc
-        for i in range(k):                 # symmetric to round-off: make it exactly so
-            for j in range(i + 1, k):
-                S[i, j] = S[j, i] = 0.5 * (S[i, j] + S[j, i])
+                S[i, j] = S[j, i] = acc
     jacobi_eigh(S, lam, V)
     return not finite
 

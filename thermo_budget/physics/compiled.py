@@ -15,6 +15,7 @@ import importlib
 import os
 import shutil
 import sys
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -93,27 +94,26 @@ def parallel_kernel(function):
 
 
 prange = numba.prange
-_threads_usable: list = []
 
 
+@lru_cache(maxsize=None)
 def threads_usable() -> bool:
     """Whether the parallel kernels run on a thread pool that lasts (OpenMP or TBB, numba's own
-    probe of them, done once) with more than one thread: numba's fallback (workqueue) starts its
-    threads at every call, slower than one thread for the engine's short calls, and cannot be
+    modules for them, probed once) with more than one thread: numba's fallback (workqueue) starts
+    its threads at every call, slower than one thread for the engine's short calls, and cannot be
     entered from two threads at once."""
-    if not _threads_usable:
-        usable = False
-        if numba.config.NUMBA_NUM_THREADS > 1 and numba.config.THREADING_LAYER in ("default", "threadsafe", "omp",
-                                                                                   "tbb"):
-            for layer in ("omp", "tbb"):
-                try:
-                    importlib.import_module(f"numba.np.ufunc.{layer}pool")
-                except ImportError:
-                    continue
-                usable = True
-                break
-        _threads_usable.append(usable)
-    return _threads_usable[0]
+    if numba.config.NUMBA_NUM_THREADS <= 1 or numba.config.THREADING_LAYER not in ("default", "threadsafe", "omp",
+                                                                                    "tbb"):
+        return False
+    return any(_loads(f"numba.np.ufunc.{layer}pool") for layer in ("omp", "tbb"))
+
+
+def _loads(module: str) -> bool:
+    try:
+        importlib.import_module(module)
+    except ImportError:
+        return False
+    return True
 
 
 def use_threads() -> None:

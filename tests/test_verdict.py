@@ -205,6 +205,30 @@ def test_the_verdict_that_reuses_the_band_s_work_is_the_one_that_does_it_again(f
         assert fix.value == pytest.approx(by_kind[fix.kind], rel=0.03), fix
 
 
+def test_a_size_at_the_confidence_is_the_verdict_s_fix_where_both_answer_it(failing_report):
+    """One figure per question: the band's cooler, wait and oil at 90 % (from its first 32 samples)
+    and the verdict's fixes (re-run on all 128 of the whole day, stepped up where they fell short) are
+    the same question on a rig with no cooler; the report, `run`'s text and the page's cards show the
+    fix's value. (Before, the text said "at 90 % confidence 2.9 W/K" above a fix of 3.4 W/K.)"""
+    from thermo_budget.page.page_cards import cooler_card, tank_card, wait_card
+    from thermo_budget.planning.band_text import summary_lines as band_lines
+    from thermo_budget.output.verdict_text import fix_text
+    scenario, result = failing_report
+    assert scenario.cooler_W_K == 0
+    fixes = {fix.kind: fix for fix in result.verdict.fixes}
+    keys = {"wait": "min_wait_s", "cooler": "cooler_required_W_per_K", "oil_volume": "min_oil_volume_L"}
+    assert set(keys) <= set(fixes)
+    for kind, key in keys.items():
+        assert result.band.plan_at_confidence[key] == fixes[kind].value, kind
+    cooler = fix_text(fixes["cooler"], "SI").split(" of ")[1]          # e.g. "1.8 W/K", rounded up
+    assert f"at 90 % confidence {cooler}" in "\n".join(band_lines(result))
+    card = cooler_card(result, "SI")
+    assert f"{card.value} {card.unit}" == cooler + " of ETD"
+    oil = tank_card(result, scenario.reservoir.oil_volume_m3, 0.05, "SI")
+    assert f"use {oil.value} L of oil" in fix_text(fixes["oil_volume"], "SI")
+    assert f"wait {wait_card(result, 60.0, 'SI').value} after" in fix_text(fixes["wait"], "SI")
+
+
 def test_every_fix_of_the_report_s_verdict_finishes_the_day_in_a_rerun(failing_report):
     scenario, result = failing_report
     for fix in result.verdict.fixes:

@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 import re
 
-from .units import SI_UNIT, UNIT_LABEL, ZERO_CELSIUS_K, convert, to_display, unit_label
+from .units import SI_UNIT, UNIT_LABEL, ZERO_CELSIUS_K, convert, round_up, to_display, unit_label
 
 SYSTEMS = ("SI", "US")
 SYSTEM_NAMES = {"SI": "Metric", "US": "US customary"}
@@ -62,12 +62,16 @@ def quantity_text(value: float, quantity: str, system: str) -> str:
     return f"{value:.6g} {QUANTITIES[quantity][1][system]}"
 
 
-def shown(value_si: float | None, quantity: str, system: str, digits: int | None = None) -> str:
-    """An SI value formatted for the page with its unit symbol, e.g. "176.0 °F"."""
+def shown(value_si: float | None, quantity: str, system: str, digits: int | None = None, up: bool = False) -> str:
+    """An SI value formatted for the page with its unit symbol, e.g. "176.0 °F". up=True: rounded up,
+    for a size to plan with (a size rounded down might no longer suffice)."""
     if value_si is None:
         return "n/a"
     digits = decimals(quantity, system) if digits is None else digits
-    return f"{to_shown(value_si, quantity, system):,.{digits}f} {unit_symbol(quantity, system)}"
+    value = to_shown(value_si, quantity, system)
+    if up:
+        value = round_up(value, digits)
+    return f"{value:,.{digits}f} {unit_symbol(quantity, system)}"
 
 
 def shown_celsius(value_C: float | None, system: str) -> str:

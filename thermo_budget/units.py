@@ -269,3 +269,14 @@ def from_display(value, kind: str, system: str):
 def unit_label(kind: str, system: str) -> str:
     """The printed symbol of the display unit, e.g. '°F'."""
     return UNIT_LABEL[DISPLAY_UNITS[system][kind]]
+
+
+def round_up(value: float, digits: int) -> float:
+    """Round up to `digits` decimals, so that a rounded size still suffices (the searches are
+    monotone). A value a float's noise above a round figure (1e-9 of the last digit) stays on it."""
+    return float(math.ceil(value * 10**digits - 1e-9) / 10**digits) + 0.0   # + 0.0: never -0.0
+
+
+def rounded_up_text(value: float, digits: int) -> str:
+    """A size shown rounded up to `digits` decimals (round_up): a size rounded down might no longer suffice."""
+    return f"{round_up(value, digits):.{digits}f}"

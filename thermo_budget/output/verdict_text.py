@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from ..display import format_temperature, shown_duration
-from ..units import ZERO_CELSIUS_K, to_display, unit_label
+from ..units import ZERO_CELSIUS_K, rounded_up_text, to_display, unit_label
 from ..planning.fixes import Fix
 from ..planning.verdict import Verdict
 
@@ -21,13 +21,8 @@ def _difference(kelvin: float, system: str) -> str:
     return f"{to_display(kelvin, 'temperature_difference', system):.1f} {unit_label('temperature_difference', system)}"
 
 
-def _up(value: float, digits: int) -> str:
-    """A fix's size shown rounded up (a size rounded down might no longer suffice)."""
-    return f"{math.ceil(value * 10**digits - 1e-9) / 10**digits:.{digits}f}"
-
-
 def _size(value_si: float, kind: str, system: str, digits: int) -> str:
-    return f"{_up(to_display(value_si, kind, system), digits)} {unit_label(kind, system)}"
+    return f"{rounded_up_text(to_display(value_si, kind, system), digits)} {unit_label(kind, system)}"
 
 
 def confidence_text(v: Verdict, band_on: bool = True) -> str:

@@ -30,9 +30,9 @@ class Card:
     small: str = ""     # small print under the value: the confidence and the median
 
 
-def _number(value_si: float, quantity: str, system: str, digits: int | None = None) -> tuple[str, str]:
-    """(the figure, its unit symbol), e.g. ("18.0", "BTU/hr/°F")."""
-    text = shown(value_si, quantity, system, digits)
+def _number(value_si: float, quantity: str, system: str, digits: int | None = None, up: bool = False) -> tuple[str, str]:
+    """(the figure, its unit symbol), e.g. ("18.0", "BTU/hr/°F"); up=True: rounded up (a size to plan with)."""
+    text = shown(value_si, quantity, system, digits, up=up)
     number, _, unit = text.partition(" ")
     return number, unit
 
@@ -147,7 +147,7 @@ def time_card(answers: Report, system: str) -> Card:
 
 def wait_card(answers: Report, planned_wait_s: float, system: str) -> Card:
     wait, median = at_confidence(answers, "min_wait_s")
-    value = "No wait is enough" if wait is None else ("None needed" if wait == 0 else shown_duration(wait))
+    value = "No wait is enough" if wait is None else ("None needed" if wait == 0 else shown_duration(wait, round_up=True))
     return Card("wait", "Wait between pulls", value, "", (f"You planned {shown_duration(planned_wait_s)}.",),
                 small=_small(answers, None if median is None else shown_duration(median)),
                 help="Shortest wait after every pull that lets the whole planned session finish under the "
@@ -161,7 +161,7 @@ def cooler_card(answers: Report, system: str) -> Card:
     elif need is None:
         value, unit = "None is enough", ""
     else:
-        value, unit = _number(need, "conductance", system)
+        value, unit = _number(need, "conductance", system, up=True)
         unit = f"{unit} of ETD"
     sustained = answers.cooler_required_sustained_W_per_K
     all_day = ("no cooler is enough" if sustained is None else "none" if sustained == 0
@@ -180,7 +180,7 @@ def tank_card(answers: Report, oil_volume_m3: float, tank_m3: float, system: str
     if smallest is None:
         value, unit = "Not possible", ""
     else:
-        value, unit = _number(smallest / 1000.0, "oil_volume", system)
+        value, unit = _number(smallest / 1000.0, "oil_volume", system, up=True)
         unit = f"{unit} of oil"
         scale = smallest / 1000.0 / oil_volume_m3
         details.append(f"In a tank of {shown(tank_m3 * scale, 'oil_volume', system)} (your tank's shape, scaled)"

@@ -223,9 +223,23 @@ def report(scenario: Scenario, trace: Trace | None = None) -> Report:
     result["band_advice"] = advice_sentence(ranking, ranking[0]["of"]) if ranking else ""
     _caution_beyond_range(scenario, trace, result)
     from .verdict import verdict
-    result["verdict"] = verdict(scenario, result, band_shared=shared).to_json()
+    from .fixes import band_sizes_from_fixes
+    judged = verdict(scenario, result, band_shared=shared)
+    result["verdict"] = judged.to_json()
+    _plan_sizes_from_fixes(result, band_sizes_from_fixes(scenario, judged.fixes))
     check_finite(result)
     return Report.from_json(result)
+
+
+def _plan_sizes_from_fixes(result: dict, sizes: dict):
+    """One figure per question: where a verified fix answers a band size at the confidence, the band
+    shows the fix's value, with a note where that moved it."""
+    plan = result.get("plan_at_confidence") or {}
+    moved = {key: value for key, value in sizes.items() if plan.get(key) is not None and plan[key] != value}
+    if not moved:
+        return
+    plan.update(moved)
+    result["notes"].append(note_words("sizes_from_fixes", {"confidence": result["confidence"]}))
 
 
 def _passive_shares(rig, limit_K: float) -> dict:

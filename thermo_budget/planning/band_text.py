@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from ..units import ZERO_CELSIUS_K, to_display, unit_label
+from ..units import ZERO_CELSIUS_K, rounded_up_text, to_display, unit_label
 
 if TYPE_CHECKING:
     from .results import Report
@@ -14,12 +14,13 @@ _SIZES = {"min_wait_s": ("minimum wait", None, 1.0, 0),
           "min_oil_volume_L": ("smallest oil volume", "volume", 1e-3, 2)}
 
 
-def _value(value, kind, scale, digits, system) -> str:
+def _value(value, kind, scale, digits, system, up: bool = False) -> str:
+    """A size in the user's units; up=True: rounded up (a size to plan with, as the verdict's fixes)."""
     if value is None:
         return "none suffices"
-    if kind is None:
-        return f"{value:.{digits}f} s"
-    return f"{to_display(value * scale, kind, system):.{digits}f} {unit_label(kind, system)}"
+    shown = value if kind is None else to_display(value * scale, kind, system)
+    text = rounded_up_text(shown, digits) if up else f"{shown:.{digits}f}"
+    return f"{text} s" if kind is None else f"{text} {unit_label(kind, system)}"
 
 
 def _range(band, kind, scale, digits, system) -> str:
@@ -77,7 +78,7 @@ def summary_lines(result: Report) -> list[str]:
         planned = result.band.plan_at_confidence.get(key)
         lines.append(f"  {label:<16} {_value(getattr(result, key), kind, scale, digits, u)}"
                      f"{_range(result.band.bands[key], kind, scale, digits, u)}; at {c} confidence "
-                     f"{_value(planned, kind, scale, digits, u)}")
+                     f"{_value(planned, kind, scale, digits, u, up=True)}")
     if result.band.advice:
         lines.append(f"  what moves it    {result.band.advice}")
     return lines

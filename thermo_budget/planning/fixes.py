@@ -16,6 +16,7 @@ from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at
                           share_fits)
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
+from ..units import round_up
 
 FIX_KINDS = ("wait", "oil_volume", "cooler", "fewer_pulls", "shorter_pulls")
 UNIT_KEYS = {"wait": "value_s", "oil_volume": "value_L", "cooler": "value_W_per_K", "shorter_pulls": "value_s"}
@@ -116,6 +117,19 @@ def _from_band(scenario, samples: Samples, band_shared: dict | None, confidence:
         value = order_statistic(np.maximum(per_sample * to_si, planned[kind]), confidence)
         found[kind] = value if np.isfinite(value) else None
     return found
+
+
+def band_sizes_from_fixes(scenario, fixes) -> dict:
+    """The band's sizing answers at the confidence (bands.SIZING_KEYS, in the band's units) that the
+    verdict's verified fixes answer, the same question (FROM_BAND: the cooler always, the wait and the
+    oil only on a rig with no cooler of its own): {key: the fix's value}. The band takes its sizes from
+    its first N_SIZING_SAMPLES samples; a fix is re-run on every sample of the whole day, and stepped
+    up where it fell short, so where both exist the fix's is the figure to plan with."""
+    sizes = {}
+    for fix in fixes:
+        if fix.kind in FROM_BAND and (fix.kind == "cooler" or scenario.cooler_W_K <= 0):
+            sizes[FROM_BAND[fix.kind][0]] = fix.value     # s, W/K and L: the band's own units
+    return sizes
 
 
 def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, confidence: float,
@@ -244,11 +258,11 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float) -> 
         if kind == "shorter_pulls":
             fixes.append(Fix(kind, _round_down(value * _pull_seconds(scenario).max(), 1), confidence))
         elif kind == "oil_volume":
-            litres = _round_up(value * 1000.0, 2)
+            litres = round_up(value * 1000.0, 2)
             tank = scenario.reservoir.footprint_m2 * scenario.reservoir.height_m * value / planned_oil
-            fixes.append(Fix(kind, litres, confidence, tank_L=_round_up(tank * 1000.0, 1)))
+            fixes.append(Fix(kind, litres, confidence, tank_L=round_up(tank * 1000.0, 1)))
         else:
-            fixes.append(Fix(kind, _round_up(value, 1 if kind == "wait" else 2), confidence))
+            fixes.append(Fix(kind, round_up(value, 1 if kind == "wait" else 2), confidence))
     return fixes
 
 
@@ -265,10 +279,6 @@ def _fewer_pulls(scenario, base: DayOutcome, confidence: float, session) -> Fix 
             return Fix("fewer_pulls", count, confidence)
         count -= 1
     return None
-
-
-def _round_up(value: float, digits: int) -> float:
-    return float(np.ceil(value * 10**digits - 1e-9) / 10**digits)
 
 
 def _round_down(value: float, digits: int) -> float:

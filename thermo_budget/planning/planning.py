@@ -12,6 +12,7 @@ from ..engine.session import PLAN_RESOLUTION
 from ..engine.solver import integrate, take_systems
 from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability
 from ..physics.rig import take_designs
+from ..units import round_up  # noqa: F401 (planning.round_up: the sizing answers' rounding)
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 GRID_POINTS = 24           # candidates per round of a batched search
@@ -91,12 +92,6 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
         lower = float(grid[first - 1]) if first else lower
         grid = np.linspace(lower, answer, GRID_POINTS + 1)[1:]
     return answer
-
-
-def round_up(value: float, digits: int) -> float:
-    """Round up to `digits` decimals, so that a rounded sizing answer still passes (the searches are
-    monotone). A value a float's noise above a round figure (1e-9 of the last digit) stays on it."""
-    return float(np.ceil(value * 10**digits - 1e-9) / 10**digits) + 0.0   # + 0.0: never -0.0
 
 
 def time_constant_s(scenario: Scenario) -> float:

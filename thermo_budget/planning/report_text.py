@@ -84,6 +84,10 @@ _NOTES = {
     "no_oil_volume_suffices": lambda largest_L: (
         f"Even {largest_L:.0f} L of oil in a tank of the same shape would not finish the session."),
     "pull_not_scheduled": _pull_not_scheduled,
+    "sizes_from_fixes": lambda confidence: (
+        f"The sizes at {100 * confidence:.0f} % confidence that the verdict also lists as fixes are the fixes' "
+        "own: each was re-run on every sample of the whole day and stepped up where it fell short. The likely "
+        "ranges come from the band's first samples."),
 }
 
 

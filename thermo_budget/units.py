@@ -274,6 +274,8 @@ def unit_label(kind: str, system: str) -> str:
 def round_up(value: float, digits: int) -> float:
     """Round up to `digits` decimals, so that a rounded size still suffices (the searches are
     monotone). A value a float's noise above a round figure (1e-9 of the last digit) stays on it."""
+    if not math.isfinite(value):
+        return float(value)
     return float(math.ceil(value * 10**digits - 1e-9) / 10**digits) + 0.0   # + 0.0: never -0.0
 
 

@@ -246,3 +246,25 @@ def test_every_fix_of_a_long_day_finishes_it_in_a_rerun():
     for fix in result.verdict.fixes:
         fixed = _with_fix(scenario, fix)
         assert verdict(fixed, {"pulls_planned": sum(step.is_pull for step in fixed.steps)}).fits, fix
+
+
+def test_skipping_the_samples_a_monotone_fix_cannot_fail_lists_the_same_fixes(failing, monkeypatch):
+    """The re-run of a fix skips the samples that finish the day as planned, and after a step up those
+    that finished at the smaller step (more cooler, oil or wait, or shorter pulls, can only cool a
+    day). Re-running every sample every round, as before, lists the same fixes at the same values."""
+    from thermo_budget.planning import fixes as fixes_module
+    scenario, quick = failing
+    monkeypatch.setattr(fixes_module, "_monotone_kinds", lambda scenario: set())
+    everything = verdict(scenario, {"pulls_planned": 24})
+    assert [(f.kind, f.value, f.tank_L) for f in quick.fixes] == [(f.kind, f.value, f.tank_L) for f in everything.fixes]
+
+
+def test_a_longer_wait_counts_as_cooling_only_where_no_wait_heats_the_oil():
+    from thermo_budget.planning.fixes import _monotone_kinds
+    engine_off = load_scenario(SCENARIOS / "us_20hp_small_tank.toml")      # its waits: engine off
+    assert _monotone_kinds(engine_off) == {"cooler", "oil_volume", "shorter_pulls", "wait"}
+    idling = load_scenario(SCENARIOS / "default.toml")                       # its wait idles at 150 W
+    assert _monotone_kinds(idling) == {"cooler", "oil_volume", "shorter_pulls"}
+    wait = next(i for i, step in enumerate(idling.raw["session"]["steps"]) if step["kind"] == "wait")
+    assert _monotone_kinds(_edited(idling, **{f"session.steps[{wait}].power": "0 W"})) == \
+        {"cooler", "oil_volume", "shorter_pulls", "wait"}

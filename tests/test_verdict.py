@@ -225,7 +225,8 @@ def test_a_size_at_the_confidence_is_the_verdict_s_fix_where_both_answer_it(fail
     card = cooler_card(result, "SI")
     assert f"{card.value} {card.unit}" == cooler + " of ETD"
     oil = tank_card(result, scenario.reservoir.oil_volume_m3, 0.05, "SI")
-    assert f"use {oil.value} L of oil" in fix_text(fixes["oil_volume"], "SI")
+    assert f"use {oil.value} L of oil" in fix_text(fixes["oil_volume"], "SI")       # two decimals, both
+    assert f"at 90 % confidence {oil.value} L" in "\n".join(band_lines(result))
     assert f"wait {wait_card(result, 60.0, 'SI').value} after" in fix_text(fixes["wait"], "SI")
 
 
@@ -257,6 +258,30 @@ def test_skipping_the_samples_a_monotone_fix_cannot_fail_lists_the_same_fixes(fa
     monkeypatch.setattr(fixes_module, "_monotone_kinds", lambda scenario: set())
     everything = verdict(scenario, {"pulls_planned": 24})
     assert [(f.kind, f.value, f.tank_L) for f in quick.fixes] == [(f.kind, f.value, f.tank_L) for f in everything.fixes]
+
+
+def test_a_day_that_starts_colder_than_its_air_is_re_run_whole():
+    """Oil colder than the air is warmed by a cooler or a longer wait, so on such a day a sample that
+    finished as planned can fail with the fix: every sample is re-run there. (An independent review's
+    rig: 35 degC air, a 5 degC start, a 39 degC limit, engine-off waits. Skipping those samples listed
+    a cooler of 535.5 W/K that only 97 of 128 samples finish the day with, 116 needed.)"""
+    from thermo_budget.planning import fixes as fixes_module
+    base = load_scenario(SCENARIOS / "default.toml")
+    wait = next(i for i, step in enumerate(base.raw["session"]["steps"]) if step["kind"] == "wait")
+    raw = base.raw
+    raw["session"]["steps"][wait] = {"kind": "wait", "duration": raw["session"]["steps"][wait]["duration"], "engine": "off"}
+    cold = _edited(load_scenario(raw), **{"ambient": "35 degC", "session.start_temperature": "5 degC",
+                                          "fluid.max_temperature": "39 degC"})
+    assert fixes_module._monotone_kinds(cold) >= {"cooler", "wait"}
+    quick = verdict(cold, {"pulls_planned": 10})
+    original = fixes_module._monotone_kinds
+    try:
+        fixes_module._monotone_kinds = lambda scenario: set()
+        everything = verdict(cold, {"pulls_planned": 10})
+    finally:
+        fixes_module._monotone_kinds = original
+    assert not quick.fits
+    assert [(f.kind, f.value) for f in quick.fixes] == [(f.kind, f.value) for f in everything.fixes]
 
 
 def test_a_longer_wait_counts_as_cooling_only_where_no_wait_heats_the_oil():

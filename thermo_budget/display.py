@@ -53,6 +53,11 @@ def unit_symbol(quantity: str, system: str) -> str:
     return UNIT_LABEL[QUANTITIES[quantity][1][system]]
 
 
+# An oil volume to plan with (the verdict's fix, the plan at the confidence: its line and card) is
+# shown to two decimals in either unit system, rounded up: the same figure everywhere it appears.
+OIL_TO_PLAN_DIGITS = 2
+
+
 def decimals(quantity: str, system: str) -> int:
     return QUANTITIES[quantity][2][system]
 

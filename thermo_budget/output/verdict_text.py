@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from ..display import format_temperature, shown_duration
+from ..display import OIL_TO_PLAN_DIGITS, decimals, format_temperature, shown_duration
 from ..units import ZERO_CELSIUS_K, rounded_up_text, to_display, unit_label
 from ..planning.fixes import Fix
 from ..planning.verdict import Verdict
@@ -55,8 +55,9 @@ def fix_text(fix: Fix, system: str) -> str:
     if fix.kind == "wait":
         return f"wait {shown_duration(fix.value, round_up=True)} after every pull"
     if fix.kind == "oil_volume":
-        tank = "" if fix.tank_L is None else f", in a tank of the same shape of {_size(fix.tank_L / 1000.0, 'volume', system, 0)}"
-        return f"use {_size(fix.value / 1000.0, 'volume', system, 1)} of oil{tank}"
+        tank = ("" if fix.tank_L is None else
+                f", in a tank of the same shape of {_size(fix.tank_L / 1000.0, 'volume', system, decimals('oil_volume', system))}")
+        return f"use {_size(fix.value / 1000.0, 'volume', system, OIL_TO_PLAN_DIGITS)} of oil{tank}"
     if fix.kind == "cooler":
         return f"fit an oil cooler of {_size(fix.value, 'conductance', system, 1)} of ETD (its total rating)"
     if fix.kind == "fewer_pulls":

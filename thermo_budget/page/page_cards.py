@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from ..display import shown, shown_celsius, shown_duration
+from ..display import OIL_TO_PLAN_DIGITS, shown, shown_celsius, shown_duration
 from ..planning.planning import MAX_PULLS
 from ..planning.results import Report
 from ..units import ZERO_CELSIUS_K
@@ -180,7 +180,7 @@ def tank_card(answers: Report, oil_volume_m3: float, tank_m3: float, system: str
     if smallest is None:
         value, unit = "Not possible", ""
     else:
-        value, unit = _number(smallest / 1000.0, "oil_volume", system, up=True)
+        value, unit = _number(smallest / 1000.0, "oil_volume", system, OIL_TO_PLAN_DIGITS, up=True)
         unit = f"{unit} of oil"
         scale = smallest / 1000.0 / oil_volume_m3
         details.append(f"In a tank of {shown(tank_m3 * scale, 'oil_volume', system)} (your tank's shape, scaled)"

@@ -233,13 +233,17 @@ def report(scenario: Scenario, trace: Trace | None = None) -> Report:
 
 def _plan_sizes_from_fixes(result: dict, sizes: dict):
     """One figure per question: where a verified fix answers a band size at the confidence, the band
-    shows the fix's value, with a note where that moved it."""
+    shows the fix's value, with a note naming the sizes that moved. Not where the band is off: the
+    plan is then the point answers, and the fixes were run on the point rig alone."""
+    if not (result.get("uncertainty") or {}).get("samples"):
+        return
     plan = result.get("plan_at_confidence") or {}
     moved = {key: value for key, value in sizes.items() if plan.get(key) is not None and plan[key] != value}
     if not moved:
         return
     plan.update(moved)
-    result["notes"].append(note_words("sizes_from_fixes", {"confidence": result["confidence"]}))
+    result["notes"].append(note_words("sizes_from_fixes", {"confidence": result["confidence"], "keys": list(moved),
+                                                        "sizing_samples": result["uncertainty"].get("sizing_samples")}))
 
 
 def _passive_shares(rig, limit_K: float) -> dict:

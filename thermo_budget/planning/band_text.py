@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from ..display import OIL_TO_PLAN_DIGITS
 from ..units import ZERO_CELSIUS_K, rounded_up_text, to_display, unit_label
 
 if TYPE_CHECKING:
@@ -11,7 +12,7 @@ if TYPE_CHECKING:
 # answer key -> (label, display kind, SI scale from the report's unit, digits)
 _SIZES = {"min_wait_s": ("minimum wait", None, 1.0, 0),
           "cooler_required_W_per_K": ("cooler", "conductance", 1.0, 1),
-          "min_oil_volume_L": ("smallest oil volume", "volume", 1e-3, 2)}
+          "min_oil_volume_L": ("smallest oil volume", "volume", 1e-3, OIL_TO_PLAN_DIGITS)}
 
 
 def _value(value, kind, scale, digits, system, up: bool = False) -> str:

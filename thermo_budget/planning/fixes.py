@@ -16,6 +16,7 @@ from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at
                           share_fits)
 from ..inputs.rig_build import build_rig
 from ..inputs.scenario import limit_K
+from ..inputs.uncertainty import sample_rig
 from ..units import round_up
 
 FIX_KINDS = ("wait", "oil_volume", "cooler", "fewer_pulls", "shorter_pulls")
@@ -233,27 +234,38 @@ def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
 
 
 def _monotone_kinds(scenario) -> set:
-    """The fix kinds whose step up can only cool every sample's day: more cooler, more oil (in a larger
-    tank of the same shape), shorter pulls, and longer waits where no wait heats the oil (an idling
-    engine's parasitic load can make a longer wait warmer). A sample that finished the day at one
-    value of these finishes it at a larger one (the network is cooperative), so it is not re-run."""
+    """The fix kinds whose step up can only cool a day that starts no colder than its air: more
+    cooler, more oil (in a larger tank of the same shape), shorter pulls, and longer waits where no
+    wait heats the oil (an idling engine's parasitic load can make a longer wait warmer). On such a
+    day the oil never falls below the air (the network is cooperative, its sources not negative), so
+    every path to the air only takes heat out, and more of it cools. A day that starts colder than
+    its air is warmed by a cooler or a longer wait while it is: see _starts_no_colder."""
     kinds = {"cooler", "oil_volume", "shorter_pulls"}
     if all(step.power_W <= 0.0 for step in scenario.cycle if not step.is_pull):
         kinds.add("wait")
     return kinds
 
 
+def _starts_no_colder(scenario, samples: Samples) -> np.ndarray:
+    """Per sample, whether the day starts at or above that sample's air (the ambient is one of the
+    band's uncertain inputs): only there is a monotone fix's step up sure to cool the day."""
+    rig = build_rig(scenario)
+    air = np.asarray(sample_rig(rig, samples.values).ambient_K if samples.values else rig.ambient_K, dtype=float)
+    return np.broadcast_to(np.min(scenario.start_K) >= air, (samples.n,)).copy()
+
+
 def _verified(scenario, samples: Samples, searched: dict, confidence: float, base: DayOutcome) -> list:
     """The searched fixes re-run on every sample, each alone; one that falls short is stepped up
     (STEP_UP) and re-run, up to VERIFY_ROUNDS times, and dropped if it never finishes the day. A fix of
-    a monotone kind (_monotone_kinds) is not re-run on the samples that finish the day as planned
-    (base, with RERUN_AGREEMENT_K more to spare), nor, after a step up, on those that finished it at
-    the smaller step."""
+    a monotone kind (_monotone_kinds) is not re-run on the samples whose day starts no colder than
+    their air and that finish it as planned (base, with RERUN_AGREEMENT_K more to spare), nor, after a
+    step up, on those that finished it at the smaller step."""
     values = dict(searched)
     passed = {}
     planned_oil = scenario.reservoir.oil_volume_m3
     monotone = _monotone_kinds(scenario)
-    clear = base.limiting_peak_K[:samples.n] <= limit_K(scenario)[0] - SEARCH_MARGIN_K - RERUN_AGREEMENT_K
+    settled = _starts_no_colder(scenario, samples)     # samples whose day a monotone step up only cools
+    clear = settled & (base.limiting_peak_K[:samples.n] <= limit_K(scenario)[0] - SEARCH_MARGIN_K - RERUN_AGREEMENT_K)
     known = {kind: clear.copy() for kind in values}    # samples known to finish the day with the fix
     starts = PeriodicStarts(len(FIX_KINDS) * samples.n)     # item: a kind's sample, round after round
     for _ in range(VERIFY_ROUNDS):
@@ -268,10 +280,10 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float, bas
         finishes = _finishes(scenario, samples, index, Change.of(names, x), (starts, items))
         done = 0
         for kind in kinds:
-            finished = known[kind] & (kind in monotone)
+            finished = known[kind].copy()
             finished[runs[kind]] = finishes[done:done + runs[kind].size]
             done += runs[kind].size
-            known[kind] = finished
+            known[kind] = finished & settled & (kind in monotone)   # what a step up cannot undo
             if share_fits(finished, confidence):
                 passed[kind] = values[kind]
             elif kind == "shorter_pulls":

@@ -12,7 +12,7 @@ from ..engine.session import PLAN_RESOLUTION
 from ..engine.solver import integrate, take_systems
 from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability
 from ..physics.rig import take_designs
-from ..units import round_up  # noqa: F401 (planning.round_up: the sizing answers' rounding)
+from ..units import round_up
 
 MAX_PULLS = 2000           # runs-before-limit search gives up beyond this many pulls (far beyond a day)
 GRID_POINTS = 24           # candidates per round of a batched search

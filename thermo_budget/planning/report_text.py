@@ -63,6 +63,18 @@ def _pull_not_scheduled(index: int, engine: str, ready_temperature: bool) -> str
     return f"Pull {index} cannot be scheduled: {why}; the schedule stops before it."
 
 
+_SIZE_NAMES = {"min_wait_s": "minimum wait", "cooler_required_W_per_K": "cooler", "min_oil_volume_L": "oil volume"}
+
+
+def _sizes_from_fixes(confidence: float, keys: list, sizing_samples: int | None) -> str:
+    names = [_SIZE_NAMES[key] for key in keys]
+    what = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
+    verb = "is" if len(names) == 1 else "are"
+    return (f"The {what} at {100 * confidence:.0f} % confidence {verb} the verdict's fix: re-run on every sample "
+            "of the whole day and stepped up (x 1.08) where it fell short, so up to 8 % above the smallest that "
+            f"suffices. The likely ranges come from the band's first {sizing_samples or 'few'} samples.")
+
+
 # The planning answers' notes: what the searches found (planning.py, ready_schedule.py,
 # answers.planning_answers give a code and its values), in words.
 _NOTES = {
@@ -84,10 +96,7 @@ _NOTES = {
     "no_oil_volume_suffices": lambda largest_L: (
         f"Even {largest_L:.0f} L of oil in a tank of the same shape would not finish the session."),
     "pull_not_scheduled": _pull_not_scheduled,
-    "sizes_from_fixes": lambda confidence: (
-        f"The sizes at {100 * confidence:.0f} % confidence that the verdict also lists as fixes are the fixes' "
-        "own: each was re-run on every sample of the whole day and stepped up where it fell short. The likely "
-        "ranges come from the band's first samples."),
+    "sizes_from_fixes": _sizes_from_fixes,
 }
 
 

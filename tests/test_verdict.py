@@ -228,6 +228,10 @@ def test_a_size_at_the_confidence_is_the_verdict_s_fix_where_both_answer_it(fail
     assert f"use {oil.value} L of oil" in fix_text(fixes["oil_volume"], "SI")       # two decimals, both
     assert f"at 90 % confidence {oil.value} L" in "\n".join(band_lines(result))
     assert f"wait {wait_card(result, 60.0, 'SI').value} after" in fix_text(fixes["wait"], "SI")
+    for system in ("SI", "US"):      # the tank that holds it: the same figure in the fix and on the card
+        card = tank_card(result, scenario.reservoir.oil_volume_m3, scenario.reservoir.inner_volume_m3, system)
+        tank = card.details[0].split("In a tank of ")[1].split(" (")[0]
+        assert fix_text(fixes["oil_volume"], system).endswith(f"in a tank of the same shape of {tank}"), system
 
 
 def test_every_fix_of_the_report_s_verdict_finishes_the_day_in_a_rerun(failing_report):

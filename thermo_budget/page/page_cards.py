@@ -183,7 +183,7 @@ def tank_card(answers: Report, oil_volume_m3: float, tank_m3: float, system: str
         value, unit = _number(smallest / 1000.0, "oil_volume", system, OIL_TO_PLAN_DIGITS, up=True)
         unit = f"{unit} of oil"
         scale = smallest / 1000.0 / oil_volume_m3
-        details.append(f"In a tank of {shown(tank_m3 * scale, 'oil_volume', system)} (your tank's shape, scaled)"
+        details.append(f"In a tank of {shown(tank_m3 * scale, 'oil_volume', system, up=True)} (your tank's shape, scaled)"
                        + (f", {shown(answers.headroom_at_limit_L / 1000.0 * scale, 'oil_volume', system)} "
                           "free at the limit." if answers.headroom_at_limit_L is not None else "."))
     details.append(f"You have {shown(oil_volume_m3, 'oil_volume', system)} of oil.")

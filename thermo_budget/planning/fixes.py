@@ -298,8 +298,10 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float, bas
             fixes.append(Fix(kind, _round_down(value * _pull_seconds(scenario).max(), 1), confidence))
         elif kind == "oil_volume":
             litres = round_up(value * 1000.0, 2)
-            tank = scenario.reservoir.footprint_m2 * scenario.reservoir.height_m * value / planned_oil
-            fixes.append(Fix(kind, litres, confidence, tank_L=round_up(tank * 1000.0, 1)))
+            # the tank that holds the oil as listed (the plan's card scales the same), kept to the mL so that
+            # another unit's rounding starts from the figure, not from a figure already rounded up
+            tank = scenario.reservoir.footprint_m2 * scenario.reservoir.height_m * (litres / 1000.0) / planned_oil
+            fixes.append(Fix(kind, litres, confidence, tank_L=round_up(tank * 1000.0, 3)))
         else:
             fixes.append(Fix(kind, round_up(value, 1 if kind == "wait" else 2), confidence))
     return fixes

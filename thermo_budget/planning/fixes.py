@@ -264,8 +264,8 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float, bas
     passed = {}
     planned_oil = scenario.reservoir.oil_volume_m3
     monotone = _monotone_kinds(scenario)
-    settled = _starts_no_colder(scenario, samples)     # samples whose day a monotone step up only cools
-    clear = settled & (base.limiting_peak_K[:samples.n] <= limit_K(scenario)[0] - SEARCH_MARGIN_K - RERUN_AGREEMENT_K)
+    cools_only = _starts_no_colder(scenario, samples)     # samples whose day a monotone step up only cools
+    clear = cools_only & (base.limiting_peak_K[:samples.n] <= limit_K(scenario)[0] - SEARCH_MARGIN_K - RERUN_AGREEMENT_K)
     known = {kind: clear.copy() for kind in values}    # samples known to finish the day with the fix
     starts = PeriodicStarts(len(FIX_KINDS) * samples.n)     # item: a kind's sample, round after round
     for _ in range(VERIFY_ROUNDS):
@@ -283,7 +283,7 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float, bas
             finished = known[kind].copy()
             finished[runs[kind]] = finishes[done:done + runs[kind].size]
             done += runs[kind].size
-            known[kind] = finished & settled & (kind in monotone)   # what a step up cannot undo
+            known[kind] = finished & cools_only & (kind in monotone)   # what a step up cannot undo
             if share_fits(finished, confidence):
                 passed[kind] = values[kind]
             elif kind == "shorter_pulls":

@@ -124,7 +124,9 @@ def _settled(page, expected_pulls: str, unit_text: str):
         " const h = document.querySelector('.tb-card[data-key=hottest]');"
         " return v && h && v.innerText.trim() === pulls && h.innerText.includes(unit); }",
         arg=[expected_pulls, unit_text], timeout=ANSWER_TIMEOUT_MS)
-    page.locator('[data-testid="stImage"] img').nth(2).wait_for(timeout=ANSWER_TIMEOUT_MS)
+    page.wait_for_function(   # the three charts, each drawn by the browser (a canvas or an svg)
+        "() => [...document.querySelectorAll('[data-testid=stVegaLiteChart]')]"
+        ".filter(c => c.querySelector('canvas, svg')).length >= 3", timeout=ANSWER_TIMEOUT_MS)
     page.get_by_text("Across the chart's range").first.wait_for(timeout=ANSWER_TIMEOUT_MS)
     _idle(page)
 

@@ -113,14 +113,14 @@ def test_design_chart_from_real_sweep(default, default_report):
 
 @pytest.mark.parametrize("planned,cap", [(12, 48), (10, 40), (1, 40), (40, 160), (3, 40), (26, 104)])
 def test_run_levels_are_built_around_the_plan(planned, cap):
-    from thermo_budget.output.plots import _band_colours, _run_levels
-    levels = _run_levels(planned, cap)
+    from thermo_budget.output.plots import band_colours, run_levels
+    levels = run_levels(planned, cap)
     assert levels[0] == 0 and all(a < b for a, b in zip(levels, levels[1:]))
     assert planned in levels and cap in levels
     assert levels[-1] > cap                     # the "all day" band above the cap
     below = [lv for lv in levels[:-1] if lv < planned]
     assert len(below) >= min(planned, 3)        # the plan's own neighbourhood gets bands of its own
-    colours = _band_colours(levels, planned)
+    colours = band_colours(levels, planned)
     assert len(colours) == len(levels) - 1
     warm, cool = colours[:len(below)], colours[len(below):]
     assert all(c[0] > c[2] for c in warm) and all(c[2] > c[0] for c in cool)   # red below the plan, blue from it

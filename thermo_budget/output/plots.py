@@ -104,7 +104,7 @@ def _draw_trace(scenario, trace, system: str) -> Figure:
     return fig
 
 
-def _run_levels(planned: int, cap: int) -> list:
+def run_levels(planned: int, cap: int) -> list:
     """Edges of the colour bands for pulls before the limit, built around the planned pulls P:
     0, P/4, P/2, 3P/4, P, 1.5P, 2P, 3P and the cap (the most pulls the sweep counts); one band
     more, above the cap, holds the designs that go on all day or past the cap."""
@@ -115,7 +115,7 @@ def _run_levels(planned: int, cap: int) -> list:
     return edges + [cap + max(1, cap // 4)]
 
 
-def _band_colours(levels: list, planned: int):
+def band_colours(levels: list, planned: int):
     """One colour per band: warm (red to yellow) below the plan, cool (pale to deep blue) from the
     plan up, and the deepest blue for "all day"."""
     below = [lv for lv in levels[:-1] if lv < planned]
@@ -166,7 +166,7 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
     all_day = np.asarray(r.sustainable, dtype=bool)
     planned = int(r.pulls_planned)
     cap = int(getattr(r, "max_pulls", max(4 * planned, 40)))
-    levels = _run_levels(planned, cap)
+    levels = run_levels(planned, cap)
     filled = np.where(unlimited, 0.5 * (levels[-2] + levels[-1]), np.minimum(runs, cap))
 
     with matplotlib.rc_context(PAGE_FONTS):
@@ -174,7 +174,7 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
         fig.subplots_adjust(left=0.15, right=0.80, bottom=0.33, top=0.93)
         ax = fig.add_subplot()
         X, Y = np.meshgrid(volumes, coolers, indexing="ij")
-        colours = _band_colours(levels, planned)
+        colours = band_colours(levels, planned)
         cmap = ListedColormap(colours)
         norm = BoundaryNorm(levels, cmap.N)
         bands = ax.contourf(X, Y, filled, levels=levels, cmap=cmap, norm=norm)

@@ -1,6 +1,7 @@
-"""The page's two charts as pure functions of a scenario's TOML text, returning PNG bytes.
+"""The page's charts as pure functions of a scenario's TOML text: Vega-Lite specifications for
+the browser to draw (output/vega_charts.py), and PNG bytes of the same charts for the downloads.
 
-Text in, bytes out: easy to cache by the scenario's text, and nothing here depends on Streamlit.
+Text in, spec or bytes out: easy to cache by the scenario's text, and nothing here depends on Streamlit.
 """
 from __future__ import annotations
 
@@ -14,6 +15,7 @@ import numpy as np
 from ..display import to_shown
 from ..planning.design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
 from ..output.plots import legend_below, plot_design_chart, plot_hot_day, plot_trace
+from ..output.vega_charts import ENVELOPE_COLOUR, ENVELOPE_LABEL, design_spec, hot_day_spec, trace_spec
 from ..planning.results import Report
 from ..planning.answers import simulate
 from ..inputs.scenario import load_scenario, read_toml_text
@@ -72,9 +74,6 @@ def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:
     return png_bytes(plot_hot_day(scenario, hot_day(scenario) if hot is None else hot, system))
 
 
-ENVELOPE_COLOUR = "#b5461f"
-
-
 def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
     """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
     figure = trace_chart_figure(toml_text, system, trace)
@@ -84,19 +83,27 @@ def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> b
         low = to_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, "temperature", system)
         high = to_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, "temperature", system)
         ax.fill_between(minutes, low, high, color=ENVELOPE_COLOUR, alpha=0.18, lw=0, zorder=1,
-                        label="bulk oil, likely range (P10-P90)")
+                        label=ENVELOPE_LABEL)
         legend_below(figure, ax)
     return png_bytes(figure)
+
+
+def trace_chart_spec(toml_text: str, system: str, trace, envelope: dict | None) -> dict:
+    """The temperature chart (with the band's P10-P90 envelope where given) as a Vega-Lite spec."""
+    return trace_spec(load_scenario(read_toml_text(toml_text)), trace, system, envelope)
 
 
 # --- the design chart and the hot day, kept by the scenario's text -------------------------------------
 
 @dataclass(frozen=True)
 class SlowCharts:
-    """design_png : the design chart; hot : hot_day.HotDay of the scenario; hot_png : its chart."""
-    design_png: bytes
+    """The design chart and the hot day of one scenario in one unit system.
+    sweep : design_sweep.SweepResult, the design chart's grid; design_spec : its Vega-Lite chart;
+    hot : hot_day.HotDay of the scenario; hot_spec : its Vega-Lite chart."""
+    sweep: object
+    design_spec: dict
     hot: object
-    hot_png: bytes
+    hot_spec: dict
 
 
 KEEP = CHARTS_KEPT              # design sweeps and hot days kept, by scenario text
@@ -128,7 +135,8 @@ def _hot_day(toml_text: str):
 def slow_charts(toml_text: str, system: str, answers: Report | None = None) -> SlowCharts:
     """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`
     (answers: its report, if known). The sweep and the hot day are kept by text, so a change of
-    units only redraws."""
-    hot = _hot_day(toml_text)
-    return SlowCharts(design_chart_png(toml_text, system, result=_sweep(toml_text, answers)), hot,
-                      hot_day_chart_png(toml_text, system, hot))
+    units only redraws. Their pictures (design_chart_png, hot_day_chart_png) are drawn only when
+    asked for."""
+    scenario = load_scenario(read_toml_text(toml_text))
+    sweep, hot = _sweep(toml_text, answers), _hot_day(toml_text)
+    return SlowCharts(sweep, design_spec(scenario, sweep, system), hot, hot_day_spec(scenario, hot, system))

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 
 import streamlit as st
 
+from . import page_charts
 from . import page_inputs as pi
 from . import page_state as state
 from .page_state import PagePlan
@@ -62,7 +63,7 @@ def charts(page: PagePlan) -> Slots:
     left, right = st.columns(2)
     with left:
         st.markdown("**Temperatures through the planned session**")
-        st.image(state.trace_png(page.toml_text, page.system), width="stretch")
+        st.vega_lite_chart(state.trace_spec(page.toml_text, page.system), width="stretch")
     right.markdown("**Design chart: more oil or a cooler?**")
     return Slots(design_chart=right, design_download=None)
 
@@ -120,8 +121,8 @@ def files(page: PagePlan, slots: Slots):
                        mime="application/toml", help="Open it again here or run it from the command line.")
     d2.download_button("Trace (.csv)", pi.trace_csv_shown(state.trace_for(page.toml_text), system),
                        file_name="trace.csv", mime="text/csv", help="Temperatures against time, in the units shown.")
-    d3.download_button("Temperature chart (.png)", state.trace_png(page.toml_text, system), file_name="trace.png",
-                       mime="image/png")
+    d3.download_button("Temperature chart (.png)", state.trace_png_later(page.toml_text, system),
+                       file_name="trace.png", mime="image/png")
     slots.design_download = d4
 
 
@@ -170,7 +171,7 @@ def _draw_hot_day(page: PagePlan, place):
     from ..planning.hot_day import AROUND_K, DEFAULT_RANGE_C
     with place, st.spinner("Working out a hotter day…"):
         charts = state.slow_charts(page.toml_text, page.system)
-        hot, image = charts.hot, charts.hot_png
+        hot = charts.hot
     system = page.system
     left, right = place.columns(2)
     left.markdown("**On a hotter (or colder) day**")
@@ -190,17 +191,25 @@ def _draw_hot_day(page: PagePlan, place):
         sentences.append(f"on a {pi.shown(ambient, 'temperature', system, 0)} day{today}: {count}, {need}")
     if sentences:     # every bar of the chart, coldest first
         left.markdown("Across the chart's range:\n" + "\n".join(f"- {s}" for s in sentences))
-    right.image(image, width="stretch")
+    right.vega_lite_chart(charts.hot_spec, width="stretch")
 
 
 def design_chart(page: PagePlan, slots: Slots):
     """The slowest part of the page (a sweep over 100 rigs), drawn into its place once everything
     else is up; until then the page keeps showing the previous chart. Then the sections that asked
     to come after it."""
+    text, system = page.toml_text, page.system
+    charts = state.slow_charts(text, system)
     with slots.design_chart:
-        image = state.slow_charts(page.toml_text, page.system).design_png
-        st.image(image, width="stretch")
-    slots.design_download.download_button("Design chart (.png)", image, file_name="design_chart.png",
-                                          mime="image/png")
+        st.vega_lite_chart(charts.design_spec, width="stretch")
+        planned = charts.sweep.pulls_planned
+        st.caption(f"Each cell is one rig: its oil (tank scaled to fit) and its cooler, repeating your cycle from "
+                   f"a cold start. The white line parts the rigs that fit your {planned} planned pulls from those "
+                   "that do not; ∞: can go on all day; the red star: your rig now. ETD: entering temperature "
+                   "difference (oil into the cooler minus air).")
+    sweep = charts.sweep
+    slots.design_download.download_button(
+        "Design chart (.png)", lambda: page_charts.design_chart_png(text, system, result=sweep),
+        file_name="design_chart.png", mime="image/png")
     for draw in slots.later:
         draw()

@@ -49,8 +49,15 @@ def slow_charts(toml_text: str, system: str) -> page_charts.SlowCharts:
 
 
 @st.cache_data(max_entries=64, show_spinner=False)
-def trace_png(toml_text: str, system: str) -> bytes:
-    return page_charts.envelope_png(toml_text, system, trace_for(toml_text), answers_for(toml_text).band.envelope)
+def trace_spec(toml_text: str, system: str) -> dict:
+    """The temperature chart with the band's envelope, as a Vega-Lite spec for the browser."""
+    return page_charts.trace_chart_spec(toml_text, system, trace_for(toml_text), answers_for(toml_text).band.envelope)
+
+
+def trace_png_later(toml_text: str, system: str):
+    """The temperature chart's picture, drawn only when called (a download asks for it on a click)."""
+    trace, envelope = trace_for(toml_text), answers_for(toml_text).band.envelope
+    return lambda: page_charts.envelope_png(toml_text, system, trace, envelope)
 
 
 @st.cache_resource(max_entries=8, show_spinner="Fitting the model to the log…")

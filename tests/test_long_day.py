@@ -63,7 +63,7 @@ def test_a_long_day_s_peak_stands_in_by_the_periodic_one_only_where_it_is_settle
     whole = limiting_peak_K(integrate(rig, scenario.steps, scenario.start_K, n_designs=VOLUME_FACTORS.size,
                                       resolution=PLAN_RESOLUTION), *limits_K(scenario))
     target = limits_K(scenario)[0] - SEARCH_MARGIN_K
-    proven, settled, _ = session_runs._proven_under(scenario, rig, VOLUME_FACTORS.size, SEARCH_MARGIN_K, None)
+    proven, settled, _, _ = session_runs._proven_under(scenario, rig, VOLUME_FACTORS.size, SEARCH_MARGIN_K, None)
     peak = session_peak_K(scenario, rig, VOLUME_FACTORS.size, threshold_K=target)
     np.testing.assert_allclose(peak, whole, atol=0.025)
     assert np.all(proven == (whole <= target)) and not settled[-1]

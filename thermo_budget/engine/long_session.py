@@ -11,7 +11,10 @@ two changes (the contraction rho) bound what all later cycles can still add, d r
 Once that bound is under PERIODIC_TOLERANCE_K for every design, the later cycles are the last one
 repeated: its records copied with their times shifted by one cycle each, its heat in counted once
 per cycle, and as much heat lost as gone in (a periodic cycle stores nothing). So the work of a
-1,000-pull day is that of the pulls it takes to settle, not of its length.
+1,000-pull day is that of the pulls it takes to settle, not of its length. Where only the peak is
+wanted (session_limiting_peak_K), a design that rises towards its periodic state slowly enough not
+to settle within the day jumps to its last cycles instead, once the jump is accurate enough
+(cycle_jump).
 """
 from __future__ import annotations
 
@@ -19,6 +22,7 @@ import numpy as np
 
 from ..physics.network import N_NODES
 from ..physics.rig import take_designs
+from .cycle_jump import LAST_CYCLES_RUN, JumpState, SessionRun, jumped
 from .outcome import limiting_peak_K
 from .session import Resolution
 from .solver import Trace, integrate, take_systems
@@ -85,7 +89,7 @@ def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> bool:
 
 def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple, cycle_s=None,
                             resolution: Resolution = Resolution(), decided_above_K: float | None = None,
-                            tolerance_K: float = PERIODIC_TOLERANCE_K) -> np.ndarray:
+                            tolerance_K: float = PERIODIC_TOLERANCE_K, periodic: tuple | None = None) -> np.ndarray:
     """The limiting peak (outcome.limiting_peak_K against limits_K, (bulk, return line or None)) of
     the planned session of n designs, K (N,), where only the peak is wanted, not the trace.
 
@@ -93,8 +97,11 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     cycle. A session of up to LONG_SESSION_CYCLES cycles is one integration, as integrate_session's.
     A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk with only the designs still
     open: a design is closed once its peak so far passes decided_above_K (its peak is then a lower
-    bound, above that; only for a caller that needs no more) or once it is periodic (_settled_designs:
-    all later cycles repeat its last to tolerance_K, so they add nothing to its peak)."""
+    bound, above that; only for a caller that needs no more), once it is periodic (_settled_designs:
+    all later cycles repeat its last to tolerance_K, so they add nothing to its peak), or once its
+    last cycles can be run from a state had by the cycle jump (cycle_jump.jumped). periodic :
+    optional (the periodic states (N,k) K, converged or not, their residuals F(X) - X (N,k) K,
+    usable (N,) bool), as session_runs.periodic_state leaves them; without it, no jump."""
     cycle, repeat = list(scenario.cycle), int(scenario.repeat)
     durations = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n_designs,)) for d in cycle_s]
     if repeat <= LONG_SESSION_CYCLES:
@@ -106,8 +113,11 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     open_ = np.arange(n_designs)
     t, done = np.zeros(n_designs), 0
     systems: dict = {}
+    jump_state = None if periodic is None else JumpState(*periodic)
+    run = SessionRun(rig, cycle, durations, resolution, limits_K)
     while done < repeat and open_.size:
         cycles = min(CHUNK_CYCLES, repeat - done)
+        X_before = X[open_].copy()
         piece = integrate(take_designs(rig, open_), cycle * cycles, X[open_], n_designs=open_.size, start_time_s=t[open_],
                           durations_s=None if durations is None else [d[open_] for d in durations] * cycles,
                           resolution=resolution, systems=systems)
@@ -117,6 +127,9 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
         closed = np.zeros(open_.size, bool) if cycles < 3 else _settled_designs(piece, len(cycle), tolerance_K)
         if decided_above_K is not None:
             closed |= peak[open_] > decided_above_K
+        if periodic is not None and repeat - done > LAST_CYCLES_RUN and cycles >= 3:
+            starts = piece.T_K[_cycle_starts(piece, len(cycle))]
+            closed |= jumped(jump_state, run, starts, open_, X_before, closed, repeat - done, peak, systems)
         open_ = open_[~closed]
         systems = take_systems(systems, np.flatnonzero(~closed))
     return peak

@@ -67,7 +67,9 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
     """On a long session (more than LONG_SESSION_CYCLES cycles), from the periodic state and without
     integrating the session: (proven (N,) bool: designs whose whole session is proven to peak at least
     margin_K under the limit; settled (N,) bool: those of them whose session ends periodic to
-    SETTLED_K; their periodic peak (N,) K).
+    SETTLED_K; their periodic peak (N,) K; (the periodic states (N,k) K, converged or not, their
+    residuals F(X) - X (N,k) K, usable (N,) bool: finite, with a path for heat to leave) for
+    long_session's cycle jump, or None on a short session).
 
     The network is cooperative, so a start no warmer than the periodic state approaches it from below
     and never peaks above it (see sustainability): the periodic peak bounds the session's from above.
@@ -81,7 +83,7 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
     a factor of 2). A short session proves nothing this way (it is integrated as it is, to the end).
     starts : optional (PeriodicStarts, the items of its search that the n designs are)."""
     if scenario.repeat <= LONG_SESSION_CYCLES:
-        return np.zeros(n, bool), np.zeros(n, bool), np.full(n, np.nan)
+        return np.zeros(n, bool), np.zeros(n, bool), np.full(n, np.nan), None
     cycle_map: dict = {}
     X0 = None if starts is None else starts[0].of(starts[1], scenario.start_K)
     X, peak, ok = periodic_state(scenario, rig, n, X0=X0, cycle_s=cycle_s, cycle_map_out=cycle_map)
@@ -92,7 +94,12 @@ def _proven_under(scenario: Scenario, rig: Rig, n: int, margin_K: float, cycle_s
     with np.errstate(all="ignore"):
         left = np.linalg.matrix_power(cycle_map["jacobian"], scenario.repeat - 1) @ (scenario.start_K - X)[..., None]
         unsettled = 2.0 * np.max(np.abs(left[..., 0]), axis=1)
-    return proven, proven & (unsettled < SETTLED_K), peak
+    usable = _has_loss_path(rig) & np.all(np.isfinite(X), axis=1) & np.all(np.isfinite(cycle_map["residual"]), axis=1)
+    return proven, proven & (unsettled < SETTLED_K), peak, (X, cycle_map["residual"], usable)
+
+
+def _periodic_of(periodic: tuple | None, index) -> tuple | None:
+    return None if periodic is None else tuple(part[index] for part in periodic)
 
 
 def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None,
@@ -106,12 +113,12 @@ def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycl
     cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
-    ok, _, _ = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
+    ok, _, _, periodic = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
     rest = np.flatnonzero(~ok)
     if rest.size:
         ok[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,
                                            _designs_of(cycle_s, rest), PLAN_RESOLUTION,
-                                           decided_above_K=threshold) <= threshold
+                                           decided_above_K=threshold, periodic=_periodic_of(periodic, rest)) <= threshold
     return ok
 
 
@@ -142,11 +149,12 @@ def session_peak_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None, threshold
     that the n designs are)."""
     limit, _ = limit_K(scenario)
     margin = 0.0 if threshold_K is None else limit - threshold_K
-    _, settled, peak = _proven_under(scenario, rig, n, margin, cycle_s, starts)
+    _, settled, peak, periodic = _proven_under(scenario, rig, n, margin, cycle_s, starts)
     rest = np.flatnonzero(~settled)
     if rest.size:
         peak[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size,
-                                             limits_K(scenario), _designs_of(cycle_s, rest), PLAN_RESOLUTION)
+                                             limits_K(scenario), _designs_of(cycle_s, rest), PLAN_RESOLUTION,
+                                             periodic=_periodic_of(periodic, rest))
     return peak
 
 
@@ -206,7 +214,8 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     The peak is that of the cycle run from the returned state, which is periodic to NEWTON_TOL_K
     (the bulk peak, or outcome.limiting_peak_K where a return-line limit is set). cycle_s or wait_s :
     as session_trace's. cycle_map_out : optional dict that receives "jacobian", the one-cycle map's
-    Jacobian at the returned state (N,k,k) (the last finite-difference one, Broyden-updated).
+    Jacobian at the returned state (N,k,k) (the last finite-difference one, Broyden-updated), and
+    "residual", F(X) - X at the returned state (N,k) K.
     """
     cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     cycle_s = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n,)) for d in cycle_s]
@@ -253,6 +262,7 @@ def periodic_state(scenario: Scenario, rig: Rig, n: int, wait_s=None, X0=None, c
     ok = converged & _has_loss_path(rig) & np.all(np.isfinite(X), axis=1)
     if cycle_map_out is not None:
         cycle_map_out["jacobian"] = B + eye
+        cycle_map_out["residual"] = residual
     return X, peak, ok
 
 

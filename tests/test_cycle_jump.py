@@ -18,10 +18,12 @@ from thermo_budget.planning.session_runs import SEARCH_MARGIN_K, _proven_under, 
 
 from conftest import SCENARIO_DIR
 
-# The jump's error against integrating every cycle, measured when it was written: 2.7e-3 K at most
-# over the four shipped rigs' 200-pull days, each with six changes, on the band's 128 samples. The
-# planning resolution's own error on the drum's 200-pull day, against a fine one, is 0.011 K.
-JUMP_AGREEMENT_K = 3e-3
+# The jump's error against following every cycle (session_peak_K without the jump), measured when it
+# was written: 0.95 mK at most, 0.48 mK at most on the low (unsafe) side, over the four shipped rigs'
+# 200-pull days, each as planned and with six changes, on the band's 128 samples. The planning
+# resolution's own error on the drum's 200-pull day, against a fine one, is 2 mK.
+JUMP_AGREEMENT_K = 2e-3
+JUMP_LOW_K = 1e-3
 
 
 def _jumps_counted(monkeypatch) -> list:
@@ -59,6 +61,7 @@ def test_a_jumped_day_has_the_peaks_of_the_day_integrated_cycle_by_cycle(name, m
     followed, whole = _followed_and_whole(scenario, rig, n)
     assert sum(jumped) >= n // 4                       # the jump did the work for many of them
     np.testing.assert_allclose(followed, whole, rtol=0, atol=JUMP_AGREEMENT_K)
+    assert np.all(followed >= whole - JUMP_LOW_K)
 
 
 def test_a_day_that_cools_towards_its_periodic_state_is_not_jumped(monkeypatch):

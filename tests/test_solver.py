@@ -177,12 +177,13 @@ def test_bulk_temperature_within_0p05_K_of_the_reference(scenario_and_reference,
     assert abs(float(peak_oil_K(trace)[0]) - ref[:, OIL].max()) < 0.05
 
 
-def test_a_long_engine_curve_day_at_the_planning_resolution_converges_and_reads_the_return_line_high():
+def test_a_long_engine_curve_day_at_the_planning_resolution_converges():
     # Numerical convergence (no outside source: the same equations at a fine resolution): the plastic
     # drum's engine-curve cycle 200 times, at the planning resolution against 64 sub-steps per curve
     # pull and 10 s sub-steps. The bulk peak agrees within 0.01 K (measured 0.002 K); the return
-    # line's peak, read at each sub-step's end with its mean power's rise, reads high (the safe side),
-    # by less than 0.2 K (measured 0.11 K, against a rise over the bulk of 5.8 K).
+    # line's peak, read at each sub-step's end with its mean power's rise, within 0.2 K (measured
+    # 0.11 K high here, against a rise over the bulk of 5.8 K; on this drum with 16 times the oil it
+    # read 0.031 K low: the sign is the rig's).
     from thermo_budget.engine.session import Resolution
     scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml").changed(**{"session.repeat": 200})
     rig = build_rig(scenario)
@@ -190,8 +191,7 @@ def test_a_long_engine_curve_day_at_the_planning_resolution_converges_and_reads_
                      resolution=Resolution(pull_substeps=4, curve_substeps=64, max_substep_s=10.0, max_substeps=40))
     plan = integrate(rig, scenario.steps, scenario.start_K, resolution=PLAN_RESOLUTION)
     assert abs(float(peak_oil_K(plan)[0]) - float(peak_oil_K(fine)[0])) < 0.01
-    high = float(plan.return_K.max()) - float(fine.return_K.max())
-    assert 0.0 <= high < 0.2
+    assert abs(float(plan.return_K.max()) - float(fine.return_K.max())) < 0.2
 
 
 def test_heat_lost_matches_the_reference_integral(scenario_and_reference):

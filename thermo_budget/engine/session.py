@@ -119,9 +119,11 @@ class Resolution:
 # within 0.025 K on the shipped scenarios (0.05 K asked); on the benchmark's 5 L tank the peak is
 # 0.033 K off solve_ivp. A longest sub-step of 180 s (a 3-minute wait in one) was a third faster
 # but put that tank's peak 0.077 K off. Six sub-steps per engine-curve pull (was eight) are a quarter
-# cheaper on a curve day and no less close to a fine resolution (64 per pull, 10 s sub-steps): on the
-# plastic drum's 200-pull day the bulk peak 0.002 K off (0.006 K at eight), the return line's peak
-# read 0.11 K high (0.09 K at eight; a sub-step's return is its end state plus its mean power's rise,
-# so a coarser curve reads it higher, on the safe side); at four, 0.015 K and 0.17 K.
+# cheaper on a curve day. Against a fine resolution (64 per pull, 10 s sub-steps) on the plastic
+# drum's 200-pull day: the bulk peak 0.002 K off (0.006 K at eight), the return line's peak 0.11 K
+# high (0.09 K at eight); on that drum with 16 times the oil (6 pulls) the return line read 0.031 K
+# low (0.024 K at eight): the sign is the rig's, six sub-steps move it by 0.01-0.04 K. Against the
+# Radau reference the drum's other nodes are 20 mK off (3 mK at eight); at four sub-steps the
+# bulk was 0.015 K off on the 200-pull day.
 PLAN_RESOLUTION = Resolution(pull_substeps=1, curve_substeps=6, max_substep_s=120.0, max_substeps=6)
 

@@ -59,7 +59,7 @@ def test_charts_are_pictures_of_the_scenario_in_its_units(default):
     pictures = {}
     for system in ("SI", "US"):
         for name, png in (("design", page_charts.design_chart_png(text, system, result=sweep)),
-                          ("trace", page_charts.trace_chart_png(text, system))):
+                          ("trace", page_charts.envelope_png(text, system))):
             image = _image(png)
             assert image.shape[1] == width_px and image.shape[0] > 0.6 * width_px and image.shape[2] in (3, 4)
             assert len(np.unique(image.reshape(-1, image.shape[2]), axis=0)) > 50, (name, system)  # not blank
@@ -67,7 +67,7 @@ def test_charts_are_pictures_of_the_scenario_in_its_units(default):
     assert pictures["design", "SI"] != pictures["design", "US"]
     assert pictures["trace", "SI"] != pictures["trace", "US"]
     more_oil = default.changed(**{"reservoir.oil_volume": "22 L"}).to_toml()
-    assert page_charts.trace_chart_png(more_oil, "SI") != pictures["trace", "SI"]
+    assert page_charts.envelope_png(more_oil, "SI") != pictures["trace", "SI"]
 
 
 def test_design_chart_from_a_kept_sweep_is_the_same_picture(default):

@@ -124,20 +124,32 @@ def jump_error_K(starts, X_before, centre, jacobian, cycles: int, remaining: int
     return np.where(ok, estimate, np.inf)
 
 
+def perturbed_copies(X, delta_K: float) -> np.ndarray:
+    """Each state of X (N,k) K followed by k copies, the i-th with node i raised by delta_K:
+    (N (k + 1), k), for a forward-difference Jacobian (forward_difference_jacobian)."""
+    k = X.shape[1]
+    copies = np.repeat(X, k + 1, axis=0)
+    for i in range(k):
+        copies[i + 1::k + 1, i] += delta_K
+    return copies
+
+
+def forward_difference_jacobian(end, delta_K: float) -> np.ndarray:
+    """The Jacobian (N,k,k) of a map from its values `end` (N (k + 1), k) at perturbed_copies."""
+    k = end.shape[1]
+    return np.stack([(end[i + 1::k + 1] - end[0::k + 1]) / delta_K for i in range(k)], axis=-1)
+
+
 def cycle_map_jacobian(run: SessionRun, designs, X0, delta_K: float = 0.01) -> np.ndarray:
     """The one-cycle map's Jacobian at X0 (N,k,k) for the designs in `designs` (of run.rig), by
     forward differences of delta_K on each node, every design and perturbation in one batch (each
     from fresh corrector systems)."""
-    k = N_NODES
-    copies = k + 1
-    starts = np.repeat(X0, copies, axis=0)
-    for i in range(k):
-        starts[i + 1::copies, i] += delta_K
-    repeated = np.repeat(designs, copies)
-    end = integrate(take_designs(run.rig, repeated), run.cycle, starts, n_designs=repeated.size,
+    repeated = np.repeat(designs, N_NODES + 1)
+    end = integrate(take_designs(run.rig, repeated), run.cycle, perturbed_copies(X0, delta_K),
+                    n_designs=repeated.size,
                     durations_s=None if run.durations is None else [d[repeated] for d in run.durations],
                     resolution=run.resolution).final_K
-    return np.stack([(end[i + 1::copies] - end[0::copies]) / delta_K for i in range(k)], axis=-1)
+    return forward_difference_jacobian(end, delta_K)
 
 
 def last_cycles_peak_K(run: SessionRun, designs, X_star, jacobian, X, remaining: int, systems: dict) -> np.ndarray:

@@ -50,7 +50,8 @@ def legend_below(fig, ax, columns: int = 2):
                bbox_to_anchor=(0.5, 0.0), handlelength=1.6, columnspacing=1.0)
 
 
-def _temperatures(T_K, system):
+def temperatures_shown(T_K, system: str):
+    """Temperatures (K, any shape) in the unit shown in `system` (degC or degF)."""
     return to_shown(np.asarray(T_K, dtype=float), "temperature", system)
 
 
@@ -71,12 +72,12 @@ def _draw_trace(scenario, trace, system: str) -> Figure:
     ax = fig.add_subplot()
     for start, end in zip(trace.pull_start_s[:, 0], trace.pull_end_s[:, 0]):
         ax.axvspan(start / 60.0, end / 60.0, color=PULL_SHADE, lw=0, zorder=0)
-    ax.plot(t_min, _temperatures(trace.return_K[:, 0], system), color=RETURN_COLOUR, lw=1.2,
+    ax.plot(t_min, temperatures_shown(trace.return_K[:, 0], system), color=RETURN_COLOUR, lw=1.2,
             label="return line")
-    ax.plot(t_min, _temperatures(trace.T_K[:, 0, OIL], system), color=OIL_COLOUR, lw=2.2, label="bulk oil (tank)")
-    ax.plot(t_min, _temperatures(trace.T_K[:, 0, WALL], system), color=WALL_COLOUR, lw=1.2, ls="--",
+    ax.plot(t_min, temperatures_shown(trace.T_K[:, 0, OIL], system), color=OIL_COLOUR, lw=2.2, label="bulk oil (tank)")
+    ax.plot(t_min, temperatures_shown(trace.T_K[:, 0, WALL], system), color=WALL_COLOUR, lw=1.2, ls="--",
             label="tank wall")
-    limit_shown = to_shown(limit, "temperature", system)
+    limit_shown = temperatures_shown(limit, system)
     why = "hottest allowed" if reason == "max_temperature" else "pump's thinnest oil"
     ax.axhline(limit_shown, color=LIMIT_COLOUR, lw=1.5, ls=":")
     tops = [limit_shown]
@@ -127,11 +128,16 @@ def band_colours(levels: list, planned: int):
     return colours
 
 
+def is_light(rgb) -> bool:
+    """True where black reads better than white on the colour rgb (sRGB values 0-1; by its relative
+    luminance, WCAG 2 weights without the gamma step: enough to pick one of two inks)."""
+    red, green, blue = rgb[:3]
+    return 0.2126 * red + 0.7152 * green + 0.0722 * blue > 0.45
+
+
 def _ink_on(rgba) -> str:
-    """Black or white, whichever reads better on a band of colour rgba (by its relative luminance,
-    WCAG 2 weights on the sRGB values, without the gamma step: enough to pick one of two inks)."""
-    red, green, blue = rgba[:3]
-    return "k" if 0.2126 * red + 0.7152 * green + 0.0722 * blue > 0.45 else "w"
+    """Black or white (matplotlib's "k" or "w"), whichever reads better on a band of colour rgba."""
+    return "k" if is_light(rgba) else "w"
 
 
 def _labels_inside(fig, ax, texts) -> list:
@@ -217,45 +223,4 @@ def plot_design_chart(scenario, sweep_result, system: str | None = None) -> Figu
                  va="bottom")
         fig.legend(handles=handles, loc="lower center", ncol=2, frameon=False, fontsize=MIN_FONT_PT,
                    bbox_to_anchor=(0.5, 0.13), handlelength=1.6, columnspacing=1.0)
-    return fig
-
-
-def plot_hot_day(scenario, hot, system: str | None = None) -> Figure:
-    """Pulls before the limit (bars) and the cooler the planned session needs (line, right axis)
-    against the ambient temperature; `hot` is hot_day.hot_day()'s result. The bars' labels are drawn
-    above the line, each on a box of the background's colour, so the line never runs over them."""
-    system = system or scenario.units
-    ambient = _temperatures(hot.ambients_K, system)
-    capped = np.where(hot.all_day | np.isnan(hot.pulls), hot.max_pulls, hot.pulls)
-    width = 0.7 * (float(np.min(np.diff(ambient))) if ambient.size > 1 else 5.0)
-    with matplotlib.rc_context(PAGE_FONTS):
-        fig = Figure(figsize=(5.6, 4.2))
-        fig.subplots_adjust(left=0.14, right=0.84, bottom=0.17, top=0.89)
-        ax = fig.add_subplot()
-        colours = ["#1f6f8b" if a else ("#9ecae1" if np.isnan(p) else "#e39b2d")
-                   for a, p in zip(hot.all_day, hot.pulls)]
-        ax.bar(ambient, capped, width=width, color=colours)
-        ax.axvline(_temperatures(scenario.ambient_K, system), color="#555555", lw=1, ls=":")
-        ax.set_ylim(0, float(np.max(capped)) * 1.3 + 1.0)
-        ax.set_xlabel(f"air temperature ({unit_symbol('temperature', system)})")
-        ax.set_ylabel("pulls before the limit")
-        cooler = to_shown(np.where(np.isnan(hot.cooler_W_per_K), np.nan, hot.cooler_W_per_K), "conductance", system)
-        top = ax
-        if np.nanmax(np.append(cooler, 0.0)) > 0 or np.isnan(cooler).any():
-            top = ax.twinx()
-            top.plot(ambient, cooler, color=LIMIT_COLOUR, marker="o", ms=4, lw=1.5, zorder=2)
-            top.set_ylim(0, max(float(np.nanmax(cooler)) if np.isfinite(cooler).any() else 0.0, 1.0) * 1.15)
-            top.set_ylabel(f"cooler needed ({unit_symbol('conductance', system)})", color=LIMIT_COLOUR)
-            title = "Pulls (bars) and the cooler the plan needs (line)"
-        else:
-            title = "Pulls before the limit (no cooler needed)"
-        for x, y, a, p in zip(ambient, capped, hot.all_day, hot.pulls):
-            if a:      # inside its bar, along it
-                top.annotate("all day", (x, y), xycoords=ax.transData, xytext=(0, -4), textcoords="offset points",
-                             ha="center", va="top", rotation=90, color="white", fontsize=MIN_FONT_PT, zorder=6)
-            else:
-                label = f">{hot.max_pulls}" if np.isnan(p) else f"{int(p)}"
-                top.annotate(label, (x, y), xycoords=ax.transData, xytext=(0, 2), textcoords="offset points",
-                             ha="center", va="bottom", fontsize=MIN_FONT_PT, bbox=_LABEL_BOX, zorder=6)
-        ax.set_title(title, loc="left", y=1.0, fontsize="medium")
     return fig

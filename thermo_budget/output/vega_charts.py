@@ -11,14 +11,14 @@ import math
 import textwrap
 
 import numpy as np
-from matplotlib.colors import to_hex
+from matplotlib.colors import to_hex, to_rgb
 
 from ..physics.network import OIL, WALL
 from ..display import to_shown, unit_symbol
 from ..inputs.scenario import limit_K
 from ..units import ZERO_CELSIUS_K
 from .plots import (LIMIT_COLOUR, OIL_COLOUR, PULL_SHADE, RETURN_COLOUR, TITLE_CHARS, WALL_COLOUR, band_colours,
-                    run_levels)
+                    is_light, run_levels, temperatures_shown)
 
 ENVELOPE_COLOUR = OIL_COLOUR
 ENVELOPE_LABEL = "bulk oil, likely range (P10-P90)"
@@ -56,10 +56,6 @@ def _floats(values) -> list:
     return [round(float(v), 4) if math.isfinite(v) else None for v in np.asarray(values, dtype=float)]
 
 
-def _temperatures(T_K, system: str):
-    return to_shown(np.asarray(T_K, dtype=float), "temperature", system)
-
-
 # ------------------------------------------------------------------ the temperature chart
 
 def trace_spec(scenario, trace, system: str, envelope: dict | None = None) -> dict:
@@ -79,9 +75,9 @@ def trace_spec(scenario, trace, system: str, envelope: dict | None = None) -> di
     limit, reason = limit_K(scenario)
     limits = [limit] + ([scenario.return_line_max_temperature_K]
                         if scenario.return_line_max_temperature_K is not None else [])
-    shown = [_temperatures(values, system) for _, _, values, _, _ in series]
+    shown = [temperatures_shown(values, system) for _, _, values, _, _ in series]
     low = min(float(np.min(v)) for v in shown)
-    high = max([float(np.max(v)) for v in shown] + [float(_temperatures(t, system)) for t in limits])
+    high = max([float(np.max(v)) for v in shown] + [float(temperatures_shown(t, system)) for t in limits])
     # head room above the highest line for the limits' labels, as the picture has
     y_scale = {"domain": [round(low - 0.02 * (high - low), 4), round(high + 0.1 * (high - low), 4)], "nice": False}
     x = {"field": "t", "type": "quantitative", "title": "time since the first pull (min)",
@@ -92,8 +88,8 @@ def trace_spec(scenario, trace, system: str, envelope: dict | None = None) -> di
                "encoding": {"x": x, "x2": {"field": "t2"}, "color": {"datum": "pulls", "type": "nominal"}}}]
     if envelope:
         minutes = np.asarray(envelope["time_s"], dtype=float) / 60.0
-        p10 = _temperatures(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, system)
-        p90 = _temperatures(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, system)
+        p10 = temperatures_shown(np.asarray(envelope["p10_C"]) + ZERO_CELSIUS_K, system)
+        p90 = temperatures_shown(np.asarray(envelope["p90_C"]) + ZERO_CELSIUS_K, system)
         band = [{"t": t, "lo": a, "hi": b} for t, a, b in zip(_floats(minutes), _floats(p10), _floats(p90))]
         layers.append({"data": {"values": band}, "mark": {"type": "area", "opacity": 0.18},
                        "encoding": {"x": x, "y": {"field": "lo", "type": "quantitative", "title": y_title,
@@ -110,11 +106,11 @@ def trace_spec(scenario, trace, system: str, envelope: dict | None = None) -> di
                            "tooltip": [{"field": "series", "title": "what"},
                                        {"field": "t", "title": "min", "format": ".1f"},
                                        {"field": "T", "title": symbol, "format": ".1f"}]}})
-    limit_shown = round(float(_temperatures(limit, system)), 4)
+    limit_shown = round(float(temperatures_shown(limit, system)), 4)
     why = "hottest allowed" if reason == "max_temperature" else "pump's thinnest oil"
     layers += _limit_line(limit_shown, LIMIT_COLOUR, f"limit {limit_shown:.0f} {symbol} ({why})", "left", 0.0)
     if scenario.return_line_max_temperature_K is not None:
-        line_limit = round(float(_temperatures(scenario.return_line_max_temperature_K, system)), 4)
+        line_limit = round(float(temperatures_shown(scenario.return_line_max_temperature_K, system)), 4)
         layers += _limit_line(line_limit, RETURN_COLOUR, f"return-line limit {line_limit:.0f} {symbol}", "right",
                               t_min[-1], text_colour="#a0600a")
     title = textwrap.wrap(scenario.name or "planned session", TITLE_CHARS)[:2] or [""]
@@ -197,7 +193,7 @@ def design_spec(scenario, sweep_result, system: str) -> dict:
             band = _band_of(n, levels)
             cells.append({"x": x_edges[i], "x2": x_edges[i + 1], "y": y_edges[j], "y2": y_edges[j + 1],
                           "xc": volume, "yc": cooler, "band": names[band], "pulls": said,
-                          "ink": "black" if _light(colours[band]) else "white",
+                          "ink": "black" if is_light(to_rgb(colours[band])) else "white",
                           "mark": "∞" if all_day[i, j] else ""})
     x = {"field": "x", "type": "quantitative", "title": f"oil in the tank ({v_unit}), tank scaled to fit",
          "scale": {"domain": [x_edges[0], x_edges[-1]], "nice": False, "zero": False}}
@@ -231,16 +227,9 @@ def design_spec(scenario, sweep_result, system: str) -> dict:
                    "encoding": {"x": {"field": "xc", "type": "quantitative"},
                                 "y": {"field": "yc", "type": "quantitative"},
                                 "tooltip": [{"field": "what", "title": " "}]}})
-    limit_shown = float(to_shown(r.limit_C + ZERO_CELSIUS_K, "temperature", system))
+    limit_shown = float(temperatures_shown(r.limit_C + ZERO_CELSIUS_K, system))
     title = f"Pulls before {limit_shown:.0f} {unit_symbol('temperature', system)}, repeating your cycle"
     return _spec("design", title, layers, width="container")
-
-
-def _light(hex_colour: str) -> bool:
-    """True where black reads better than white on `hex_colour` (relative luminance, WCAG 2
-    weights on the sRGB values without the gamma step: enough to pick one of two inks)."""
-    red, green, blue = (int(hex_colour[k:k + 2], 16) / 255.0 for k in (1, 3, 5))
-    return 0.2126 * red + 0.7152 * green + 0.0722 * blue > 0.45
 
 
 # ------------------------------------------------------------------ the hot day
@@ -249,7 +238,7 @@ def hot_day_spec(scenario, hot, system: str) -> dict:
     """Pulls before the limit (bars) across the air temperatures of hot_day.hot_day()'s result,
     with today's air as a dotted line, and the cooler the planned session needs (a line on its own
     right-hand axis) where any air temperature needs one."""
-    ambient = _temperatures(hot.ambients_K, system)
+    ambient = temperatures_shown(hot.ambients_K, system)
     half = 0.35 * (float(np.min(np.diff(ambient))) if ambient.size > 1 else 5.0)
     symbol = unit_symbol("temperature", system)
     bars = []
@@ -279,7 +268,7 @@ def hot_day_spec(scenario, hot, system: str) -> dict:
          "encoding": {"x": {"field": "air", "type": "quantitative"}, "y": {"field": "pulls", "type": "quantitative"},
                       "text": {"field": "inside"}}},
         {"data": ONE_ROW, "mark": {"type": "rule", "color": "#555555", "strokeDash": [2, 2]},
-         "encoding": {"x": {"datum": round(float(_temperatures(scenario.ambient_K, system)), 4),
+         "encoding": {"x": {"datum": round(float(temperatures_shown(scenario.ambient_K, system)), 4),
                             "type": "quantitative"}}}]
     cooler = to_shown(np.asarray(hot.cooler_W_per_K, dtype=float), "conductance", system)
     if not (np.nanmax(np.append(cooler, 0.0)) > 0 or np.isnan(cooler).any()):

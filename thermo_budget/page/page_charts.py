@@ -14,7 +14,7 @@ import numpy as np
 
 from ..display import to_shown
 from ..planning.design_sweep import DESIGN_COOLERS, DESIGN_VOLUMES, design_axes  # noqa: F401 (the page's grid)
-from ..output.plots import legend_below, plot_design_chart, plot_hot_day, plot_trace
+from ..output.plots import legend_below, plot_design_chart, plot_trace
 from ..output.vega_charts import ENVELOPE_COLOUR, ENVELOPE_LABEL, design_spec, hot_day_spec, trace_spec
 from ..planning.results import Report
 from ..planning.answers import simulate
@@ -62,20 +62,9 @@ def trace_chart_figure(toml_text: str, system: str, trace=None):
     return plot_trace(scenario, simulate(scenario) if trace is None else trace, system)
 
 
-def trace_chart_png(toml_text: str, system: str, trace=None) -> bytes:
-    """The temperature chart of the planned session (trace: simulate() of it, if already known)."""
-    return png_bytes(trace_chart_figure(toml_text, system, trace))
-
-
-def hot_day_chart_png(toml_text: str, system: str, hot=None) -> bytes:
-    """The hot-day chart (hot: hot_day.hot_day() of the scenario, if already known)."""
-    from ..planning.hot_day import hot_day
-    scenario = load_scenario(read_toml_text(toml_text))
-    return png_bytes(plot_hot_day(scenario, hot_day(scenario) if hot is None else hot, system))
-
-
-def envelope_png(toml_text: str, system: str, trace, envelope: dict | None) -> bytes:
-    """The temperature chart with the P10-P90 envelope of the bulk oil behind its line."""
+def envelope_png(toml_text: str, system: str, trace=None, envelope: dict | None = None) -> bytes:
+    """The temperature chart (the page's download) with the P10-P90 envelope of the bulk oil behind
+    its line where one is given (trace: simulate() of the scenario, if already known)."""
     figure = trace_chart_figure(toml_text, system, trace)
     if envelope:
         ax = figure.axes[0]
@@ -135,7 +124,7 @@ def _hot_day(toml_text: str):
 def slow_charts(toml_text: str, system: str, answers: Report | None = None) -> SlowCharts:
     """The design chart and the hot day of the scenario in `toml_text`, in the units of `system`
     (answers: its report, if known). The sweep and the hot day are kept by text, so a change of
-    units only redraws. Their pictures (design_chart_png, hot_day_chart_png) are drawn only when
+    units only redraws. Their pictures (design_chart_png for the design chart's download) are drawn only when
     asked for."""
     scenario = load_scenario(read_toml_text(toml_text))
     sweep, hot = _sweep(toml_text, answers), _hot_day(toml_text)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..engine.cycle_jump import forward_difference_jacobian, perturbed_copies
 from ..engine.long_session import LONG_SESSION_CYCLES, integrate_session, session_limiting_peak_K
 from ..physics.network import N_NODES, Rig
 from ..physics.rig import take_designs
@@ -273,14 +274,11 @@ def _residual_and_jacobian(scenario, rig, index, X, cycle_s, systems: dict | Non
     copies), per design of index."""
     k = X.shape[1]
     copies = k + 1
-    Xc = np.repeat(X, copies, axis=0)
-    for i in range(k):
-        Xc[i + 1::copies, i] += delta_K
     repeated = np.repeat(np.arange(index.size), copies)
-    Fc, peak_c, left = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), Xc,
+    Fc, peak_c, left = _cycle_end(scenario, take_designs(rig, np.repeat(index, copies)), perturbed_copies(X, delta_K),
                                   _designs_of(cycle_s, repeated), take_systems(systems or {}, repeated))
     F = Fc[0::copies]
-    J = np.stack([(Fc[i + 1::copies] - F) / delta_K for i in range(k)], axis=-1) - np.eye(k)
+    J = forward_difference_jacobian(Fc, delta_K) - np.eye(k)
     return F - X, peak_c[0::copies], J, take_systems(left, np.arange(index.size) * copies)
 
 

@@ -182,3 +182,25 @@ def test_the_periodic_cycle_is_the_session_s_own_so_its_decision_is_the_whole_da
     threshold = limits_K(scenario)[0] - SEARCH_MARGIN_K
     assert not whole <= threshold and not finishes_under_limit(scenario, rig, 1)[0]
     assert session_peak_K(scenario, rig, 1, threshold_K=threshold)[0] == pytest.approx(whole, abs=1e-3)
+
+
+def test_a_design_s_answer_does_not_depend_on_the_waits_of_its_batch():
+    """A batch is cut into sub-steps for its longest step (solver.integrate); designs whose waits
+    take different numbers of sub-steps are integrated apart (solver.substep_groups), so a design's
+    peak and periodic state are the ones it has alone. Here a 3-minute wait (two sub-steps) shares a
+    batch with a 15-minute one (six), on the drum whose idling waits heat the oil; before the
+    groups, the shorter one's peak moved with it (by 4e-4 K)."""
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml").changed(**{"session.repeat": 70})
+    rig = build_rig(scenario, oil_volume_m3=np.array([1.0, 2.5]) * scenario.reservoir.oil_volume_m3)
+    waits = np.array([180.0, 900.0])
+    cycle_s = [step.duration_s if step.is_pull else waits for step in scenario.cycle]
+    from thermo_budget.physics.rig import take_designs
+    for design in range(2):
+        alone = [d if np.ndim(d) == 0 else d[design:design + 1] for d in cycle_s]
+        one = take_designs(rig, np.array([design]))
+        np.testing.assert_allclose(session_peak_K(scenario, rig, 2, cycle_s)[design],
+                                   session_peak_K(scenario, one, 1, alone)[0], rtol=0, atol=1e-9)
+        X, peak, _ = periodic_state(scenario, rig, 2, cycle_s=cycle_s)
+        X_one, peak_one, _ = periodic_state(scenario, one, 1, cycle_s=alone)
+        np.testing.assert_allclose(X[design], X_one[0], rtol=0, atol=1e-9)
+        np.testing.assert_allclose(peak[design], peak_one[0], rtol=0, atol=1e-9)

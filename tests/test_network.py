@@ -17,7 +17,7 @@ from thermo_budget.inputs.scenario import load_scenario
 from thermo_budget.inputs.rig_build import build_rig
 from thermo_budget.engine.session import pump_flow_m3_s
 
-from conftest import base_raw, set_path
+from conftest import SCENARIO_DIR, base_raw, set_path
 from thermo_budget.units import ZERO_CELSIUS_K
 
 # Exact unit factors
@@ -461,3 +461,26 @@ def test_dry_shell_is_a_fin_steel_mostly_effective_plastic_hardly():
     T = np.array([350.0])
     wetted_only = plastic.with_changes(dry_side_area_m2=np.zeros(1), top_area_m2=np.full(1, 1e-9))
     assert float(wall_to_ambient_W_K(plastic, T)[0]) < 1.1 * float(wall_to_ambient_W_K(wetted_only, T)[0])
+
+
+def test_a_rig_s_designs_taken_keep_what_the_rig_worked_out_design_by_design():
+    """take_designs carries the packed rows and the geometry constants of the designs it takes
+    instead of working them out again: they must be the ones a rig built from those designs alone
+    works out (pack, constant_parts), for a subset, a repeat and a single design."""
+    import dataclasses
+    from thermo_budget.inputs.uncertainty import factor_values, sample_rig, standard_normals
+    from thermo_budget.physics.rig import constant_parts, pack, take_designs
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml")
+    rig = build_rig(scenario, oil_volume_m3=np.linspace(0.02, 0.2, 7), cooler_W_K=np.linspace(0.0, 5.0, 7))
+    rig = sample_rig(rig, factor_values(scenario.uncertainty, standard_normals(scenario.uncertainty, 7)))
+    for index in (np.array([3, 1, 1, 6]), np.array([2]), np.arange(7)[::-1]):
+        taken = take_designs(rig, index)
+        plain = rig.with_changes(**{f.name: getattr(rig, f.name)[index] for f in dataclasses.fields(rig)
+                                    if isinstance(getattr(rig, f.name), np.ndarray) and getattr(rig, f.name).ndim == 1
+                                    and getattr(rig, f.name).size > 1})
+        assert np.array_equal(taken.params, pack(plain), equal_nan=True)
+        assert taken.params.shape[0] == index.size
+        for key, value in constant_parts(plain).items():
+            assert np.array_equal(np.asarray(taken.constants[key]), np.asarray(value), equal_nan=True), key
+    one = build_rig(scenario)                       # no design of its own: its one row is shared
+    assert take_designs(one, np.zeros(4, int)).params.shape[0] == 1

@@ -25,7 +25,7 @@ from ..physics.rig import take_designs
 from .cycle_jump import LAST_CYCLES_RUN, JumpState, SessionRun, jumped
 from .outcome import limiting_peak_K
 from .session import Resolution
-from .solver import Trace, integrate, take_systems
+from .solver import Trace, integrate, substep_groups, take_systems
 
 LONG_SESSION_CYCLES = 60        # up to this many cycles: one integration, exactly as before
 CHUNK_CYCLES = 20
@@ -94,7 +94,8 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     the planned session of n designs, K (N,), where only the peak is wanted, not the trace.
 
     cycle_s : optional per-step durations of one cycle (each float or (N,) s), the same in every
-    cycle. A session of up to LONG_SESSION_CYCLES cycles is one integration, as integrate_session's.
+    cycle; designs whose steps take different numbers of sub-steps are integrated apart
+    (solver.substep_groups). A session of up to LONG_SESSION_CYCLES cycles is one integration.
     A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk with only the designs still
     open: a design is closed once its peak so far passes decided_above_K (its peak is then a lower
     bound, above that; only for a caller that needs no more), once it is periodic (_settled_designs:
@@ -104,6 +105,15 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     usable (N,) bool), as session_runs.periodic_state leaves them; without it, no jump."""
     cycle, repeat = list(scenario.cycle), int(scenario.repeat)
     durations = None if cycle_s is None else [np.broadcast_to(np.asarray(d, dtype=float), (n_designs,)) for d in cycle_s]
+    groups = substep_groups(cycle, durations, n_designs, resolution)
+    if len(groups) > 1:         # each design at its own sub-steps, whatever its batch holds
+        T0 = np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES))
+        peak = np.empty(n_designs)
+        for group in groups:
+            peak[group] = session_limiting_peak_K(
+                take_designs(rig, group), scenario, T0[group], group.size, limits_K, [d[group] for d in durations],
+                resolution, decided_above_K, tolerance_K, None if periodic is None else tuple(p[group] for p in periodic))
+        return peak
     if repeat <= LONG_SESSION_CYCLES:
         trace = integrate(rig, cycle * repeat, T0_K, n_designs=n_designs,
                           durations_s=None if durations is None else durations * repeat, resolution=resolution)

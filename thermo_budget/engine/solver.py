@@ -9,12 +9,13 @@ so heat in - heat out - heat stored closes to round-off. Vectorised over N desig
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
 from ..physics.air import air_or_standard
 from ..physics.compiled import threads_usable, use_threads
-from ..physics.network import N_NODES, OIL, Inputs, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
+from ..physics.network import N_NODES, OIL, Rig, hose_mean_from_share_K, node_enthalpy_J, per_design
 from .session import Resolution, Step, pump_flow_m3_s
 from .substep import PARALLEL_FROM_DESIGNS, advance_step, advance_step_parallel, decompose_many, propagate_many
 
@@ -61,22 +62,46 @@ def _new_system(n: int, k: int):
             np.zeros(n, bool))
 
 
-def _step_inputs(rig: Rig, step: Step, f0: float, f1: float, power_scale, n: int) -> Inputs:
-    """The network's inputs over the fraction [f0, f1] of a step: its mean power (times each design's
-    power multiplier) and the pump's flow at the middle of it."""
-    flow = pump_flow_m3_s(rig.displacement_m3, step.rpm_at(0.5 * (f0 + f1)), rig.volumetric_efficiency)
-    return Inputs(power_W=power_scale * step.mean_power_W(f0, f1), volume_flow_m3_s=np.full(n, float(flow)))
+@lru_cache(maxsize=256)
+def _step_profile(step: Step, n_sub: int) -> tuple[np.ndarray, np.ndarray]:
+    """A step cut into n_sub equal sub-steps: the engine speed at the middle of each (rev/min) and
+    the step's mean power over each (W, before any design's power multiplier), (n_sub,) each."""
+    rpm = np.array([float(step.rpm_at(0.5 * (k / n_sub + (k + 1) / n_sub))) for k in range(n_sub)])
+    if step.curve is None:
+        power = np.full(n_sub, step.mean_power_W(0.0, 1.0))
+    else:
+        power = np.array([step.mean_power_W(k / n_sub, (k + 1) / n_sub) for k in range(n_sub)])
+    rpm.flags.writeable = power.flags.writeable = False
+    return rpm, power
 
 
 def _sub_step_inputs(rig: Rig, step: Step, n_sub: int, power_scale, n: int):
-    """The flows (m3/s) and powers (W) of a step's n_sub sub-steps, (n_sub, n) each (_step_inputs)."""
-    if step.curve is None:
-        sub_inputs = [_step_inputs(rig, step, 0.0, 1.0, power_scale, n)] * n_sub
-    else:
-        sub_inputs = [_step_inputs(rig, step, k / n_sub, (k + 1) / n_sub, power_scale, n) for k in range(n_sub)]
-    flows = np.array([np.broadcast_to(i.volume_flow_m3_s, (n,)) for i in sub_inputs], dtype=float)
-    powers = np.array([np.broadcast_to(i.power_W, (n,)) for i in sub_inputs], dtype=float)
+    """The network's inputs over a step's n_sub sub-steps, (n_sub, n) each: the pump's flow (m3/s)
+    at the middle of each sub-step and the step's mean power over it (W) times each design's power
+    multiplier."""
+    rpm, power = _step_profile(step, n_sub)
+    flow = pump_flow_m3_s(rig.displacement_m3, rpm, rig.volumetric_efficiency)
+    flows = np.ascontiguousarray(np.broadcast_to(np.asarray(flow, dtype=float)[:, None], (n_sub, n)))
+    powers = power[:, None] * np.broadcast_to(np.asarray(power_scale, dtype=float), (n,))[None, :]
     return flows, powers
+
+
+def substep_groups(steps: list[Step], durations_s, n_designs: int, resolution: Resolution) -> list[np.ndarray]:
+    """The designs (index arrays) grouped by how many sub-steps each step takes at their own
+    durations (Resolution.substeps). integrate cuts a step for the longest duration in its batch,
+    so a batch of designs with very different waits gives the shorter ones the longer one's
+    sub-steps: integrated group by group, each design gets the sub-steps it would have alone (and
+    costs no more). durations_s : as integrate's (None: one group)."""
+    if durations_s is None:
+        return [np.arange(n_designs)]
+    counts = np.empty((n_designs, len(steps)), dtype=np.int64)
+    for j, step in enumerate(steps):
+        duration = per_design(durations_s[j], n_designs)
+        values, where = np.unique(duration, return_inverse=True)
+        counts[:, j] = np.array([resolution.substeps(step, float(v)) for v in values])[where.ravel()]
+    _, group = np.unique(counts, axis=0, return_inverse=True)
+    group = group.ravel()
+    return [np.flatnonzero(group == g) for g in range(int(group.max()) + 1)]
 
 
 def _inputs_key(step: Step):

@@ -211,10 +211,18 @@ def pack(rig: Rig) -> np.ndarray:
 
 
 def take_designs(rig: Rig, index) -> Rig:
-    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared."""
+    """The rig restricted (or repeated) to the designs in `index`; scalar fields are shared. What
+    the rig has already worked out (its constants, its packed rows) is taken along, design by
+    design, not worked out again for every part taken: the same values as pack and constant_parts
+    give the part."""
     changes = {}
     for field in fields(rig):
         value = getattr(rig, field.name)
         if isinstance(value, np.ndarray) and value.ndim == 1 and value.size > 1:
             changes[field.name] = value[index]
-    return rig.with_changes(**changes)
+    taken = rig.with_changes(**changes)
+    packed, n = rig.params, rig.params.shape[0]        # worked out once on the whole rig (cached)
+    vars(taken)["params"] = packed if n == 1 else packed[index]
+    vars(taken)["constants"] = {key: value[..., index] if n > 1 and np.ndim(value) and np.shape(value)[-1] == n
+                                else value for key, value in rig.constants.items()}
+    return taken

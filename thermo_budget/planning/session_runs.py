@@ -11,7 +11,7 @@ from ..physics.rig import take_designs
 from ..engine.outcome import limiting_peak_K, pulls_completed_under
 from ..inputs.scenario import Scenario, limit_K
 from ..engine.session import PLAN_RESOLUTION, Step
-from ..engine.solver import integrate, take_systems
+from ..engine.solver import integrate, substep_groups, take_systems
 
 NEWTON_TOL_K = 1e-6
 NEWTON_ITERATIONS = 12
@@ -172,9 +172,20 @@ def session_outcome(scenario: Scenario, rig: Rig, n: int, wait_s=None, trace=Non
 def _cycle_end(scenario, rig, X, cycle_s=None, systems: dict | None = None):
     """(the state after one cycle from X, the cycle's limiting peak, the corrector systems it left).
     systems : the ones it starts from (solver.integrate's; a copy of the caller's, take_systems,
-    which this run overwrites with the ones it leaves)."""
+    which this run overwrites with the ones it leaves). Designs whose steps take different numbers
+    of sub-steps are run apart (solver.substep_groups)."""
+    n = X.shape[0]
+    groups = substep_groups(list(scenario.cycle), cycle_s, n, PLAN_RESOLUTION)
+    if len(groups) > 1:         # each design at its own sub-steps, whatever its batch holds
+        end, peak, left = np.empty_like(X), np.empty(n), {}
+        for group in groups:
+            end[group], peak[group], group_left = _cycle_end(scenario, take_designs(rig, group), X[group],
+                                                             _designs_of(cycle_s, group),
+                                                             take_systems(systems or {}, group))
+            _put_systems(left, group, group_left, n)
+        return end, peak, left
     left = {} if systems is None else systems
-    trace = integrate(rig, list(scenario.cycle), X, n_designs=X.shape[0], durations_s=cycle_s,
+    trace = integrate(rig, list(scenario.cycle), X, n_designs=n, durations_s=cycle_s,
                       resolution=PLAN_RESOLUTION, systems=left)
     return trace.final_K, limiting_peak_K(trace, *limits_K(scenario)), left
 

@@ -226,3 +226,35 @@ def test_the_time_to_the_limit_planned_for_is_reached_no_sooner_in_the_chosen_fr
     crossing = first_crossing_s(session_trace(busy_scenario, rig, N_SAMPLES), *limits_K(busy_scenario))
     times = np.where(np.isnan(crossing), np.inf, crossing)
     assert np.mean(times >= planned - 0.05) >= 0.9 and np.mean(times >= planned + 1.0) < 0.9
+
+
+def test_the_sizing_search_ends_with_a_size_whose_peak_lies_within_its_tolerance_under_the_target():
+    """bands._Search on margins known in closed form (target - peak, K): a log-like one (more oil)
+    and a saturating one (a longer wait: each minute buys less). Every item must end on a size whose
+    own margin lies in [0, PEAK_TOLERANCE_K] where it is not bracketed, and inside a bracket whose
+    ends straddle the root where it is, within SECANT_ROUNDS rounds after the first two guesses."""
+    from thermo_budget.planning.bands import PEAK_TOLERANCE_K, RELATIVE_TOLERANCE, SECANT_ROUNDS, _Search
+    roots = np.array([130.0, 170.0, 205.0, 250.0, 320.0])     # the samples spread about the point answer, 200
+    shapes = {"log": (lambda x, r: 6.0 * np.log(x / r), True),
+              "saturating": (lambda x, r: 9.0 * (np.exp(-r / 250.0) - np.exp(-x / 250.0)), False)}
+    for name, (margin, in_log) in shapes.items():
+        m = roots.size
+        search = _Search(m, np.zeros(m), np.full(m, 5000.0), np.full(m, in_log))
+        guess = np.full(m, 200.0)
+        items = np.concatenate([np.arange(m), np.arange(m)])
+        x = np.concatenate([0.95 * guess, 1.1 * guess])
+        search.record(x, margin(x, roots[items]), items)
+        for _ in range(SECANT_ROUNDS):
+            todo = np.flatnonzero(~search.done())
+            if not todo.size:
+                break
+            x = search.next_guess(todo)
+            search.record(x, margin(x, roots[todo]), todo)
+        assert search.done().all(), name
+        answer = search.answer()
+        bracketed = ~np.isnan(search.lo) & ~np.isnan(search.hi)
+        own = margin(answer, roots)
+        assert np.all(own[~bracketed] >= 0.0) and np.all(own[~bracketed] <= PEAK_TOLERANCE_K + 1e-9), (name, own)
+        inside = (search.lo <= roots) & (roots <= search.hi)
+        close = (search.m_hi <= PEAK_TOLERANCE_K) | (search.hi - search.lo <= RELATIVE_TOLERANCE * search.hi)
+        assert np.all(inside[bracketed] & close[bracketed]), name

@@ -297,3 +297,29 @@ def test_a_longer_wait_counts_as_cooling_only_where_no_wait_heats_the_oil():
     wait = next(i for i, step in enumerate(idling.raw["session"]["steps"]) if step["kind"] == "wait")
     assert _monotone_kinds(_edited(idling, **{f"session.steps[{wait}].power": "0 W"})) == \
         {"cooler", "oil_volume", "shorter_pulls", "wait"}
+
+
+@pytest.mark.parametrize("name", ["default.toml", "plastic_tank_cylinder.toml"])
+def test_two_days_whose_starts_differ_by_d_never_peak_more_than_d_apart(name):
+    """What lets a monotone fix's re-run skip a sample whose day starts d colder than its air
+    (fixes._spare_needed_K): on the cooperative network two days that start d apart at every node
+    stay ordered and never move further apart (the couplings only pull temperatures together and
+    towards the air: a discrete maximum principle). Here the limiting peaks of days from the air and
+    from d below it, on rigs from a small tank to four times the oil and with a cooler."""
+    from thermo_budget.engine.outcome import limiting_peak_K
+    from thermo_budget.engine.session import PLAN_RESOLUTION
+    from thermo_budget.engine.solver import integrate
+    from thermo_budget.inputs.rig_build import build_rig
+    from thermo_budget.planning.fixes import COMPARISON_SLACK_K
+    from thermo_budget.planning.session_runs import limits_K
+    scenario = _edited(load_scenario(SCENARIOS / name), **{"session.repeat": 12})
+    volumes = np.array([0.5, 1.0, 4.0, 1.0]) * scenario.reservoir.oil_volume_m3
+    rig = build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=np.array([0.0, 0.0, 0.0, 20.0]))
+    air = scenario.ambient_K
+    for d in (0.5, 3.0, 15.0):
+        peaks = [limiting_peak_K(integrate(rig, scenario.steps, start, n_designs=volumes.size,
+                                           resolution=PLAN_RESOLUTION), *limits_K(scenario))
+                 for start in (air, air - d)]
+        apart = peaks[0] - peaks[1]
+        assert np.all(apart >= -1e-9) and np.all(apart <= d + COMPARISON_SLACK_K), (d, apart)
+        assert np.any(apart > 0.05 * d)          # the early cycles keep a good part of the gap

@@ -28,8 +28,11 @@ BAND_KEYS = ("pulls_under_limit", "runs_before_limit", "peak_C", "time_to_limit_
 COUNT_KEYS = ("pulls_under_limit", "runs_before_limit")
 SIZING_KEYS = ("min_wait_s", "cooler_required_W_per_K", "min_oil_volume_L")
 SECANT_ROUNDS = 4          # after the first; 3 gave the same quantiles on the default rig asked for 30 pulls
-PEAK_TOLERANCE_K = 0.2     # a sample's sizing answer is done when it keeps the peak within this of the target
+PEAK_TOLERANCE_K = 0.2     # a sample's sizing answer is done when a size keeps the peak within this under the target
 RELATIVE_TOLERANCE = 0.03   # bracket width at which the interpolated root is taken
+# Each new size aims at this much margin, the middle of the tolerance, not at the target itself: aimed at
+# the target, about half of the secant's guesses land a little over it and cost another round.
+AIM_MARGIN_K = 0.5 * PEAK_TOLERANCE_K
 ROUND_DIGITS = {"peak_C": 2, "time_to_limit_s": 1, "min_wait_s": 1, "cooler_required_W_per_K": 2,
                 "min_oil_volume_L": 2}
 
@@ -234,15 +237,18 @@ class _Search:
                 self.lo[i], self.m_lo[i] = xi, mi
 
     def done(self):
+        """Per item: a size keeps the peak within PEAK_TOLERANCE_K under the target, or the bracket is
+        within RELATIVE_TOLERANCE, or the lowest size passes, or no size in range does (stuck)."""
         lo, hi = self.lo, self.hi
         with np.errstate(invalid="ignore"):
-            bracketed = ~np.isnan(lo) & ~np.isnan(hi) & (
-                (self.m_hi <= PEAK_TOLERANCE_K) | (hi - lo <= RELATIVE_TOLERANCE * hi))
-            return self.stuck | bracketed | (hi <= self.lows)
+            close = ~np.isnan(hi) & (self.m_hi <= PEAK_TOLERANCE_K)
+            narrow = ~np.isnan(lo) & ~np.isnan(hi) & (hi - lo <= RELATIVE_TOLERANCE * hi)
+            return self.stuck | close | narrow | (hi <= self.lows)
 
     def answer(self):
         """Per item: the root interpolated inside the bracket (the bracket is narrow once done), the
-        smallest passing value where there is no bracket, inf where nothing passed."""
+        smallest passing value where there is no bracket (its peak within PEAK_TOLERANCE_K under the
+        target), inf where nothing passed."""
         i = np.arange(self.lo.size)
         with np.errstate(invalid="ignore", divide="ignore"):
             u_lo, u_hi = self._u(self.lo, i), self._u(self.hi, i)
@@ -259,17 +265,18 @@ class _Search:
 
     def next_guess(self, i):
         """Regula falsi inside the bracket where there is one (kept 10 % in from its ends); else a
-        secant through the last two points, taken at most x 4 outward (x 3 without a usable slope).
-        NaN where the range is exhausted (no size suffices, or the lowest size already passes)."""
+        secant through the last two points, taken at most x 4 outward (x 3 without a usable slope);
+        both aimed at AIM_MARGIN_K of margin. NaN where the range is exhausted (no size suffices, or
+        the lowest size already passes)."""
         lo, hi, m_lo, m_hi = self.lo[i], self.hi[i], self.m_lo[i], self.m_hi[i]
         (xa, ma), (xb, mb) = self.last[i, 0].T, self.last[i, 1].T
         with np.errstate(invalid="ignore", divide="ignore"):
             u_lo, u_hi = self._u(lo, i), self._u(hi, i)
-            u = u_hi - m_hi * (u_hi - u_lo) / (m_hi - m_lo)
+            u = u_hi - (m_hi - AIM_MARGIN_K) * (u_hi - u_lo) / (m_hi - m_lo)
             inside = self._x(np.clip(u, u_lo + 0.1 * (u_hi - u_lo), u_hi - 0.1 * (u_hi - u_lo)), i)
             ua, ub = self._u(xa, i), self._u(xb, i)
             slope = (ma - mb) / (ua - ub)
-            outward = self._x(ua - ma / slope, i)
+            outward = self._x(ua - (ma - AIM_MARGIN_K) / slope, i)
             usable = np.isfinite(outward) & (slope > 0)
             up = np.clip(np.where(usable, outward, 3.0 * lo), 1.05 * lo, 4.0 * np.maximum(lo, 1e-9))
             down = np.clip(np.where(usable, outward, hi / 3.0), hi / 4.0, hi / 1.05)

@@ -11,7 +11,7 @@ import numpy as np
 
 from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
 from .planning import time_constant_s
-from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, finishes_under_limit, limits_K, session_peak_K
+from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, day_peak_bound_K, limits_K, session_peak_K
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
                           share_fits)
 from ..inputs.rig_build import build_rig
@@ -219,12 +219,13 @@ def _per_sample_thresholds(scenario, samples: Samples, failing, asked: list, tar
     return [answer[kinds == i] for i in range(len(asked))]
 
 
-def _finishes(scenario, samples: Samples, sample_index, change: Change, starts=None) -> np.ndarray:
-    """Per design, whether the day with its change finishes with SEARCH_MARGIN_K to spare
-    (session_runs.finishes_under_limit: a long day is followed only until that is decided).
-    starts : optional (PeriodicStarts, the items that the designs are)."""
+def _peak_bounds(scenario, samples: Samples, sample_index, change: Change, starts=None) -> np.ndarray:
+    """Per design, the day with its change as far as finishing it needs (session_runs.day_peak_bound_K:
+    an upper bound of the peak where it finishes SEARCH_MARGIN_K under the limit, else a peak above
+    that; a long day is followed only until that is decided). starts : optional (PeriodicStarts, the
+    items that the designs are)."""
     rig, cycle_s = changed_designs(scenario, samples, sample_index, change)
-    return finishes_under_limit(scenario, rig, len(sample_index), cycle_s=cycle_s, starts=starts)
+    return day_peak_bound_K(scenario, rig, len(sample_index), cycle_s=cycle_s, starts=starts)
 
 
 def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
@@ -239,33 +240,45 @@ def _monotone_kinds(scenario) -> set:
     wait heats the oil (an idling engine's parasitic load can make a longer wait warmer). On such a
     day the oil never falls below the air (the network is cooperative, its sources not negative), so
     every path to the air only takes heat out, and more of it cools. A day that starts colder than
-    its air is warmed by a cooler or a longer wait while it is: see _starts_no_colder."""
+    its air is warmed by a cooler or a longer wait while it is: see _spare_needed_K."""
     kinds = {"cooler", "oil_volume", "shorter_pulls"}
     if all(step.power_W <= 0.0 for step in scenario.cycle if not step.is_pull):
         kinds.add("wait")
     return kinds
 
 
-def _starts_no_colder(scenario, samples: Samples) -> np.ndarray:
-    """Per sample, whether the day starts at or above that sample's air (the ambient is one of the
-    band's uncertain inputs): only there is a monotone fix's step up sure to cool the day."""
+# The comparison below holds to round-off on the cooperative network (its couplings' coefficients
+# move with temperature only slightly against it: an independent review found 2e-6 K on 600 rigs).
+COMPARISON_SLACK_K = 1e-3
+
+
+def _spare_needed_K(scenario, samples: Samples) -> np.ndarray:
+    """Per sample, how far under the searches' target (K) a day must have finished for a monotone
+    fix's step up to be sure to finish it too: 0 where the day starts at or above the sample's air
+    (the ambient is one of the band's uncertain inputs). Where it starts colder, by d = air - start:
+    the day from the air itself is no cooler (starts ordered stay ordered on a cooperative network),
+    a step up cools that day (_monotone_kinds), and two days whose starts differ by d everywhere
+    never differ by more than d (the network only pulls temperatures together and towards the air).
+    So the stepped-up day's peak lies at most d (+ COMPARISON_SLACK_K) over the smaller step's."""
     rig = build_rig(scenario)
     air = np.asarray(sample_rig(rig, samples.values).ambient_K if samples.values else rig.ambient_K, dtype=float)
-    return np.broadcast_to(np.min(scenario.start_K) >= air, (samples.n,)).copy()
+    colder_by = np.broadcast_to(air - np.min(scenario.start_K), (samples.n,))
+    return np.where(colder_by > 0.0, colder_by + COMPARISON_SLACK_K, 0.0)
 
 
 def _verified(scenario, samples: Samples, searched: dict, confidence: float, base: DayOutcome) -> list:
     """The searched fixes re-run on every sample, each alone; one that falls short is stepped up
     (STEP_UP) and re-run, up to VERIFY_ROUNDS times, and dropped if it never finishes the day. A fix of
-    a monotone kind (_monotone_kinds) is not re-run on the samples whose day starts no colder than
-    their air and that finish it as planned (base, with RERUN_AGREEMENT_K more to spare), nor, after a
-    step up, on those that finished it at the smaller step."""
+    a monotone kind (_monotone_kinds) is not re-run on the samples that finish the day as planned
+    (base) with RERUN_AGREEMENT_K more to spare than _spare_needed_K, nor, after a step up, on
+    those that finished it at the smaller step with that spare."""
     values = dict(searched)
     passed = {}
     planned_oil = scenario.reservoir.oil_volume_m3
     monotone = _monotone_kinds(scenario)
-    cools_only = _starts_no_colder(scenario, samples)     # samples whose day a monotone step up only cools
-    clear = cools_only & (base.limiting_peak_K[:samples.n] <= limit_K(scenario)[0] - SEARCH_MARGIN_K - RERUN_AGREEMENT_K)
+    target = limit_K(scenario)[0] - SEARCH_MARGIN_K
+    needed = _spare_needed_K(scenario, samples)
+    clear = base.limiting_peak_K[:samples.n] <= target - RERUN_AGREEMENT_K - needed
     known = {kind: clear.copy() for kind in values}    # samples known to finish the day with the fix
     starts = PeriodicStarts(len(FIX_KINDS) * samples.n)     # item: a kind's sample, round after round
     for _ in range(VERIFY_ROUNDS):
@@ -277,13 +290,16 @@ def _verified(scenario, samples: Samples, searched: dict, confidence: float, bas
         names = np.concatenate([np.repeat(k, runs[k].size) for k in kinds])
         x = np.concatenate([np.repeat(values[k], runs[k].size) for k in kinds])
         items = np.concatenate([FIX_KINDS.index(k) * samples.n + runs[k] for k in kinds])
-        finishes = _finishes(scenario, samples, index, Change.of(names, x), (starts, items))
+        bounds = _peak_bounds(scenario, samples, index, Change.of(names, x), (starts, items))
         done = 0
         for kind in kinds:
             finished = known[kind].copy()
-            finished[runs[kind]] = finishes[done:done + runs[kind].size]
+            spare = target - bounds[done:done + runs[kind].size]
+            finished[runs[kind]] = spare >= 0.0
             done += runs[kind].size
-            known[kind] = finished & cools_only & (kind in monotone)   # what a step up cannot undo
+            spare_all = np.full(samples.n, np.inf)       # the known ones keep theirs from before
+            spare_all[runs[kind]] = spare
+            known[kind] = finished & (spare_all >= needed) & (kind in monotone)   # what a step up cannot undo
             if share_fits(finished, confidence):
                 passed[kind] = values[kind]
             elif kind == "shorter_pulls":

@@ -107,20 +107,30 @@ def finishes_under_limit(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycl
                          starts: tuple | None = None) -> np.ndarray:
     """Whether the planned session of each of n designs finishes with its peak (the limiting one,
     as session_outcome's) at least SEARCH_MARGIN_K under the limit: what the sizing searches and the
-    verdict's fixes ask. On a long session the designs that the periodic state proves to pass are not
-    integrated (_proven_under); any other is followed only until its answer is decided
-    (long_session.session_limiting_peak_K's decided_above_K). cycle_s or wait_s : as session_trace's; starts :
-    as session_peak_K's."""
+    verdict's fixes ask (day_peak_bound_K). cycle_s or wait_s : as session_trace's; starts : as
+    session_peak_K's."""
+    return day_peak_bound_K(scenario, rig, n, wait_s, cycle_s, starts) <= limits_K(scenario)[0] - SEARCH_MARGIN_K
+
+
+def day_peak_bound_K(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=None,
+                     starts: tuple | None = None) -> np.ndarray:
+    """Per design, the planned session's limiting peak (K) as far as finishes_under_limit needs it:
+    where the session finishes SEARCH_MARGIN_K under the limit, an upper bound of its peak; where it
+    does not, a peak above that (a lower bound of the session's). On a long session the designs that
+    the periodic state proves to pass take their periodic peak and are not integrated
+    (_proven_under); any other is followed only until its answer is decided
+    (long_session.session_limiting_peak_K's decided_above_K), else to its end."""
     cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
-    ok, _, _, periodic = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
+    ok, _, peak, periodic = _proven_under(scenario, rig, n, SEARCH_MARGIN_K, cycle_s, starts)
+    bound = np.where(ok, peak, np.nan)
     rest = np.flatnonzero(~ok)
     if rest.size:
-        ok[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,
-                                           _designs_of(cycle_s, rest), PLAN_RESOLUTION,
-                                           decided_above_K=threshold, periodic=_periodic_of(periodic, rest)) <= threshold
-    return ok
+        bound[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,
+                                              _designs_of(cycle_s, rest), PLAN_RESOLUTION,
+                                              decided_above_K=threshold, periodic=_periodic_of(periodic, rest))
+    return bound
 
 
 class PeriodicStarts:

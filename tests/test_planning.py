@@ -145,6 +145,29 @@ def test_batched_threshold_finds_a_known_step():
     assert np.isnan(batched_threshold(lambda x: x > 1e9, 1.0, 10.0))
 
 
+@pytest.mark.parametrize("shape", ["log", "linear", "saturating"])
+def test_a_threshold_narrowed_by_its_margins_passes_and_is_as_tight_as_the_grid(shape):
+    """batched_threshold with a margin (K, >= 0 passes): after the first geometric batch the bracket is
+    narrowed by regula falsi on the margins (refined_threshold). The answer must pass and lie within
+    REFINE_RELATIVE of the root, or keep the peak within REFINE_TOLERANCE_K under the target; a
+    margin that is only a step (the grid's answer) gives the same bracket."""
+    from thermo_budget.planning.planning import REFINE_RELATIVE, REFINE_TOLERANCE_K
+    root = 123.456
+    margins = {"log": lambda x: 20.0 * np.log(x / root), "linear": lambda x: 0.05 * (x - root),
+               "saturating": lambda x: 30.0 * (np.exp(-root / 90.0) - np.exp(-x / 90.0))}
+    margin = margins[shape]
+    calls = []
+
+    def counted(x):
+        calls.append(len(x))
+        return margin(np.asarray(x, dtype=float))
+
+    value = batched_threshold(lambda x: margin(x) >= 0, 1.0, 1e5, floor=None, margin=counted, in_log=shape == "log")
+    assert margin(value) >= 0.0
+    assert value - root <= REFINE_RELATIVE * value or margin(value) <= REFINE_TOLERANCE_K
+    assert sum(calls) <= 10                  # the ends and at most four rounds of two
+
+
 # --- invariants over random rigs -----------------------------------------------------------------
 
 rigs = st.fixed_dictionaries({

@@ -10,7 +10,8 @@ from ..inputs.scenario import Scenario, limit_K
 from ..inputs.rig_build import build_rig
 from ..engine.session import PLAN_RESOLUTION
 from ..engine.solver import integrate, take_systems
-from .session_runs import SEARCH_MARGIN_K, finishes_under_limit, limits_K, sustainability
+from .session_runs import (SEARCH_MARGIN_K, cycle_durations, finishes_under_limit, limits_K, session_peak_K,
+                           sustainability)
 from ..physics.rig import take_designs
 from ..units import round_up
 
@@ -72,32 +73,100 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     return runs
 
 
-def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0) -> float:
+def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0, margin=None,
+                      in_log: bool = False) -> float:
     """Smallest x for which passes(x_array) is True, assuming it is monotone (False then True).
 
     `floor` (if not None) is tried alone first and returned if it passes. Then the first batch spaces
     GRID_POINTS candidates geometrically over [low, high]; each later batch spaces GRID_POINTS
     candidates linearly inside the bracket found. Returns NaN if no candidate passes, else the upper
-    end of the final bracket (a value that passes)."""
+    end of the final bracket (a value that passes).
+
+    margin : optional; margin(x_array) (K, target - peak, >= 0 where x passes, increasing in x).
+    Given it, the bracket of the first batch is narrowed by its values instead (refined_threshold;
+    in_log: in ln x), to the same width or a margin of REFINE_TOLERANCE_K, in a few candidates."""
     if floor is not None and passes(np.array([floor]))[0]:
         return float(floor)
     grid = np.geomspace(low, high, GRID_POINTS)
     answer, lower = float("nan"), 0.0   # lower: the largest value known to fail (0 if low passes)
-    for _ in range(GRID_ROUNDS):
+    for round_ in range(GRID_ROUNDS):
         ok = passes(grid)
         if not ok.any():
             return answer
         first = int(np.argmax(ok))
         answer = float(grid[first])
         lower = float(grid[first - 1]) if first else lower
+        if margin is not None and round_ == 0 and first:
+            return refined_threshold(margin, lower, answer, in_log)
         grid = np.linspace(lower, answer, GRID_POINTS + 1)[1:]
     return answer
+
+
+# Where the margins narrow the first batch's bracket (refined_threshold): its final width, about
+# the grid's (two linear rounds of GRID_POINTS inside a geometric step of the first: 0.085 %), or a
+# passing value whose peak lies within REFINE_TOLERANCE_K under the target.
+REFINE_RELATIVE = 1e-3
+REFINE_TOLERANCE_K = 0.005
+REFINE_ROUNDS = 4
+
+
+def refined_threshold(margin, lower: float, upper: float, in_log: bool = False) -> float:
+    """The smallest x found to pass (margin(x) >= 0, K) inside [lower, upper], lower failing and upper
+    passing (batched_threshold's first bracket). Each round is one batch of two candidates: regula
+    falsi between the bracket's ends, aimed at half REFINE_TOLERANCE_K of margin (kept 2 % inside),
+    and a second REFINE_RELATIVE below it; where the first is that close to the root the two
+    bracket it and the search ends. Ends when a candidate passes within REFINE_TOLERANCE_K of the
+    target or the bracket is REFINE_RELATIVE wide, after REFINE_ROUNDS rounds at most, on the
+    bracket's passing end (a value that passes)."""
+    def u(x):
+        return np.log(x) if in_log else x
+
+    def x_of(v):
+        return np.exp(v) if in_log else v
+
+    lo, hi = lower, upper
+    m_lo, m_hi = margin(np.array([lo, hi]))
+    if m_lo >= 0.0:          # the peaks agree with the pass or fail to about 1e-3 K: take the lower end
+        return float(lo)
+    weight = {"lo": 1.0, "hi": 1.0}     # the Illinois rule: an end kept twice counts half as much
+    kept = None
+    for _ in range(REFINE_ROUNDS):
+        if m_hi <= REFINE_TOLERANCE_K or hi - lo <= REFINE_RELATIVE * hi:
+            break
+        width = u(hi) - u(lo)
+        a, b = weight["lo"] * m_lo, weight["hi"] * m_hi
+        aimed = u(hi) - (b - 0.5 * REFINE_TOLERANCE_K) * width / (b - a)
+        first = float(x_of(np.clip(aimed, u(lo) + 0.02 * width, u(hi) - 0.02 * width)))
+        x = np.array([first, max(first * (1.0 - REFINE_RELATIVE), 0.5 * (lo + first))])
+        moved = set()
+        for xi, mi in zip(x, margin(x)):
+            if mi >= 0.0 and xi < hi:
+                hi, m_hi = float(xi), float(mi)
+                moved.add("hi")
+            elif mi < 0.0 and xi > lo:
+                lo, m_lo = float(xi), float(mi)
+                moved.add("lo")
+        if len(moved) == 1:
+            stayed = "lo" if moved == {"hi"} else "hi"
+            weight[stayed] = 0.5 * weight[stayed] if kept == stayed else 1.0
+            weight[moved.pop()] = 1.0
+            kept = stayed
+        else:
+            weight, kept = {"lo": 1.0, "hi": 1.0}, None
+    return float(hi)
 
 
 def time_constant_s(scenario: Scenario) -> float:
     """Whole-rig cooling time constant with the engine off, no cooler, at the limit: C / UA, s."""
     limit, _ = limit_K(scenario)
     return cooling_time_constant_s(build_rig(scenario), limit)
+
+
+def _session_margin_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None) -> np.ndarray:
+    """Per design, how far the planned session's peak stays under the searches' target (the limit
+    less SEARCH_MARGIN_K), K (session_runs.session_peak_K): negative where it passes it."""
+    target = limit_K(scenario)[0] - SEARCH_MARGIN_K
+    return target - session_peak_K(scenario, rig, n, cycle_s, threshold_K=target)
 
 
 def _waits_of(scenario: Scenario) -> list[float]:
@@ -116,8 +185,12 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
     def passes(waits):
         return finishes_under_limit(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size, wait_s=waits)
 
+    def margin(waits):
+        return _session_margin_K(scenario, take_designs(rig, np.zeros(waits.size, int)), waits.size,
+                                 cycle_durations(list(scenario.cycle), waits))
+
     tau = time_constant_s(scenario)
-    wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0)
+    wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0, margin=margin)
     if wait == 0.0:
         notes.append(("no_wait_needed", {}))
     elif np.isnan(wait):
@@ -160,9 +233,12 @@ def required_cooler_W_K(scenario: Scenario, notes: list, sustained: bool) -> flo
             return ok
         return finishes_under_limit(scenario, rig, coolers.size)
 
+    def margin(coolers):
+        return _session_margin_K(scenario, build_rig(scenario, cooler_W_K=coolers), coolers.size)
+
     peak_power = max(step.peak_power_W() for step in scenario.cycle)
     largest = 20.0 * peak_power / (limit - scenario.ambient_K)
-    cooler = batched_threshold(passes, 1e-5 * largest, largest, floor=0.0)
+    cooler = batched_threshold(passes, 1e-5 * largest, largest, floor=0.0, margin=None if sustained else margin)
     if np.isnan(cooler):
         notes.append(("no_cooler_suffices", {"largest_W_K": largest, "sustained": sustained}))
         return None
@@ -177,7 +253,10 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
     def passes(volumes):
         return finishes_under_limit(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
 
-    volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None)
+    def margin(volumes):
+        return _session_margin_K(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
+
+    volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None, margin=margin, in_log=True)
     if np.isnan(volume):
         notes.append(("no_oil_volume_suffices", {"largest_L": 200 * V0 * 1000}))
         return None

@@ -235,11 +235,14 @@ def test_the_sizing_search_ends_with_a_size_whose_peak_lies_within_its_tolerance
     ends straddle the root where it is, within SECANT_ROUNDS rounds after the first two guesses."""
     from thermo_budget.planning.bands import PEAK_TOLERANCE_K, RELATIVE_TOLERANCE, SECANT_ROUNDS, _Search
     roots = np.array([130.0, 170.0, 205.0, 250.0, 320.0])     # the samples spread about the point answer, 200
-    shapes = {"log": (lambda x, r: 6.0 * np.log(x / r), True),
-              "saturating": (lambda x, r: 9.0 * (np.exp(-r / 250.0) - np.exp(-x / 250.0)), False)}
-    for name, (margin, in_log) in shapes.items():
+    from thermo_budget.planning.planning import LINEAR, LOG, RECIPROCAL
+    shapes = {"log": (lambda x, r: 6.0 * np.log(x / r), LOG),
+              "saturating": (lambda x, r: 9.0 * (np.exp(-r / 250.0) - np.exp(-x / 250.0)), LINEAR),
+              "as 1/wait": (lambda x, r: 900.0 * (1.0 / r - 1.0 / x), RECIPROCAL),
+              "saturating, stepped in 1/x": (lambda x, r: 9.0 * (np.exp(-r / 250.0) - np.exp(-x / 250.0)), RECIPROCAL)}
+    for name, (margin, coordinate) in shapes.items():
         m = roots.size
-        search = _Search(m, np.zeros(m), np.full(m, 5000.0), np.full(m, in_log))
+        search = _Search(m, np.zeros(m), np.full(m, 5000.0), np.full(m, coordinate))
         guess = np.full(m, 200.0)
         items = np.concatenate([np.arange(m), np.arange(m)])
         x = np.concatenate([0.95 * guess, 1.1 * guess])

@@ -162,7 +162,9 @@ def test_a_threshold_narrowed_by_its_margins_passes_and_is_as_tight_as_the_grid(
         calls.append(len(x))
         return margin(np.asarray(x, dtype=float))
 
-    value = batched_threshold(lambda x: margin(x) >= 0, 1.0, 1e5, floor=None, margin=counted, in_log=shape == "log")
+    from thermo_budget.planning.planning import LINEAR, LOG, RECIPROCAL
+    coordinate = {"log": LOG, "linear": LINEAR, "saturating": RECIPROCAL}[shape]
+    value = batched_threshold(lambda x: margin(x) >= 0, 1.0, 1e5, floor=None, margin=counted, coordinate=coordinate)
     assert margin(value) >= 0.0
     assert value - root <= REFINE_RELATIVE * value or margin(value) <= REFINE_TOLERANCE_K
     assert sum(calls) <= 10                  # the ends and at most four rounds of two

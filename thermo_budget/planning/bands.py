@@ -14,7 +14,8 @@ import numpy as np
 
 from ..physics.network import OIL
 from ..engine.outcome import first_crossing_s, peak_oil_K, pulls_completed_under
-from .planning import round_up, runs_before_limit, time_constant_s
+from .planning import (LINEAR, LOG, RECIPROCAL, from_coordinate, round_up, runs_before_limit, time_constant_s,
+                       to_coordinate)
 from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, limits_K, session_peak_K, session_trace, sustainability
 from ..physics.rig import take_designs
 from ..inputs.rig_build import build_rig
@@ -168,16 +169,16 @@ def sizing_thresholds(scenario, values: dict, n: int, point: dict) -> dict:
     largest_cooler = 20.0 * peak_power / (limit - scenario.ambient_K)
     V0_L = scenario.oil_volume_L
     waits = [s.duration_s for s in scenario.cycle if not s.is_pull]
-    # (key, floor or None, first guess, lowest, highest, search in ln x)
+    # (key, floor or None, first guess, lowest, highest, search coordinate)
     asked = []
     if point.get("min_wait_s") is not None:
         guess = point["min_wait_s"] or (waits[0] if waits else 60.0)
-        asked.append(("min_wait_s", 0.0, guess, 0.0, 8.0 * tau if np.isfinite(tau) else 1e6, False))
+        asked.append(("min_wait_s", 0.0, guess, 0.0, 8.0 * tau if np.isfinite(tau) else 1e6, RECIPROCAL))
     if point.get("cooler_required_W_per_K") is not None:
         guess = point["cooler_required_W_per_K"] or 0.01 * largest_cooler
-        asked.append(("cooler_required_W_per_K", 0.0, guess, 0.0, largest_cooler, False))
+        asked.append(("cooler_required_W_per_K", 0.0, guess, 0.0, largest_cooler, LINEAR))
     if point.get("min_oil_volume_L") is not None:
-        asked.append(("min_oil_volume_L", None, point["min_oil_volume_L"], 0.02 * V0_L, 200.0 * V0_L, True))
+        asked.append(("min_oil_volume_L", None, point["min_oil_volume_L"], 0.02 * V0_L, 200.0 * V0_L, LOG))
     if not asked:
         return {}
     kinds = np.repeat(np.arange(len(asked)), n)
@@ -220,8 +221,8 @@ class _Search:
     """Per item, the bracket (largest x known to fail, smallest known to pass, with their margins =
     target - peak, >= 0 passes) and the last two points evaluated, for a secant on the margin."""
 
-    def __init__(self, m, lows, highs, in_log):
-        self.lows, self.highs, self.in_log = lows, highs, in_log
+    def __init__(self, m, lows, highs, coordinate):
+        self.lows, self.highs, self.coordinate = lows, highs, coordinate    # planning.LINEAR, LOG, RECIPROCAL
         self.lo, self.m_lo, self.hi, self.m_hi = (np.full(m, np.nan) for _ in range(4))
         self.last = np.full((m, 2, 2), np.nan)             # [item, newest/older, (x, margin)]
         self.stuck = np.zeros(m, bool)
@@ -249,19 +250,18 @@ class _Search:
         """Per item: the root interpolated inside the bracket (the bracket is narrow once done), the
         smallest passing value where there is no bracket (its peak within PEAK_TOLERANCE_K under the
         target), inf where nothing passed."""
-        i = np.arange(self.lo.size)
+        kind = self._kind(self.lo, self.coordinate)
         with np.errstate(invalid="ignore", divide="ignore"):
-            u_lo, u_hi = self._u(self.lo, i), self._u(self.hi, i)
-            root = self._x(np.clip(u_hi - self.m_hi * (u_hi - u_lo) / (self.m_hi - self.m_lo), u_lo, u_hi), i)
+            u_lo, u_hi = to_coordinate(self.lo, kind), to_coordinate(self.hi, kind)
+            root = from_coordinate(np.clip(u_hi - self.m_hi * (u_hi - u_lo) / (self.m_hi - self.m_lo), u_lo, u_hi), kind)
         bracketed = ~np.isnan(self.lo) & ~np.isnan(self.hi)
         return np.where(bracketed, root, np.where(np.isnan(self.hi), np.inf, self.hi))
 
-    def _u(self, x, i):
-        return np.where(self.in_log[i], np.log(np.maximum(x, 1e-300)), x)
-
-    def _x(self, u, i):
-        with np.errstate(over="ignore"):
-            return np.where(self.in_log[i], np.exp(u), u)
+    @staticmethod
+    def _kind(x, coordinate):
+        """The coordinate to step in between x and a larger value: linear where x is 0 (a floor of
+        no wait or no cooler, which neither ln x nor -1/x reaches)."""
+        return np.where(np.asarray(x) > 0, coordinate, LINEAR)
 
     def next_guess(self, i):
         """Regula falsi inside the bracket where there is one (kept 10 % in from its ends); else a
@@ -271,12 +271,14 @@ class _Search:
         lo, hi, m_lo, m_hi = self.lo[i], self.hi[i], self.m_lo[i], self.m_hi[i]
         (xa, ma), (xb, mb) = self.last[i, 0].T, self.last[i, 1].T
         with np.errstate(invalid="ignore", divide="ignore"):
-            u_lo, u_hi = self._u(lo, i), self._u(hi, i)
+            kind = self._kind(lo, self.coordinate[i])
+            u_lo, u_hi = to_coordinate(lo, kind), to_coordinate(hi, kind)
             u = u_hi - (m_hi - AIM_MARGIN_K) * (u_hi - u_lo) / (m_hi - m_lo)
-            inside = self._x(np.clip(u, u_lo + 0.1 * (u_hi - u_lo), u_hi - 0.1 * (u_hi - u_lo)), i)
-            ua, ub = self._u(xa, i), self._u(xb, i)
+            inside = from_coordinate(np.clip(u, u_lo + 0.1 * (u_hi - u_lo), u_hi - 0.1 * (u_hi - u_lo)), kind)
+            kind = self._kind(np.minimum(xa, xb), self.coordinate[i])
+            ua, ub = to_coordinate(xa, kind), to_coordinate(xb, kind)
             slope = (ma - mb) / (ua - ub)
-            outward = self._x(ua - (ma - AIM_MARGIN_K) / slope, i)
+            outward = from_coordinate(ua - (ma - AIM_MARGIN_K) / slope, kind)
             usable = np.isfinite(outward) & (slope > 0)
             up = np.clip(np.where(usable, outward, 3.0 * lo), 1.05 * lo, 4.0 * np.maximum(lo, 1e-9))
             down = np.clip(np.where(usable, outward, hi / 3.0), hi / 4.0, hi / 1.05)

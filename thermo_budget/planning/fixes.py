@@ -10,7 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
-from .planning import time_constant_s
+from .planning import LINEAR, LOG, RECIPROCAL, time_constant_s
 from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, day_peak_bound_K, limits_K, session_peak_K
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
                           share_fits)
@@ -154,18 +154,19 @@ def _searched_values(scenario, point: dict, samples: Samples, base: DayOutcome, 
     largest_cooler = 20.0 * peak_power / (limit - scenario.ambient_K)
     V0 = scenario.reservoir.oil_volume_m3
     share_done = float(np.mean(base.pulls[:n])) / max(_pull_seconds(scenario).size, 1)
-    # (kind, as planned, first guess, highest, search in ln x); the pull kind searches the cut 1 - fraction
+    # (kind, as planned, first guess, highest, search coordinate); the pull kind searches the cut 1 - fraction
     asked = []
     if waits:
         guess = point.get("min_wait_s") or 2.0 * max(waits)
-        asked.append(("wait", max(waits), max(guess, 1.2 * max(waits)), 8.0 * tau if np.isfinite(tau) else 1e6, False))
+        asked.append(("wait", max(waits), max(guess, 1.2 * max(waits)), 8.0 * tau if np.isfinite(tau) else 1e6,
+                      RECIPROCAL))
     guess = point.get("min_oil_volume_L")
-    asked.append(("oil_volume", V0, 2.0 * V0 if guess is None else max(guess / 1000.0, 1.1 * V0), 200.0 * V0, True))
+    asked.append(("oil_volume", V0, 2.0 * V0 if guess is None else max(guess / 1000.0, 1.1 * V0), 200.0 * V0, LOG))
     if largest_cooler > scenario.cooler_W_K:
         guess = point.get("cooler_required_W_per_K") or 0.01 * largest_cooler
         asked.append(("cooler", scenario.cooler_W_K, max(guess, scenario.cooler_W_K + 0.01 * largest_cooler),
-                      largest_cooler, False))
-    asked.append(("shorter_pulls", 0.0, min(max(1.0 - share_done, 0.05), 0.9), LONGEST_PULL_CUT, False))
+                      largest_cooler, LINEAR))
+    asked.append(("shorter_pulls", 0.0, min(max(1.0 - share_done, 0.05), 0.9), LONGEST_PULL_CUT, LINEAR))
     asked = [a for a in asked if a[0] not in banded]
     found = {kind: value for kind, value in banded.items() if value is not None}
     thresholds = _per_sample_thresholds(scenario, samples, failing, asked, target, base.limiting_peak_K)

@@ -73,8 +73,29 @@ def runs_before_limit(scenario: Scenario, rig: Rig, n: int, sustainable: np.ndar
     return runs
 
 
+# How a search steps in the value it sizes: in x, in ln x (an oil volume: the peak moves with its
+# ratio), or in -1/x (a wait: over waits short against the rig's time constant the heat a cycle
+# leaves behind goes as 1/wait, so the margin is nearly straight in it).
+LINEAR, LOG, RECIPROCAL = 0, 1, 2
+
+
+def to_coordinate(x, kind):
+    """The search coordinate of x (> 0 for LOG and RECIPROCAL; kind per element or one)."""
+    x = np.asarray(x, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(kind == LOG, np.log(np.maximum(x, 1e-300)),
+                        np.where(kind == RECIPROCAL, -1.0 / np.maximum(x, 1e-300), x))
+
+
+def from_coordinate(u, kind):
+    """The value whose search coordinate is u (to_coordinate's inverse)."""
+    u = np.asarray(u, dtype=float)
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        return np.where(kind == LOG, np.exp(u), np.where(kind == RECIPROCAL, -1.0 / u, u))
+
+
 def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0, margin=None,
-                      in_log: bool = False) -> float:
+                      coordinate: int = LINEAR) -> float:
     """Smallest x for which passes(x_array) is True, assuming it is monotone (False then True).
 
     `floor` (if not None) is tried alone first and returned if it passes. Then the first batch spaces
@@ -83,8 +104,9 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
     end of the final bracket (a value that passes).
 
     margin : optional; margin(x_array) (K, target - peak, >= 0 where x passes, increasing in x).
-    Given it, the bracket of the first batch is narrowed by its values instead (refined_threshold;
-    in_log: in ln x), to the same width or a margin of REFINE_TOLERANCE_K, in a few candidates."""
+    Given it, the bracket of the first batch is narrowed by its values instead (refined_threshold,
+    stepping in `coordinate`), to the same width or a margin of REFINE_TOLERANCE_K, in a few
+    candidates."""
     if floor is not None and passes(np.array([floor]))[0]:
         return float(floor)
     grid = np.geomspace(low, high, GRID_POINTS)
@@ -97,7 +119,7 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
         answer = float(grid[first])
         lower = float(grid[first - 1]) if first else lower
         if margin is not None and round_ == 0 and first:
-            return refined_threshold(margin, lower, answer, in_log)
+            return refined_threshold(margin, lower, answer, coordinate)
         grid = np.linspace(lower, answer, GRID_POINTS + 1)[1:]
     return answer
 
@@ -108,38 +130,51 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
 REFINE_RELATIVE = 1e-3
 REFINE_TOLERANCE_K = 0.005
 REFINE_ROUNDS = 4
+# Two candidates' margins closer than this are not trusted for a slope: a long day's peak is had to
+# about 1e-3 K (long_session.PERIODIC_TOLERANCE_K, cycle_jump.JUMP_TOLERANCE_K).
+SLOPE_NOISE_K = 4e-3
 
 
-def refined_threshold(margin, lower: float, upper: float, in_log: bool = False) -> float:
+def refined_threshold(margin, lower: float, upper: float, coordinate: int = LINEAR) -> float:
     """The smallest x found to pass (margin(x) >= 0, K) inside [lower, upper], lower failing and upper
     passing (batched_threshold's first bracket). Each round is one batch of two candidates: regula
-    falsi between the bracket's ends, aimed at half REFINE_TOLERANCE_K of margin (kept 2 % inside),
-    and a second REFINE_RELATIVE below it; where the first is that close to the root the two
-    bracket it and the search ends. Ends when a candidate passes within REFINE_TOLERANCE_K of the
+    falsi between the bracket's ends (or, where the last round's two fell on one side, the secant
+    through them), aimed at half REFINE_TOLERANCE_K of margin and kept inside the bracket, and a
+    second REFINE_RELATIVE below it; where the first is that close to the root the two bracket it
+    and the search ends. Ends when a candidate passes within REFINE_TOLERANCE_K of the
     target or the bracket is REFINE_RELATIVE wide, after REFINE_ROUNDS rounds at most, on the
     bracket's passing end (a value that passes)."""
     def u(x):
-        return np.log(x) if in_log else x
+        return float(to_coordinate(x, coordinate))
 
     def x_of(v):
-        return np.exp(v) if in_log else v
+        return float(from_coordinate(v, coordinate))
 
     lo, hi = lower, upper
     m_lo, m_hi = margin(np.array([lo, hi]))
     if m_lo >= 0.0:          # the peaks agree with the pass or fail to about 1e-3 K: take the lower end
         return float(lo)
     weight = {"lo": 1.0, "hi": 1.0}     # the Illinois rule: an end kept twice counts half as much
-    kept = None
+    kept, pair = None, None
+    aim = 0.5 * REFINE_TOLERANCE_K
     for _ in range(REFINE_ROUNDS):
         if m_hi <= REFINE_TOLERANCE_K or hi - lo <= REFINE_RELATIVE * hi:
             break
         width = u(hi) - u(lo)
         a, b = weight["lo"] * m_lo, weight["hi"] * m_hi
-        aimed = u(hi) - (b - 0.5 * REFINE_TOLERANCE_K) * width / (b - a)
-        first = float(x_of(np.clip(aimed, u(lo) + 0.02 * width, u(hi) - 0.02 * width)))
+        aimed = u(hi) - (b - aim) * width / (b - a)
+        if pair is not None:     # the last round's two, on one side: their own slope, not the chord's
+            (x1, m1), (x2, m2) = pair
+            if (m1 >= 0) == (m2 >= 0) and abs(m1 - m2) > SLOPE_NOISE_K:
+                aimed = u(x1) - (m1 - aim) * (u(x1) - u(x2)) / (m1 - m2)
+        inside = 0.25 * REFINE_RELATIVE          # a candidate is kept this far (relative) inside the bracket
+        first = float(np.clip(x_of(aimed) if np.isfinite(aimed) else x_of(u(lo) + 0.5 * width),
+                              lo * (1.0 + inside), hi * (1.0 - inside)))
         x = np.array([first, max(first * (1.0 - REFINE_RELATIVE), 0.5 * (lo + first))])
+        m = margin(x)
+        pair = ((float(x[0]), float(m[0])), (float(x[1]), float(m[1])))
         moved = set()
-        for xi, mi in zip(x, margin(x)):
+        for xi, mi in zip(x, m):
             if mi >= 0.0 and xi < hi:
                 hi, m_hi = float(xi), float(mi)
                 moved.add("hi")
@@ -190,7 +225,8 @@ def minimum_wait_s(scenario: Scenario, notes: list) -> float | None:
                                  cycle_durations(list(scenario.cycle), waits))
 
     tau = time_constant_s(scenario)
-    wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0, margin=margin)
+    wait = batched_threshold(passes, 1.0, 8.0 * tau if np.isfinite(tau) else 1e6, floor=0.0, margin=margin,
+                              coordinate=RECIPROCAL)
     if wait == 0.0:
         notes.append(("no_wait_needed", {}))
     elif np.isnan(wait):
@@ -256,7 +292,7 @@ def minimum_oil_volume_L(scenario: Scenario, notes: list) -> float | None:
     def margin(volumes):
         return _session_margin_K(scenario, build_rig(scenario, oil_volume_m3=volumes, cooler_W_K=0.0), volumes.size)
 
-    volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None, margin=margin, in_log=True)
+    volume = batched_threshold(passes, 0.02 * V0, 200.0 * V0, floor=None, margin=margin, coordinate=LOG)
     if np.isnan(volume):
         notes.append(("no_oil_volume_suffices", {"largest_L": 200 * V0 * 1000}))
         return None

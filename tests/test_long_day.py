@@ -204,3 +204,41 @@ def test_a_design_s_answer_does_not_depend_on_the_waits_of_its_batch():
         X_one, peak_one, _ = periodic_state(scenario, one, 1, cycle_s=alone)
         np.testing.assert_allclose(X[design], X_one[0], rtol=0, atol=1e-9)
         np.testing.assert_allclose(peak[design], peak_one[0], rtol=0, atol=1e-9)
+
+
+def test_the_bound_of_a_rising_day_never_lies_under_the_rest_of_it():
+    """long_session.rising_bound_K, which lets a slowly rising day be decided under its threshold
+    before its end: taken after every 20 cycles of the drum's 200-pull day on tanks from 3 to 8
+    times its oil, it must never lie under the peak that the rest of the day reaches (whole-day
+    integration), and it must become tight enough to decide (under 1 K over it) before the end."""
+    from thermo_budget.engine.long_session import _cycle_starts, rising_bound_K
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml").changed(**{"session.repeat": 200})
+    factors = np.array([3.0, 5.0, 8.0])
+    rig = build_rig(scenario, oil_volume_m3=factors * scenario.reservoir.oil_volume_m3)
+    whole = integrate(rig, scenario.steps, scenario.start_K, n_designs=factors.size, resolution=PLAN_RESOLUTION)
+    starts = whole.T_K[_cycle_starts(whole, len(scenario.cycle))]             # (201, N, k)
+    per_point = np.maximum(whole.T_K[:, :, 0], 0.0)                           # the bulk (no return-line limit)
+    ends = _cycle_starts(whole, len(scenario.cycle))
+    tight = np.zeros(factors.size, bool)
+    for done in range(20, 200, 20):
+        so_far = per_point[:ends[done] + 1].max(axis=0)
+        bound = rising_bound_K(starts[done - 1:done + 1], so_far, 200 - done)
+        final = per_point.max(axis=0)
+        assert np.all(bound >= final - 1e-9), (done, bound - final)
+        tight |= bound < final + 1.0
+    assert tight.all()
+
+
+def test_a_long_day_decided_under_its_threshold_early_is_the_whole_day_s_answer():
+    """finishes_under_limit closes a slowly rising day once the rest of it cannot reach the threshold
+    (rising_bound_K): on the drum's 200-pull day, on tanks around the smallest that finishes it,
+    the answer is the whole day's."""
+    scenario = load_scenario(SCENARIO_DIR / "plastic_tank_cylinder.toml").changed(**{"session.repeat": 200})
+    factors = np.array([5.0, 5.8, 6.0, 6.2, 6.6, 8.0, 12.0])
+    rig = build_rig(scenario, oil_volume_m3=factors * scenario.reservoir.oil_volume_m3)
+    whole = limiting_peak_K(integrate(rig, scenario.steps, scenario.start_K, n_designs=factors.size,
+                                      resolution=PLAN_RESOLUTION), *limits_K(scenario))
+    threshold = limits_K(scenario)[0] - SEARCH_MARGIN_K
+    decided = finishes_under_limit(scenario, rig, factors.size)
+    np.testing.assert_array_equal(decided, whole <= threshold)
+    assert decided.any() and not decided.all()

@@ -310,7 +310,7 @@ def test_two_days_whose_starts_differ_by_d_never_peak_more_than_d_apart(name):
     from thermo_budget.engine.session import PLAN_RESOLUTION
     from thermo_budget.engine.solver import integrate
     from thermo_budget.inputs.rig_build import build_rig
-    from thermo_budget.planning.fixes import COMPARISON_SLACK_K
+    from thermo_budget.engine.long_session import COMPARISON_SLACK_K
     from thermo_budget.planning.session_runs import limits_K
     scenario = _edited(load_scenario(SCENARIOS / name), **{"session.repeat": 12})
     volumes = np.array([0.5, 1.0, 4.0, 1.0]) * scenario.reservoir.oil_volume_m3

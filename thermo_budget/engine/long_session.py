@@ -87,9 +87,31 @@ def _settled(trace: Trace, steps_per_cycle: int, tolerance_K: float) -> bool:
     return bool(np.all(_settled_designs(trace, steps_per_cycle, tolerance_K)))
 
 
+# The comparison principle below holds to round-off on the cooperative network (its couplings'
+# coefficients move with temperature only slightly against it: an independent review found 2e-6 K
+# on 600 rigs, tests/test_verdict.py checks days started up to 15 K apart).
+COMPARISON_SLACK_K = 1e-3
+
+
+def rising_bound_K(starts, peak_K, cycles_left: int) -> np.ndarray:
+    """Per design (N,), an upper bound of the peak of the rest of a session whose cycle-start states
+    `starts` ((c + 1, N, k) K, c >= 1, the last the state now) rose over their last cycle at every
+    node, with `cycles_left` cycles to run and its peak so far peak_K (N,) K; inf where they did not
+    rise. The network is cooperative and pulls temperatures together and towards the air, so the
+    one-cycle map keeps states ordered and never moves two states further apart (at any node) than
+    they were: once a cycle's start is no colder than the one before, every later cycle's is too,
+    by at most the last rise d (the largest over the nodes); a cycle's peak, as monotone, moves by
+    at most as much as its start. So no later cycle peaks more than cycles_left d above the last
+    one, which the peak so far includes (+ COMPARISON_SLACK_K)."""
+    rise = starts[-1] - starts[-2]
+    rising = np.all(rise >= -1e-9, axis=1)         # (round-off: within the slack)
+    return np.where(rising, peak_K + cycles_left * np.max(rise, axis=1) + COMPARISON_SLACK_K, np.inf)
+
+
 def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple, cycle_s=None,
                             resolution: Resolution = Resolution(), decided_above_K: float | None = None,
-                            tolerance_K: float = PERIODIC_TOLERANCE_K, periodic: tuple | None = None) -> np.ndarray:
+                            tolerance_K: float = PERIODIC_TOLERANCE_K, periodic: tuple | None = None,
+                            decided_under_K: float | None = None) -> np.ndarray:
     """The limiting peak (outcome.limiting_peak_K against limits_K, (bulk, return line or None)) of
     the planned session of n designs, K (N,), where only the peak is wanted, not the trace.
 
@@ -98,7 +120,9 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
     (solver.substep_groups). A session of up to LONG_SESSION_CYCLES cycles is one integration.
     A longer one is integrated CHUNK_CYCLES cycles at a time, each chunk with only the designs still
     open: a design is closed once its peak so far passes decided_above_K (its peak is then a lower
-    bound, above that; only for a caller that needs no more), once it is periodic (_settled_designs:
+    bound, above that; only for a caller that needs no more), once a bound of the rest of its day
+    lies under decided_under_K (rising_bound_K; its peak is then that bound, an upper bound under
+    decided_under_K; again only for such a caller), once it is periodic (_settled_designs:
     all later cycles repeat its last to tolerance_K, so they add nothing to its peak), or once its
     last cycles can be run from a state had by the cycle jump (cycle_jump.jumped). periodic :
     optional (the periodic states (N,k) K, converged or not, their residuals F(X) - X (N,k) K,
@@ -112,7 +136,8 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
         for group in groups:
             peak[group] = session_limiting_peak_K(
                 take_designs(rig, group), scenario, T0[group], group.size, limits_K, [d[group] for d in durations],
-                resolution, decided_above_K, tolerance_K, None if periodic is None else tuple(p[group] for p in periodic))
+                resolution, decided_above_K, tolerance_K, None if periodic is None else tuple(p[group] for p in periodic),
+                decided_under_K)
         return peak
     if repeat <= LONG_SESSION_CYCLES:
         trace = integrate(rig, cycle * repeat, T0_K, n_designs=n_designs,
@@ -137,8 +162,13 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
         closed = np.zeros(open_.size, bool) if cycles < 3 else _settled_designs(piece, len(cycle), tolerance_K)
         if decided_above_K is not None:
             closed |= peak[open_] > decided_above_K
+        starts = piece.T_K[_cycle_starts(piece, len(cycle))]
+        if decided_under_K is not None and done < repeat:
+            bound = rising_bound_K(starts, peak[open_], repeat - done)
+            under = ~closed & (bound <= decided_under_K)
+            peak[open_[under]] = bound[under]
+            closed |= under
         if periodic is not None and repeat - done > LAST_CYCLES_RUN and cycles >= 3:
-            starts = piece.T_K[_cycle_starts(piece, len(cycle))]
             closed |= jumped(jump_state, run, starts, open_, X_before, closed, repeat - done, peak, systems)
         open_ = open_[~closed]
         systems = take_systems(systems, np.flatnonzero(~closed))

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .bands import N_SIZING_SAMPLES, SECANT_ROUNDS, _Search, order_statistic
+from ..engine.long_session import COMPARISON_SLACK_K
 from .planning import LINEAR, LOG, RECIPROCAL, time_constant_s
 from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, day_peak_bound_K, limits_K, session_peak_K
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
@@ -246,11 +247,6 @@ def _monotone_kinds(scenario) -> set:
     if all(step.power_W <= 0.0 for step in scenario.cycle if not step.is_pull):
         kinds.add("wait")
     return kinds
-
-
-# The comparison below holds to round-off on the cooperative network (its couplings' coefficients
-# move with temperature only slightly against it: an independent review found 2e-6 K on 600 rigs).
-COMPARISON_SLACK_K = 1e-3
 
 
 def _spare_needed_K(scenario, samples: Samples) -> np.ndarray:

@@ -119,7 +119,8 @@ def day_peak_bound_K(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=
     does not, a peak above that (a lower bound of the session's). On a long session the designs that
     the periodic state proves to pass take their periodic peak and are not integrated
     (_proven_under); any other is followed only until its answer is decided
-    (long_session.session_limiting_peak_K's decided_above_K), else to its end."""
+    (long_session.session_limiting_peak_K's decided_above_K and decided_under_K: over the
+    threshold, or rising by so little that the rest of the day cannot reach it), else to its end."""
     cycle_s = _cycle_s(scenario, wait_s, cycle_s)
     limits = limits_K(scenario)
     threshold = limits[0] - SEARCH_MARGIN_K
@@ -129,7 +130,8 @@ def day_peak_bound_K(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=
     if rest.size:
         bound[rest] = session_limiting_peak_K(take_designs(rig, rest), scenario, scenario.start_K, rest.size, limits,
                                               _designs_of(cycle_s, rest), PLAN_RESOLUTION,
-                                              decided_above_K=threshold, periodic=_periodic_of(periodic, rest))
+                                              decided_above_K=threshold, periodic=_periodic_of(periodic, rest),
+                                              decided_under_K=threshold)
     return bound
 
 

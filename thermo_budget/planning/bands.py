@@ -264,8 +264,9 @@ class _Search:
         return np.where(np.asarray(x) > 0, coordinate, LINEAR)
 
     def next_guess(self, i):
-        """Regula falsi inside the bracket where there is one (kept 10 % in from its ends); else a
-        secant through the last two points, taken at most x 4 outward (x 3 without a usable slope);
+        """Inside the bracket where there is one, the secant through the last two points (kept just
+        inside; regula falsi, kept 10 % in from its ends, where it has no slope); else that secant,
+        taken at most x 4 outward (x 3 without a usable slope) and at least 1 %;
         both aimed at AIM_MARGIN_K of margin. NaN where the range is exhausted (no size suffices, or
         the lowest size already passes)."""
         lo, hi, m_lo, m_hi = self.lo[i], self.hi[i], self.m_lo[i], self.m_hi[i]
@@ -279,9 +280,12 @@ class _Search:
             ua, ub = to_coordinate(xa, kind), to_coordinate(xb, kind)
             slope = (ma - mb) / (ua - ub)
             outward = from_coordinate(ua - (ma - AIM_MARGIN_K) / slope, kind)
+            # inside a bracket, the secant through the last two points (it follows the curve near the
+            # root), kept just inside; the ends' chord, kept 10 % in, only where it has no slope
             usable = np.isfinite(outward) & (slope > 0)
-            up = np.clip(np.where(usable, outward, 3.0 * lo), 1.05 * lo, 4.0 * np.maximum(lo, 1e-9))
-            down = np.clip(np.where(usable, outward, hi / 3.0), hi / 4.0, hi / 1.05)
+            inside = np.where(usable, np.clip(outward, lo + 1e-3 * (hi - lo), hi - 1e-3 * (hi - lo)), inside)
+            up = np.clip(np.where(usable, outward, 3.0 * lo), 1.01 * lo, 4.0 * np.maximum(lo, 1e-9))
+            down = np.clip(np.where(usable, outward, hi / 3.0), hi / 4.0, hi / 1.01)
             # a floor of 0 (no wait, no cooler) is tried at once when the secant points far down
             down = np.where((self.lows[i] == 0) & usable & (outward < hi / 4.0), 0.0, down)
         x = np.where(np.isnan(lo), np.maximum(down, self.lows[i]),

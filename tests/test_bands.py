@@ -261,3 +261,28 @@ def test_the_sizing_search_ends_with_a_size_whose_peak_lies_within_its_tolerance
         inside = (search.lo <= roots) & (roots <= search.hi)
         close = (search.m_hi <= PEAK_TOLERANCE_K) | (search.hi - search.lo <= RELATIVE_TOLERANCE * search.hi)
         assert np.all(inside[bracketed] & close[bracketed]), name
+
+
+def test_a_wait_search_in_one_over_the_wait_steps_far_out_when_its_secant_points_past_any_wait():
+    """In -1/wait the secant from two short failing waits can aim at u >= 0, past every finite wait
+    (a saturating margin, its root at 800 s, guesses at 190 s and 220 s). That is no usable slope:
+    the search must take its largest step out, not a negative wait clipped to its smallest (an
+    independent review found every failing sample's wait left at inf, and the verdict's wait fix
+    gone, on the default rig with 20 s waits)."""
+    from thermo_budget.planning.bands import _Search
+    from thermo_budget.planning.planning import RECIPROCAL
+
+    def margin(x):
+        return 9.0 * (np.exp(-800.0 / 1500.0) - np.exp(-np.asarray(x, dtype=float) / 1500.0))
+
+    search = _Search(1, np.zeros(1), np.full(1, 1e5), np.full(1, RECIPROCAL))
+    x = np.array([190.0, 220.0])
+    search.record(x, margin(x), np.zeros(2, int))
+    assert search.next_guess(np.array([0]))[0] >= 3.0 * 220.0
+    for _ in range(6):
+        todo = np.flatnonzero(~search.done())
+        if not todo.size:
+            break
+        x = search.next_guess(todo)
+        search.record(x, margin(x), todo)
+    assert search.done().all() and abs(search.answer()[0] - 800.0) < 0.03 * 800.0

@@ -323,3 +323,37 @@ def test_two_days_whose_starts_differ_by_d_never_peak_more_than_d_apart(name):
         apart = peaks[0] - peaks[1]
         assert np.all(apart >= -1e-9) and np.all(apart <= d + COMPARISON_SLACK_K), (d, apart)
         assert np.any(apart > 0.05 * d)          # the early cycles keep a good part of the gap
+
+
+def test_shorter_pulls_count_as_cooling_only_where_the_pulls_heat_the_oil():
+    """Between idling waits that heat the oil, a pull weaker than the rig's losses leaves more of the
+    day to the waits when it is cut: an independent review's rig (340 W pulls of 32 s, 400 W idling
+    waits of 375 s) peaks 0.011 K warmer with its pulls cut by 8 %. There the pull kind must be
+    re-run on every sample; with 9 kW pulls it may skip as before."""
+    from thermo_budget.engine.outcome import limiting_peak_K
+    from thermo_budget.engine.session import PLAN_RESOLUTION
+    from thermo_budget.engine.solver import integrate
+    from thermo_budget.planning.fixes import _monotone_kinds
+    from thermo_budget.planning.session_runs import limits_K
+    base = load_scenario(SCENARIOS / "default.toml")
+    raw = copy.deepcopy(base.raw)
+    raw["ambient"], raw["session"]["start_temperature"], raw["session"]["repeat"] = "33 degC", "34 degC", 39
+    raw["session"]["steps"][0].update(duration="32 s", power="340 W")
+    raw["session"]["steps"][1].update(duration="375 s", engine="idle", power="400 W", rpm=1250)
+    raw.pop("uncertainty", None)
+    weak = load_scenario(raw)
+    peaks = []
+    for fraction in (0.43, 0.43 * 0.92):
+        rig, cycle_s = _pulls_cut(weak, fraction)
+        trace = integrate(rig, weak.steps, weak.start_K, durations_s=cycle_s * weak.repeat, resolution=PLAN_RESOLUTION)
+        peaks.append(limiting_peak_K(trace, *limits_K(weak))[0])
+    assert peaks[1] > peaks[0] + 0.005                      # cutting the pulls warms this day
+    assert "shorter_pulls" not in _monotone_kinds(weak)
+    raw["session"]["steps"][0]["power"] = "9 kW"
+    assert "shorter_pulls" in _monotone_kinds(load_scenario(raw))
+
+
+def _pulls_cut(scenario, fraction):
+    from thermo_budget.planning.verdict_day import Samples, changed_designs
+    return changed_designs(scenario, Samples({}, 1), np.array([0]),
+                           Change.of(np.array(["shorter_pulls"]), np.array([fraction])))

@@ -279,7 +279,9 @@ class _Search:
             kind = self._kind(np.minimum(xa, xb), self.coordinate[i])
             ua, ub = to_coordinate(xa, kind), to_coordinate(xb, kind)
             slope = (ma - mb) / (ua - ub)
-            outward = from_coordinate(ua - (ma - AIM_MARGIN_K) / slope, kind)
+            aimed = ua - (ma - AIM_MARGIN_K) / slope
+            # in -1/x a secant aimed at u >= 0 lies past any finite value: no usable step (the largest)
+            outward = np.where((kind == RECIPROCAL) & ~(aimed < 0.0), np.nan, from_coordinate(aimed, kind))
             # inside a bracket, the secant through the last two points (it follows the curve near the
             # root), kept just inside; the ends' chord, kept 10 % in, only where it has no slope
             usable = np.isfinite(outward) & (slope > 0)

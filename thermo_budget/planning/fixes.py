@@ -238,15 +238,31 @@ def _with_margin(scenario, outcome: DayOutcome) -> np.ndarray:
 
 def _monotone_kinds(scenario) -> set:
     """The fix kinds whose step up can only cool a day that starts no colder than its air: more
-    cooler, more oil (in a larger tank of the same shape), shorter pulls, and longer waits where no
-    wait heats the oil (an idling engine's parasitic load can make a longer wait warmer). On such a
-    day the oil never falls below the air (the network is cooperative, its sources not negative), so
-    every path to the air only takes heat out, and more of it cools. A day that starts colder than
-    its air is warmed by a cooler or a longer wait while it is: see _spare_needed_K."""
-    kinds = {"cooler", "oil_volume", "shorter_pulls"}
+    cooler, more oil (in a larger tank of the same shape), longer waits where no wait heats the oil
+    (an idling engine's parasitic load can make a longer wait warmer), and shorter pulls where no
+    wait heats the oil or every pull heats it through its whole length (_pulls_heat_the_oil: a pull
+    weaker than the rig's losses, between heating waits, would leave more of the day to the waits).
+    On such a day the oil never falls below the air (the network is cooperative, its sources not
+    negative), so every path to the air only takes heat out, and more of it cools. A day that starts
+    colder than its air is warmed by a cooler or a longer wait while it is: see _spare_needed_K."""
+    kinds = {"cooler", "oil_volume"}
     if all(step.power_W <= 0.0 for step in scenario.cycle if not step.is_pull):
-        kinds.add("wait")
+        kinds |= {"wait", "shorter_pulls"}
+    elif _pulls_heat_the_oil(scenario):
+        kinds.add("shorter_pulls")
     return kinds
+
+
+def _pulls_heat_the_oil(scenario) -> bool:
+    """Whether the weakest moment of every pull absorbs at least twice what the rig loses with every
+    node at the limit (passive paths and its cooler): then the oil gains heat all through a pull
+    below the limit, whatever the band's samples do to the power and the losses."""
+    from ..physics.network import passive_rejection_W
+    limit, _ = limit_K(scenario)
+    loss = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0]) \
+        + scenario.cooler_W_K * (limit - scenario.ambient_K)
+    weakest = min(float(np.min(step.power_at(np.linspace(0.0, 1.0, 65)))) for step in scenario.cycle if step.is_pull)
+    return weakest >= 2.0 * loss
 
 
 def _spare_needed_K(scenario, samples: Samples) -> np.ndarray:

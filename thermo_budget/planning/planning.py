@@ -166,7 +166,8 @@ def refined_threshold(margin, lower: float, upper: float, coordinate: int = LINE
         if pair is not None:     # the last round's two, on one side: their own slope, not the chord's
             (x1, m1), (x2, m2) = pair
             if (m1 >= 0) == (m2 >= 0) and abs(m1 - m2) > SLOPE_NOISE_K:
-                aimed = u(x1) - (m1 - aim) * (u(x1) - u(x2)) / (m1 - m2)
+                secant = u(x1) - (m1 - aim) * (u(x1) - u(x2)) / (m1 - m2)
+                aimed = secant if u(lo) < secant < u(hi) else aimed     # outside the bracket: the chord's
         inside = 0.25 * REFINE_RELATIVE          # a candidate is kept this far (relative) inside the bracket
         first = float(np.clip(x_of(aimed) if np.isfinite(aimed) else x_of(u(lo) + 0.5 * width),
                               lo * (1.0 + inside), hi * (1.0 - inside)))

@@ -357,3 +357,31 @@ def _pulls_cut(scenario, fraction):
     from thermo_budget.planning.verdict_day import Samples, changed_designs
     return changed_designs(scenario, Samples({}, 1), np.array([0]),
                            Change.of(np.array(["shorter_pulls"]), np.array([fraction])))
+
+
+def test_a_step_up_re_runs_the_samples_that_finished_the_smaller_step_without_the_spare_they_need(monkeypatch):
+    """The bookkeeping of fixes._verified on made-up peaks (the integration replaced): 20 samples, the
+    oil fix. In round 1, samples 0-15 finish (2 mK under the target) and 16-19 fail, so 16 of 20 is
+    short of the 90 % asked and the oil is stepped up. Samples 0-7 start 0.5 K colder than their air
+    (spare needed 0.5 K): having finished with 2 mK to spare, they must be run again at the larger
+    step; samples 8-15 start at their air (needed 0) and are not."""
+    from thermo_budget.planning import fixes
+    from thermo_budget.planning.session_runs import limits_K
+    from thermo_budget.planning.verdict_day import DayOutcome, Samples
+    scenario = _failing()
+    target = limits_K(scenario)[0] - fixes.SEARCH_MARGIN_K
+    n = 20
+    runs = []
+
+    def made_up(scenario, samples, sample_index, change, starts=None):
+        runs.append(np.asarray(sample_index).copy())
+        return np.where(np.asarray(sample_index) < 16, target - 0.002, target + 1.0) if len(runs) == 1 \
+            else np.full(len(sample_index), target - 1.0)
+
+    monkeypatch.setattr(fixes, "_peak_bounds", made_up)
+    monkeypatch.setattr(fixes, "_spare_needed_K", lambda scenario, samples: np.where(np.arange(n) < 8, 0.5, 0.0))
+    base = DayOutcome(*(np.full(n, target + 1.0) for _ in range(3)), np.zeros(n), np.zeros(n, bool))
+    found = fixes._verified(scenario, Samples({}, n), {"oil_volume": 1.5 * scenario.reservoir.oil_volume_m3}, 0.9, base)
+    assert [fix.kind for fix in found] == ["oil_volume"]
+    assert len(runs) == 2 and np.array_equal(runs[0], np.arange(n))
+    assert np.array_equal(np.sort(runs[1]), np.r_[np.arange(8), np.arange(16, 20)])

@@ -130,6 +130,7 @@ def batched_threshold(passes, low: float, high: float, floor: float | None = 0.0
 REFINE_RELATIVE = 1e-3
 REFINE_TOLERANCE_K = 0.005
 REFINE_ROUNDS = 4
+REFINE_INSIDE = 0.25 * REFINE_RELATIVE      # a candidate is kept this far (relative) inside the bracket
 # Two candidates' margins closer than this are not trusted for a slope: a long day's peak is had to
 # about 1e-3 K (long_session.PERIODIC_TOLERANCE_K, cycle_jump.JUMP_TOLERANCE_K).
 SLOPE_NOISE_K = 4e-3
@@ -168,9 +169,8 @@ def refined_threshold(margin, lower: float, upper: float, coordinate: int = LINE
             if (m1 >= 0) == (m2 >= 0) and abs(m1 - m2) > SLOPE_NOISE_K:
                 secant = u(x1) - (m1 - aim) * (u(x1) - u(x2)) / (m1 - m2)
                 aimed = secant if u(lo) < secant < u(hi) else aimed     # outside the bracket: the chord's
-        inside = 0.25 * REFINE_RELATIVE          # a candidate is kept this far (relative) inside the bracket
         first = float(np.clip(x_of(aimed) if np.isfinite(aimed) else x_of(u(lo) + 0.5 * width),
-                              lo * (1.0 + inside), hi * (1.0 - inside)))
+                              lo * (1.0 + REFINE_INSIDE), hi * (1.0 - REFINE_INSIDE)))
         x = np.array([first, max(first * (1.0 - REFINE_RELATIVE), 0.5 * (lo + first))])
         m = margin(x)
         pair = ((float(x[0]), float(m[0])), (float(x[1]), float(m[1])))
@@ -200,7 +200,7 @@ def time_constant_s(scenario: Scenario) -> float:
 
 def _session_margin_K(scenario: Scenario, rig: Rig, n: int, cycle_s=None) -> np.ndarray:
     """Per design, how far the planned session's peak stays under the searches' target (the limit
-    less SEARCH_MARGIN_K), K (session_runs.session_peak_K): negative where it passes it."""
+    less SEARCH_MARGIN_K), K (session_runs.session_peak_K): negative where the peak goes over it."""
     target = limit_K(scenario)[0] - SEARCH_MARGIN_K
     return target - session_peak_K(scenario, rig, n, cycle_s, threshold_K=target)
 

@@ -140,10 +140,10 @@ def session_limiting_peak_K(rig, scenario, T0_K, n_designs: int, limits_K: tuple
         T0 = np.broadcast_to(np.asarray(T0_K, dtype=float), (n_designs, N_NODES))
         peak = np.empty(n_designs)
         for group in groups:
+            periodic_of_group = None if periodic is None else tuple(part[group] for part in periodic)
             peak[group] = session_limiting_peak_K(
                 take_designs(rig, group), scenario, T0[group], group.size, limits_K, [d[group] for d in durations],
-                resolution, decided_above_K, tolerance_K, None if periodic is None else tuple(p[group] for p in periodic),
-                decided_under_K)
+                resolution, decided_above_K, tolerance_K, periodic_of_group, decided_under_K)
         return peak
     if repeat <= LONG_SESSION_CYCLES:
         trace = integrate(rig, cycle * repeat, T0_K, n_designs=n_designs,

@@ -253,7 +253,8 @@ class _Search:
         kind = self._kind(self.lo, self.coordinate)
         with np.errstate(invalid="ignore", divide="ignore"):
             u_lo, u_hi = to_coordinate(self.lo, kind), to_coordinate(self.hi, kind)
-            root = from_coordinate(np.clip(u_hi - self.m_hi * (u_hi - u_lo) / (self.m_hi - self.m_lo), u_lo, u_hi), kind)
+            u = u_hi - self.m_hi * (u_hi - u_lo) / (self.m_hi - self.m_lo)
+            root = from_coordinate(np.clip(u, u_lo, u_hi), kind)
         bracketed = ~np.isnan(self.lo) & ~np.isnan(self.hi)
         return np.where(bracketed, root, np.where(np.isnan(self.hi), np.inf, self.hi))
 

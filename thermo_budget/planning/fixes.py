@@ -16,6 +16,7 @@ from .session_runs import SEARCH_MARGIN_K, PeriodicStarts, day_peak_bound_K, lim
 from .verdict_day import (Change, DayOutcome, Samples, changed_designs, count_at_confidence, day_outcome, first_samples,
                           share_fits)
 from ..inputs.rig_build import build_rig
+from ..physics.network import passive_rejection_W
 from ..inputs.scenario import limit_K
 from ..inputs.uncertainty import sample_rig
 from ..units import round_up
@@ -89,7 +90,6 @@ def fix_change(scenario, fix: Fix) -> float:
     if fix.kind == "oil_volume":
         return fix.value / scenario.oil_volume_L - 1.0
     if fix.kind == "cooler":
-        from ..physics.network import passive_rejection_W
         limit, _ = limit_K(scenario)
         passive = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0]) / (limit - scenario.ambient_K)
         return (fix.value - scenario.cooler_W_K) / max(passive, 1e-9)
@@ -257,7 +257,6 @@ def _pulls_heat_the_oil(scenario) -> bool:
     """Whether the weakest moment of every pull absorbs at least twice what the rig loses with every
     node at the limit (passive paths and its cooler): then the oil gains heat all through a pull
     below the limit, whatever the band's samples do to the power and the losses."""
-    from ..physics.network import passive_rejection_W
     limit, _ = limit_K(scenario)
     loss = float(passive_rejection_W(build_rig(scenario, cooler_W_K=0.0), limit)[0]) \
         + scenario.cooler_W_K * (limit - scenario.ambient_K)

@@ -118,9 +118,9 @@ def day_peak_bound_K(scenario: Scenario, rig: Rig, n: int, wait_s=None, cycle_s=
     where the session finishes SEARCH_MARGIN_K under the limit, an upper bound of its peak (or,
     where the cycle jump stood in for its last cycles, its peak to the jump's accuracy: an
     independent review found it up to 11 mK low with a return-line limit, against the 1 mK it
-    aims at); where it does not, a peak above that (a lower bound of the session's). On a long session the designs that
-    the periodic state proves to pass take their periodic peak and are not integrated
-    (_proven_under); any other is followed only until its answer is decided
+    aims at); where it does not, a peak above that (a lower bound of the session's). On a long
+    session the designs that the periodic state proves to pass take their periodic peak and are not
+    integrated (_proven_under); any other is followed only until its answer is decided
     (long_session.session_limiting_peak_K's decided_above_K and decided_under_K: over the
     threshold, or rising by so little that the rest of the day cannot reach it), else to its end."""
     cycle_s = _cycle_s(scenario, wait_s, cycle_s)
